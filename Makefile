@@ -1,0 +1,38 @@
+# The two set-up commands of the README. Each creates .venv and installs what it needs.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+OUT    := demo-output
+
+.PHONY: demo test install bench clean
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+
+$(VENV)/.installed: $(BIN)/python pyproject.toml
+	$(BIN)/python -m pip install --quiet -e .
+	touch $@
+
+$(VENV)/.installed-test: $(BIN)/python pyproject.toml
+	$(BIN)/python -m pip install --quiet -e ".[test]"
+	touch $@ $(VENV)/.installed
+
+install: $(VENV)/.installed
+
+# Run the main job on bundled defaults (invented example filters).
+demo: $(VENV)/.installed
+	mkdir -p $(OUT)
+	$(BIN)/cvdfilter list filters
+	$(BIN)/cvdfilter inspect larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference
+	$(BIN)/cvdfilter inspect larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
+		--format json --output $(OUT)/inspect.json
+
+test: $(VENV)/.installed-test
+	$(BIN)/python -m pytest -q
+
+bench: $(VENV)/.installed
+	$(BIN)/python benchmarks/startup.py
+
+clean:
+	rm -rf $(VENV) $(OUT) .pytest_cache

@@ -1,0 +1,6 @@
+"""The command line: a thin layer over the public API (see cvdfilter.cli.app)."""
+
+def main() -> None:
+    from .app import run
+
+    run()

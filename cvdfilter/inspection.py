@@ -1,0 +1,91 @@
+"""Inspect filters and list what the tool offers (the API behind ``list`` and ``inspect``).
+
+Public: :func:`inspect_filters`, :func:`catalog`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ._version import __version__
+from .cautions import CAVEAT
+from .spectra.grid import DEFAULT_GRID, Grid
+
+__all__ = ["inspect_filters", "catalog", "CATALOG_KINDS"]
+
+CATALOG_KINDS = ("illuminants", "observers", "surfaces", "filters")
+
+
+def catalog(kind: str) -> dict:
+    """What is available: ``illuminants``, ``observers``, ``surfaces`` or ``filters``."""
+    from .errors import InputError
+
+    if kind == "illuminants":
+        from .spectra.illuminants import illuminant_names
+
+        items = illuminant_names()
+    elif kind == "observers":
+        from .observers.observer import observer_forms
+
+        items = observer_forms()
+    elif kind == "surfaces":
+        from .spectra.surfaces import SURFACE_SETS
+
+        items = [{"name": k, "description": v} for k, v in SURFACE_SETS.items()]
+        items.append({"name": "PATH", "description": "a reflectance file (first column nm, one column per sample)"})
+    elif kind == "filters":
+        from .spectra.filters import SPEC_FORMS, example_names, example_path
+
+        examples = []
+        for n in example_names():
+            first = example_path(n).read_text().splitlines()[0].lstrip("# ").strip()
+            examples.append({"name": n, "description": first})
+        items = {"examples": examples, "spec_forms": SPEC_FORMS}
+    else:
+        raise InputError(f"unknown list '{kind}'", hint=f"use one of {', '.join(CATALOG_KINDS)}")
+    return {"tool": "cvdfilter", "version": __version__, "kind": kind, "items": items}
+
+
+def inspect_filters(filters, *, grid: Grid = DEFAULT_GRID, units: str | None = None,
+                    bandwidth: float | None = None) -> dict:
+    """Describe filters: range, sampling, units, extremes, notches, luminous transmittance, warnings.
+
+    Returns
+    -------
+    dict
+        ``tool``, ``version``, ``caveat``, ``grid`` and ``filters`` (one dict per filter).
+    """
+    from .metrics.photometry import luminous_transmittance
+    from .observers.fundamentals import cie1931_cmfs
+    from .spectra.filters import find_notches, load_filters
+    from .spectra.illuminants import illuminant
+
+    fs = load_filters(filters, grid=grid, units=units, bandwidth=bandwidth)
+    tv = luminous_transmittance(fs.transmittance, illuminant("D65", grid).spd, cie1931_cmfs(grid)[:, 1])
+    out = []
+    for i, name in enumerate(fs.names):
+        t = fs.transmittance[i]
+        info = fs.info[i] if i < len(fs.info) else {}
+        parts = info.get("parts")
+        warnings = list(info.get("warnings", []))
+        for p in parts or []:
+            warnings += p.get("warnings", [])
+        out.append({
+            "name": name,
+            "source": fs.sources[i] if i < len(fs.sources) else "",
+            "path": info.get("path"),
+            "sha256": info.get("sha256"),
+            "measured_range_nm": info.get("range_nm"),
+            "sampling_nm": info.get("step_nm"),
+            "units": info.get("units", "fraction" if fs.sources[i] == "spec" else None),
+            "units_reason": info.get("units_reason", "parametric" if fs.sources[i] == "spec" else None),
+            "min_transmittance": float(t.min()),
+            "min_at_nm": float(grid.wavelengths[int(np.argmin(t))]),
+            "max_transmittance": float(t.max()),
+            "luminous_transmittance_d65": float(tv[i]),
+            "notches": [{k: round(v, 4) for k, v in n.items() if k != "fwhm_samples"}
+                        for n in find_notches(grid.wavelengths, t)],
+            "warnings": warnings,
+        })
+    return {"tool": "cvdfilter", "version": __version__, "caveat": CAVEAT,
+            "grid": {"start_nm": grid.start, "end_nm": grid.end, "step_nm": grid.step}, "filters": out}

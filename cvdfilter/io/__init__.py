@@ -1,0 +1,1 @@
+"""Input and output: spectra files, images, cubes and atomic writes."""

@@ -1,0 +1,1 @@
+"""Spectra: the wavelength grid, filters, illuminants and surface sets."""
