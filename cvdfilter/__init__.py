@@ -1,0 +1,71 @@
+"""cvdfilter: evaluate spectral filters for observers with normal and deficient colour vision.
+
+The public API. Names are imported lazily (on first use) so that the command
+line starts fast; ``from cvdfilter import score`` works as usual.
+
+Spectra
+    Grid, DEFAULT_GRID, FilterSet, load_filters, parse_filter_spec, find_notches,
+    illuminant, Illuminant, surface_set, SurfaceSet, read_spectra, inspect_filters, catalog
+Observers
+    observer, Observer, cone_fundamentals (CIE 2006 by age and field), simulate, simulation
+Main jobs
+    score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report
+
+Every number is a model prediction from published cone fundamentals and
+simulation models, not clinical evidence (see ``cvdfilter.cautions.CAVEAT``).
+"""
+
+from __future__ import annotations
+
+import importlib
+
+from ._version import __version__
+
+_LAZY = {
+    "Grid": "cvdfilter.spectra.grid",
+    "DEFAULT_GRID": "cvdfilter.spectra.grid",
+    "FilterSet": "cvdfilter.spectra.filters",
+    "load_filters": "cvdfilter.spectra.filters",
+    "parse_filter_spec": "cvdfilter.spectra.filters",
+    "find_notches": "cvdfilter.spectra.filters",
+    "gaussian_notch": "cvdfilter.spectra.filters",
+    "flat_notch": "cvdfilter.spectra.filters",
+    "longpass": "cvdfilter.spectra.filters",
+    "shortpass": "cvdfilter.spectra.filters",
+    "neutral_density": "cvdfilter.spectra.filters",
+    "illuminant": "cvdfilter.spectra.illuminants",
+    "Illuminant": "cvdfilter.spectra.illuminants",
+    "surface_set": "cvdfilter.spectra.surfaces",
+    "SurfaceSet": "cvdfilter.spectra.surfaces",
+    "read_spectra": "cvdfilter.io.spectra_files",
+    "inspect_filters": "cvdfilter.inspection",
+    "catalog": "cvdfilter.inspection",
+    "observer": "cvdfilter.observers.observer",
+    "Observer": "cvdfilter.observers.observer",
+    "cone_fundamentals": "cvdfilter.observers.cie2006",
+    "simulate": "cvdfilter.observers.simulate",
+    "simulation": "cvdfilter.observers.simulate",
+    "score": "cvdfilter.scorecard",
+    "Scorecard": "cvdfilter.scorecard",
+    "render": "cvdfilter.render",
+    "render_views": "cvdfilter.render",
+    "figure": "cvdfilter.figures",
+    "report": "cvdfilter.report",
+    "InputError": "cvdfilter.errors",
+    "CAVEAT": "cvdfilter.cautions",
+}
+
+__all__ = ["__version__", *_LAZY]
+
+
+def __getattr__(name: str):
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'cvdfilter' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__():
+    return sorted(__all__)
