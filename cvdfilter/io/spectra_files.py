@@ -267,7 +267,7 @@ def _read_tm2714(path: pathlib.Path, kind: str) -> SpectraTable:
     text = "\n".join(f"{w},{v}" for w, v in zip(sd.wavelengths, sd.values))
     units = None
     if kind != "spd":
-        header = getattr(sd.header, "spectral_quantity", "") or ""
+        header = str(getattr(sd, "spectral_quantity", "") or "")
         units = "percent" if float(np.max(sd.values)) > 1 + NOISE_TOLERANCE and "trans" in header.lower() else None
     table = parse_spectra_text(text, str(path), kind=kind, units=units)
     table.names = [getattr(sd.header, "description", None) or path.stem]

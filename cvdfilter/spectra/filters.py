@@ -523,6 +523,8 @@ def find_notches(wavelengths, transmittance, *, min_prominence: float = 0.05) ->
         shoulder = t[i] + props["prominences"][k]
         # The centre is the midpoint of the half-depth crossings: robust for
         # flat-floored notches whose minimum sample sits anywhere on the floor.
+        if out and abs(out[-1]["center"] - (lo + hi) / 2) < 1e-6 and abs(out[-1]["fwhm"] - (hi - lo)) < 1e-6:
+            continue  # two samples of one flat floor reported as two minima
         out.append({"center": float((lo + hi) / 2), "fwhm": float(hi - lo),
                     "depth": float(1 - t[i] / shoulder) if shoulder > 0 else 0.0,
                     "min_transmittance": float(t[i]), "fwhm_samples": float(widths[k])})
