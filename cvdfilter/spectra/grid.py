@@ -99,14 +99,28 @@ def resample(wavelengths, values, grid: Grid = DEFAULT_GRID, *, method: str = "l
     numpy.ndarray
         Shape (n_wl,) or (n_wl, n_spectra), on ``grid``.
     """
-    import colour
-    from colour.algebra import CubicSplineInterpolator, Extrapolator, LinearInterpolator, SpragueInterpolator
-
-    wl = np.asarray(wavelengths, dtype=float)
-    vals = np.asarray(values, dtype=float)
+    wl = np.ascontiguousarray(wavelengths, dtype=float)
+    vals = np.ascontiguousarray(values, dtype=float)
     one = vals.ndim == 1
     if one:
         vals = vals[:, None]
+    if vals.size <= 200_000:
+        # Results are cached on disk by content, so a file read again (or a
+        # bundled example) does not import colour-science a second time.
+        import hashlib
+
+        from .cache import cached_arrays
+
+        h = hashlib.sha1(wl.tobytes() + vals.tobytes() + f"{method}|{outside}|{grid.key()}".encode()).hexdigest()
+        out = cached_arrays(f"resample-{h}", lambda: {"v": _resample(wl, vals, grid, method, outside)})["v"]
+    else:
+        out = _resample(wl, vals, grid, method, outside)
+    return out[:, 0] if one else out
+
+
+def _resample(wl, vals, grid, method, outside):
+    from colour.algebra import CubicSplineInterpolator, Extrapolator, LinearInterpolator, SpragueInterpolator
+
     interpolator = {"linear": LinearInterpolator, "cubic": CubicSplineInterpolator,
                     "sprague": SpragueInterpolator}[method]
     target = grid.wavelengths
@@ -121,5 +135,4 @@ def resample(wavelengths, values, grid: Grid = DEFAULT_GRID, *, method: str = "l
             col = np.zeros(len(target))
             col[inside] = interp(target[inside])
             out[:, j] = col
-    del colour
-    return out[:, 0] if one else out
+    return out
