@@ -1,0 +1,152 @@
+"""``spectrum``: filter transmittance over the illuminant and the cone fundamentals.
+
+Two panels sharing the wavelength axis. Top: each filter's spectral
+transmittance (%), its notches shaded over their full width at half depth and
+labelled with centre and FWHM (:func:`cvdfilter.spectra.filters.find_notches`).
+Bottom: the illuminant's relative spectral power (grey fill) and the normal
+observer's L, M and S cone fundamentals (energy-based, peak 1; CIE 170-1:2006),
+with each anomalous observer's shifted cone drawn in its own dashed style.
+
+Public: :func:`spectrum_figure`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .common import load_inputs, observer_label, short_name, spread_callouts
+from .output import FigureResult, finish, new_figure, style_context
+from .palette import NEUTRAL, series
+from .style import Style
+
+__all__ = ["spectrum_figure"]
+
+_CONE_NAMES = ("L", "M", "S")
+_CONE_GREY = "#3A3A3A"
+_CONE_LINES = ("-", (0, (4, 1.5)), (0, (1, 1.2)))
+_SHIFTED_LINES = ((0, (5, 1.5, 1, 1.5)), (0, (6, 1.5, 1, 1.5, 1, 1.5)), (0, (2.5, 1.2)))
+_SHIFTED_MARKERS = ("o", "s", "^")
+
+
+def _label_cones(ax, wl, fundamentals, style):
+    """Direct labels: S right of its peak, M left of its rising flank, L right of its falling flank."""
+    s_peak = int(np.argmax(fundamentals[:, 2]))
+    ax.annotate("S", xy=(wl[s_peak], fundamentals[s_peak, 2]), xytext=(4, -2), textcoords="offset points",
+                ha="left", va="top", fontsize=style.font_size, color=_CONE_GREY, gid="cone-label-S")
+    m_peak = int(np.argmax(fundamentals[:, 1]))
+    i_m = int(np.argmin(np.abs(fundamentals[:m_peak, 1] - 0.8)))
+    ax.annotate("M", xy=(wl[i_m], fundamentals[i_m, 1]), xytext=(-4, 0), textcoords="offset points",
+                ha="right", va="center", fontsize=style.font_size, color=_CONE_GREY, gid="cone-label-M")
+    l_peak = int(np.argmax(fundamentals[:, 0]))
+    i_l = l_peak + int(np.argmin(np.abs(fundamentals[l_peak:, 0] - 0.8)))
+    ax.annotate("L", xy=(wl[i_l], fundamentals[i_l, 0]), xytext=(4, 0), textcoords="offset points",
+                ha="left", va="center", fontsize=style.font_size, color=_CONE_GREY, gid="cone-label-L")
+
+
+def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: Style | None = None,
+                    width_mm: float = 89.0, height_mm: float | None = None, title: str | None = None,
+                    caveat: str | None = None) -> FigureResult:
+    """Filter transmittance with notches, illuminant SPD and cone fundamentals.
+
+    Parameters
+    ----------
+    filters
+        Filter specs, paths, example names or a FilterSet (at most 16).
+    illuminant : str
+        Illuminant spec (its SPD is drawn relative to its maximum).
+    observers : sequence of str
+        Observer specs: the first observer's normal base gives L, M, S; each
+        anomalous observer adds its shifted cone.
+    style, width_mm, height_mm, title, caveat
+        Presentation; ``caveat`` is None here by default (the figure shows
+        measured or specified curves, no model prediction).
+
+    Returns
+    -------
+    FigureResult
+        ``data``: ``wavelengths`` (nm), ``transmittance`` (fraction, (n_filters, n_wl)),
+        ``filters`` (names), ``notches`` (per filter: dicts with centre, FWHM in nm and depth),
+        ``illuminant_relative`` (peak 1), ``cones`` (label -> (n_wl,) sensitivity, peak 1).
+    """
+    from ..spectra.filters import find_notches
+
+    style = style or Style()
+    got = load_inputs(filters, illuminant=illuminant, observers=list(observers) or ["normal"])
+    fs, ill, obs = got["filters"], got["illuminant"], got["observers"]
+    wl = fs.wavelengths
+    styles = series(len(fs))
+    base = obs[0].base or obs[0]
+    rel_spd = ill.spd / ill.spd.max()
+    notches = [find_notches(wl, t) for t in fs.transmittance]
+    cones = {f"{_CONE_NAMES[c]} (normal)": base.fundamentals[:, c] for c in range(3)}
+    shifted = []
+    for o in obs:
+        if o.kind == "anomalous":
+            c = o.affected_cone
+            label = f"{_CONE_NAMES[c]}\u2032 {observer_label(o)}"
+            cones[label] = o.fundamentals[:, c]
+            shifted.append((label, c))
+
+    height_mm = height_mm or (width_mm * 1.2 if width_mm < 120 else width_mm * 0.62)
+    with style_context(style):
+        fig = new_figure(style, width_mm, height_mm)
+        ax_t, ax_s = fig.subplots(2, 1, sharex=True, height_ratios=[1.25, 1.0])
+
+        # --- transmittance with notches -------------------------------------------------------
+        label_pos, label_text, label_color = [], [], []
+        for i, (name, t) in enumerate(zip(fs.names, fs.transmittance)):
+            st = styles[i]
+            ax_t.plot(wl, 100 * t, color=st.color, linestyle=st.linestyle, label=short_name(name),
+                      gid=f"transmittance-{i}")
+            for n in notches[i]:
+                lo, hi = n["center"] - n["fwhm"] / 2, n["center"] + n["fwhm"] / 2
+                ax_t.axvspan(lo, hi, color=st.color, alpha=0.12, lw=0, gid=f"notch-{i}")
+                label_pos.append(n["center"])
+                label_text.append(f"{n['center']:.0f} nm\nFWHM {n['fwhm']:.0f} nm")
+                label_color.append(st.color)
+        # Notch labels sit above the panel, raised where they would collide.
+        labels = [ax_t.annotate(text, xy=(x, 104), xytext=(x, 3), textcoords=("data", "offset points"),
+                                ha="center", va="bottom", fontsize=style.tick_size, color=color,
+                                linespacing=1.0, annotation_clip=False,
+                                arrowprops={"arrowstyle": "-", "color": color, "lw": 0.5, "shrinkA": 0,
+                                            "shrinkB": 0})
+                  for x, text, color in zip(label_pos, label_text, label_color)]
+        ax_t.set_ylim(0, 104)
+        ax_t.set_yticks([0, 25, 50, 75, 100])
+        ax_t.set_ylabel("Transmittance (%)")
+
+        # --- illuminant and cones -------------------------------------------------------------
+        ax_s.fill_between(wl, 0, rel_spd, color=NEUTRAL["fill"], alpha=0.55, lw=0,
+                          label=f"{short_name(ill.name, 18)} (relative power)", gid="illuminant")
+        # Cones in dark grey (the coloured series belong to the filters above), told apart by
+        # line style and labelled directly on their flanks.
+        for c in range(3):
+            ax_s.plot(wl, base.fundamentals[:, c], color=_CONE_GREY, linestyle=_CONE_LINES[c],
+                      gid=f"cone-{c}")
+        _label_cones(ax_s, wl, base.fundamentals, style)
+        for k, (label, c) in enumerate(shifted):
+            ax_s.plot(wl, cones[label], color="black", linestyle=_SHIFTED_LINES[k % len(_SHIFTED_LINES)],
+                      lw=style.line_width * 1.2, marker=_SHIFTED_MARKERS[k % len(_SHIFTED_MARKERS)],
+                      markevery=(k * 7 + 10, 25), markersize=style.marker_size * 0.9,
+                      markerfacecolor="white", label=short_name(label, 34), gid=f"shifted-cone-{k}")
+        ax_s.set_ylim(0, 1.05)
+        ax_s.set_yticks([0, 0.25, 0.5, 0.75, 1.0], ["0", "", "0.5", "", "1.0"])
+        ax_s.set_ylabel("Relative sensitivity\nor power")
+        ax_s.set_xlabel("Wavelength (nm)")
+        ax_s.set_xlim(wl[0], wl[-1])
+        ax_s.set_xticks(np.arange(400, wl[-1] + 1, 100))
+        ax_s.set_xticks(np.arange(400, wl[-1] + 1, 50), minor=True)
+        handles, texts = [], []
+        for ax in (ax_t, ax_s):
+            h, t = ax.get_legend_handles_labels()
+            handles += h
+            texts += t
+        fig.legend(handles, texts, loc="outside lower center", ncols=2, handlelength=2.6, columnspacing=1.2)
+        finish(fig, style, title=title, caveat=caveat)
+        spread_callouts(fig, ax_t, labels, label_pos)
+
+    data = {"wavelengths": wl, "transmittance": fs.transmittance, "filters": list(fs.names),
+            "notches": [[{k: n[k] for k in ("center", "fwhm", "depth")} for n in ns] for ns in notches],
+            "illuminant_relative": rel_spd, "cones": cones}
+    inputs = {"filters": list(fs.names), "illuminant": ill.name, "observers": [o.spec for o in obs]}
+    return FigureResult("spectrum", fig, data, style, inputs)
