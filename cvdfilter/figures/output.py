@@ -25,7 +25,7 @@ from .._version import __version__
 from ..errors import InputError
 from .style import MM_PER_INCH, Style
 
-__all__ = ["FigureResult", "new_figure", "finish", "figure_bytes", "save_figure", "FORMATS", "style_context", "freeze_layout"]
+__all__ = ["FigureResult", "new_figure", "finish", "figure_bytes", "save_figure", "FORMATS", "style_context", "freeze_layout", "format_of"]
 
 FORMATS = ("pdf", "svg", "png")
 _CREATOR = f"cvdfilter {__version__} (matplotlib)"
@@ -103,7 +103,7 @@ def _metadata(fmt: str) -> dict:
     return {"Software": _CREATOR}
 
 
-def _format_of(path: pathlib.Path, fmt: str | None) -> str:
+def format_of(path: pathlib.Path, fmt: str | None) -> str:
     fmt = (fmt or path.suffix.lstrip(".")).lower()
     if fmt not in FORMATS:
         raise InputError(f"cannot tell the figure format from '{path.name}'", source=str(path),
@@ -145,7 +145,7 @@ def save_figure(fig, path: str | os.PathLike, *, style: Style | None = None, dpi
     from ..io.atomic import write_bytes
 
     path = pathlib.Path(path)
-    data = figure_bytes(fig, _format_of(path, format), style=style, dpi=dpi)
+    data = figure_bytes(fig, format_of(path, format), style=style, dpi=dpi)
     return write_bytes(path, data, inputs=inputs)
 
 
