@@ -188,3 +188,128 @@ def test_bad_input():
         simulation("deuteranomalous:shift=8", normalisation="bogus")
     with pytest.raises(ValueError, match=r"\(\.\.\., 3\)"):
         simulation("deuteranope").apply(np.ones((4, 2)))
+
+
+# ---------------------------------------------------------------------------------------------
+# Display-space checks against reference libraries
+
+def _colour_primaries(name):
+    import colour
+
+    from cvdfilter.observers.display import display_primaries
+
+    p = display_primaries(name)
+    return p, colour.characterisation.RGB_DisplayPrimaries(p, observer("normal").wavelengths)
+
+
+@pytest.mark.filterwarnings("ignore")
+@pytest.mark.parametrize("primaries", ["Typical CRT Brainard 1997", "Apple Studio Display"])
+@pytest.mark.parametrize("spec,shift", [("deuteranomalous:severity=0.6,model=machado2009", (0, 12, 0)),
+                                        ("protanomalous:severity=0.3,model=machado2009", (6, 0, 0)),
+                                        ("protanomalous:severity=1,model=machado2009", (20, 0, 0)),
+                                        ("tritanomalous:severity=0.5,model=machado2009", (0, 0, 10)),
+                                        ("deuteranomalous:severity=0.6,model=machado2009,age=60,field=4",
+                                         (0, 12, 0))])
+def test_machado_matches_colour_science(primaries, spec, shift):
+    # colour-science 0.4.7, colour.blindness.matrix_anomalous_trichromacy_Machado2009, given the
+    # same fundamentals (the base observer's), the same primaries and the same shift (20 nm x
+    # severity): our cone-space operator, expressed on the display's linear RGB, agrees within 1e-3.
+    # Where Machado's opponent scaling is ill-conditioned, colour-science returns a meaningless matrix
+    # (entries of 4 to 30) and we refuse (checked here too).
+    from colour.blindness import matrix_anomalous_trichromacy_Machado2009
+    from colour.colorimetry import LMS_ConeFundamentals
+
+    from cvdfilter.observers.display import display_simulation
+
+    obs = observer(spec)
+    _, prim = _colour_primaries(primaries)
+    cmfs = LMS_ConeFundamentals(obs.base.fundamentals, obs.wavelengths)
+    ref = matrix_anomalous_trichromacy_Machado2009(cmfs, prim, np.array(shift, dtype=float))
+    try:
+        ours = display_simulation(obs, primaries, normalisation="opponent")
+    except InputError:
+        assert np.abs(ref).max() > 1.2  # colour-science's answer is no better
+        return
+    assert np.abs(ours.matrices[0] - ref).max() < 1e-3
+
+
+def _srgb_grid(n=6):
+    v = np.linspace(0.0, 1.0, n)
+    return np.stack(np.meshgrid(v, v, v, indexing="ij"), -1).reshape(-1, 3)
+
+
+def _de2000_srgb(a, b):
+    import colour
+
+    la = colour.XYZ_to_Lab(colour.sRGB_to_XYZ(np.clip(a, 0, 1)))
+    lb = colour.XYZ_to_Lab(colour.sRGB_to_XYZ(np.clip(b, 0, 1)))
+    return colour.delta_E(la, lb, method="CIE 2000")
+
+
+@pytest.mark.filterwarnings("ignore")
+@pytest.mark.parametrize("cvd,deficiency,shift", [("deuteranomaly", "deutan", (0, 20, 0)),
+                                                  ("protanomaly", "protan", (20, 0, 0))])
+def test_machado_reproduces_published_matrices_with_their_inputs(cvd, deficiency, shift):
+    # colorspacious 1.1.2 ships the matrices Machado et al. (2009) published (severity 100 =
+    # a 20 nm shift). Fed the same kind of inputs (Smith & Pokorny 1975 fundamentals, each peak 1,
+    # as colour-science tabulates them; colour-science's "Typical CRT Brainard 1997" primaries;
+    # colour-science's shift), our construction reproduces them within 2e-3 per entry (measured
+    # 5e-4): the published matrices are this method on those inputs.
+    from colorspacious.cvd import machado_et_al_2009_matrix
+    from colour.blindness import msds_cmfs_anomalous_trichromacy_Machado2009
+    from colour.colorimetry import LMS_ConeFundamentals
+
+    from cvdfilter.observers.display import display_simulation
+    from cvdfilter.observers.observer import Observer
+
+    sp = observer("normal:data=sp1975")
+    shifted = np.asarray(msds_cmfs_anomalous_trichromacy_Machado2009(
+        LMS_ConeFundamentals(sp.fundamentals, sp.wavelengths), np.array(shift, dtype=float)).values)
+    peaks = shifted.max(axis=0)
+    obs = Observer("sp1975-machado", "anomalous", deficiency, sp.wavelengths, shifted / peaks,
+                   sp.luminance_weights, {"raw_scale": peaks, "model": "machado2009"}, sp, sp.grid)
+    ours = display_simulation(obs, "Typical CRT Brainard 1997", normalisation="opponent")
+    assert np.abs(ours.matrices[0] - machado_et_al_2009_matrix(cvd, 100)).max() < 2e-3
+
+
+@pytest.mark.filterwarnings("ignore")
+@pytest.mark.parametrize("cvd,spec", [("deuteranomaly", "deuteranomalous:severity=1,model=machado2009"),
+                                      ("protanomaly", "protanomalous:severity=1,model=machado2009")])
+def test_machado_against_colorspacious_srgb(cvd, spec):
+    # colorspacious 1.1.2 "sRGB1+CVD", severity 100 (Machado et al. 2009 published matrices, applied
+    # to linear sRGB), on a 6x6x6 grid of sRGB colours. Ours: the CIE 2006 observer (not Smith &
+    # Pokorny, which Machado used), colour-science's CRT primaries, Machado's opponent scaling.
+    # The different fundamentals move matrix entries by up to 0.07; tolerance: mean dE2000 < 2.5,
+    # max < 6 (measured 1.5 / 3.9), clipped to the sRGB gamut as a display would show it.
+    import colour
+    from colorspacious import cspace_convert
+
+    from cvdfilter.observers.display import display_simulation
+
+    srgb = _srgb_grid()
+    ref = np.clip(cspace_convert(srgb, {"name": "sRGB1+CVD", "cvd_type": cvd, "severity": 100}, "sRGB1"), 0, 1)
+    sim = display_simulation(spec, "Typical CRT Brainard 1997", normalisation="opponent")
+    ours = colour.cctf_encoding(np.clip(sim.apply(colour.cctf_decoding(srgb, "sRGB")), 0, 1), "sRGB")
+    de = _de2000_srgb(ours, ref)
+    assert de.mean() < 2.5 and de.max() < 6.0
+
+
+@pytest.mark.parametrize("spec", ["normal", "deuteranope", "tritanope", "deuteranomalous:shift=8"])
+@pytest.mark.parametrize("primaries", ["Typical CRT Brainard 1997", "Apple Studio Display"])
+def test_display_simulation_white_and_structure(spec, primaries):
+    from cvdfilter.observers.display import display_simulation
+
+    d = display_simulation(spec, primaries)
+    assert np.allclose(d.apply([1.0, 1.0, 1.0]), 1.0)
+    assert np.allclose(d.apply([0.25, 0.25, 0.25]), 0.25)
+    rgb = np.random.default_rng(5).uniform(0, 1, (50, 3))
+    out = d.apply(rgb)
+    if d.separator is not None:
+        each = np.array([(d.matrices[0] if v @ d.separator >= 0 else d.matrices[1]) @ v for v in rgb])
+        assert np.allclose(out, each)
+    if spec == "deuteranope":
+        # a metamer for the deuteranope on this display: L and S unchanged
+        from cvdfilter.observers.display import display_primaries, rgb_to_lms_matrix
+
+        m = rgb_to_lms_matrix(observer(spec).fundamentals, display_primaries(primaries))
+        assert np.allclose((out @ m.T)[:, [0, 2]], (rgb @ m.T)[:, [0, 2]])

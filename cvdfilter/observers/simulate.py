@@ -54,7 +54,7 @@ Methods
       the reference this is exactly colour-science's
       ``matrix_anomalous_trichromacy_Machado2009`` in cone space. The YB and
       RG responses of a white are close to 0, so these gains are
-      ill-conditioned for many whites, ages and fields; a gain beyond 1/3-3
+      ill-conditioned for many whites, ages and fields; a gain outside 0.2-5
       raises an error rather than return a meaningless operator.
 
 The reference white
@@ -215,6 +215,8 @@ def raw_fundamentals(obs: Observer) -> np.ndarray:
     f = obs.fundamentals
     if obs.kind != "anomalous":
         return f
+    if "raw_scale" in obs.params:  # an observer built elsewhere that states its own cone scales
+        return f * np.asarray(obs.params["raw_scale"], dtype=float)
     if obs.params.get("model") == "machado2009":
         from .machado2009 import machado_peak_factors
 
@@ -288,8 +290,8 @@ def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: s
     scale = (t @ raw_n) / (t @ raw_a)
     # Machado's per-channel scaling divides by the white's opponent responses;
     # YB and RG are near 0 for many whites, and then the scaling is meaningless
-    # (no white balancing needs a gain beyond 3 or below 1/3, let alone a negative one).
-    if not np.all(np.isfinite(scale)) or np.any(scale < 1 / 3) or np.any(scale > 3.0):
+    # (no white balancing needs a gain beyond 5 or below 1/5, let alone a negative one).
+    if not np.all(np.isfinite(scale)) or np.any(scale < 0.2) or np.any(scale > 5.0):
         raise InputError("Machado's opponent-channel normalisation is ill-conditioned for this observer and "
                          f"reference white (channel gains {np.round(scale, 3).tolist()})", source=obs.spec,
                          hint="use normalisation='cone', or another reference white")

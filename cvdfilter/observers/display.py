@@ -1,0 +1,156 @@
+"""Simulation operators expressed for a display: linear RGB in, linear RGB out.
+
+A display with primaries P (spectral radiance of R, G and B at full drive,
+shape (n_wl, 3)) gives an observer the cone excitations ``F^T P rgb``. With
+the observer fully adapted to the display's white (R = G = B = 1, von
+Kries), the adapted excitations are ``A rgb`` with ``A = diag(white_lms /
+(F^T P 1)) F^T P``. A simulation ``S`` (cone space, see
+:mod:`cvdfilter.observers.simulate`) then becomes, on linear RGB,
+``A_normal^-1 S A_observer``: the observer's fundamentals on the way in, the
+normal base observer's on the way out. For Brettel 1997 the separating plane
+is carried over too (``separator_rgb = A_observer^T separator``).
+
+This is how published display-space matrices (Machado et al. 2009, Vienot et
+al. 1999) relate to the cone-space operators the tool computes; the tests use
+it to compare with colour-science and colorspacious.
+
+Public: :class:`DisplaySimulation`, :func:`display_primaries`, :func:`rgb_to_lms_matrix`,
+:func:`display_simulation`, :data:`DISPLAY_PRIMARIES`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..errors import InputError
+from ..spectra.cache import cached_arrays
+from ..spectra.grid import DEFAULT_GRID, Grid
+from .observer import Observer, observer as _make_observer
+
+__all__ = ["DisplaySimulation", "display_primaries", "rgb_to_lms_matrix", "display_simulation",
+           "DISPLAY_PRIMARIES"]
+
+#: Display primaries colour-science ships (``colour.characterisation.MSDS_DISPLAY_PRIMARIES``).
+DISPLAY_PRIMARIES = ("Typical CRT Brainard 1997", "Apple Studio Display")
+
+
+def display_primaries(primaries, grid: Grid = DEFAULT_GRID) -> np.ndarray:
+    """Spectral radiance of a display's R, G, B primaries on ``grid``, shape (n_wl, 3).
+
+    Parameters
+    ----------
+    primaries : str or array_like
+        A name in :data:`DISPLAY_PRIMARIES` (resampled linearly, zero outside
+        the measured range) or an array (n_wl, 3) already on the grid.
+    grid : Grid
+    """
+    if isinstance(primaries, str):
+        match = [n for n in DISPLAY_PRIMARIES if n.lower() == primaries.strip().lower()]
+        if not match:
+            raise InputError(f"unknown display primaries '{primaries}'", source=primaries,
+                             hint="use " + " or ".join(DISPLAY_PRIMARIES))
+        name = match[0]
+
+        def build():
+            import colour
+
+            from ..spectra.grid import resample
+
+            p = colour.characterisation.MSDS_DISPLAY_PRIMARIES[name]
+            return {"p": resample(p.wavelengths, p.values, grid, method="linear", outside="zero")}
+
+        return cached_arrays(f"display-{name}-{grid.key()}", build)["p"]
+    p = np.asarray(primaries, dtype=float)
+    if p.shape != (grid.size, 3) or not np.all(np.isfinite(p)) or np.any(p < 0):
+        raise InputError(f"display primaries must be finite, non-negative and shaped ({grid.size}, 3), "
+                         f"got {p.shape}", source="primaries")
+    return p
+
+
+def rgb_to_lms_matrix(fundamentals, primaries) -> np.ndarray:
+    """Unadapted cone excitations of unit R, G, B: ``F^T P``, shape (3, 3) (columns R, G, B).
+
+    Units: the fundamentals' units times the primaries' radiance, summed over
+    the grid's wavelengths.
+    """
+    return np.asarray(fundamentals, dtype=float).T @ np.asarray(primaries, dtype=float)
+
+
+@dataclass(frozen=True, eq=False)
+class DisplaySimulation:
+    """A simulation on a display's linear RGB.
+
+    Attributes
+    ----------
+    matrices : numpy.ndarray
+        (k, 3, 3), act on linear RGB column vectors.
+    separator : numpy.ndarray or None
+        (3,) for two matrices: ``matrices[0]`` where ``rgb @ separator >= 0``.
+    simulation : Simulation
+        The cone-space operator it was made from.
+    primaries : numpy.ndarray
+        (n_wl, 3).
+    """
+
+    matrices: np.ndarray
+    separator: np.ndarray | None
+    simulation: object
+    primaries: np.ndarray
+
+    def apply(self, rgb) -> np.ndarray:
+        """Simulate linear RGB shaped (..., 3); returns (..., 3) (not clipped)."""
+        rgb = np.asarray(rgb, dtype=float)
+        if rgb.shape[-1:] != (3,):
+            raise ValueError(f"expected linear RGB shaped (..., 3), got {rgb.shape}")
+        if len(self.matrices) == 1:
+            return rgb @ self.matrices[0].T
+        first = rgb @ self.matrices[0].T
+        second = rgb @ self.matrices[1].T
+        return np.where((rgb @ self.separator >= 0)[..., None], first, second)
+
+
+def _adapted(fundamentals, primaries, white_lms) -> np.ndarray:
+    m = rgb_to_lms_matrix(fundamentals, primaries)
+    return (np.asarray(white_lms) / m.sum(axis=1))[:, None] * m
+
+
+def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, method: str | None = None,
+                       normalisation: str = "cone", reference_white="display") -> DisplaySimulation:
+    """The simulation of ``observer`` as linear-RGB matrices for a display.
+
+    Parameters
+    ----------
+    observer : Observer or str
+    primaries : str or array_like
+        See :func:`display_primaries`.
+    method, normalisation
+        As for :func:`cvdfilter.observers.simulate.simulation`.
+    reference_white : "display", None, str or array_like
+        ``"display"`` (default) uses the display's white (the sum of its
+        primaries), as Machado et al. and Vienot et al. did; otherwise as for
+        :func:`~cvdfilter.observers.simulate.simulation`.
+
+    Returns
+    -------
+    DisplaySimulation
+
+    Examples
+    --------
+    >>> d = display_simulation("deuteranope")
+    >>> bool(np.allclose(d.apply([1.0, 1.0, 1.0]), 1.0))
+    True
+    """
+    from .simulate import raw_fundamentals, simulation
+
+    obs: Observer = _make_observer(observer)
+    p = display_primaries(primaries, obs.grid)
+    ref = p.sum(axis=1) if isinstance(reference_white, str) and reference_white == "display" else reference_white
+    sim = simulation(obs, method=method, normalisation=normalisation, reference_white=ref)
+    a_in = _adapted(raw_fundamentals(obs), p, sim.white_lms)
+    base = obs.base if obs.base is not None else obs
+    a_out = _adapted(base.fundamentals, p, sim.white_lms)
+    mats = np.stack([np.linalg.solve(a_out, m @ a_in) for m in sim.matrices])
+    sep = None if sim.separator is None else a_in.T @ sim.separator
+    return DisplaySimulation(mats, sep, sim, p)
