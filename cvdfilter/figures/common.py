@@ -6,7 +6,7 @@ import numpy as np
 
 from ..spectra.grid import DEFAULT_GRID
 
-__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts"]
+__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below"]
 
 
 def load_filters_checked(filters, grid=DEFAULT_GRID):
@@ -158,3 +158,22 @@ def spread_callouts(fig, ax, annotations, anchors_x, *, pad_pt: float = 3.0, lif
             moved = abs(x - anchors_x[i]) > 1e-9
             _, y = annotations[i].xyann
             annotations[i].xyann = (x, y + (lift_pt if moved else 0.0))
+
+
+def legend_below(fig, ax, handles, labels, *, ncols: int = 2, gap_pt: float = 3.0, **kwargs):
+    """A legend centred under ``ax``, clear of its tick labels and x label.
+
+    The offset is measured in points from the axes' lower edge (after a
+    layout pass), so it stays right when constrained layout resizes the axes;
+    the legend belongs to the axes, so the layout keeps room for it above the
+    caveat footnote.
+    """
+    from matplotlib.transforms import ScaledTranslation
+
+    fig.draw_without_rendering()
+    renderer = fig.canvas.get_renderer()
+    below_px = ax.bbox.y0 - ax.get_tightbbox(renderer).y0
+    offset_pt = below_px * 72.0 / fig.dpi + gap_pt
+    transform = ax.transAxes + ScaledTranslation(0, -offset_pt / 72.0, fig.dpi_scale_trans)
+    return ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 0.0), bbox_transform=transform,
+                     ncols=ncols, borderaxespad=0, **kwargs)

@@ -66,15 +66,12 @@ def _wrap(text: str, width_mm: float, size_pt: float) -> str:
 def finish(fig, style: Style, *, title: str | None = None, caveat: str | None = None) -> None:
     """Add the title (small, left-aligned, caption-ready) and the caveat footnote."""
     width_mm = fig.get_figwidth() * MM_PER_INCH
-    height_pt = fig.get_figheight() * 72
-    bottom = 0.0
     if caveat:
+        # The caveat is the figure's "supxlabel": constrained layout keeps room for it under
+        # everything else, figure legends included.
         text = _wrap(caveat, width_mm, style.caveat_size)
-        lines = text.count("\n") + 1
-        bottom = (lines * style.caveat_size * 1.25 + 4) / height_pt
-        fig.text(0.01, 0.008, text, ha="left", va="bottom", fontsize=style.caveat_size, color="#333333",
-                 gid="caveat", linespacing=1.15)
-        fig.get_layout_engine().set(rect=(0.0, bottom, 1.0, 1.0 - bottom))
+        fig.supxlabel(text, x=0.01, ha="left", va="bottom", fontsize=style.caveat_size, color="#333333",
+                      gid="caveat", linespacing=1.15, multialignment="left")
     if title:
         fig.suptitle(title, x=0.01, ha="left", fontsize=style.title_size, fontweight="bold")
 
