@@ -29,12 +29,14 @@ _CONE = {"protan": 0, "deutan": 1, "tritan": 2}
 
 @functools.lru_cache(maxsize=64)
 def _shifted_table(deficiency: str, severity: float, age: float, field: float) -> np.ndarray:
-    import colour
-
     from . import cie2006
 
     wl = cie2006.table_wavelengths()
     base = cie2006.fundamentals_from_absorbance(cie2006.photopigment_absorbance(), age=age, field=field)
+    if severity == 0:  # the normal observer exactly (colour-science's round trip adds ~1e-15)
+        return base
+    import colour
+
     cmfs = colour.colorimetry.LMS_ConeFundamentals(base, wl, name="cvdfilter base")
     d = np.zeros(3)
     d[_CONE[deficiency]] = MAX_SHIFT_NM * severity
