@@ -89,8 +89,24 @@ def _log_abs_splines():
 
 
 @functools.lru_cache(maxsize=1)
+def _tables_digest() -> str:
+    """A short hash of the absorbance table, so cached results follow the data."""
+    import hashlib
+
+    return hashlib.sha1(np.ascontiguousarray(_tables()["log_abs"]).tobytes()).hexdigest()[:16]
+
+
+def _disk_cached(key: str, build) -> np.ndarray:
+    # The splines below need scipy.interpolate, which takes most of a second to
+    # import; their results go to the on-disk reference cache instead.
+    from ..spectra.cache import cached_arrays
+
+    return cached_arrays(f"cie2006-{key}-{_tables_digest()}", lambda: {"v": build()})["v"]
+
+
+@functools.lru_cache(maxsize=1)
 def _pigment_peaks_cached() -> tuple:
-    return tuple(_pigment_peaks())
+    return tuple(float(v) for v in _disk_cached("pigment-peaks", _pigment_peaks))
 
 
 def pigment_peaks() -> np.ndarray:
@@ -139,6 +155,11 @@ def shifted_absorbance(cone: int, shift_nm: float) -> np.ndarray:
     """
     if shift_nm == 0:
         return photopigment_absorbance()[:, cone]
+    return _disk_cached(f"shifted-{int(cone)}-{float(shift_nm)!r}",
+                        lambda: _shifted_absorbance(cone, shift_nm)).copy()
+
+
+def _shifted_absorbance(cone: int, shift_nm: float) -> np.ndarray:
     wl = _tables()["wl"]
     spline = _log_abs_splines()[cone]
     peak = pigment_peaks()[cone]
