@@ -185,3 +185,20 @@ def test_machado_model_matches_colour_science_shift(deficiency):
     assert np.abs(ours - ref).max() < 2e-3
     assert np.array_equal(observer(f"{NAME[deficiency]}:severity=0,model=machado2009").fundamentals,
                           base.fundamentals)
+
+
+@pytest.mark.parametrize("spec,weights", [("protanope", (0.0, 1.0)), ("deuteranope", (1.0, 0.0)),
+                                          ("protanope:age=70,field=10", (0.0, 1.0))])
+def test_dichromat_luminance_lacks_the_missing_cone(spec, weights):
+    # Reduction hypothesis (Smith & Pokorny 1975; from memory): a protanope's luminous efficiency is
+    # its M cone's, a deuteranope's its L cone's, so e.g. long-wavelength (red) light looks dimmer
+    # to a protanope. A tritanope keeps the normal weights.
+    obs = observer(spec)
+    assert obs.luminance_weights == weights
+    assert np.array_equal(obs.luminance, obs.fundamentals @ np.array([*weights, 0.0]))
+    normal = observer("normal")
+    i650 = int(np.argmin(np.abs(obs.wavelengths - 650)))
+    rel = lambda o: o.luminance[i650] / o.luminance.max()  # noqa: E731
+    if spec.startswith("protanope"):
+        assert rel(obs) < 0.5 * rel(normal)
+    assert observer("tritanope").luminance_weights == normal.luminance_weights

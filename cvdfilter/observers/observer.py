@@ -78,7 +78,7 @@ class Observer:
     luminance : numpy.ndarray
         The observer's luminous efficiency, a L + b M, shape (n_wl,).
     luminance_weights : tuple of float
-        (a, b).
+        (a, b); (0, 1) for protanopes and (1, 0) for deuteranopes (no missing-cone input).
     params : dict
         age, field, data, shift (nm), severity, model.
     base : Observer or None
@@ -254,7 +254,11 @@ def _observer(spec: str, grid: Grid) -> Observer:
         return base
     if kind == "dichromat":
         p = {"age": age, "field": fld, "data": data}
-        return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, base_lms, weights, p, base, grid)
+        # Reduction hypothesis: the missing cone contributes nothing, to luminance either. A
+        # protanope's luminous efficiency is its M cone's, a deuteranope's its L cone's (Smith &
+        # Pokorny 1975), each peaking at 1 as V(lambda) does; a tritanope keeps the normal a L + b M.
+        dweights = {"protan": (0.0, 1.0), "deutan": (1.0, 0.0)}.get(deficiency, weights)
+        return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, base_lms, dweights, p, base, grid)
 
     # anomalous trichromats
     model = params.get("model", "shift").lower()
