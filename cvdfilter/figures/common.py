@@ -6,7 +6,7 @@ import numpy as np
 
 from ..spectra.grid import DEFAULT_GRID
 
-__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below"]
+__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes"]
 
 
 def load_filters_checked(filters, grid=DEFAULT_GRID):
@@ -160,20 +160,35 @@ def spread_callouts(fig, ax, annotations, anchors_x, *, pad_pt: float = 3.0, lif
             annotations[i].xyann = (x, y + (lift_pt if moved else 0.0))
 
 
-def legend_below(fig, ax, handles, labels, *, ncols: int = 2, gap_pt: float = 3.0, **kwargs):
+def legend_below(fig, ax, handles, labels, *, ncols: int = 2, gap_pt: float = 3.0, center_on_figure: bool = False,
+                 **kwargs):
     """A legend centred under ``ax``, clear of its tick labels and x label.
 
     The offset is measured in points from the axes' lower edge (after a
     layout pass), so it stays right when constrained layout resizes the axes;
     the legend belongs to the axes, so the layout keeps room for it above the
-    caveat footnote.
+    caveat footnote. ``center_on_figure`` centres it on the figure instead of the axes.
     """
-    from matplotlib.transforms import ScaledTranslation
+    from matplotlib.transforms import ScaledTranslation, blended_transform_factory
 
     fig.draw_without_rendering()
     renderer = fig.canvas.get_renderer()
     below_px = ax.bbox.y0 - ax.get_tightbbox(renderer).y0
     offset_pt = below_px * 72.0 / fig.dpi + gap_pt
-    transform = ax.transAxes + ScaledTranslation(0, -offset_pt / 72.0, fig.dpi_scale_trans)
+    base = blended_transform_factory(fig.transFigure, ax.transAxes) if center_on_figure else ax.transAxes
+    transform = base + ScaledTranslation(0, -offset_pt / 72.0, fig.dpi_scale_trans)
     return ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 0.0), bbox_transform=transform,
                      ncols=ncols, borderaxespad=0, **kwargs)
+
+
+def legend_axes(fig, spec, handles, labels, *, ncols: int = 2, **kwargs):
+    """A legend in its own (invisible) grid cell ``spec``, spanning the columns it is given.
+
+    The cell gets a tiny height; constrained layout grows its margin to fit
+    the legend, centred under the panels it spans.
+    """
+    ax = fig.add_subplot(spec)
+    ax.set_axis_off()
+    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 1.0), ncols=ncols, borderaxespad=0,
+              **kwargs)
+    return ax

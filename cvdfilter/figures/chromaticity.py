@@ -1,0 +1,322 @@
+"""``chromaticity``: surfaces without and with the filter, with the observer's confusion lines.
+
+Spaces:
+
+``mb`` (default)
+    MacLeod-Boynton (l, s) of the observer's normal base observer (same age
+    and field; a dichromat's own luminance has no l axis), scaled as in CIE 170-1 (:meth:`cvdfilter.observers.observer.Observer.macleod_boynton`).
+    Confusion lines are straight here too: protan lines meet at (1, 0), deutan
+    lines at (0, 0), tritan lines are vertical (l constant) (MacLeod & Boynton
+    1979, JOSA 69, 1183).
+``xy``
+    CIE 1931 xy. Cone excitations map to XYZ with the least-squares
+    LMS-to-XYZ matrix (:func:`cvdfilter.observers.confusion.lms_to_xyz_matrix`),
+    so the confusion lines pass exactly through the plotted copunctal point; the
+    CIE 2006 fundamentals are not an exact transform of the 1931 functions, so
+    coordinates can differ from a direct CIE 1931 calculation by a few thousandths.
+``xy2015``
+    CIE 170-2:2015 xy for the observer's field (exact for the CIE 2006 fundamentals).
+
+Every surface is drawn without the filter (open circle) and with it (filled
+dot), joined by an arrow; "with" is the corresponding colour after von Kries
+adaptation to the filtered illuminant, expressed in the frame of the
+unfiltered white: ``LMS_with * (W_without / W_with) ** a`` for adaptation a
+(a = 1: the filtered white maps onto the unfiltered white). The unfiltered
+white and the filtered white (before adaptation) are marked. A top panel
+shows the whole diagram: spectrum locus, copunctal point and a fan of
+confusion lines through the locus; the panel below zooms in on the surfaces.
+
+Public: :func:`chromaticity_figure`, :func:`chromaticity_data`, :data:`SPACES`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from .common import legend_axes, load_inputs, observer_label, short_name
+from .output import FigureResult, finish, new_figure, style_context
+from .palette import NEUTRAL, OKABE_ITO
+from .style import Style
+
+__all__ = ["chromaticity_figure", "chromaticity_data", "SPACES"]
+
+SPACES = {
+    "mb": "MacLeod-Boynton (l, s), CIE 170-1 scaling",
+    "xy": "CIE 1931 xy (cone coordinates through the least-squares LMS-to-XYZ matrix)",
+    "xy2015": "CIE 170-2:2015 xy for the observer's field",
+}
+_FAN_NM = np.arange(420, 681, 20)
+_LOCUS_NM = (400, 700)
+
+
+def _project(space: str, obs, lms, matrix=None) -> np.ndarray:
+    """MacLeod-Boynton (l, s) of ``obs`` or xy through ``matrix``, for lms (..., 3)."""
+    if space == "mb":
+        return obs.macleod_boynton(lms)
+    xyz = np.asarray(lms, dtype=float) @ matrix.T
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return xyz[..., :2] / xyz.sum(axis=-1, keepdims=True)
+
+
+def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surfaces="colorchecker",
+                      adaptation="full", space: str = "mb") -> dict:
+    """The numbers the chromaticity figure plots.
+
+    Returns
+    -------
+    dict
+        ``space``, ``axis_labels``, ``observer`` (spec), ``deficiency``,
+        ``copunctal`` ((2,) or None when at infinity, i.e. tritan in MB),
+        ``locus_nm`` and ``locus`` ((n, 2)), ``white`` ((2,), unfiltered),
+        ``filters``: list of dicts with ``name``, ``without`` and ``with``
+        ((n_surfaces, 2) adapted coordinates), ``white_filtered`` ((2,),
+        before adaptation), ``white_adapted`` ((2,)), and ``labels`` of the surfaces.
+    """
+    from ..observers import confusion
+    from ..observers.spaces import parse_adaptation, von_kries_gains
+
+    if space not in SPACES:
+        raise InputError(f"--space {space} is not one of {', '.join(SPACES)}")
+    got = load_inputs(filters, illuminant=illuminant, observers=[observer], surfaces=surfaces)
+    fs, ill, obs, surf = got["filters"], got["illuminant"], got["observers"][0], got["surfaces"]
+    a = parse_adaptation(adaptation)
+    base = obs.base or obs
+    matrix = None
+    system = None
+    if space != "mb":
+        system = "cie1931" if space == "xy" else ("cie2015-10" if base.params.get("field", 2) >= 6 else "cie2015-2")
+        matrix, _ = confusion.lms_to_xyz_matrix(base.fundamentals, confusion.xy_cmfs(system, fs.grid))
+
+    # The diagram is the base (normal) observer's space, same age and field: a dichromat's own
+    # luminance has no MacLeod-Boynton l; the deficiency enters through the confusion lines.
+    obs_space = base
+    fundamentals = base.fundamentals
+    white0 = ill.spd @ fundamentals
+    stimuli0 = (ill.spd[:, None] * surf.reflectance).T                       # (n_samples, n_wl)
+    lms0 = stimuli0 @ fundamentals
+    out_filters = []
+    for name, t in zip(fs.names, fs.transmittance):
+        white1 = (ill.spd * t) @ fundamentals
+        lms1 = (stimuli0 * t) @ fundamentals
+        adapted = lms1 * von_kries_gains(white1, white0, adaptation=a) * white0
+        out_filters.append({
+            "name": name,
+            "without": _project(space, obs_space, lms0, matrix),
+            "with": _project(space, obs_space, adapted, matrix),
+            "white_filtered": _project(space, obs_space, white1, matrix),
+            "white_adapted": _project(space, obs_space,
+                                      white1 * von_kries_gains(white1, white0, adaptation=a) * white0, matrix),
+        })
+
+    deficiency = obs.deficiency
+    copunctal = None
+    if deficiency is not None:
+        cone = ("protan", "deutan", "tritan").index(deficiency)
+        if space == "mb":
+            copunctal = None if cone == 2 else obs_space.macleod_boynton(np.eye(3)[cone])
+        else:
+            copunctal = confusion.copunctal_point(obs, deficiency, xy_system=system)
+    wl = fs.wavelengths
+    keep = (wl >= _LOCUS_NM[0]) & (wl <= _LOCUS_NM[1])
+    if space == "mb":
+        locus_nm, locus = wl[keep], obs_space.macleod_boynton(fundamentals[keep])
+    else:
+        locus_nm, locus = confusion.spectrum_locus(obs, xy_system=system)
+        sel = (locus_nm >= _LOCUS_NM[0]) & (locus_nm <= _LOCUS_NM[1])
+        locus_nm, locus = locus_nm[sel], locus[sel]
+    labels = {"mb": ("MacLeod-Boynton l", "MacLeod-Boynton s"),
+              "xy": ("x (CIE 1931)", "y (CIE 1931)"),
+              "xy2015": ("x (CIE 170-2)", "y (CIE 170-2)")}[space]
+    return {"space": space, "axis_labels": labels, "observer": obs.spec, "observer_label": observer_label(obs),
+            "deficiency": deficiency, "copunctal": copunctal, "locus_nm": locus_nm, "locus": locus,
+            "white": _project(space, obs_space, white0, matrix), "filters": out_filters, "labels": list(surf.labels),
+            "surfaces": surf.name, "illuminant": ill.name, "adaptation": a, "xy_system": system}
+
+
+def _locus_labels(space: str):
+    """(nm, offset in points, ha, va) for the wavelength labels on the locus."""
+    if space == "mb":
+        # the upper branch rises steeply; the long-wavelength branch runs along s = 0
+        return [(450, (4, 0), "left", "center"), (480, (4, 0), "left", "center"), (560, (0, -3), "center", "top"),
+                (620, (0, -3), "center", "top")]
+    return [(460, (-4, 0), "right", "center"), (490, (-4, 0), "right", "center"),
+            (520, (0, 4), "center", "bottom"), (560, (4, 2), "left", "bottom"),
+            (600, (4, 0), "left", "center")]
+
+
+def _fan_directions(copunctal, points, n=9):
+    """Unit directions from the copunctal point spanning the angles of ``points``."""
+    d = points - copunctal
+    ang = np.arctan2(d[:, 1], d[:, 0])
+    lo, hi = ang.min(), ang.max()
+    pad = 0.08 * (hi - lo) + 1e-4
+    angles = np.linspace(lo - pad, hi + pad, n)
+    return np.stack([np.cos(angles), np.sin(angles)], axis=-1)
+
+
+def _draw_fan(ax, copunctal, directions, length, gid):
+    for k, u in enumerate(directions):
+        end = copunctal + length * u
+        ax.plot([copunctal[0], end[0]], [copunctal[1], end[1]], color=NEUTRAL["line"], lw=0.45,
+                linestyle=(0, (3, 2)), zorder=1, gid=f"{gid}-{k}")
+
+
+def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="colorchecker",
+                        adaptation="full", space: str = "mb", style: Style | None = None, width_mm: float = 89.0,
+                        height_mm: float | None = None, title: str | None = None,
+                        caveat: str | None = None) -> FigureResult:
+    """Chromaticity diagram: locus, copunctal point, confusion lines, surfaces without -> with the filter.
+
+    Parameters
+    ----------
+    filters
+        One to four filters (one zoomed panel each).
+    observers : sequence of str
+        Exactly one observer (default deuteranope); its fundamentals define the
+        space and its deficiency the confusion lines.
+    surfaces : str
+        Surface set (default the 24-patch ColorChecker, readable as arrows).
+    space : str
+        ``mb``, ``xy`` or ``xy2015`` (:data:`SPACES`).
+
+    Returns
+    -------
+    FigureResult
+        ``data`` as :func:`chromaticity_data`. Artists carry gids: ``copunctal``,
+        ``locus``, ``white``, ``white-filtered-<i>``, ``surfaces-without-<i>``,
+        ``surfaces-with-<i>``.
+    """
+    style = style or Style()
+    observers = list(observers or ["deuteranope"])
+    if len(observers) != 1:
+        raise InputError("the chromaticity figure shows one observer", hint="give --observer once")
+    data = chromaticity_data(filters, illuminant=illuminant, observer=observers[0], surfaces=surfaces,
+                             adaptation=adaptation, space=space)
+    n_f = len(data["filters"])
+    if n_f > 4:
+        raise InputError(f"{n_f} filters: the chromaticity figure takes at most 4", hint="one figure per filter")
+    copunctal = data["copunctal"]
+    locus = data["locus"]
+    mb = space == "mb"
+
+    if height_mm is None:
+        height_mm = width_mm * (1.55 if n_f == 1 else 1.2) if width_mm < 120 else width_mm * 0.62
+    with style_context(style):
+        fig = new_figure(style, width_mm, height_mm)
+        if width_mm < 120:
+            ncols = min(n_f, 2)
+            nrows_zoom = int(np.ceil(n_f / ncols))
+            gs = fig.add_gridspec(2 + nrows_zoom, ncols, height_ratios=[1.0] + [1.45] * nrows_zoom + [0.001])
+            ax_all = fig.add_subplot(gs[0, :])
+            zoom_axes = [fig.add_subplot(gs[1 + k // ncols, k % ncols]) for k in range(n_f)]
+        else:
+            gs = fig.add_gridspec(2, 1 + n_f, width_ratios=[1.0] + [1.3] * n_f, height_ratios=[1.0, 0.001])
+            ax_all = fig.add_subplot(gs[0, 0])
+            zoom_axes = [fig.add_subplot(gs[0, 1 + k]) for k in range(n_f)]
+        legend_spec = gs[-1, :]
+
+        handles = {}
+        # --- overview --------------------------------------------------------------------------
+        ax_all.plot(locus[:, 0], locus[:, 1], color="black", lw=0.8, gid="locus")
+        if not mb:
+            ax_all.plot([locus[0, 0], locus[-1, 0]], [locus[0, 1], locus[-1, 1]], color="black", lw=0.5,
+                        linestyle=(0, (1, 1)))
+        for nm, offset, ha, va in _locus_labels(space):
+            i = int(np.argmin(np.abs(data["locus_nm"] - nm)))
+            ax_all.plot(*locus[i], marker="o", markersize=1.5, color="black", linestyle="none")
+            ax_all.annotate(f"{nm}", xy=locus[i], xytext=offset, textcoords="offset points",
+                            fontsize=style.tick_size, color=NEUTRAL["text"], ha=ha, va=va)
+        all_points = np.vstack([data["white"][None]] + [f["without"] for f in data["filters"]] +
+                               [f["with"] for f in data["filters"]])
+        if copunctal is not None:
+            through = np.array([locus[int(np.argmin(np.abs(data["locus_nm"] - nm)))] for nm in _FAN_NM])
+            d = through - copunctal
+            dirs = d / np.linalg.norm(d, axis=1, keepdims=True)
+            span = np.ptp(np.vstack([locus, copunctal[None]]), axis=0).max() * 1.6
+            _draw_fan(ax_all, copunctal, dirs, span, "fan-overview")
+            handles["copunctal"], = ax_all.plot(*copunctal, marker="X", color="black",
+                                                markersize=style.marker_size * 1.6, linestyle="none", zorder=5,
+                                                clip_on=False, gid="copunctal")
+        elif data["deficiency"] == "tritan" and mb:
+            # tritan lines are vertical in MacLeod-Boynton space (the copunctal point is at s = infinity)
+            for k, x in enumerate(np.linspace(locus[:, 0].min(), locus[:, 0].max(), 11)[1:-1]):
+                ax_all.axvline(x, color=NEUTRAL["line"], lw=0.45, linestyle=(0, (3, 2)), zorder=1,
+                               gid=f"fan-overview-{k}")
+        lo = all_points.min(axis=0)
+        hi = all_points.max(axis=0)
+        pad = 0.12 * (hi - lo) + 1e-3
+        from matplotlib.patches import Rectangle
+
+        ax_all.add_patch(Rectangle(lo - pad, *(hi - lo + 2 * pad), fill=False, lw=0.6, edgecolor=OKABE_ITO["blue"],
+                                   zorder=4, gid="zoom-box"))
+        frame = np.vstack([locus] + ([copunctal[None]] if copunctal is not None else []))
+        flo, fhi = frame.min(axis=0), frame.max(axis=0)
+        fpad = 0.05 * (fhi - flo)
+        ax_all.set_xlim(flo[0] - fpad[0], fhi[0] + fpad[0])
+        ax_all.set_ylim(flo[1] - (2.5 if mb else 1.0) * fpad[1], fhi[1] + 1.6 * fpad[1])
+        ax_all.set_xlabel(data["axis_labels"][0])
+        ax_all.set_ylabel(data["axis_labels"][1])
+        if not mb:
+            ax_all.set_aspect("equal", adjustable="box")
+
+        # --- zoomed panels -------------------------------------------------------------------------
+        for k, (ax, f) in enumerate(zip(zoom_axes, data["filters"])):
+            w0, w1 = f["without"], f["with"]
+            if copunctal is not None:
+                dirs = _fan_directions(copunctal, np.vstack([w0, w1]))
+                length = np.linalg.norm(np.vstack([w0, w1]) - copunctal, axis=1).max() * 1.5
+                _draw_fan(ax, copunctal, dirs, length, f"fan-{k}")
+                handles["confusion"] = ax.lines[-1]
+            elif data["deficiency"] == "tritan" and mb:
+                xs = np.linspace(lo[0] - pad[0], hi[0] + pad[0], 9)
+                for j, x in enumerate(xs):
+                    line = ax.axvline(x, color=NEUTRAL["line"], lw=0.45, linestyle=(0, (3, 2)), zorder=1,
+                                      gid=f"fan-{k}-{j}")
+                handles["confusion"] = line
+            for j in range(len(w0)):
+                ax.annotate("", xy=w1[j], xytext=w0[j], zorder=3,
+                            arrowprops={"arrowstyle": "-|>,head_length=0.35,head_width=0.15", "lw": 0.5,
+                                        "color": OKABE_ITO["blue"], "shrinkA": 1.5, "shrinkB": 0})
+            handles["without"], = ax.plot(w0[:, 0], w0[:, 1], linestyle="none", marker="o", markersize=style.marker_size,
+                                          markerfacecolor="white", markeredgecolor="black", markeredgewidth=0.6,
+                                          zorder=4, gid=f"surfaces-without-{k}")
+            handles["with"], = ax.plot(w1[:, 0], w1[:, 1], linestyle="none", marker="o",
+                                       markersize=style.marker_size * 0.6, color=OKABE_ITO["blue"], zorder=5,
+                                       gid=f"surfaces-with-{k}")
+            handles["white"], = ax.plot(*data["white"], linestyle="none", marker="*", markersize=style.marker_size * 2.2,
+                                        color="black", markeredgecolor="white", markeredgewidth=0.4, zorder=6,
+                                        gid="white" if k == 0 else f"white-{k}")
+            handles["white_filtered"], = ax.plot(*f["white_filtered"], linestyle="none", marker="*",
+                                                 markersize=style.marker_size * 2.2, markerfacecolor="white",
+                                                 markeredgecolor=OKABE_ITO["vermillion"], markeredgewidth=0.8,
+                                                 zorder=6, gid=f"white-filtered-{k}")
+            pts = np.vstack([w0, w1, data["white"][None], f["white_filtered"][None]])
+            plo, phi = pts.min(axis=0), pts.max(axis=0)
+            ppad = 0.06 * (phi - plo) + 1e-4
+            ax.set_xlim(plo[0] - ppad[0], phi[0] + ppad[0])
+            ax.set_ylim(plo[1] - ppad[1], phi[1] + ppad[1])
+            ax.set_xlabel(data["axis_labels"][0])
+            ax.set_ylabel(data["axis_labels"][1])
+            if n_f > 1:
+                ax.set_title(short_name(f["name"], 30), fontsize=style.font_size)
+            ax.ticklabel_format(useOffset=False)
+            if not mb:
+                ax.set_aspect("equal", adjustable="box")
+
+        ax_all.set_title(f"{data['observer_label']}, {data['illuminant']}", loc="left", fontsize=style.font_size)
+        legend_items = [("without", "surface without filter"), ("with", "with filter (adapted)"),
+                        ("white", f"white ({data['illuminant']})"),
+                        ("white_filtered", "white through filter, unadapted")]
+        if "confusion" in handles:
+            legend_items.append(("confusion", f"{data['deficiency']} confusion lines"))
+        if "copunctal" in handles:
+            legend_items.append(("copunctal", "copunctal point"))
+        legend_axes(fig, legend_spec, [handles[k] for k, _ in legend_items], [t for _, t in legend_items],
+                    ncols=2 if width_mm < 120 else 3, handlelength=1.8, columnspacing=1.0)
+        finish(fig, style, title=title, caveat=caveat)
+
+    inputs = {"filters": [f["name"] for f in data["filters"]], "illuminant": data["illuminant"],
+              "observer": data["observer"], "surfaces": data["surfaces"], "adaptation": data["adaptation"],
+              "space": space}
+    return FigureResult("chromaticity", fig, data, style, inputs)

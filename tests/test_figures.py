@@ -1,0 +1,272 @@
+"""Figures: style, palette, deterministic files, and the plotted data of each kind.
+
+Plotted values are read back from the matplotlib artists (their data, not pixels) and
+compared with the numbers the rest of the package computes and with outside references.
+"""
+
+from __future__ import annotations
+
+import itertools
+import re
+
+import numpy as np
+import pytest
+
+from cvdfilter.errors import InputError
+from cvdfilter.figures import KINDS, figure, parse_style, width_mm
+from cvdfilter.figures.palette import OKABE_ITO, SERIES, series
+from cvdfilter.figures.style import Style
+
+
+def _artist(fig, gid):
+    """The first artist in the figure with this gid."""
+    found = fig.findobj(lambda a: a.get_gid() == gid)
+    assert found, f"no artist with gid {gid!r}"
+    return found[0]
+
+
+# --- style -----------------------------------------------------------------------------------------
+
+def test_widths_are_journal_columns():
+    # Source: journal figure guidelines (Nature: single column 89 mm, double column 183 mm; from memory,
+    # as the issue states).
+    assert width_mm("single") == 89.0
+    assert width_mm("double") == 183.0
+    assert width_mm("120") == 120.0
+    with pytest.raises(InputError):
+        width_mm("wide")
+    with pytest.raises(InputError):
+        width_mm(5)
+
+
+def test_style_from_options_and_file(tmp_path):
+    style = parse_style("font_size=8,tick_size=7.5")
+    assert style.font_size == 8.0 and style.tick_size == 7.5
+    f = tmp_path / "journal.mplstyle"
+    f.write_text("# lab style\nfont_size: 9\naxes.linewidth = 0.8\ncaveat_size: 6.5\n")
+    style = parse_style([str(f), "title_size=10"])
+    assert style.font_size == 9.0 and style.caveat_size == 6.5 and style.title_size == 10.0
+    assert style.rc_params()["axes.linewidth"] == 0.8
+    assert style.rc_params()["pdf.fonttype"] == 42 and style.rc_params()["svg.fonttype"] == "none"
+
+
+@pytest.mark.parametrize("text,word", [("font_size=3", "below 5 pt"), ("colour=red", "unknown style key"),
+                                       ("font_size=big", "not a number"), ("font=NoSuchFontXyz", "not installed"),
+                                       ("lines.linewidth=thick", "lines.linewidth")])
+def test_style_errors_are_one_line(text, word):
+    with pytest.raises(InputError) as exc:
+        parse_style(text)
+    assert word in str(exc.value) and "\n" not in str(exc.value)
+
+
+def test_style_file_error_names_line(tmp_path):
+    f = tmp_path / "bad.style"
+    f.write_text("font_size: 8\nnonsense here\n")
+    with pytest.raises(InputError) as exc:
+        parse_style(str(f))
+    assert "line 2" in str(exc.value) and str(f) in str(exc.value)
+
+
+def test_style_sizes_reach_the_figure():
+    r = figure("spectrum", "larkhill-notch-575", style="font_size=9,tick_size=8", title="T")
+    ax = r.figure.axes[-1]
+    assert ax.xaxis.label.get_fontsize() == 9.0
+    assert ax.get_xticklabels()[0].get_fontsize() == 8.0
+
+
+# --- palette ---------------------------------------------------------------------------------------
+
+def test_palette_is_okabe_ito():
+    # Source: Okabe & Ito (2008), Color Universal Design, https://jfly.uni-koeln.de/color/ : RGB
+    # (230,159,0) orange, (86,180,233) sky blue, (0,158,115) bluish green, (240,228,66) yellow,
+    # (0,114,178) blue, (213,94,0) vermillion, (204,121,167) reddish purple, black.
+    published = {"orange": (230, 159, 0), "sky blue": (86, 180, 233), "bluish green": (0, 158, 115),
+                 "yellow": (240, 228, 66), "blue": (0, 114, 178), "vermillion": (213, 94, 0),
+                 "reddish purple": (204, 121, 167), "black": (0, 0, 0)}
+    for name, rgb in published.items():
+        assert tuple(int(OKABE_ITO[name][i:i + 2], 16) for i in (1, 3, 5)) == rgb
+
+
+def test_series_differ_in_colour_line_style_and_marker():
+    # Invariant: no two of the first 8 series share a colour, a line style or a marker, so none
+    # is told apart by colour alone; 9-16 repeat a colour with another line style and open markers.
+    s = series(16)
+    for a, b in itertools.combinations(s[:8], 2):
+        assert a.color != b.color and a.linestyle != b.linestyle and a.marker != b.marker
+    for a, b in itertools.combinations(s, 2):
+        differences = (a.color != b.color) + (a.linestyle != b.linestyle) + (a.marker != b.marker) + (
+            a.filled != b.filled)
+        assert differences >= 2
+    with pytest.raises(InputError):
+        series(17)
+
+
+@pytest.mark.parametrize("cvd", ["protanomaly", "deuteranomaly", "tritanomaly"])
+def test_palette_colours_stay_apart_for_dichromats(cvd):
+    # Reference library: colorspacious's sRGB1+CVD (Machado et al. 2009) at severity 100 simulates
+    # each dichromat; every pair of the eight colours stays at least 10 CAM02-UCS units apart
+    # (measured minimum: 14.0 protan, 14.8 deutan, 11.0 tritan). A difference of 10 units is large
+    # (common practice).
+    import colorspacious as cs
+
+    rgb = np.array([[int(s.color[i:i + 2], 16) / 255 for i in (1, 3, 5)] for s in SERIES])
+    sim = np.clip(cs.cspace_convert(rgb, {"name": "sRGB1+CVD", "cvd_type": cvd, "severity": 100}, "sRGB1"), 0, 1)
+    ucs = cs.cspace_convert(sim, "sRGB1", "CAM02-UCS")
+    dmin = min(np.linalg.norm(ucs[i] - ucs[j]) for i, j in itertools.combinations(range(len(rgb)), 2))
+    assert dmin >= 10.0
+
+
+# --- output ----------------------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def spectrum_result():
+    return figure("spectrum", ["larkhill-notch-575", "notch:center=530,fwhm=20,depth=0.6"],
+                  observers=["normal", "deuteranomalous:shift=10"])
+
+
+def test_svg_and_pdf_are_byte_identical_across_runs(spectrum_result):
+    again = figure("spectrum", ["larkhill-notch-575", "notch:center=530,fwhm=20,depth=0.6"],
+                   observers=["normal", "deuteranomalous:shift=10"])
+    for fmt in ("svg", "pdf"):
+        first = spectrum_result.to_bytes(fmt)
+        spectrum_result.to_bytes("png", dpi=600)   # saving at another dpi must not move anything
+        assert spectrum_result.to_bytes(fmt) == first
+        assert again.to_bytes(fmt) == first
+
+
+def test_pdf_embeds_truetype_fonts(spectrum_result):
+    pdf = spectrum_result.to_bytes("pdf")
+    assert pdf.startswith(b"%PDF")
+    assert b"/FontFile2" in pdf                       # TrueType font program embedded
+    assert b"/Subtype /Type3" not in pdf              # no Type 3 bitmap-like fonts
+    # every font descriptor points at an embedded TrueType program (a small parse of the objects)
+    descriptors = re.findall(rb"<< /Type /FontDescriptor(.*?)>>", pdf, flags=re.S)
+    assert descriptors and all(b"/FontFile2" in d for d in descriptors)
+    assert b"/CreationDate" not in pdf                # no date: reproducible
+
+
+def test_svg_keeps_text_as_text(spectrum_result):
+    svg = spectrum_result.to_bytes("svg").decode()
+    assert "<text" in svg and "Wavelength (nm)" in svg
+    assert "<dc:date>" not in svg
+    assert not re.search(r'id="DejaVuSans-', svg)     # no glyph outlines
+
+
+def test_png_has_the_asked_dpi(spectrum_result):
+    from PIL import Image
+    import io
+
+    png = spectrum_result.to_bytes("png", dpi=150)
+    with Image.open(io.BytesIO(png)) as im:
+        w, _ = im.size
+        assert abs(w - round(89 / 25.4 * 150)) <= 1
+        assert abs(im.info["dpi"][0] - 150) < 0.5
+
+
+def test_unknown_kind_and_format():
+    with pytest.raises(InputError):
+        figure("histogram", "larkhill-notch-575")
+    r = figure("spectrum", "larkhill-notch-575")
+    with pytest.raises(InputError):
+        r.to_bytes("jpg")
+    with pytest.raises(InputError):
+        r.save("out.gif")
+    with pytest.raises(InputError):
+        figure("spectrum", "larkhill-notch-575", space="xy")
+
+
+# --- spectrum --------------------------------------------------------------------------------------
+
+def test_spectrum_plots_the_transmittance_and_notches(spectrum_result):
+    from cvdfilter.spectra.filters import find_notches, load_filters
+
+    fig, data = spectrum_result.figure, spectrum_result.data
+    fs = load_filters(["larkhill-notch-575", "notch:center=530,fwhm=20,depth=0.6"])
+    for i in range(2):
+        line = _artist(fig, f"transmittance-{i}")
+        assert np.allclose(line.get_xdata(), fs.wavelengths)
+        assert np.allclose(line.get_ydata(), 100 * fs.transmittance[i])
+    # The parametric notch: centre 530 nm, FWHM 20 nm by construction; the shaded span covers
+    # centre +- FWHM/2 as find_notches measures it.
+    n = find_notches(fs.wavelengths, fs.transmittance[1])[0]
+    assert n["center"] == pytest.approx(530, abs=0.05) and n["fwhm"] == pytest.approx(20, abs=0.1)
+    span = _artist(fig, "notch-1")
+    xs = span.get_transform().transform(span.get_path().vertices)[:, 0]
+    lo, hi = fig.axes[0].transData.inverted().transform([[xs.min(), 0], [xs.max(), 0]])[:, 0]
+    assert lo == pytest.approx(n["center"] - n["fwhm"] / 2, abs=1e-6)
+    assert hi == pytest.approx(n["center"] + n["fwhm"] / 2, abs=1e-6)
+    texts = [t.get_text() for t in fig.axes[0].texts]
+    assert "530 nm\nFWHM 20 nm" in texts
+
+
+def test_spectrum_cones_are_cie_170_1(spectrum_result):
+    # Source: CIE 170-1:2006 2 deg fundamentals at 32 years = Stockman & Sharpe (2000) 2 deg, energy
+    # based, peak 1 (colour-science table), within 1e-3.
+    import colour
+
+    fig = spectrum_result.figure
+    ref = colour.MSDS_CMFS["Stockman & Sharpe 2 Degree Cone Fundamentals"].copy().align(
+        colour.SpectralShape(390, 780, 1))
+    ref = np.asarray(ref.values) / np.asarray(ref.values).max(axis=0)
+    for c in range(3):
+        line = _artist(fig, f"cone-{c}")
+        x, y = np.asarray(line.get_xdata()), np.asarray(line.get_ydata())
+        assert np.max(np.abs(y[x >= 390] - ref[:, c])) < 1e-3
+    # the deuteranomalous M pigment is drawn apart from the normal M, its peak 10 nm toward L
+    shifted = _artist(fig, "shifted-cone-0")
+    peak_shift = shifted.get_xdata()[np.argmax(shifted.get_ydata())] - 543
+    assert 6 <= peak_shift <= 14
+
+
+def test_spectrum_illuminant_is_relative_d65(spectrum_result):
+    # Source: CIE D65 relative SPD (colour-science), normalised to its maximum in 380-780 nm.
+    import colour
+
+    d65 = colour.SDS_ILLUMINANTS["D65"].copy().align(colour.SpectralShape(380, 780, 1))
+    ref = np.asarray(d65.values) / np.max(d65.values)
+    assert np.max(np.abs(spectrum_result.data["illuminant_relative"] - ref)) < 2e-3
+
+
+def test_every_kind_has_a_default_title():
+    from cvdfilter.figures import DEFAULT_TITLES
+
+    assert set(DEFAULT_TITLES) == set(KINDS)
+
+
+def test_caveat_footnote_and_no_caveat():
+    from cvdfilter.cautions import CAVEAT
+    from cvdfilter.figures.sweep import sweep_figure
+
+    card = _fake_card()
+    r = sweep_figure("notch:center=540..560/10,fwhm=30,depth=0.8", card=card, caveat=CAVEAT)
+    text = _artist(r.figure, "caveat").get_text()
+    assert " ".join(text.split()) == CAVEAT
+    r = sweep_figure("notch:center=540..560/10,fwhm=30,depth=0.8", card=card, caveat=None)
+    assert not r.figure.findobj(lambda a: a.get_gid() == "caveat")
+
+
+def _fake_card():
+    # A scorecard-shaped dict for plotting tests that do not need real metrics.
+    names = ["notch:center=540,depth=0.8,fwhm=30", "notch:center=550,depth=0.8,fwhm=30",
+             "notch:center=560,depth=0.8,fwhm=30"]
+    return {"illuminant": "D65", "surfaces": "ces99", "adaptation": "full", "filters": [
+        {"name": n, "luminous_transmittance": 0.5 + 0.1 * k,
+         "observers": [{"observer": "normal", "red_green_gain": 1.0},
+                       {"observer": "deuteranope", "red_green_gain": 1.0 + 0.1 * k}]}
+        for k, n in enumerate(names)]}
+
+
+def test_sweep_plots_the_card_values():
+    from cvdfilter.figures.sweep import sweep_figure, swept_parameters
+
+    r = sweep_figure("notch:center=540..560/10,fwhm=30,depth=0.8", card=_fake_card())
+    line = _artist(r.figure, "sweep-red_green_gain-1")
+    assert np.allclose(line.get_xdata(), [540, 550, 560])
+    assert np.allclose(line.get_ydata(), [1.0, 1.1, 1.2])
+    lum = _artist(r.figure, "sweep-luminous_transmittance-0")
+    assert np.allclose(lum.get_ydata(), [50, 60, 70])          # percent
+    assert r.figure.axes[1].get_ylim() == (0, 100)              # the full scale, not a zoom
+    varying, values = swept_parameters(["notch:center=540,fwhm=20*nd:t=0.5", "notch:center=540,fwhm=30*nd:t=0.5"])
+    assert varying == ["fwhm"] and np.allclose(values["t"], 0.5)
+    with pytest.raises(InputError):
+        sweep_figure("larkhill-notch-575", card=_fake_card())
