@@ -56,6 +56,12 @@ def test_xy_system_choice():
     assert xy_system_for(observer("normal:field=10")) == "cie2015-10"
     assert xy_system_for(observer("normal:data=ss10")) == "cie2015-10"
     assert xy_system_for(observer("deuteranope:data=sp1975")) == "cie1931"
+    assert xy_system_for(observer("deuteranope:age=70")) == "own-2"
+    assert xy_system_for(observer("deuteranope:field=8")) == "own-10"
+    # in its own cone-fundamental-based xy, any CIE 2006 observer has the standard copunctal points
+    assert np.allclose(copunctal_point("deuteranope:age=70"), [1.3267, -0.3267], atol=1e-3)
+    with pytest.raises(InputError, match="needs an observer"):
+        xy_cmfs("own-2", observer("normal").grid)
     # S&S 10 deg in the CIE 2015 10 deg xy is exact too
     assert lms_to_xyz_matrix(observer("normal:data=ss10").fundamentals, xy_cmfs("cie2015-10", observer("normal").grid))[1] < 1e-4
     with pytest.raises(InputError, match="xy system"):
@@ -89,16 +95,14 @@ def test_neutral_point_is_confused_with_white(spec, white):
     obs = observer(spec)
     spd = reference_white_spectrum(obs, white)
     system = xy_system_for(obs)
-    cm = xy_cmfs(system, obs.grid)
+    cm = xy_cmfs(system, obs.grid, observer=obs)
     xyz_w = spd @ cm
     white_xy = xyz_w[:2] / xyz_w.sum()
     line = confusion_line(white_xy, copunctal_point(obs))
-    exact = obs.params["age"] == 32 and obs.params["field"] in (2.0, 10.0)
     for p in neutral_points(obs, white):
-        # collinear for the 32-year observer, whose fundamentals are an exact linear transform of the
-        # CIE 2015 CMFs; an older observer's are not, and its copunctal point is only a best fit
-        if exact:
-            assert line.distance(p["xy"]) < 2e-3
+        # collinear: in the observer's xy system (CIE 2015 for the 32-year observer, its own
+        # cone-fundamental-based xy otherwise) its fundamentals are an exact linear transform of the CMFs
+        assert line.distance(p["xy"]) < 2e-3
         f = np.array([np.interp(p["wavelength"], obs.wavelengths, obs.fundamentals[:, i]) for i in range(3)])
         w = spd @ obs.fundamentals
         a, b = obs.cones_present

@@ -12,9 +12,10 @@ column 0, 1 or 2 of ``M``.
 the colour-matching functions of the chosen xy system; it is exact when the
 fundamentals are a linear transform of those CMFs (Stockman & Sharpe 2000 /
 CIE 170-1 in the CIE 2015 xy; Smith & Pokorny 1975 in the Judd-Vos modified
-CIE 1931 xy), and a best fit otherwise (an older observer's fundamentals in
-the CIE 2015 xy; Smith & Pokorny in the unmodified CIE 1931 xy, which
-colour-science ships: off by up to 0.011 in x).
+CIE 1931 xy; any CIE 2006 observer in its own cone-fundamental-based xy),
+and a best fit otherwise (an older observer's fundamentals in the CIE 2015
+xy; Smith & Pokorny in the unmodified CIE 1931 xy, which colour-science
+ships: off by up to 0.034 in x).
 
 A dichromat's *neutral points* are the wavelengths it cannot tell from the
 white: where the monochromatic light's two remaining cone signals stand in
@@ -52,6 +53,8 @@ XY_SYSTEMS = {
     "cie1931": "CIE 1931 2 deg (colour-science; Judd-Vos is not shipped)",
     "cie2015-2": "CIE 2015 (CIE 170-2) 2 deg cone-fundamental-based",
     "cie2015-10": "CIE 2015 (CIE 170-2) 10 deg cone-fundamental-based",
+    "own-2": "the observer's own cone-fundamental-based xy: its LMS through the CIE 170-2 2 deg matrix",
+    "own-10": "the observer's own cone-fundamental-based xy: its LMS through the CIE 170-2 10 deg matrix",
 }
 DEFICIENCIES = ("protan", "deutan", "tritan")
 
@@ -60,25 +63,47 @@ def xy_system_for(obs: Observer) -> str:
     """The xy system that matches an observer's fundamentals.
 
     ``data=sp1975`` -> ``cie1931`` (Smith & Pokorny derive from the Judd-Vos
-    modification of CIE 1931); ``data=ss10`` or a CIE 2006 field of 6 deg
-    or more -> ``cie2015-10``; otherwise ``cie2015-2``.
+    modification of CIE 1931); ``data=ss2`` / ``ss10`` and the 32-year CIE
+    2006 observer at 2 or 10 deg -> ``cie2015-2`` / ``cie2015-10`` (exact);
+    any other age or field -> ``own-2`` / ``own-10`` (nearer field), the
+    observer's own fundamentals through the CIE 170-2 matrix, in which its
+    confusion lines are exactly straight. (An older eye's fundamentals are no
+    linear transform of the CIE 2015 CMFs, so in the CIE 2015 diagram its
+    confusion lines do not quite meet in one point.)
     """
     data = obs.params.get("data", "cie2006")
     if data == "sp1975":
         return "cie1931"
-    if data == "ss10" or (data == "cie2006" and obs.params.get("field", 2.0) >= 6.0):
+    if data == "ss10":
         return "cie2015-10"
-    return "cie2015-2"
+    if data == "ss2":
+        return "cie2015-2"
+    field = obs.params.get("field", 2.0)
+    wide = field >= 6.0
+    if obs.params.get("age", 32.0) == 32.0 and field in (2.0, 10.0):
+        return "cie2015-10" if wide else "cie2015-2"
+    return "own-10" if wide else "own-2"
 
 
-def xy_cmfs(system: str, grid: Grid) -> np.ndarray:
-    """Colour-matching functions x, y, z of an xy system on ``grid``, shape (n_wl, 3)."""
-    from .fundamentals import cie1931_cmfs, cie2015_cmfs
+def xy_cmfs(system: str, grid: Grid, *, observer=None) -> np.ndarray:
+    """Colour-matching functions x, y, z of an xy system on ``grid``, shape (n_wl, 3).
+
+    ``own-2`` / ``own-10`` need the ``observer`` (its normal base observer's
+    fundamentals are used).
+    """
+    from .fundamentals import LMS_TO_XYZ_2DEG, LMS_TO_XYZ_10DEG, cie1931_cmfs, cie2015_cmfs
 
     if system == "cie1931":
         return cie1931_cmfs(grid)
     if system in ("cie2015-2", "cie2015-10"):
         return cie2015_cmfs(grid, field=int(system.rsplit("-", 1)[1]))
+    if system in ("own-2", "own-10"):
+        if observer is None:
+            raise InputError(f"the xy system {system} needs an observer", source=system)
+        o = _make_observer(observer)
+        base = o.base if o.base is not None else o
+        m = LMS_TO_XYZ_2DEG if system == "own-2" else LMS_TO_XYZ_10DEG
+        return base.fundamentals @ m.T
     raise InputError(f"unknown xy system '{system}'", source=system, hint="use " + ", ".join(XY_SYSTEMS))
 
 
@@ -141,7 +166,7 @@ def copunctal_point(obs, deficiency: str | None = None, *, xy_system: str | None
         raise InputError("a copunctal point needs a deficiency (protan, deutan or tritan)", source=o.spec)
     base = o.base if o.base is not None else o
     system = xy_system or xy_system_for(base)
-    return copunctal_points(base.fundamentals, xy_cmfs(system, o.grid))[DEFICIENCIES.index(d)]
+    return copunctal_points(base.fundamentals, xy_cmfs(system, o.grid, observer=o))[DEFICIENCIES.index(d)]
 
 
 @dataclass(frozen=True)
@@ -188,7 +213,7 @@ def spectrum_locus(obs, *, xy_system: str | None = None) -> tuple[np.ndarray, np
     """
     o = _make_observer(obs)
     base = o.base if o.base is not None else o
-    c = xy_cmfs(xy_system or xy_system_for(base), o.grid)
+    c = xy_cmfs(xy_system or xy_system_for(base), o.grid, observer=o)
     s = c.sum(axis=1)
     ok = s > 1e-4 * s.max()
     return o.wavelengths[ok], c[ok, :2] / s[ok, None]
@@ -235,7 +260,7 @@ def neutral_points(obs, white=None, *, xy_system: str | None = None) -> list[dic
     wl = o.wavelengths
     lam = wl[idx] + (wl[idx + 1] - wl[idx]) * g[idx] / (g[idx] - g[idx + 1])
     base = o.base if o.base is not None else o
-    c = xy_cmfs(xy_system or xy_system_for(base), o.grid)
+    c = xy_cmfs(xy_system or xy_system_for(base), o.grid, observer=o)
     xyz = np.stack([np.interp(lam, wl, c[:, i]) for i in range(3)], axis=-1)
     xy = xyz[:, :2] / xyz.sum(axis=1, keepdims=True)
     return [{"wavelength": float(x), "xy": p} for x, p in zip(lam, xy)]

@@ -1,0 +1,69 @@
+"""``cvdfilter inspect-observer``: peaks, shift, copunctal point and neutral points of observers."""
+
+from __future__ import annotations
+
+from typing import List, Optional
+
+import typer
+
+from .common import emit, fail, table_text, to_json
+
+
+def _fmt_xy(xy) -> str:
+    return "-" if xy is None else f"({xy[0]:.4f}, {xy[1]:.4f})"
+
+
+def _fmt_peaks(peaks) -> str:
+    return "-" if peaks is None else ", ".join(f"{c} {v:.1f}" for c, v in peaks.items())
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("inspect-observer")
+    def inspect_observer(
+        specs: List[str] = typer.Argument(..., help="Observer specs (see: cvdfilter list observers)."),
+        white: str = typer.Option("D65", "--white", help="White for the neutral points: an illuminant spec, "
+                                                          "or E for equal energy."),
+        step: float = typer.Option(1.0, "--step", help="Grid step, nm (grid 380-780 nm)."),
+        format: str = typer.Option("table", "--format", "-f", help="table or json"),
+        output: Optional[str] = typer.Option(None, "--output", "-o", help="Write to this file instead of stdout."),
+    ) -> None:
+        """Describe observers: cone and pigment peaks, pigment shift, copunctal point, neutral points.
+
+        Example: cvdfilter inspect-observer deuteranomalous:shift=8 protanope --white D65
+        """
+        from ..errors import InputError
+        from ..observers.describe import describe_observers
+        from ..spectra.grid import Grid
+
+        if format not in ("table", "json"):
+            fail(f"--format {format} is not table or json")
+        try:
+            data = describe_observers(specs, white=white, grid=Grid(step=step))
+        except (InputError, ValueError) as exc:
+            fail(exc)
+        if format == "json":
+            emit(to_json(data), output)
+            return
+        blocks = []
+        for d in data["observers"]:
+            rows = [
+                ("kind", d["kind"] + (f" ({d['deficiency']})" if d["deficiency"] else "")),
+                ("fundamental peaks", _fmt_peaks(d["fundamental_peaks_nm"]) + " nm"),
+                ("pigment peaks", _fmt_peaks(d["pigment_peaks_nm"]) + (" nm" if d["pigment_peaks_nm"] else "")),
+                ("luminance peak", f"{d['luminance_peak_nm']:.1f} nm"),
+            ]
+            if d["shift_nm"] is not None:
+                sep = d["separation_nm"]
+                rows.append(("pigment shift", f"{d['shift_nm']:g} nm ({d['affected_cone']} cone)"
+                             + (f", of {sep:.1f} nm separation" if sep else "")))
+            if d["copunctal_point"] is not None:
+                rows.append(("copunctal point", f"{_fmt_xy(d['copunctal_point'])} in {d['xy_system']} xy"))
+            if d["kind"] == "dichromat":
+                pts = "; ".join(f"{p['wavelength_nm']:.1f} nm {_fmt_xy(p['xy'])}" for p in d["neutral_points"])
+                rows.append((f"neutral points ({data['white']})", pts or "none found"))
+            rows.append(("simulation", d["simulation"]))
+            rows += [("note", n) for n in d["notes"]]
+            blocks.append(table_text(["", ""], rows, title=d["spec"]))
+        import textwrap
+
+        emit("\n".join(blocks) + "\n" + textwrap.fill(data["caveat"], 100) + "\n", output)

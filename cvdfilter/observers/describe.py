@@ -1,0 +1,145 @@
+"""A plain description of an observer: peaks, shift, confusion geometry.
+
+The API behind ``cvdfilter inspect-observer``; returns plain dicts (JSON-ready
+after numpy conversion) so the same numbers are available in a notebook.
+
+Public: :func:`describe_observer`, :func:`describe_observers`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..spectra.grid import DEFAULT_GRID, Grid
+from .observer import Observer, observer as _make_observer
+
+__all__ = ["describe_observer", "describe_observers"]
+
+_CONES = ("L", "M", "S")
+
+
+def _peak_nm(wl: np.ndarray, values: np.ndarray) -> float:
+    """Peak wavelength, nm: the grid maximum refined by a parabola through it and its neighbours."""
+    i = int(np.argmax(values))
+    if 0 < i < len(values) - 1:
+        y0, y1, y2 = values[i - 1], values[i], values[i + 1]
+        den = y0 - 2 * y1 + y2
+        if den < 0:
+            return float(wl[i] + 0.5 * (y0 - y2) / den * (wl[i + 1] - wl[i]))
+    return float(wl[i])
+
+
+def _pigment_peaks(obs: Observer) -> tuple[dict | None, str]:
+    """Peak wavelengths of the photopigments (low-density absorbance), nm, and a note."""
+    from . import cie2006
+
+    if obs.params.get("data", "cie2006") != "cie2006":
+        return None, "tabulated fundamentals: no separate pigment spectra"
+    peaks = cie2006.pigment_peaks()
+    if obs.kind == "anomalous":
+        if obs.params.get("model") == "machado2009":
+            return ({c: float(p) for c, p in zip(_CONES, peaks)},
+                    "Machado 2009 shifts the fundamental, not the pigment; normal pigment peaks shown")
+        from .observer import _CONE, _TOWARD
+
+        k, other = _CONE[obs.deficiency], _TOWARD[obs.deficiency]
+        peaks = peaks.copy()
+        peaks[k] += np.sign(peaks[other] - peaks[k]) * obs.params["shift"]
+    return ({c: float(p) for c, p in zip(_CONES, peaks)},
+            "CIE 2006 low-density absorbance; peak = centroid of the top 10 % (cie2006.pigment_peaks)")
+
+
+def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
+    """Describe one observer.
+
+    Parameters
+    ----------
+    spec : str or Observer
+        Observer spec string (``cvdfilter list observers``).
+    white : str, array_like or None
+        White for the neutral points: an illuminant spec, a spectrum on the
+        grid, or None for the equal-energy white.
+    grid : Grid
+
+    Returns
+    -------
+    dict
+        ``spec`` (canonical), ``kind``, ``deficiency``, ``parameters``,
+        ``fundamental_peaks_nm`` and ``pigment_peaks_nm`` (L, M, S, nm),
+        ``luminance_peak_nm``, ``shift_nm`` and ``separation_nm`` (anomalous),
+        ``affected_cone``, ``xy_system``, ``copunctal_point`` (x, y),
+        ``neutral_points`` (dichromats: wavelength nm and xy), ``simulation``
+        (the default method), ``notes``.
+
+    Examples
+    --------
+    >>> d = describe_observer("deuteranope", white=None)
+    >>> d["affected_cone"], [round(p["wavelength_nm"]) for p in d["neutral_points"]]
+    ('M', [498])
+    """
+    from .confusion import copunctal_point, neutral_points, xy_system_for
+
+    obs = _make_observer(spec, grid) if not isinstance(spec, Observer) else spec
+    wl = obs.wavelengths
+    base = obs.base if obs.base is not None else obs
+    pig, pig_note = _pigment_peaks(obs)
+    notes = [pig_note]
+    out = {
+        "spec": obs.spec,
+        "kind": obs.kind,
+        "deficiency": obs.deficiency,
+        "parameters": {k: v for k, v in obs.params.items()},
+        "fundamental_peaks_nm": {c: _peak_nm(wl, obs.fundamentals[:, i]) for i, c in enumerate(_CONES)},
+        "pigment_peaks_nm": pig,
+        "luminance_peak_nm": _peak_nm(wl, obs.luminance),
+        "luminance_weights": list(obs.luminance_weights),
+        "affected_cone": _CONES[obs.affected_cone] if obs.affected_cone is not None else None,
+        "shift_nm": obs.params.get("shift") if obs.kind == "anomalous" else None,
+        "separation_nm": obs.params.get("separation") if obs.kind == "anomalous" else None,
+        "xy_system": xy_system_for(base),
+        "copunctal_point": None,
+        "neutral_points": [],
+        "simulation": {"normal": "identity", "dichromat": "brettel1997", "anomalous": "machado2009"}[obs.kind],
+    }
+    if obs.kind == "dichromat":
+        notes.append(f"reduction dichromat: the {_CONES[obs.missing_cone]} cone is absent; "
+                     "its fundamental is kept only for reference")
+    if obs.deficiency is not None:
+        out["copunctal_point"] = copunctal_point(obs)
+        if obs.kind == "anomalous":
+            notes.append("copunctal point: where this observer's lines of poorest discrimination converge "
+                         "(the base observer's dichromatic copunctal point)")
+        from .confusion import XY_SYSTEMS, lms_to_xyz_matrix, xy_cmfs
+
+        _, resid = lms_to_xyz_matrix(base.fundamentals, xy_cmfs(out["xy_system"], obs.grid, observer=obs))
+        out["copunctal_fit_residual"] = resid
+        if out["xy_system"].startswith("own"):
+            notes.append(f"xy system: this observer's own cone-fundamental-based chromaticity "
+                         f"({XY_SYSTEMS[out['xy_system']].split(': ')[1]})")
+        if resid > 1e-3:
+            notes.append(f"copunctal point: best linear fit of these fundamentals to the {out['xy_system']} "
+                         f"CMFs (relative RMS misfit {resid:.3f}); confusion lines are only roughly straight "
+                         "in that diagram")
+    if obs.kind == "dichromat":
+        out["neutral_points"] = [{"wavelength_nm": p["wavelength"], "xy": p["xy"]}
+                                 for p in neutral_points(obs, white)]
+    out["notes"] = notes
+    return out
+
+
+def describe_observers(specs, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
+    """Describe several observers; adds ``tool``, ``version``, ``inputs``, ``white`` and ``caveat``."""
+    from .._version import __version__
+    from ..cautions import CAVEAT
+
+    specs = [specs] if isinstance(specs, (str, Observer)) else list(specs)
+    return {
+        "tool": "cvdfilter",
+        "version": __version__,
+        "inputs": {"observers": [str(s) if isinstance(s, str) else s.spec for s in specs],
+                   "white": white if isinstance(white, str) or white is None else "spectrum",
+                   "grid": grid.key()},
+        "white": white if isinstance(white, str) else ("equal-energy" if white is None else "spectrum"),
+        "caveat": CAVEAT,
+        "observers": [describe_observer(s, white=white, grid=grid) for s in specs],
+    }
