@@ -1,0 +1,177 @@
+"""``gains``: per observer, contrast gains and discriminable pairs, for one or several filters.
+
+Four panels sharing the observers as rows: red-green, blue-yellow and
+luminance contrast gains (the scorecard's RMS ratios, with / without the
+filter) on a logarithmic axis, so that a gain of 1.25 and a loss to 0.8 are
+drawn the same size, with a reference line at 1 (no change); and the
+discriminable pairs (receptor-noise model, Vorobyev & Osorio 1998) gained
+(right) and lost (left). Filters are told apart by colour, marker and, for
+the pair bars, hatching of the "lost" side. An observer without the axis
+(a protanope or deuteranope has no red-green signal) gets "n/a".
+
+Public: :func:`gains_figure`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .common import legend_axes, observer_label, short_name
+from .metrics import scorecard_dict
+from .output import FigureResult, finish, new_figure, style_context
+from .palette import NEUTRAL, series
+from .style import Style
+
+__all__ = ["gains_figure", "GAIN_PANELS"]
+
+GAIN_PANELS = (("red_green_gain", "Red-green gain"), ("blue_yellow_gain", "Blue-yellow gain"),
+               ("luminance_contrast_gain", "Luminance gain"))
+_NICE = (0.25, 0.33, 0.5, 0.67, 0.8, 0.9, 1.0, 1.1, 1.25, 1.5, 2.0, 3.0, 4.0)
+
+
+def _gain_limits(values) -> tuple[float, float]:
+    v = np.asarray([x for x in values if x is not None and np.isfinite(x) and x > 0], dtype=float)
+    half = max(np.log(1.25), 1.15 * np.max(np.abs(np.log(v)))) if v.size else np.log(1.25)
+    return float(np.exp(-half)), float(np.exp(half))
+
+
+def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, adaptation="full",
+                 style: Style | None = None, width_mm: float = 89.0, height_mm: float | None = None,
+                 title: str | None = None, caveat: str | None = None, card: dict | None = None) -> FigureResult:
+    """Contrast gains and pairs gained/lost per observer for each filter.
+
+    Parameters
+    ----------
+    filters
+        One to eight filters.
+    observers, surfaces, illuminant, adaptation
+        Passed to the scorecard (its defaults where None).
+    card : dict, optional
+        A scorecard dict already computed (``Scorecard.to_dict()``).
+
+    Returns
+    -------
+    FigureResult
+        ``data``: ``observers`` (specs), ``filters`` (names), ``gains``: metric ->
+        array (n_filters, n_observers) (NaN where the metric does not apply),
+        ``gained``, ``lost``: arrays (n_filters, n_observers) of pair counts.
+        Artists: ``gain-<metric>-<filter index>`` (markers), ``pairs-gained-<i>``,
+        ``pairs-lost-<i>`` (bars), ``reference-1`` lines.
+    """
+    from ..errors import InputError
+
+    style = style or Style()
+    if card is None:
+        card = scorecard_dict(filters, illuminant=illuminant, observers=observers, surfaces=surfaces,
+                              adaptation=adaptation, metrics="core")
+    fl = card["filters"]
+    if len(fl) > 8:
+        raise InputError(f"{len(fl)} filters: the gains figure compares at most 8", hint="use the sweep figure")
+    obs_specs = [o["observer"] for o in fl[0]["observers"]]
+    from ..observers.observer import observer as make_observer
+
+    obs_labels = [observer_label(make_observer(s)) for s in obs_specs]
+    n_f, n_o = len(fl), len(obs_specs)
+
+    def grid_of(key):
+        out = np.full((n_f, n_o), np.nan)
+        for i, f in enumerate(fl):
+            for k, o in enumerate(f["observers"]):
+                v = o.get(key)
+                out[i, k] = np.nan if v is None else float(v)
+        return out
+
+    gains = {key: grid_of(key) for key, _ in GAIN_PANELS}
+    gained = np.full((n_f, n_o), np.nan)
+    lost = np.full((n_f, n_o), np.nan)
+    for i, f in enumerate(fl):
+        for k, o in enumerate(f["observers"]):
+            dp = o.get("discriminable_pairs")
+            if dp:
+                gained[i, k], lost[i, k] = dp["gained"], dp["lost"]
+
+    styles = series(n_f)
+    rows = np.arange(n_o)[::-1]                       # first observer at the top
+    offsets = -(np.arange(n_f) - (n_f - 1) / 2) * (0.7 / max(n_f, 1))   # first filter on top
+    height_mm = height_mm or (max(70.0, 30 + 2 * 9.0 * n_o * (1 + 0.12 * n_f)) if width_mm < 120
+                              else max(50.0, 28 + 9.0 * n_o * (1 + 0.12 * n_f)))
+    with style_context(style):
+        fig = new_figure(style, width_mm, height_mm)
+        ncols = 2 if width_mm < 120 else 4
+        nrows = 4 // ncols
+        gs = fig.add_gridspec(nrows + 1, ncols, height_ratios=[1.0] * nrows + [0.001])
+        axes = [fig.add_subplot(gs[p // ncols, p % ncols]) for p in range(4)]
+        for ax in axes[1:]:
+            ax.sharey(axes[0])
+        limits = _gain_limits(np.concatenate([g.ravel() for g in gains.values()]))
+        handles = []
+        for p, (key, label) in enumerate(GAIN_PANELS):
+            ax = axes[p]
+            ax.set_xscale("log")
+            ax.axvline(1.0, color=NEUTRAL["line"], lw=0.7, zorder=1, gid="reference-1")
+            for i in range(n_f):
+                y = rows + offsets[i]
+                h, = ax.plot(gains[key][i], y, markersize=style.marker_size * 1.1, gid=f"gain-{key}-{i}",
+                             label=short_name(fl[i]["name"], 34), **styles[i].marker_kwargs())
+                if p == 0:
+                    handles.append(h)
+            for k in range(n_o):
+                if np.all(np.isnan(gains[key][:, k])):
+                    ax.text(1.0, rows[k], " n/a", ha="left", va="center", fontsize=style.tick_size,
+                            color=NEUTRAL["text"], gid=f"na-{key}-{k}")
+            ax.set_xlim(*limits)
+            ticks = _ticks(limits)
+            ax.set_xticks(ticks, [f"{t:g}" for t in ticks])
+            ax.set_xticks([], minor=True)
+            ax.set_xlabel(f"{label}\n(with / without)")
+        # pairs gained (right) and lost (left)
+        ax = axes[3]
+        height = 0.7 / max(n_f, 1)
+        for i in range(n_f):
+            y = rows + offsets[i]
+            ax.barh(y, np.nan_to_num(gained[i]), height=height, color=styles[i].color, edgecolor=styles[i].color,
+                    lw=0.4, gid=f"pairs-gained-{i}")
+            ax.barh(y, -np.nan_to_num(lost[i]), height=height, color="white", edgecolor=styles[i].color,
+                    hatch="/////", lw=0.4, gid=f"pairs-lost-{i}")
+        ax.axvline(0.0, color=NEUTRAL["line"], lw=0.7, zorder=1)
+        span = np.nanmax(np.abs(np.concatenate([gained.ravel(), lost.ravel(), [1.0]])))
+        ax.set_xlim(-1.1 * span, 1.1 * span)
+        ax.xaxis.set_major_formatter(_abs_formatter())
+        ax.set_xlabel("Pairs lost (hatched)\n| gained")
+        axes[0].set_yticks(rows, obs_labels)
+        axes[0].set_ylim(-0.6, n_o - 0.4)
+        for p, ax in enumerate(axes):
+            if p % ncols:
+                ax.tick_params(axis="y", labelleft=False)
+            ax.tick_params(axis="y", length=0)
+            for r in rows[:-1]:
+                ax.axhline(r - 0.5, color=NEUTRAL["light"], lw=0.4, zorder=0)
+        if n_f > 1:
+            legend_axes(fig, gs[-1, :], handles, [h.get_label() for h in handles], ncols=2 if width_mm < 120 else 4,
+                        handlelength=1.2, columnspacing=1.0)
+        elif title:
+            title = f"{title}: {short_name(fl[0]['name'], 40)}"
+        finish(fig, style, title=title, caveat=caveat)
+
+    data = {"observers": obs_specs, "filters": [f["name"] for f in fl], "gains": gains, "gained": gained,
+            "lost": lost}
+    inputs = {"filters": data["filters"], "illuminant": card.get("illuminant"), "surfaces": card.get("surfaces"),
+              "adaptation": card.get("adaptation"), "observers": obs_specs}
+    return FigureResult("gains", fig, data, style, inputs)
+
+
+def _ticks(limits) -> list[float]:
+    """Round ticks inside ``limits``, at least a sixth of the log range apart, always with 1."""
+    lo, hi = np.log(limits[0]), np.log(limits[1])
+    gap = (hi - lo) / 6
+    kept = [1.0]
+    for t in sorted(_NICE, key=lambda t: abs(np.log(t))):
+        if limits[0] <= t <= limits[1] and all(abs(np.log(t) - np.log(k)) >= gap for k in kept):
+            kept.append(t)
+    return sorted(kept)
+
+
+def _abs_formatter():
+    from matplotlib.ticker import FuncFormatter
+
+    return FuncFormatter(lambda v, _pos: f"{abs(v):g}")

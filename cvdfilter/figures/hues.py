@@ -1,0 +1,153 @@
+"""``hues``: the chroma shift per hue bin of the light through the filter.
+
+The scorecard's colour-rendition block (colour-science's ANSI/IES TM-30-18
+implementation, CIE 224:2017 samples) gives, for the illuminant seen through
+each filter, the local chroma shift R_cs,hj of each of the 16 hue bins
+(percent; positive = more saturated than under the reference illuminant of
+the same correlated colour temperature). The figure shows them for every
+filter next to the illuminant alone, as grouped bars (default) or as closed
+outlines on a polar chart of relative chroma (100 % = no change).
+
+Public: :func:`hues_figure`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from .common import legend_axes, load_filters_checked, short_name
+from .output import FigureResult, finish, new_figure, style_context
+from .palette import NEUTRAL, series
+from .style import Style
+
+__all__ = ["hues_figure", "CHARTS", "N_BINS"]
+
+CHARTS = ("bar", "radial")
+N_BINS = 16
+_NO_FILTER = "no filter"
+
+
+def _rendition_card(filters, illuminant):
+    """Scorecard (rendition only, normal observer) of the illuminant alone and through each filter."""
+    from ..scorecard import score
+    from ..spectra.filters import FilterSet
+
+    fs = load_filters_checked(filters)
+    plain = FilterSet((_NO_FILTER,), np.ones((1, fs.grid.size)), fs.grid, ("array",), ({"spec": "none"},))
+    return score(plain.concat(fs), illuminant=illuminant, observers=("normal",), metrics="photometry,rendition",
+                 surfaces="ces99").to_dict()
+
+
+def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, adaptation="full",
+                chart: str = "bar", style: Style | None = None, width_mm: float = 89.0,
+                height_mm: float | None = None, title: str | None = None, caveat: str | None = None,
+                card: dict | None = None) -> FigureResult:
+    """TM-30 local chroma shifts per hue bin, illuminant alone and through each filter.
+
+    Parameters
+    ----------
+    filters
+        One to seven filters.
+    illuminant : str
+    observers, surfaces, adaptation
+        Not used: TM-30 is defined for the CIE 1964 standard observer and its
+        own 99 samples; accepted so the common options can be passed.
+    chart : str
+        ``bar`` or ``radial``.
+    card : dict, optional
+        A scorecard dict with the rendition block whose first filter is the
+        illuminant alone (as :func:`_rendition_card` builds it).
+
+    Returns
+    -------
+    FigureResult
+        ``data``: ``bins`` (1-16), ``series``: list of {``name``, ``chroma_shift`` (16,) in %},
+        the first being the illuminant alone. Artists: ``hue-bars-<i>`` (bar containers'
+        patches carry ``hue-bar-<i>-<bin>``) or ``hue-outline-<i>``; ``hue-reference``.
+    """
+    style = style or Style()
+    chart = str(chart).lower()
+    if chart not in CHARTS:
+        raise InputError(f"--chart {chart} is not bar or radial")
+    if card is None:
+        card = _rendition_card(filters, illuminant)
+    entries = card["filters"]
+    if len(entries) > 8:
+        raise InputError(f"{len(entries) - 1} filters: the hues figure compares at most 7")
+    if any("rendition" not in f for f in entries):
+        raise InputError("the scorecard has no rendition block", hint="score with metrics='all'")
+    data_series = [{"name": f["name"], "chroma_shift": np.array([np.nan if v is None else v
+                                                                 for v in f["rendition"]["chroma_shifts"]])}
+                   for f in entries]
+    bins = np.arange(1, N_BINS + 1)
+    filt = data_series[1:]
+    styles = series(len(filt))
+    ill_name = card["illuminant"]["name"] if isinstance(card.get("illuminant"), dict) else str(card.get("illuminant"))
+
+    if height_mm is None:
+        height_mm = (width_mm * 0.85 if chart == "bar" else width_mm * 1.15) if width_mm < 120 else width_mm * 0.5
+    with style_context(style):
+        fig = new_figure(style, width_mm, height_mm)
+        gs = fig.add_gridspec(2, 1, height_ratios=[1.0, 0.001])
+        handles = []
+        if chart == "bar":
+            ax = fig.add_subplot(gs[0, 0])
+            n = len(filt)
+            width = 0.8 / max(n, 1)
+            for i, s in enumerate(filt):
+                x = bins - 0.4 + width * (i + 0.5)
+                bars = ax.bar(x, s["chroma_shift"], width=width * 0.92, color=styles[i].color, lw=0,
+                              label=short_name(s["name"], 34), gid=f"hue-bars-{i}",
+                              hatch=None if i % 2 == 0 else "////", edgecolor="white" if i % 2 else None)
+                for b, j in zip(bars.patches, bins):
+                    b.set_gid(f"hue-bar-{i}-{j}")
+                handles.append(bars)
+            ref = data_series[0]["chroma_shift"]
+            # The illuminant alone: a black step across each bin.
+            xs = (bins[:, None] + np.array([-0.45, 0.45, np.nan])).ravel()
+            ys = np.column_stack([ref, ref, np.full(N_BINS, np.nan)]).ravel()
+            h, = ax.plot(xs, ys, color="black", lw=1.0, gid="hue-reference", label=f"{ill_name} alone", zorder=3)
+            handles.append(h)
+            ax.axhline(0.0, color=NEUTRAL["line"], lw=0.6, zorder=0)
+            values = np.concatenate([ref] + [s["chroma_shift"] for s in filt])
+            top = max(10.0, 1.1 * np.nanmax(np.abs(values)))
+            ax.set_ylim(-top, top)
+            ax.set_xlim(0.4, N_BINS + 0.6)
+            ax.set_xticks(bins)
+            ax.set_xlabel("TM-30 hue bin (22.5\u00b0 of CAM02-UCS hue each, bin 1 from 0\u00b0)")
+            ax.set_ylabel("Local chroma shift R$_{cs,h}$ (%)")
+            for x in bins[:-1] + 0.5:
+                ax.axvline(x, color=NEUTRAL["light"], lw=0.4, zorder=0)
+        else:
+            ax = fig.add_subplot(gs[0, 0], projection="polar")
+            theta = np.deg2rad((bins - 0.5) * 22.5)
+            closed = np.append(theta, theta[0])
+            ref = data_series[0]["chroma_shift"]
+            h, = ax.plot(closed, 100 + np.append(ref, ref[0]), color="black", lw=0.9, linestyle=(0, (3, 1.5)),
+                         gid="hue-reference", label=f"{ill_name} alone")
+            handles.append(h)
+            for i, s in enumerate(filt):
+                r = 100 + np.append(s["chroma_shift"], s["chroma_shift"][0])
+                h, = ax.plot(closed, r, markersize=style.marker_size, gid=f"hue-outline-{i}",
+                             label=short_name(s["name"], 34), **styles[i].line_kwargs())
+                handles.append(h)
+            ring = np.linspace(0, 2 * np.pi, 181)
+            ax.plot(ring, np.full_like(ring, 100.0), color=NEUTRAL["text"], lw=0.8, zorder=1)
+            values = np.concatenate([ref] + [s["chroma_shift"] for s in filt])
+            lo = min(80.0, 100 + np.nanmin(values) - 5)
+            hi = max(120.0, 100 + np.nanmax(values) + 5)
+            ax.set_ylim(lo, hi)
+            ax.set_xticks(np.deg2rad((bins - 1) * 22.5), [f"{(j - 1) * 22.5:g}\u00b0" if j % 2 else "" for j in bins])
+            ticks = [t for t in (60, 80, 100, 120, 140, 160) if lo <= t <= hi]
+            ax.set_yticks(ticks, [f"{t}%" for t in ticks])
+            ax.set_rlabel_position(100)
+            ax.tick_params(axis="y", labelsize=style.tick_size * 0.95)
+            ax.set_title("Relative chroma per hue bin (100 % = as under the reference)", fontsize=style.font_size)
+        legend_axes(fig, gs[1, 0], handles, [h.get_label() for h in handles], ncols=2, handlelength=1.8,
+                    columnspacing=1.0)
+        finish(fig, style, title=title, caveat=caveat)
+
+    data = {"bins": bins, "series": data_series, "chart": chart, "illuminant": ill_name}
+    inputs = {"filters": [s["name"] for s in filt], "illuminant": ill_name, "chart": chart}
+    return FigureResult("hues", fig, data, style, inputs)
