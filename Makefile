@@ -27,6 +27,9 @@ demo: $(VENV)/.installed
 	$(BIN)/cvdfilter inspect larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference
 	$(BIN)/cvdfilter inspect larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
 		--format json --output $(OUT)/inspect.json
+	$(BIN)/cvdfilter inspect-observer normal deuteranomalous:shift=8 protanope tritanope --white D65
+	$(BIN)/cvdfilter inspect-observer normal:age=70,field=10 deuteranomalous:severity=0.6,model=machado2009 \
+		protanomalous:shift=8 deuteranope --format json --output $(OUT)/observers.json
 
 test: $(VENV)/.installed-test
 	$(BIN)/python -m pytest -q
