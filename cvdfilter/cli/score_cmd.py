@@ -1,0 +1,98 @@
+"""``cvdfilter score``: the scorecard of one or many filters (a thin shell over ``cvdfilter.score``)."""
+
+from __future__ import annotations
+
+import time
+from typing import List, Optional
+
+import typer
+
+from .common import FORMATS, emit, fail
+
+#: Show a progress bar only once the work has taken this long (seconds).
+_PROGRESS_AFTER_S = 1.0
+
+
+class _LazyProgress:
+    """A rich progress bar on stderr that appears only when the work takes more than about a second."""
+
+    def __init__(self) -> None:
+        self.start = time.perf_counter()
+        self.bar = None
+        self.tasks: dict = {}
+
+    def __call__(self, stage: str, done: int, total: int) -> None:
+        if self.bar is None:
+            if time.perf_counter() - self.start < _PROGRESS_AFTER_S or done >= total:
+                return
+            from rich.console import Console
+            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+            self.bar = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(),
+                                TimeRemainingColumn(), console=Console(stderr=True), transient=True)
+            self.bar.start()
+        if stage not in self.tasks:
+            label = {"filters": "scoring filters", "rendition": "colour rendition"}.get(stage, stage)
+            self.tasks[stage] = self.bar.add_task(label, total=total)
+        self.bar.update(self.tasks[stage], completed=done)
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.stop()
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("score")
+    def score_cmd(
+        filters: List[str] = typer.Argument(..., help="Filter files (every column is a filter), bundled example "
+                                                      "names or specs, e.g. notch:center=540..600/5,fwhm=30,depth=0.8"),
+        illuminant: str = typer.Option("D65", "--illuminant", help="The light the surfaces are seen in "
+                                                                   "(cvdfilter list illuminants)."),
+        observer: Optional[List[str]] = typer.Option(None, "--observer", help=(
+            "Observer spec; repeat for several. Default: normal, protanomalous, deuteranomalous, "
+            "protanope, deuteranope.")),
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, colorchecker, tcs14, vs15 or a "
+                                                                 "reflectance file."),
+        adaptation: str = typer.Option("full", "--adaptation", help="full, none or a degree 0-1 of von Kries "
+                                                                    "adaptation to the filtered light."),
+        format: str = typer.Option("table", "--format", "-f", help="table, json, csv or markdown."),
+        output: Optional[str] = typer.Option(None, "--output", "-o", help="Write to this file instead of stdout."),
+        metrics: str = typer.Option("all", "--metrics", help="all, core (no colour rendition: fast for sweeps) "
+                                                             "or a comma-separated list of photometry, road_use, "
+                                                             "rendition, contrast, discrimination, confusion."),
+        signal_spectra: Optional[str] = typer.Option(None, "--signal-spectra", help=(
+            "Measured signal-light spectra: first column nm, value columns named red, yellow (or amber), "
+            "green, blue. They replace the modelled lights of those colours.")),
+    ) -> None:
+        """Score filters: photometry and road use, colour rendition, and for each observer the contrast
+        gains and the surface pairs gained, lost, resolved or created.
+
+        Example: cvdfilter score larkhill-notch-575 "notch:center=540..600/10,fwhm=30,depth=0.8" --metrics core
+        """
+        from ..errors import InputError
+        from ..scorecard import DEFAULT_OBSERVERS, score
+
+        if format not in FORMATS:
+            fail(f"--format {format} is not one of {', '.join(FORMATS)}")
+        progress = _LazyProgress()
+        try:
+            card = score(filters, illuminant=illuminant, observers=observer or list(DEFAULT_OBSERVERS),
+                         surfaces=surfaces, adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
+                         progress=progress)
+        except (InputError, ValueError) as exc:
+            progress.close()
+            fail(exc)
+        progress.close()
+        if format == "json":
+            text = card.to_json()
+        elif format == "csv":
+            text = card.to_csv()
+        elif format == "markdown":
+            text = card.to_markdown()
+        else:
+            text = card.to_table(width=100)
+        inputs = [f for f in filters] + ([signal_spectra] if signal_spectra else []) + [surfaces, illuminant]
+        try:
+            emit(text, output, inputs=inputs)
+        except InputError as exc:
+            fail(exc)

@@ -1,0 +1,821 @@
+"""The scorecard: what each filter does for each observer, and what it costs.
+
+:func:`score` takes one or many filters, a light, observers and a surface set
+and returns a :class:`Scorecard`. ``Scorecard.to_dict()`` is exactly the JSON
+``cvdfilter score --format json`` prints; its schema is documented in
+``docs/metrics.md`` and kept stable.
+
+Many filters are scored in one vectorised pass: the cone catches of every
+surface (and of the white) through every filter, for every observer, come from
+one matrix product per chunk of filters,
+
+    Q[f, n, c] = sum_lambda T[f, lambda] E[lambda] R[lambda, n] Phi[lambda, c],
+
+computed as ``T @ B`` with B = E R (x) Phi laid out as (wavelengths x
+surfaces*cones); cone sensitivities shared by several observers (a dichromat
+and the normal observer it derives from, the unshifted cones of an anomalous
+trichromat) enter B once. The pair statistics are vectorised over filters too
+(:mod:`cvdfilter.metrics.pairs`). Colour rendition (``metrics="all"``) calls
+colour-science once per filter and is the slow part.
+
+Every number is a model prediction (``CAVEAT``); road-use results come with
+``ROAD_CAUTION``.
+
+Public: :func:`score`, :class:`Scorecard`, :data:`DEFAULT_OBSERVERS`,
+:data:`METRIC_GROUPS`, :data:`CORE_METRICS`, :func:`parse_metrics`.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+import pathlib
+import textwrap
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ._version import __version__
+from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
+from .errors import InputError
+from .metrics.confusion import CONFUSION_TOLERANCE
+from .metrics.discrimination import CONE_RATIOS, WEBER_FRACTION
+
+__all__ = ["score", "Scorecard", "DEFAULT_OBSERVERS", "METRIC_GROUPS", "CORE_METRICS", "parse_metrics"]
+
+#: Observers scored when none are given.
+DEFAULT_OBSERVERS = ("normal", "protanomalous", "deuteranomalous", "protanope", "deuteranope")
+#: Metric groups, in output order.
+METRIC_GROUPS = ("photometry", "road_use", "rendition", "contrast", "discrimination", "confusion")
+#: ``metrics="core"``: everything but the (slow) rendition block.
+CORE_METRICS = ("photometry", "road_use", "contrast", "discrimination", "confusion")
+#: Filters per chunk of the vectorised pass (bounded memory; progress is reported per chunk).
+_CHUNK_FILTERS = 1024
+
+
+def _workers() -> int:
+    """Threads for the chunks: the CPUs this process may use (at most 8); CVDFILTER_THREADS overrides."""
+    import os
+
+    env = os.environ.get("CVDFILTER_THREADS")
+    if env and env.isdigit() and int(env) > 0:
+        return int(env)
+    try:
+        n = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        n = os.cpu_count() or 1
+    return max(1, min(8, n))
+
+
+def parse_metrics(metrics) -> tuple:
+    """``"all"``, ``"core"``, a comma-separated list or a sequence of group names -> groups in order.
+
+    >>> parse_metrics("core")
+    ('photometry', 'road_use', 'contrast', 'discrimination', 'confusion')
+    >>> parse_metrics("contrast,photometry")
+    ('photometry', 'contrast')
+    """
+    if isinstance(metrics, str):
+        text = metrics.strip().lower()
+        if text == "all":
+            return METRIC_GROUPS
+        if text == "core":
+            return CORE_METRICS
+        items = [m.strip().replace("-", "_") for m in text.split(",") if m.strip()]
+    else:
+        items = [str(m).strip().lower().replace("-", "_") for m in metrics]
+    unknown = [m for m in items if m not in METRIC_GROUPS]
+    if unknown or not items:
+        raise InputError(f"unknown metrics '{', '.join(unknown) or metrics}'",
+                         hint=f"use all, core or a comma-separated list of {', '.join(METRIC_GROUPS)}")
+    return tuple(m for m in METRIC_GROUPS if m in items)
+
+
+def _adaptation_text(a: float) -> str:
+    return "full" if a == 1.0 else "none" if a == 0.0 else f"{a:g}"
+
+
+# --- rounding for the JSON ----------------------------------------------------
+
+def _num(x, digits: int = 6):
+    """A finite float rounded to ``digits`` decimals, or None (NaN / inf -> null)."""
+    x = float(x)
+    if not math.isfinite(x):
+        return None
+    return round(x, digits) + 0.0  # + 0.0 turns -0.0 into 0.0
+
+
+def _int(x):
+    return None if x is None else int(x)
+
+
+@dataclass
+class Scorecard:
+    """Scores of many filters for several observers (see :func:`score`).
+
+    The arrays hold full precision; :meth:`to_dict` rounds for output.
+
+    Attributes
+    ----------
+    filters : FilterSet
+    illuminant : Illuminant
+    surfaces : SurfaceSet
+    observers : list of Observer
+    adaptation : float
+        Degree of von Kries adaptation to the filtered light, 0-1.
+    metrics : tuple of str
+        The metric groups computed.
+    signal_lights : list of SignalLight
+    results : dict of numpy.ndarray
+        Per-filter arrays (first axis: filters).
+    per_observer : list of dict of numpy.ndarray
+        Per observer, arrays over filters.
+    settings : dict
+        Model constants used (Weber fraction, cone ratios, confusion tolerance).
+    inputs : dict
+        The arguments that produced the scorecard.
+    """
+
+    filters: object
+    illuminant: object
+    surfaces: object
+    observers: list
+    adaptation: float
+    metrics: tuple
+    signal_lights: list
+    results: dict
+    per_observer: list
+    settings: dict = field(default_factory=dict)
+    inputs: dict = field(default_factory=dict)
+
+    def __len__(self) -> int:
+        return len(self.filters)
+
+    # -- the JSON document -----------------------------------------------------
+
+    def _filter_dict(self, i: int) -> dict:
+        from .metrics.road_use import SIGNAL_COLOURS, road_use_reasons
+
+        r = self.results
+        fs = self.filters
+        info = fs.info[i] if i < len(fs.info) else {}
+        d = {"name": fs.names[i], "source": fs.sources[i] if i < len(fs.sources) else "array"}
+        where = info.get("path") or info.get("spec")
+        if where:
+            d["input"] = where
+        if info.get("sha256"):
+            d["sha256"] = info["sha256"]
+        if "photometry" in self.metrics:
+            d["luminous_transmittance"] = _num(r["luminous_transmittance"][i])
+            d["luminous_transmittance_illuminant"] = _num(r["luminous_transmittance_illuminant"][i])
+            d["chromaticity"] = {"x": _num(r["chromaticity"][i, 0]), "y": _num(r["chromaticity"][i, 1])}
+            d["white_shift"] = _num(r["white_shift"][i])
+        if "road_use" in self.metrics:
+            cat = int(r["iso12312_category"][i])
+            quot = {c: _num(r[f"signal_quotient_{c}"][i], 4) for c in SIGNAL_COLOURS}
+            worst = {c: r[f"signal_light_{c}"][i] for c in SIGNAL_COLOURS}
+            reasons = road_use_reasons(float(r["luminous_transmittance"][i]), cat, float(r["min_ratio"][i]),
+                                       float(r["min_ratio_at_nm"][i]),
+                                       {c: float(r[f"signal_quotient_{c}"][i]) for c in SIGNAL_COLOURS}, worst)
+            d["iso12312_category"] = cat if cat >= 0 else None
+            d["road_use"] = {
+                "suitable": bool(r["suitable"][i]),
+                "night_suitable": bool(r["night_suitable"][i]),
+                "min_ratio_475_650": _num(r["min_ratio"][i], 4),
+                "min_ratio_at_nm": _num(r["min_ratio_at_nm"][i], 2),
+                "reasons": reasons,
+            }
+            d["signal_quotients"] = quot
+        if "rendition" in self.metrics:
+            d["rendition"] = {
+                "rf": _num(r["rf"][i], 2), "rg": _num(r["rg"][i], 2), "ra": _num(r["ra"][i], 2),
+                "chroma_shifts": [_num(v, 2) for v in r["chroma_shifts"][i]],
+                "cct_k": _num(r["cct_k"][i], 1), "duv": _num(r["duv"][i], 5),
+            }
+        d["observers"] = [self._observer_dict(i, k) for k in range(len(self.observers))]
+        return d
+
+    def _observer_dict(self, i: int, k: int) -> dict:
+        o = self.per_observer[k]
+        d = {"observer": self.observers[k].spec}
+        if "contrast" in self.metrics:
+            d["red_green_gain"] = _num(o["red_green_gain"][i])
+            d["blue_yellow_gain"] = _num(o["blue_yellow_gain"][i])
+            d["luminance_contrast_gain"] = _num(o["luminance_contrast_gain"][i])
+        undefined = bool(o["undefined"][i]) if "undefined" in o else False
+        if "discrimination" in self.metrics:
+            d["discriminable_pairs"] = None if undefined else {
+                key: int(o[f"discriminable_{key}"][i]) for key in ("without", "with", "gained", "lost")}
+        if "confusion" in self.metrics:
+            if o.get("confusion_with") is None or undefined:
+                d["confusion_pairs"] = None
+            else:
+                d["confusion_pairs"] = {key: int(o[f"confusion_{key}"][i])
+                                        for key in ("without", "with", "resolved", "created")}
+        return d
+
+    def header(self) -> dict:
+        """The top-level keys of :meth:`to_dict` other than ``filters``."""
+        from .metrics.discrimination import receptor_noise
+        from .metrics.pairs import pair_count
+        from .metrics.road_use import SIGNAL_COLOURS, SIGNAL_LIMITS
+
+        ill, surf = self.illuminant, self.surfaces
+        head = {
+            "tool": "cvdfilter",
+            "version": __version__,
+            "caveat": CAVEAT,
+            "cautions": [ROAD_CAUTION, EYE_CARE_CAUTION],
+            "illuminant": {"name": ill.name, "source": ill.source},
+            "surfaces": {"name": surf.name, "source": surf.source, "count": len(surf),
+                         "pairs": pair_count(len(surf))},
+            "adaptation": {"spec": _adaptation_text(self.adaptation), "degree": self.adaptation,
+                           "model": "von Kries, to the illuminant seen through the filter"},
+            "observers": [{"observer": o.spec, "kind": o.kind, "deficiency": o.deficiency} for o in self.observers],
+            "metrics": list(self.metrics),
+            "grid": {"start_nm": self.filters.grid.start, "end_nm": self.filters.grid.end,
+                     "step_nm": self.filters.grid.step},
+            "models": {
+                "photometry": "CIE 1931 2 deg V(lambda) with CIE D65 (ISO 12312-1); white shift and "
+                              "luminous_transmittance_illuminant under the chosen illuminant",
+                "discrimination": {
+                    "model": "receptor-noise-limited, Vorobyev & Osorio 1998; threshold 1 JND",
+                    "weber_fraction_l": self.settings.get("weber_fraction"),
+                    "cone_ratios_lms": list(self.settings.get("cone_ratios", ())),
+                    "noise_by_observer": {o.spec: [_num(v, 5) for v in receptor_noise(
+                        o.missing_cone, weber=self.settings["weber_fraction"],
+                        cone_ratios=self.settings["cone_ratios"])] for o in self.observers},
+                },
+                "confusion": {"tolerance_ln": self.settings.get("confusion_tolerance"),
+                              "space": "log ratios of the observer's own adapted cone catches"},
+            },
+            "inputs": self.inputs,
+        }
+        if "road_use" in self.metrics:
+            head["signal_lights"] = {
+                c: {"limit": SIGNAL_LIMITS[c],
+                    "lights": [l.describe() for l in self.signal_lights if l.colour == c]}
+                for c in SIGNAL_COLOURS}
+        return head
+
+    def to_dict(self) -> dict:
+        """The scorecard as the JSON document ``cvdfilter score --format json`` prints."""
+        d = self.header()
+        d["filters"] = [self._filter_dict(i) for i in range(len(self))]
+        return d
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+    # -- CSV -------------------------------------------------------------------
+
+    def csv_rows(self) -> tuple[list, list]:
+        """Header and rows: one row per filter x observer, nested keys joined with dots."""
+        head = self.header()
+        run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
+               "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
+               "caveat": head["caveat"]}
+        rows, columns = [], []
+        seen = set()
+        for i in range(len(self)):
+            f = self._filter_dict(i)
+            obs = f.pop("observers")
+            flat_f = _flatten(f)
+            for o in obs:
+                row = {**flat_f, **_flatten(o), **run}
+                for key in row:
+                    if key not in seen:
+                        seen.add(key)
+                        columns.append(key)
+                rows.append(row)
+        # Run-level columns last, whatever order the rows met them in.
+        columns = [c for c in columns if c not in run] + list(run)
+        return columns, [[row.get(c) for c in columns] for row in rows]
+
+    def to_csv(self) -> str:
+        columns, rows = self.csv_rows()
+        buf = io.StringIO()
+        w = csv.writer(buf, lineterminator="\n")
+        w.writerow(columns)
+        for r in rows:
+            w.writerow(["" if v is None else ("true" if v is True else "false" if v is False else v) for v in r])
+        return buf.getvalue()
+
+    # -- Markdown and text -------------------------------------------------------
+
+    def _summary_rows(self, doc: dict):
+        filt_rows, obs_rows, rend_rows = [], [], []
+        for f in doc["filters"]:
+            if "road_use" in self.metrics or "photometry" in self.metrics:
+                filt_rows.append(_filter_row(f))
+            if "rendition" in self.metrics:
+                rd = f["rendition"]
+                rend_rows.append([f["name"], _fmt(rd["rf"], 1), _fmt(rd["rg"], 1), _fmt(rd["ra"], 1),
+                                  _fmt(rd["cct_k"], 0), _fmt(rd["duv"], 4),
+                                  " ".join(_fmt(v, 0) for v in rd["chroma_shifts"])])
+            for o in f["observers"]:
+                obs_rows.append(_observer_row(f["name"], o, self.metrics))
+        return filt_rows, obs_rows, rend_rows
+
+    def to_markdown(self) -> str:
+        """A Markdown report: inputs, tables, road-use reasons, cautions."""
+        doc = self.to_dict()
+        filt_rows, obs_rows, rend_rows = self._summary_rows(doc)
+        lines = ["# cvdfilter scorecard", "", f"_{doc['caveat']}_", ""]
+        lines += _inputs_lines(doc, markdown=True) + [""]
+        if filt_rows:
+            lines += ["## Photometry and road use (normal observer, CIE D65, CIE 1931 2 deg)", ""]
+            lines += _md_table(_FILTER_HEADER, filt_rows) + [""]
+        if "road_use" in self.metrics:
+            lines += ["### Road-use reasons", ""]
+            for f in doc["filters"]:
+                lines.append(f"- **{f['name']}**: " + " ".join(f["road_use"]["reasons"]))
+            lines.append("")
+        if rend_rows:
+            lines += ["## Colour rendition of the illuminant through the filter (CIE 2017 / TM-30, CIE 13.3)", ""]
+            lines += _md_table(_RENDITION_HEADER, rend_rows) + [""]
+        if obs_rows and len(obs_rows[0]) > 2:
+            lines += ["## Per observer", "", _OBSERVER_NOTE, ""]
+            lines += _md_table(_observer_header(self.metrics), obs_rows) + [""]
+        lines += ["## Cautions", ""] + [f"- {c}" for c in [doc["caveat"], *doc["cautions"]]] + [""]
+        return "\n".join(lines)
+
+    def to_table(self, width: int = 100) -> str:
+        """A plain-text summary at most ``width`` columns wide, cautions underneath."""
+        doc = self.to_dict()
+        filt_rows, obs_rows, rend_rows = self._summary_rows(doc)
+        parts = []
+        if filt_rows:
+            parts.append(_text_table(_FILTER_HEADER, filt_rows, "Photometry and road use (CIE D65, CIE 1931 2 deg)",
+                                     width))
+        if rend_rows:
+            parts.append(_text_table(_RENDITION_HEADER[:-1], [r[:-1] for r in rend_rows],
+                                     "Colour rendition, illuminant x filter", width))
+        if obs_rows and len(obs_rows[0]) > 2:
+            parts.append(textwrap.fill(_OBSERVER_NOTE, width=width) + "\n")
+            for f in doc["filters"]:
+                rows = [_observer_row(f["name"], o, self.metrics, compact=True) for o in f["observers"]]
+                parts.append(_text_table(_observer_header(self.metrics, compact=True), rows,
+                                         f"Per observer: {f['name']}", width))
+        notes = []
+        if "road_use" in self.metrics:
+            unsuitable = [f for f in doc["filters"] if not f["road_use"]["suitable"]]
+            if len(doc["filters"]) <= 20:
+                for f in unsuitable:
+                    failing = [s for s in f["road_use"]["reasons"]
+                               if any(w in s for w in ("not suitable", "falls to", "below the limit", "outside"))]
+                    notes.append(f"{f['name']}: not for road use. " + " ".join(failing))
+            elif unsuitable:
+                notes.append(f"{len(unsuitable)} of {len(doc['filters'])} filters fail a road-use check "
+                             "(see --format json for the reasons).")
+            lights = "; ".join(f"{c}: " + ", ".join(l["name"] + (" (measured)" if l["kind"] == "measured" else "")
+                                                    for l in v["lights"])
+                               for c, v in doc["signal_lights"].items())
+            modelled = any(l["kind"] == "modelled" for v in doc["signal_lights"].values() for l in v["lights"])
+            notes.append("Signal lights: " + lights + (" - modelled spectra are an approximation, from memory."
+                                                        if modelled else "."))
+        notes += _inputs_lines(doc, markdown=False)
+        notes += [doc["caveat"], *doc["cautions"]]
+        wrapped = "\n".join(textwrap.fill(n, width=width) for n in notes)
+        return "\n".join(parts) + "\n" + wrapped + "\n"
+
+
+# --- presentation helpers -----------------------------------------------------
+
+_FILTER_HEADER = ["filter", "tau_v %", "cat", "day", "night", "min T/tau_v", "lowest Q", "x", "y", "du'v'"]
+_RENDITION_HEADER = ["filter", "Rf", "Rg", "Ra", "CCT K", "Duv", "chroma shifts h1-h16 %"]
+_OBSERVER_NOTE = ("Gains: RMS contrast with the filter / without it (1 = no change; RG red-green, BY "
+                  "blue-yellow, lum luminance). Surface pairs: discriminable (>= 1 JND) and confused (on one "
+                  "confusion line), without -> with the filter; +gained/-lost, -resolved/+new.")
+
+
+def _fmt(x, digits: int) -> str:
+    return "-" if x is None else f"{round(x, digits) + 0.0:.{digits}f}"
+
+
+def _yes(b) -> str:
+    return "yes" if b else "no"
+
+
+def _filter_row(f: dict) -> list:
+    ru = f.get("road_use")
+    q = f.get("signal_quotients") or {}
+    lowest = min(((v, c) for c, v in q.items() if v is not None), default=None)
+    cat = f.get("iso12312_category", None)
+    tv = f.get("luminous_transmittance")
+    chrom = f.get("chromaticity") or {}
+    return [f["name"], _fmt(None if tv is None else 100 * tv, 1),
+            ("-" if ru is None else ("out" if cat is None else str(cat))),
+            "-" if ru is None else _yes(ru["suitable"]), "-" if ru is None else _yes(ru["night_suitable"]),
+            "-" if ru is None or ru["min_ratio_475_650"] is None else (
+                f"{ru['min_ratio_475_650']:.2g}" if ru["min_ratio_475_650"] < 0.095 else
+                _fmt(ru["min_ratio_475_650"], 2)),
+            "-" if lowest is None else f"{lowest[0]:.2f} {lowest[1]}",
+            _fmt(chrom.get("x"), 4), _fmt(chrom.get("y"), 4), _fmt(f.get("white_shift"), 4)]
+
+
+def _observer_header(metrics, *, compact: bool = False) -> list:
+    h = [] if compact else ["filter"]
+    h.append("observer")
+    if "contrast" in metrics:
+        h += ["RG gain", "BY gain", "lum gain"]
+    if "discrimination" in metrics:
+        h += ["discriminable", "+/-"] if compact else [
+            "discriminable without", "with", "gained", "lost"]
+    if "confusion" in metrics:
+        h += ["confused", "res./new"] if compact else ["confused without", "with", "resolved", "created"]
+    return h
+
+
+def _observer_row(name: str, o: dict, metrics, *, compact: bool = False) -> list:
+    row = [] if compact else [name]
+    row.append(o["observer"])
+    if "contrast" in metrics:
+        row += [_fmt(o["red_green_gain"], 3), _fmt(o["blue_yellow_gain"], 3), _fmt(o["luminance_contrast_gain"], 3)]
+    if "discrimination" in metrics:
+        p = o["discriminable_pairs"]
+        if compact:
+            row += ["-", "-"] if p is None else [f"{p['without']}->{p['with']}", f"+{p['gained']}/-{p['lost']}"]
+        else:
+            row += ["-"] * 4 if p is None else [p["without"], p["with"], p["gained"], p["lost"]]
+    if "confusion" in metrics:
+        c = o["confusion_pairs"]
+        if compact:
+            row += ["-", "-"] if c is None else [f"{c['without']}->{c['with']}", f"-{c['resolved']}/+{c['created']}"]
+        else:
+            row += ["-"] * 4 if c is None else [c["without"], c["with"], c["resolved"], c["created"]]
+    return row
+
+
+def _inputs_lines(doc: dict, *, markdown: bool) -> list:
+    b = "- " if markdown else ""
+    ill, surf = doc["illuminant"], doc["surfaces"]
+    lines = [f"{b}Illuminant: {ill['name']} ({ill['source']}).",
+             f"{b}Surfaces: {surf['name']}, {surf['count']} samples, {surf['pairs']} pairs ({surf['source']}).",
+             f"{b}Adaptation: {doc['adaptation']['spec']} ({doc['adaptation']['model']}).",
+             f"{b}Observers: " + ", ".join(o["observer"] for o in doc["observers"]) + "."]
+    if markdown and "signal_lights" in doc:
+        for c, v in doc["signal_lights"].items():
+            names = ", ".join(f"{l['name']} ({l['kind']}: {l['source']})" for l in v["lights"])
+            lines.append(f"- Signal lights, {c} (limit {v['limit']:g}): {names}.")
+    return lines
+
+
+def _md_cell(v) -> str:
+    return ("" if v is None else str(v)).replace("|", "\\|")
+
+
+def _md_table(header, rows) -> list:
+    out = ["| " + " | ".join(header) + " |", "|" + "|".join("---" for _ in header) + "|"]
+    out += ["| " + " | ".join(_md_cell(v) for v in r) + " |" for r in rows]
+    return out
+
+
+def _text_table(header, rows, title: str, width: int) -> str:
+    from rich.console import Console
+    from rich.table import Table
+
+    t = Table(title=title, box=None, header_style="bold", pad_edge=False, title_justify="left")
+    for h in header:
+        t.add_column(str(h), overflow="fold")
+    for r in rows:
+        t.add_row(*("" if v is None else str(v) for v in r))
+    buf = io.StringIO()
+    Console(file=buf, width=width, color_system=None, legacy_windows=False, emoji=False,
+            highlight=False).print(t)
+    return "\n".join(line.rstrip() for line in buf.getvalue().splitlines()) + "\n"
+
+
+def _flatten(d: dict, prefix: str = "") -> dict:
+    """Nested dicts -> dotted keys; lists of numbers -> key.1, key.2, ...; lists of text -> one joined cell."""
+    out = {}
+    for k, v in d.items():
+        key = f"{prefix}{k}"
+        if isinstance(v, dict):
+            out.update(_flatten(v, key + "."))
+        elif v is None and k in _DICT_KEYS:
+            out.update({f"{key}.{s}": None for s in _DICT_KEYS[k]})
+        elif isinstance(v, list) and v and all(isinstance(x, str) for x in v):
+            out[key] = " ".join(v)
+        elif isinstance(v, list):
+            out.update({f"{key}.{j + 1}": x for j, x in enumerate(v)})
+        else:
+            out[key] = v
+    return out
+
+
+#: Keys whose value is a dict or null, with the sub-keys a null flattens to (CSV columns stay aligned).
+_DICT_KEYS = {"confusion_pairs": ("without", "with", "resolved", "created"),
+              "discriminable_pairs": ("without", "with", "gained", "lost")}
+
+
+# --- the computation ----------------------------------------------------------
+
+def _signal_lights(signal_spectra, grid, ybar):
+    """Measured lights (from a file or a dict) plus modelled lights for the colours they leave out."""
+    from .metrics.road_use import SignalLight, modelled_signal_lights, signal_colour
+    from .spectra.illuminants import illuminant as make_illuminant
+
+    measured = []
+    if signal_spectra is not None:
+        if isinstance(signal_spectra, (str, pathlib.Path)):
+            from .io.spectra_files import read_spectra
+            from .spectra.grid import resample
+
+            path = str(signal_spectra)
+            table = read_spectra(path, kind="spd")
+            items = [(n, resample(table.wavelengths, v, grid, method="linear", outside="zero"), f"file {path}")
+                     for n, v in zip(table.names, table.values)]
+        elif isinstance(signal_spectra, dict):
+            items = []
+            path = "signal_spectra"
+            for n, v in signal_spectra.items():
+                if isinstance(v, tuple) and len(v) == 2:
+                    from .spectra.grid import resample
+
+                    v = resample(np.asarray(v[0], float), np.asarray(v[1], float), grid, method="linear",
+                                 outside="zero")
+                items.append((str(n), np.asarray(v, dtype=float), "given as an array"))
+        else:
+            raise InputError("signal spectra must be a file path or a dict of name -> spectrum")
+        for name, spd, src in items:
+            try:
+                colour = signal_colour(name)
+            except ValueError as exc:
+                raise InputError(str(exc), source=path,
+                                 hint="name each column red, yellow, amber, green or blue (e.g. 'red LED')") from None
+            if spd.shape != (grid.size,):
+                raise InputError(f"signal spectrum '{name}' is not on the grid ({grid.size} values)", source=path)
+            if not float(np.sum(np.clip(spd, 0, None) * ybar)) > 0:
+                raise InputError(f"signal spectrum '{name}' has no luminous power in {grid.start:g}-{grid.end:g} nm",
+                                 source=path)
+            measured.append(SignalLight(name, colour, np.clip(spd, 0, None), "measured", src))
+    covered = {l.colour for l in measured}
+    a = make_illuminant("A", grid).spd
+    modelled = [l for l in modelled_signal_lights(grid.wavelengths, a) if l.colour not in covered]
+    return measured + modelled
+
+
+def _cone_basis(observers):
+    """Unique cone-sensitivity columns (n_wl, K) and, per observer, the indices of its L, M, S columns."""
+    columns, index = [], []
+    for o in observers:
+        idx = []
+        for c in range(3):
+            col = o.fundamentals[:, c]
+            for k, u in enumerate(columns):
+                if u is col or np.array_equal(u, col):
+                    idx.append(k)
+                    break
+            else:
+                columns.append(col)
+                idx.append(len(columns) - 1)
+        index.append(idx)
+    return np.stack(columns, axis=1), index
+
+
+def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="ces99", adaptation="full",
+          metrics="all", signal_spectra=None, grid=None, confusion_tolerance: float = CONFUSION_TOLERANCE,
+          weber_fraction: float = WEBER_FRACTION, cone_ratios=CONE_RATIOS, progress=None) -> Scorecard:
+    """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
+
+    Parameters
+    ----------
+    filters
+        Anything :func:`cvdfilter.load_filters` accepts: spec strings (with
+        sweeps such as ``notch:center=540..600/5,fwhm=30,depth=0.8``), file
+        paths (every column a filter), example names, colour-science spectra,
+        arrays on the grid or a FilterSet.
+    illuminant : str or Illuminant
+        The light the surfaces are seen in (photometry and road use always use
+        CIE D65, as ISO 12312-1 prescribes).
+    observers : sequence of str or Observer
+        Observer specs; default :data:`DEFAULT_OBSERVERS`.
+    surfaces : str or SurfaceSet
+        ``ces99`` (default), ``colorchecker``, ``tcs14``, ``vs15`` or a reflectance file.
+    adaptation : str or float
+        ``full`` (default: von Kries adaptation to the filtered light),
+        ``none`` (adapted to the unfiltered light) or a degree 0-1.
+    metrics : str or sequence
+        ``all`` (default), ``core`` (all but rendition) or group names from
+        :data:`METRIC_GROUPS`.
+    signal_spectra : str, pathlib.Path or dict, optional
+        Measured signal-light spectra: a file whose value columns are named
+        by colour (``red``, ``yellow``/``amber``, ``green``, ``blue``, any
+        suffix), or a dict name -> spectrum on the grid or (wavelengths, values).
+        They replace the modelled lights of their colours.
+    grid : Grid, optional
+        Default: the FilterSet's grid, else 380-780 nm at 1 nm.
+    confusion_tolerance : float
+        Natural-log units (:mod:`cvdfilter.metrics.confusion`).
+    weber_fraction : float
+        L-cone Weber fraction of the receptor-noise model.
+    cone_ratios : sequence of 3 floats
+        L:M:S cone numbers of the receptor-noise model.
+    progress : callable, optional
+        ``progress(stage, done, total)``; stages ``filters`` and ``rendition``.
+
+    Returns
+    -------
+    Scorecard
+
+    Raises
+    ------
+    cvdfilter.errors.InputError
+        For a bad filter, illuminant, observer, surface set, adaptation, metric
+        name or signal-spectra file; raised before any heavy work.
+
+    Examples
+    --------
+    >>> card = score("nd:t=0.5", observers=["normal", "deuteranope"], metrics="core")
+    >>> f = card.to_dict()["filters"][0]
+    >>> f["luminous_transmittance"], f["iso12312_category"], f["observers"][0]["red_green_gain"]
+    (0.5, 1, 1.0)
+    """
+    from .metrics.confusion import confusion_axes, confusion_from_planes, confusion_reference
+    from .metrics.contrast import gains_from_planes, opponent_channels, rms_without
+    from .metrics.discrimination import discriminable_from_logs, log_catches, receptor_noise, rnl_reference
+    from .metrics.photometry import luminous_transmittance, xyz_to_uv_prime, xyz_to_xy
+    from .metrics.road_use import (SIGNAL_COLOURS, iso12312_category, min_ratio_in_band, road_use_flags,
+                                   signal_quotients)
+    from .observers.fundamentals import cie1931_cmfs
+    from .observers.observer import observer as make_observer
+    from .observers.spaces import parse_adaptation
+    from .spectra.filters import FilterSet, load_filters
+    from .spectra.grid import DEFAULT_GRID
+    from .spectra.illuminants import illuminant as make_illuminant
+    from .spectra.surfaces import surface_set
+
+    # -- inputs, all validated before any heavy work --------------------------
+    groups = parse_metrics(metrics)
+    a = parse_adaptation(adaptation)
+    if grid is None:
+        grid = filters.grid if isinstance(filters, FilterSet) else DEFAULT_GRID
+    if isinstance(observers, str) or not hasattr(observers, "__iter__"):
+        observers = [observers]
+    observers = list(observers)
+    if not observers:
+        raise InputError("no observers given", hint=f"e.g. {', '.join(DEFAULT_OBSERVERS)}")
+    if not confusion_tolerance > 0:
+        raise InputError(f"confusion tolerance must be positive, got {confusion_tolerance}")
+    try:
+        noise_check = receptor_noise(None, weber=weber_fraction, cone_ratios=cone_ratios)
+    except ValueError as exc:
+        raise InputError(str(exc)) from None
+    del noise_check
+    fs = load_filters(filters, grid=grid)
+    ill = make_illuminant(illuminant, grid)
+    surf = surface_set(surfaces, grid)
+    obs = [make_observer(o, grid) for o in observers]
+    cmfs = cie1931_cmfs(grid)
+    ybar = cmfs[:, 1]
+    d65 = make_illuminant("D65", grid).spd
+    lights = _signal_lights(signal_spectra, grid, ybar) if "road_use" in groups else []
+
+    T = fs.transmittance
+    n_f, n_s = len(fs), len(surf)
+    wl = grid.wavelengths
+    E = ill.spd
+    results: dict = {}
+    per_obs = [dict() for _ in obs]
+
+    # -- photometry and road use (normal observer, CIE D65) ---------------------
+    tau_v = luminous_transmittance(T, d65, ybar)
+    results["luminous_transmittance"] = tau_v
+    results["luminous_transmittance_illuminant"] = luminous_transmittance(T, E, ybar)
+    xyz_d65 = T @ (d65[:, None] * cmfs)
+    results["chromaticity"] = xyz_to_xy(xyz_d65)
+    uv1 = xyz_to_uv_prime(T @ (E[:, None] * cmfs))
+    uv0 = xyz_to_uv_prime(E @ cmfs)
+    results["white_shift"] = np.hypot(uv1[:, 0] - uv0[0], uv1[:, 1] - uv0[1])
+    if "road_use" in groups:
+        cat = iso12312_category(tau_v)
+        ratio, at_nm = min_ratio_in_band(T, tau_v, wl)
+        by_colour, by_light = signal_quotients(T, tau_v, lights, ybar)
+        suitable, night = road_use_flags(cat, ratio, by_colour, tau_v)
+        results.update({"iso12312_category": cat, "min_ratio": ratio, "min_ratio_at_nm": at_nm,
+                        "suitable": suitable, "night_suitable": night})
+        for c in SIGNAL_COLOURS:
+            results[f"signal_quotient_{c}"] = by_colour[c]
+            names = [l.name for l in lights if l.colour == c]
+            stack = np.stack([by_light[n] for n in names], axis=1)
+            worst = np.argmin(np.nan_to_num(stack, nan=np.inf), axis=1)
+            results[f"signal_light_{c}"] = np.array(names, dtype=object)[worst]
+
+    # -- per observer: one product gives every cone catch ----------------------
+    per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
+    if per_observer_groups:
+        basis, cols = _cone_basis(obs)
+        k_cols = basis.shape[1]
+        stimuli = E[:, None] * np.concatenate([surf.reflectance, np.ones((grid.size, 1))], axis=1)
+        # B[lambda, (cone, sample)]: the last sample is the white (the light itself).
+        B = (basis[:, :, None] * stimuli[:, None, :]).reshape(grid.size, k_cols * (n_s + 1))
+        Q0 = B.sum(axis=0).reshape(k_cols, n_s + 1)  # without the filter (T = 1)
+        whites = np.empty((n_f, k_cols))
+        setup = []
+        for k, o in enumerate(obs):
+            c = cols[k]
+            q0, w0 = Q0[c, :n_s].T, Q0[c, n_s]
+            s = {"cols": c, "w0": w0}
+            store = per_obs[k]
+            if "contrast" in groups:
+                s["channels"] = opponent_channels(o.kind, o.deficiency, o.luminance_weights)
+                s["rms0"] = rms_without(q0, w0, s["channels"])
+                for key in ("luminance_contrast_gain", "red_green_gain", "blue_yellow_gain"):
+                    store[key] = np.full(n_f, np.nan)
+            if "discrimination" in groups:
+                s["rnl"] = rnl_reference(q0, receptor_noise(o.missing_cone, weber=weber_fraction,
+                                                            cone_ratios=cone_ratios))
+                for key in ("without", "with", "gained", "lost"):
+                    store[f"discriminable_{key}"] = np.zeros(n_f, dtype=np.int64)
+            s["axes"] = confusion_axes(o.kind, o.deficiency, o.luminance_weights)
+            if "confusion" in groups and s["axes"] is not None:
+                s["confusion"] = confusion_reference(q0, s["axes"], tolerance=confusion_tolerance)
+                for key in ("without", "with", "resolved", "created"):
+                    store[f"confusion_{key}"] = np.zeros(n_f, dtype=np.int64)
+            setup.append(s)
+        need_logs = "discrimination" in groups or "confusion" in groups
+
+        def chunk(lo: int, hi: int) -> int:
+            Q = (T[lo:hi] @ B).reshape(hi - lo, k_cols, n_s + 1)
+            S, white = Q[:, :, :n_s], Q[:, :, n_s]
+            whites[lo:hi] = white
+            logs = log_catches(S) if need_logs else None
+            for k, s in enumerate(setup):
+                c = s["cols"]
+                planes = [S[:, i, :] for i in c]
+                store = per_obs[k]
+                if "contrast" in groups:
+                    g = gains_from_planes(planes, white[:, c], s["w0"], s["rms0"], s["channels"], adaptation=a)
+                    store["luminance_contrast_gain"][lo:hi] = g[:, 0]
+                    store["red_green_gain"][lo:hi] = g[:, 1]
+                    store["blue_yellow_gain"][lo:hi] = g[:, 2]
+                if need_logs:
+                    log_planes = [logs[:, i, :] for i in c]
+                if "discrimination" in groups:
+                    d = discriminable_from_logs(log_planes, s["rnl"])
+                    for key in ("without", "with", "gained", "lost"):
+                        store[f"discriminable_{key}"][lo:hi] = d[key]
+                if "confusion" in s:
+                    d = confusion_from_planes(planes, log_planes, s["axes"], s["confusion"])
+                    for key in ("without", "with", "resolved", "created"):
+                        store[f"confusion_{key}"][lo:hi] = d[key]
+            return hi
+
+        bounds = [(lo, min(n_f, lo + _CHUNK_FILTERS)) for lo in range(0, n_f, _CHUNK_FILTERS)]
+        workers = min(_workers(), len(bounds))
+        if workers <= 1:
+            for lo, hi in bounds:
+                chunk(lo, hi)
+                if progress is not None:
+                    progress("filters", hi, n_f)
+        else:
+            # Chunks are independent and numpy releases the GIL in its array loops, so
+            # threads share the work; each writes its own slice of the result arrays.
+            from concurrent.futures import ThreadPoolExecutor, as_completed
+
+            done = 0
+            with ThreadPoolExecutor(max_workers=workers) as pool:
+                futures = [pool.submit(chunk, lo, hi) for lo, hi in bounds]
+                for fut in as_completed(futures):
+                    fut.result()
+                    done += 1
+                    if progress is not None:
+                        progress("filters", min(n_f, done * _CHUNK_FILTERS), n_f)
+        # A filter that leaves some cone no light (a black filter) has no defined pair statistics.
+        for k, s in enumerate(setup):
+            present = [c for i, c in enumerate(s["cols"]) if i != obs[k].missing_cone]
+            per_obs[k]["undefined"] = ~np.all(whites[:, present] > 0, axis=1)
+    elif progress is not None:
+        progress("filters", n_f, n_f)
+
+    # -- colour rendition (colour-science, one call per filter) -----------------
+    if "rendition" in groups:
+        from .metrics.rendition import rendition_many
+
+        results.update(rendition_many(T * E, wl, progress=None if progress is None else
+                                      (lambda done, total: progress("rendition", done, total))))
+
+    inputs = {"filters": _describe_inputs(filters), "illuminant": ill.name, "observers": [o.spec for o in obs],
+              "surfaces": surf.name, "adaptation": _adaptation_text(a), "metrics": list(groups),
+              "signal_spectra": None if signal_spectra is None else (
+                  str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
+    settings = {"weber_fraction": weber_fraction, "cone_ratios": [float(x) for x in cone_ratios],
+                "confusion_tolerance": confusion_tolerance}
+    return Scorecard(fs, ill, surf, obs, a, groups, lights, results, per_obs, settings, inputs)
+
+
+def _describe_inputs(filters) -> list:
+    if isinstance(filters, np.ndarray):
+        return ["array"]
+    if isinstance(filters, (str, pathlib.Path)):
+        filters = [filters]
+    out = []
+    try:
+        for f in filters:
+            out.append(str(f) if isinstance(f, (str, pathlib.Path)) else type(f).__name__)
+    except TypeError:
+        out.append(type(filters).__name__)
+    return out
