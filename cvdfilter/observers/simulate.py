@@ -167,9 +167,13 @@ class Simulation:
             raise ValueError(f"expected cone excitations shaped (..., 3), got {lms.shape}")
         if len(self.matrices) == 1:
             return lms @ self.matrices[0].T
-        first = lms @ self.matrices[0].T
-        second = lms @ self.matrices[1].T
-        return np.where((lms @ self.separator >= 0)[..., None], first, second)
+        m0, m1 = self.matrices
+        out = lms @ m0.T
+        differ = np.nonzero(np.any(m0 != m1, axis=1))[0]  # Brettel: only the missing cone's row
+        if len(differ):
+            side = lms @ self.separator >= 0
+            out[..., differ] = np.where(side[..., None], out[..., differ], lms @ m1[differ].T)
+        return out
 
     __call__ = apply
 
