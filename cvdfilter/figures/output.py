@@ -42,15 +42,17 @@ def style_context(style: Style, **extra):
         yield
 
 
-def new_figure(style: Style, width_mm: float, height_mm: float):
+def new_figure(style: Style, width_mm: float, height_mm: float, *, compress: bool = False):
     """An empty Figure of the given size in mm, constrained layout, Agg canvas.
 
+    ``compress`` closes the gaps between fixed-aspect axes (images).
     Call inside :func:`style_context`.
     """
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    fig = Figure(figsize=(width_mm / MM_PER_INCH, height_mm / MM_PER_INCH), dpi=72, layout="constrained")
+    fig = Figure(figsize=(width_mm / MM_PER_INCH, height_mm / MM_PER_INCH), dpi=72,
+                 layout="compressed" if compress else "constrained")
     FigureCanvasAgg(fig)
     fig.get_layout_engine().set(w_pad=2 / 72, h_pad=2 / 72, wspace=0.04, hspace=0.04)
     return fig

@@ -110,7 +110,7 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
     row_mm = (width_mm - label_mm - 4) * img_h / img_w
     height_mm = height_mm or 4 * (row_mm + 2.5) + 24
     with style_context(style):
-        fig = new_figure(style, width_mm, height_mm)
+        fig = new_figure(style, width_mm, height_mm, compress=True)
         axes = fig.subplots(4, 1)
         for k, (ax, (view, template)) in enumerate(zip(axes, SWATCH_ROWS)):
             ax.imshow(images[view], interpolation="nearest", gid=f"swatches-{view}", resample=False)

@@ -1,0 +1,141 @@
+"""``images``: the renderer's four views of an image as a labelled 2x2 panel.
+
+Views (:data:`cvdfilter.render.VIEWS`): the original, the normal observer
+through the filter, the chosen observer without the filter and through it,
+each rendered by :func:`cvdfilter.render.render_views` (reflectance estimate,
+illuminant x filter, the observer's cones, von Kries adaptation, the
+simulation for a normal viewer). Large images are reduced for the figure by
+averaging blocks of pixels in linear light (the renderer works at full size);
+the figure embeds them as raster images inside the vector file.
+
+Public: :func:`images_figure`, :func:`default_image`.
+"""
+
+from __future__ import annotations
+
+import pathlib
+
+import numpy as np
+
+from ..errors import InputError
+from .common import load_filters_checked, observer_label, short_name
+from .output import FigureResult, finish, new_figure, style_context
+from .style import Style
+
+__all__ = ["images_figure", "default_image", "MAX_FIGURE_PIXELS"]
+
+#: Longest side, in pixels, of each view inside the figure (about 300 dpi at 89 mm / 2 wide).
+MAX_FIGURE_PIXELS = 640
+
+
+def default_image() -> pathlib.Path:
+    """The bundled synthetic scene in ``test_images/`` (invented; made by the generator script there)."""
+    root = pathlib.Path(__file__).resolve().parents[2] / "test_images"
+    candidates = sorted(p for p in root.glob("*scene*.png")) if root.is_dir() else []
+    if not candidates:
+        raise InputError("no default image: the bundled scene is missing from test_images/",
+                         hint="give an image with --image")
+    return candidates[0]
+
+
+def _reduce(img: np.ndarray, max_pixels: int) -> np.ndarray:
+    """Block-average an sRGB image (in linear light) so its long side is at most ``max_pixels``."""
+    from ..render import decode_srgb, encode_srgb
+
+    h, w = img.shape[:2]
+    f = int(np.ceil(max(h, w) / max_pixels))
+    if f <= 1:
+        return img
+    from skimage.transform import downscale_local_mean
+
+    rgb = img[..., :3]
+    lin = decode_srgb(rgb) if rgb.dtype.kind == "u" else rgb.astype(np.float32)
+    small = downscale_local_mean(lin, (f, f, 1))[: h // f, : w // f]
+    return encode_srgb(small, np.uint8)
+
+
+def _to8(img: np.ndarray) -> np.ndarray:
+    from ..render import encode_srgb
+
+    a = np.asarray(img)[..., :3]
+    if a.dtype == np.uint8:
+        return a
+    if a.dtype == np.uint16:
+        return (a.astype(np.uint32) * 255 // 65535).astype(np.uint8)
+    return encode_srgb(a, np.uint8)
+
+
+def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces=None, adaptation="full",
+                  image=None, style: Style | None = None, width_mm: float = 89.0, height_mm: float | None = None,
+                  title: str | None = None, caveat: str | None = None) -> FigureResult:
+    """Original / filtered / observer / observer through the filter, 2x2, labelled.
+
+    Parameters
+    ----------
+    filters
+        One filter.
+    observers : sequence of str
+        One observer (default deuteranope).
+    image : str, path or array, optional
+        An sRGB image (file or array) or a cube; default :func:`default_image`.
+    surfaces
+        Not used (accepted so the common options can be passed).
+
+    Returns
+    -------
+    FigureResult
+        ``data``: ``views`` (view name -> the 8-bit RGB array shown), ``titles``,
+        ``image`` (the source), ``reduced_by`` (block size, 1 = full size).
+        Artists: ``image-<view>`` (AxesImage).
+    """
+    from ..render import VIEW_TITLES, VIEWS, render_views
+
+    style = style or Style()
+    observers = list(observers or ["deuteranope"])
+    if len(observers) != 1:
+        raise InputError("the images figure shows one observer", hint="give --observer once")
+    fs = load_filters_checked(filters)
+    if len(fs) != 1:
+        raise InputError(f"{len(fs)} filters: the images figure shows one filter", hint="one figure per filter")
+    source = default_image() if image is None else image
+    rendered = render_views(source if not isinstance(source, pathlib.Path) else str(source), filter=fs,
+                            observer=observers[0], illuminant=illuminant, adaptation=adaptation, views=VIEWS)
+    from ..observers.observer import observer as make_observer
+
+    obs_text = observer_label(make_observer(observers[0]))
+    filt_text = short_name(fs.names[0], 30)
+    shown = {v: _reduce(_to8(a), MAX_FIGURE_PIXELS) for v, a in rendered.items()}
+    full = next(iter(rendered.values()))
+    reduced_by = int(np.ceil(max(full.shape[:2]) / MAX_FIGURE_PIXELS)) if max(full.shape[:2]) > MAX_FIGURE_PIXELS else 1
+    titles = {v: VIEW_TITLES[v].format(observer=obs_text, filter=filt_text) for v in VIEWS}
+    titles["original"] = "original (normal observer, no filter)"
+    h, w = next(iter(shown.values())).shape[:2]
+    import textwrap
+
+    panel_mm = (width_mm - 4) / 2
+    chars = max(20, int(panel_mm / 25.4 * 72 / (0.56 * style.tick_size)))
+    wrapped = {v: textwrap.wrap(t, chars) for v, t in titles.items()}
+    lines = max(len(t) for t in wrapped.values())
+    height_mm = height_mm or (2 * (panel_mm * h / w + lines * style.tick_size * 1.25 * 0.3528 + 2) + 17)
+    with style_context(style):
+        fig = new_figure(style, width_mm, height_mm, compress=True)
+        axes = fig.subplots(2, 2)
+        for ax, view, letter in zip(axes.ravel(), VIEWS, "abcd"):
+            ax.imshow(shown[view], interpolation="nearest", gid=f"image-{view}")
+            ax.set_xticks([])
+            ax.set_yticks([])
+            text = "\n".join(textwrap.wrap(f"({letter}) {titles[view]}", chars))
+            ax.set_title(text, fontsize=style.tick_size, loc="left", pad=2)
+            for spine in ax.spines.values():
+                spine.set_visible(False)
+        note = f"{illuminant}, adaptation {adaptation}"
+        if reduced_by > 1:
+            note += f"; shown at 1/{reduced_by} size"
+        axes[1, 0].set_xlabel(note, fontsize=style.tick_size * 0.9, loc="left")
+        finish(fig, style, title=title, caveat=caveat)
+
+    data = {"views": shown, "titles": titles, "image": str(source) if not isinstance(source, np.ndarray) else "array",
+            "reduced_by": reduced_by}
+    inputs = {"filters": [fs.names[0]], "illuminant": illuminant, "observer": observers[0],
+              "image": data["image"], "adaptation": adaptation}
+    return FigureResult("images", fig, data, style, inputs)
