@@ -333,7 +333,7 @@ def _display_de2000(a, b, primaries):
 
 @pytest.mark.parametrize("name,shift,mean_max,max_max", [
     # Shifted-pigment vs Machado observers at the same shift in nm (Machado severity = shift / 20),
-    # default (cone) normalisation, colour-science's CRT primaries, a 9x9x9 grid of display colours.
+    # cone normalisation, colour-science's CRT primaries, a 9x9x9 grid of display colours.
     # Measured (reported in docs/models.md): deutan 4/10/16 nm mean 0.7/1.6/2.4, max 2.0/5.6/10.9;
     # protan mean 0.3/0.7/1.2, max 1.2/2.1/5.9. Bounds hold the documented numbers to +25 %.
     ("deuteranomalous", 4, 0.9, 2.5), ("deuteranomalous", 10, 2.0, 7.0), ("deuteranomalous", 16, 3.0, 13.7),
@@ -345,21 +345,21 @@ def test_shift_vs_machado_rendering_difference(name, shift, mean_max, max_max):
     prim = "Typical CRT Brainard 1997"
     v = np.linspace(0, 1, 9)
     rgb = np.stack(np.meshgrid(v, v, v, indexing="ij"), -1).reshape(-1, 3)
-    a = display_simulation(f"{name}:shift={shift}", prim).apply(rgb)
-    b = display_simulation(f"{name}:severity={shift / 20:g},model=machado2009", prim).apply(rgb)
+    a = display_simulation(f"{name}:shift={shift}", prim, normalisation="cone").apply(rgb)
+    b = display_simulation(f"{name}:severity={shift / 20:g},model=machado2009", prim, normalisation="cone").apply(rgb)
     de = _display_de2000(a, b, prim)
     assert de.mean() < mean_max and de.max() < max_max
 
 
 @pytest.mark.parametrize("d", ["deuteranomalous", "protanomalous"])
 def test_cone_normalisation_ignores_cone_scale(d):
-    # Invariant of the default (cone) normalisation: scaling a cone's sensitivity changes nothing,
+    # Invariant of the cone normalisation: scaling a cone's sensitivity changes nothing,
     # so Machado's severity 1 (the other cone times an area ratio) and the shifted pigment at the full
     # separation (the other cone exactly) give the same rendering.
     from cvdfilter.observers.display import display_simulation
 
     sep = observer(f"{d}:shift=1").params["separation"]
     rgb = np.random.default_rng(2).uniform(0, 1, (100, 3))
-    a = display_simulation(f"{d}:severity=1,model=machado2009").apply(rgb)
-    b = display_simulation(f"{d}:shift={np.floor(sep * 100) / 100:.2f}").apply(rgb)
+    a = display_simulation(f"{d}:severity=1,model=machado2009", normalisation="cone").apply(rgb)
+    b = display_simulation(f"{d}:shift={np.floor(sep * 100) / 100:.2f}", normalisation="cone").apply(rgb)
     assert np.allclose(a, b, atol=2e-3)

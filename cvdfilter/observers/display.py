@@ -117,7 +117,7 @@ def _adapted(fundamentals, primaries, white_lms) -> np.ndarray:
 
 
 def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, method: str | None = None,
-                       normalisation: str = "cone", reference_white="display") -> DisplaySimulation:
+                       normalisation: str = "auto", reference_white="display") -> DisplaySimulation:
     """The simulation of ``observer`` as linear-RGB matrices for a display.
 
     Parameters

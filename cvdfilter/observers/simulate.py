@@ -39,7 +39,10 @@ Methods
     white map to itself. Where that normalisation happens is a modelling
     choice (``normalisation``):
 
-    * ``"cone"`` (default): von Kries gains at the cones, as everywhere else
+    * ``"auto"`` (default): ``"opponent"`` where its channel gains lie
+      within 0.2-5 (the standard observers under ordinary whites), else
+      ``"cone"``; ``Simulation.info["normalisation"]`` says which was used.
+    * ``"cone"``: von Kries gains at the cones, as everywhere else
       in the tool. The inputs are already adapted, both observers' whites
       are ``white_lms``, ``N`` is the identity and so is the operator: the
       anomalous observer's adapted cone signals are shown as the normal
@@ -105,7 +108,7 @@ __all__ = ["Simulation", "simulation", "simulate", "METHODS", "NORMALISATIONS", 
 #: Method names.
 METHODS = ("identity", "brettel1997", "vienot1999", "machado2009")
 #: Where the Machado (2009) mapping makes the white map to itself.
-NORMALISATIONS = ("cone", "opponent")
+NORMALISATIONS = ("auto", "cone", "opponent")
 
 #: Anchor wavelengths, nm (Brettel, Vienot & Mollon 1997): the stimuli dichromats
 #: see as normal trichromats do.
@@ -286,8 +289,6 @@ def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray) -
 
 def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: str) -> Simulation:
     info = {"affected_cone": obs.affected_cone, "normalisation": normalisation}
-    if normalisation == "cone":
-        return Simulation(obs, "machado2009", np.eye(3)[None], None, white, info)
     t = MATRIX_LMS_TO_OPPONENT
     raw_a = spd @ raw_fundamentals(obs)
     raw_n = spd @ obs.base.fundamentals
@@ -295,7 +296,19 @@ def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: s
     # Machado's per-channel scaling divides by the white's opponent responses;
     # YB and RG are near 0 for many whites, and then the scaling is meaningless
     # (no white balancing needs a gain beyond 5 or below 1/5, let alone a negative one).
-    if not np.all(np.isfinite(scale)) or np.any(scale < 0.2) or np.any(scale > 5.0):
+    ill_conditioned = not np.all(np.isfinite(scale)) or np.any(scale < 0.2) or np.any(scale > 5.0)
+    if normalisation == "auto":
+        # Machado's own scaling where it is meaningful (it keeps renderings comparable with the
+        # published method and tends to the dichromat simulations at severity 1); otherwise the
+        # cone-level normalisation, saying so in ``info``.
+        normalisation = "cone" if ill_conditioned else "opponent"
+        info["normalisation"] = normalisation
+        if ill_conditioned:
+            info["note"] = ("Machado's opponent-channel normalisation is ill-conditioned here (channel gains "
+                            f"{np.round(scale, 3).tolist()}); the white is normalised at the cones instead")
+    if normalisation == "cone":
+        return Simulation(obs, "machado2009", np.eye(3)[None], None, white, info)
+    if ill_conditioned:
         raise InputError("Machado's opponent-channel normalisation is ill-conditioned for this observer and "
                          f"reference white (channel gains {np.round(scale, 3).tolist()})", source=obs.spec,
                          hint="use normalisation='cone', or another reference white")
@@ -307,7 +320,7 @@ def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: s
 
 
 def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None,
-               reference_white=None, normalisation: str = "cone") -> Simulation:
+               reference_white=None, normalisation: str = "auto") -> Simulation:
     """Build the simulation operator for an observer.
 
     Parameters
@@ -326,8 +339,10 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
         as an illuminant spec or a spectrum (n_wl,) on the observer's grid;
         None = equal-energy white. Only its spectral shape matters.
     normalisation : str
-        ``machado2009`` only: ``"cone"`` (von Kries at the cones, default) or
-        ``"opponent"`` (Machado's per-channel gains); see the module docstring.
+        ``machado2009`` only: ``"auto"`` (default: ``"opponent"`` where its
+        channel gains lie within 0.2-5, else ``"cone"``, recorded in ``info``),
+        ``"cone"`` (von Kries at the cones) or ``"opponent"`` (Machado's
+        per-channel gains, an error where ill-conditioned); see the module docstring.
 
     Returns
     -------
@@ -354,7 +369,7 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
         raise InputError(f"method {method} does not apply to this observer", source=obs.spec,
                          hint="use " + " or ".join(allowed[obs.kind]))
     if normalisation not in NORMALISATIONS:
-        raise InputError(f"normalisation '{normalisation}' is not cone or opponent", source=obs.spec)
+        raise InputError(f"normalisation '{normalisation}' is not auto, cone or opponent", source=obs.spec)
     if method == "identity":
         return Simulation(obs, method, np.eye(3)[None], None, white, {})
     spd = reference_white_spectrum(obs, reference_white)
@@ -364,7 +379,7 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
 
 
 def simulate(lms, observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None,
-             reference_white=None, normalisation: str = "cone") -> np.ndarray:
+             reference_white=None, normalisation: str = "auto") -> np.ndarray:
     """Simulate adapted cone excitations ``lms`` (..., 3) for ``observer``; see :func:`simulation`.
 
     Examples
