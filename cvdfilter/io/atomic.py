@@ -39,6 +39,10 @@ def atomic_path(path: str | os.PathLike, *, inputs: Iterable[str | os.PathLike] 
     fd, tmp = tempfile.mkstemp(prefix=f".{target.stem}.", suffix=f".tmp{target.suffix}", dir=target.parent)
     os.close(fd)
     tmp_path = pathlib.Path(tmp)
+    # mkstemp creates the file private (0600); give the output the permissions a plain open() would.
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp_path, 0o666 & ~umask)
     try:
         yield tmp_path
         os.replace(tmp_path, target)
