@@ -78,9 +78,9 @@ from .errors import InputError
 from .spectra.cache import cached_arrays
 from .spectra.grid import DEFAULT_GRID, Grid
 
-__all__ = ["render", "render_views", "render_spectra", "Renderer", "ViewTransform", "mallett_basis",
-           "display_matrix", "decode_srgb", "encode_srgb", "panel", "VIEWS", "VIEW_TITLES", "GAMUT_MODES",
-           "TILE_PIXELS"]
+__all__ = ["render", "render_views", "render_spectra", "render_file", "Renderer", "ViewTransform", "mallett_basis",
+           "display_matrix", "decode_srgb", "encode_srgb", "panel", "panel_titles", "output_suffix", "output_dtype",
+           "VIEWS", "VIEW_TITLES", "GAMUT_MODES", "OUTPUT_FORMATS", "TILE_PIXELS"]
 
 #: The views, in panel order.
 VIEWS = ("original", "filtered", "observer", "observer-filtered")
@@ -93,6 +93,9 @@ VIEW_TITLES = {
 }
 #: Out-of-gamut handling.
 GAMUT_MODES = ("clip", "none")
+#: Output formats: ``auto`` keeps the input's container (JPEG and cubes give PNG) and bit
+#: depth; ``png``/``tiff`` keep the depth where the container holds it; the others force it.
+OUTPUT_FORMATS = ("auto", "png", "png8", "png16", "tiff", "tiff8", "tiff16", "tiff-float", "jpeg")
 #: Pixels per tile (64 Ki: a few hundred kB of float32 per array, cache-resident).
 TILE_PIXELS = 1 << 16
 
@@ -978,13 +981,13 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     bytes
         PNG data.
     """
-    import io
     import textwrap
 
-    import matplotlib
-
-    matplotlib.use("Agg", force=False)
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
+
+    from ._version import __version__
+    from .io.images import encode_png
 
     names = list(images)[:4]
     if not names:
@@ -1017,6 +1020,150 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     if footer_lines:
         fig.text(0.005, 0.02 / height_in * 2, "\n".join(footer_lines), fontsize=4.5, va="bottom", ha="left",
                  color="0.25")
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=dpi, metadata={"Software": "cvdfilter"})
-    return buf.getvalue()
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])
+    return encode_png(rgb, {"Software": f"cvdfilter {__version__}", "Description": footer})
+
+
+# --- files ---------------------------------------------------------------------------
+
+def output_suffix(fmt: str, input_path) -> str:
+    """The suffix of an output file for ``fmt`` (one of :data:`OUTPUT_FORMATS`) and an input path."""
+    if fmt not in OUTPUT_FORMATS:
+        raise InputError(f"unknown output format '{fmt}'", hint="use " + ", ".join(OUTPUT_FORMATS))
+    if fmt == "auto":
+        return ".tif" if pathlib.Path(input_path).suffix.lower() in (".tif", ".tiff") else ".png"
+    if fmt == "jpeg":
+        return ".jpg"
+    return ".png" if fmt.startswith("png") else ".tif"
+
+
+def output_dtype(fmt: str, pixels_dtype, *, cube: bool = False) -> np.dtype:
+    """The output sample type for ``fmt`` given the input's (cubes: 8-bit unless forced)."""
+    src = np.dtype(np.uint8) if cube else np.dtype(pixels_dtype)
+    forced = {"png8": np.uint8, "png16": np.uint16, "tiff8": np.uint8, "tiff16": np.uint16,
+              "tiff-float": np.float32, "jpeg": np.uint8}
+    if fmt in forced:
+        return np.dtype(forced[fmt])
+    if src.kind == "f":
+        return np.dtype(np.float32) if (fmt == "tiff" or (fmt == "auto" and not cube)) else np.dtype(np.uint16)
+    return src
+
+
+def panel_titles(renderer: Renderer) -> dict:
+    """Panel captions for a renderer's settings."""
+    obs = renderer.observer.spec
+    flt = renderer.filter_name or "no filter"
+    return {v: t.format(observer=obs, filter=flt) for v, t in VIEW_TITLES.items()}
+
+
+def panel_footer(renderer: Renderer) -> str:
+    """Settings and the caveat, for a panel's footer."""
+    d = renderer.describe()
+    light = f"illuminant {d['illuminant']}" if d["illuminant"] else d["scene"]
+    return (f"filter {d['filter'] or 'none'}; {light}; adaptation {d['adaptation']:g}; simulation {d['simulation']}; "
+            f"gamut {d['gamut']}. {d['caveat']}")
+
+
+def _small(px: np.ndarray, max_pixels: int = 1200) -> np.ndarray:
+    step = max(1, int(np.ceil(max(px.shape[:2]) / max_pixels)))
+    return np.ascontiguousarray(px[::step, ::step])
+
+
+def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt: str = "auto",
+                cube_kind: str | None = None, wavelengths=None, max_megapixels: float | None = None,
+                inputs=()) -> dict:
+    """Render one image or cube file to the requested views (and a panel), writing each atomically.
+
+    Parameters
+    ----------
+    path : str or path-like
+        Input image (PNG, JPEG, TIFF) or cube (``.npy``, ``.npz``, TIFF with wavelengths).
+    renderer : Renderer
+    outputs : dict
+        View name -> output path (written in this order).
+    panel_path : path, optional
+        Where to write the 2x2 panel (PNG).
+    fmt : str
+        One of :data:`OUTPUT_FORMATS` (decides the sample type).
+    cube_kind, wavelengths
+        For cubes (see :func:`cvdfilter.io.cubes.read_cube`).
+    max_megapixels : float, optional
+        Refuse larger inputs.
+    inputs : iterable of paths
+        Paths no output may overwrite (all inputs of a batch).
+
+    Returns
+    -------
+    dict
+        ``input``, ``kind`` (image or cube), ``width``, ``height``, ``outputs``
+        (view -> path), ``panel``, ``clipped_pixels`` (view -> count),
+        ``warnings``.
+    """
+    from ._version import __version__
+    from .io.cubes import Cube, is_cube_path, read_cube, tiff_has_wavelengths
+    from .io.images import DEFAULT_MAX_MEGAPIXELS, read_image, write_image
+
+    p = pathlib.Path(path)
+    mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
+    tif = p.suffix.lower() in (".tif", ".tiff")
+    if is_cube_path(p) or (tif and (wavelengths is not None or tiff_has_wavelengths(p))):
+        data = read_cube(p, wavelengths=wavelengths, kind=cube_kind, max_megapixels=mp)
+    else:
+        data = read_image(p, max_megapixels=mp)
+    cube = isinstance(data, Cube)
+    guard = [str(x) for x in inputs] + [str(p)]
+    settings = renderer.describe()
+    record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
+              "clipped_pixels": {}, "warnings": list(data.warnings)}
+    if cube:
+        record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
+                      wavelengths=f"{data.wavelengths[0]:g}-{data.wavelengths[-1]:g} nm, {data.bands} bands")
+        out_dtype = output_dtype(fmt, None, cube=True)
+    else:
+        px = data.pixels
+        record.update(width=px.shape[1], height=px.shape[0], bits=data.bits, channels=data.channels)
+        out_dtype = output_dtype(fmt, px.dtype)
+        if fmt == "jpeg" and data.has_alpha:
+            raise InputError("has an alpha channel, which JPEG cannot hold", source=str(p),
+                             hint="use --format png or tiff")
+    encoding = "srgb" if out_dtype.kind == "u" else "linear"
+    small = {}
+    buffer = None
+    views = list(outputs)
+    for v in views:
+        if cube:
+            arr, clipped = renderer.apply_cube(data, v, dtype=out_dtype)
+        else:
+            px = data.pixels
+            in_place = (len(views) == 1 and panel_path is None and v != "original" and px.ndim == 3
+                        and px.shape[2] in (3, 4) and px.dtype == out_dtype and px.flags.writeable
+                        and data.encoding == encoding)
+            target = px if in_place else buffer
+            arr, clipped = renderer.apply(data, v, dtype=out_dtype, out=target)
+            buffer = arr
+        record["clipped_pixels"][v] = clipped
+        meta = {"Software": f"cvdfilter {__version__}",
+                "cvdfilter": {**settings, "view": v, "input": str(p), "clipped_pixels": clipped,
+                              "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)"}}
+        write_image(outputs[v], arr, encoding=encoding, metadata=meta, inputs=guard)
+        record["outputs"][v] = str(outputs[v])
+        if panel_path is not None:
+            small[v] = _small(arr)
+    if panel_path is not None:
+        from .io.atomic import write_bytes
+
+        titles = panel_titles(renderer)
+        if not cube:
+            titles["original"] = "original"
+        for v in VIEWS:
+            if v not in small:
+                arr, _ = (renderer.apply_cube(data, v, dtype=out_dtype) if cube
+                          else renderer.apply(data, v, dtype=out_dtype, out=buffer))
+                buffer = None if cube else arr
+                small[v] = _small(arr)
+        ordered = {v: small[v] for v in VIEWS}
+        write_bytes(panel_path, panel(ordered, titles=titles, footer=panel_footer(renderer)), inputs=guard)
+        record["panel"] = str(panel_path)
+    return record

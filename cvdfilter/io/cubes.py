@@ -38,7 +38,8 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["Cube", "read_cube", "parse_wavelengths", "is_cube_path", "CUBE_KINDS", "CUBE_SUFFIXES"]
+__all__ = ["Cube", "read_cube", "parse_wavelengths", "is_cube_path", "tiff_has_wavelengths", "CUBE_KINDS",
+           "CUBE_SUFFIXES"]
 
 CUBE_KINDS = ("reflectance", "radiance")
 CUBE_SUFFIXES = (".npy", ".npz")
@@ -156,6 +157,20 @@ def parse_wavelengths(text) -> np.ndarray:
 def is_cube_path(path) -> bool:
     """True for ``.npy`` and ``.npz`` files (TIFF cubes are recognised by their wavelengths)."""
     return pathlib.Path(path).suffix.lower() in CUBE_SUFFIXES
+
+
+def tiff_has_wavelengths(path) -> bool:
+    """True if a TIFF carries a ``wavelengths`` list in its JSON metadata (a cube), read from the header only."""
+    try:
+        import tifffile
+
+        with tifffile.TiffFile(path) as tif:
+            if tif.shaped_metadata:
+                return "wavelengths" in tif.shaped_metadata[0]
+            desc = tif.pages[0].description
+            return desc.lstrip().startswith("{") and "wavelengths" in json.loads(desc)
+    except Exception:  # not a readable TIFF: the image reader will say why
+        return False
 
 
 def _sidecar(p: pathlib.Path) -> tuple[np.ndarray | None, str | None, str | None]:

@@ -46,7 +46,7 @@ import numpy as np
 from ..errors import InputError
 from .atomic import atomic_path
 
-__all__ = ["ImageData", "ImageHeader", "read_image", "write_image", "image_header", "set_pixel_limit",
+__all__ = ["ImageData", "ImageHeader", "read_image", "write_image", "encode_png", "image_header", "set_pixel_limit",
            "check_size", "IMAGE_SUFFIXES", "DEFAULT_MAX_MEGAPIXELS"]
 
 #: File suffixes read as images, by format.
@@ -375,7 +375,18 @@ def _png_chunk(ctype: bytes, payload: bytes) -> bytes:
     return struct.pack(">I", len(payload)) + ctype + payload + struct.pack(">I", zlib.crc32(ctype + payload))
 
 
-def _png_bytes(pixels: np.ndarray, metadata: dict | None, level: int) -> bytes:
+def encode_png(pixels: np.ndarray, metadata: dict | None = None, level: int = 3) -> bytes:
+    """PNG bytes (imagecodecs) with an ``sRGB`` chunk and ``metadata`` as iTXt chunks.
+
+    Parameters
+    ----------
+    pixels : numpy.ndarray
+        uint8 or uint16, (H, W) or (H, W, C) with C = 2, 3 or 4.
+    metadata : dict, optional
+        Key -> text (non-strings are stored as JSON).
+    level : int
+        zlib compression level, 0-9.
+    """
     import imagecodecs
 
     data = bytes(imagecodecs.png_encode(np.ascontiguousarray(pixels), level=level))
@@ -420,7 +431,7 @@ def write_image(path, pixels, *, encoding: str = "srgb", metadata: dict | None =
     if fmt == "png":
         if px.dtype not in (np.uint8, np.uint16):
             raise ValueError(f"PNG holds 8- or 16-bit integers, got {px.dtype}")
-        data = _png_bytes(px, {k: v for k, v in meta.items()}, png_level)
+        data = encode_png(px, meta, png_level)
         with atomic_path(p, inputs=inputs) as tmp:
             tmp.write_bytes(data)
         return p
