@@ -274,10 +274,11 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
                     line = ax.axvline(x, color=NEUTRAL["line"], lw=0.45, linestyle=(0, (3, 2)), zorder=1,
                                       gid=f"fan-{k}-{j}")
                 handles["confusion"] = line
-            for j in range(len(w0)):
-                ax.annotate("", xy=w1[j], xytext=w0[j], zorder=3,
-                            arrowprops={"arrowstyle": "-|>,head_length=0.35,head_width=0.15", "lw": 0.5,
-                                        "color": OKABE_ITO["blue"], "shrinkA": 1.5, "shrinkB": 0})
+            # One quiver for all arrows (far lighter than an annotation per surface).
+            ax.quiver(w0[:, 0], w0[:, 1], w1[:, 0] - w0[:, 0], w1[:, 1] - w0[:, 1], angles="xy",
+                      scale_units="xy", scale=1, color=OKABE_ITO["blue"], width=0.55 / 72, units="inches",
+                      headwidth=5.5, headlength=7, headaxislength=6.3, minlength=0.3, minshaft=1, zorder=5.5,
+                      gid=f"arrows-{k}")
             handles["without"], = ax.plot(w0[:, 0], w0[:, 1], linestyle="none", marker="o", markersize=style.marker_size,
                                           markerfacecolor="white", markeredgecolor="black", markeredgewidth=0.6,
                                           zorder=4, gid=f"surfaces-without-{k}")

@@ -21,7 +21,7 @@ from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
 
-__all__ = ["hues_figure", "CHARTS", "N_BINS"]
+__all__ = ["hues_figure", "hues_card", "CHARTS", "N_BINS"]
 
 CHARTS = ("bar", "radial")
 N_BINS = 16
@@ -37,6 +37,17 @@ def _rendition_card(filters, illuminant):
     plain = FilterSet((_NO_FILTER,), np.ones((1, fs.grid.size)), fs.grid, ("array",), ({"spec": "none"},))
     return score(plain.concat(fs), illuminant=illuminant, observers=("normal",), metrics="photometry,rendition",
                  surfaces="ces99").to_dict()
+
+
+def hues_card(card: dict, grid, illuminant) -> dict:
+    """A scorecard dict with rendition, with the illuminant alone prepended (for :func:`hues_figure`)."""
+    from ..scorecard import score
+    from ..spectra.filters import FilterSet
+
+    plain = FilterSet((_NO_FILTER,), np.ones((1, grid.size)), grid, ("array",), ({"spec": "none"},))
+    alone = score(plain, illuminant=illuminant, observers=("normal",), metrics="photometry,rendition",
+                  surfaces="ces99").to_dict()
+    return {**card, "filters": alone["filters"] + list(card["filters"])}
 
 
 def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, adaptation="full",

@@ -89,8 +89,7 @@ def freeze_layout(fig) -> None:
     if fig.get_layout_engine() is None:
         return
     fig.set_dpi(72)
-    fig.draw_without_rendering()
-    fig.draw_without_rendering()
+    fig.draw_without_rendering()   # constrained layout iterates twice inside one draw
     fig.set_layout_engine("none")
 
 

@@ -1,0 +1,597 @@
+"""Reports: every number of a scorecard, its figures, its models and everything needed to reproduce it.
+
+:func:`report` scores the filters (:func:`cvdfilter.scorecard.score`), draws
+the spectrum, chromaticity, gains, swatches and hues figures
+(:mod:`cvdfilter.figures`) and assembles a :class:`Report` that writes
+
+* a self-contained HTML file: figures embedded as inline SVG, styles inline, no
+  scripts and no external requests (a Content-Security-Policy forbids any);
+* or a Markdown file with the figures as SVG files beside it (in
+  ``<name>_figures/``, with the full scorecard JSON).
+
+Sections: the caveat; inputs and reproduction (filters with SHA-256
+checksums, illuminant, observers, surface set, adaptation, grid, model
+settings, the command line, tool and library versions); the scorecard
+tables; the figures; the models and their references; the cautions.
+
+A file filter's checksum is the SHA-256 of the file's bytes; a spec, an
+example resampled from a file or an array filter also gets the SHA-256 of
+its transmittance on the grid (little-endian float64), so any filter can be
+checked against the report.
+
+Public: :func:`report`, :class:`Report`, :class:`ReportFigure`, :data:`REFERENCES`,
+:data:`SECTIONS`, :func:`environment`, :func:`transmittance_sha256`.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import html
+import json
+import os
+import pathlib
+import re
+import shlex
+from collections.abc import Iterable
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ._version import __version__
+from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
+from .errors import InputError
+
+__all__ = ["report", "Report", "ReportFigure", "REFERENCES", "SECTIONS", "environment", "transmittance_sha256",
+           "REPORT_FIGURES"]
+
+#: Section id -> heading, in order.
+SECTIONS = {
+    "caveat": "Caveat",
+    "inputs": "Inputs and reproduction",
+    "scorecard": "Scorecard",
+    "figures": "Figures",
+    "models": "Models and references",
+    "cautions": "Cautions",
+}
+
+#: Figures a report draws, in order.
+REPORT_FIGURES = ("spectrum", "chromaticity", "gains", "swatches", "hues")
+
+#: (what it is used for, reference)
+REFERENCES = (
+    ("Cone fundamentals (normal observers, by age and field size)",
+     "CIE 170-1:2006 Fundamental chromaticity diagram with physiological axes, Part 1; Stockman, A. & "
+     "Sharpe, L. T. (2000) Vision Research 40, 1711-1737"),
+    ("Anomalous trichromats: pigment shifted on a log-wavenumber axis",
+     "Stockman & Sharpe (2000) template shifts; CIE 170-1:2006 self-screening, lens and macular pigment"),
+    ("Anomalous trichromats, alternative model; simulation for a normal viewer",
+     "Machado, G. M., Oliveira, M. M. & Fernandes, L. A. F. (2009) IEEE TVCG 15(6), 1291-1298"),
+    ("Dichromats: simulation for a normal viewer",
+     "Brettel, H., Vienot, F. & Mollon, J. D. (1997) JOSA A 14(10), 2647-2655; Vienot, F., Brettel, H. & "
+     "Mollon, J. D. (1999) Color Research & Application 24(4), 243-252"),
+    ("Copunctal points and confusion lines",
+     "Smith, V. C. & Pokorny, J. (1975) Vision Research 15, 161-171; Wyszecki, G. & Stiles, W. S. (1982) "
+     "Color Science, 2nd ed., section 5.14"),
+    ("MacLeod-Boynton chromaticity", "MacLeod, D. I. A. & Boynton, R. M. (1979) JOSA 69, 1183-1186, "
+                                     "scaled as in CIE 170-1:2006"),
+    ("Adaptation", "von Kries coefficient law (von Kries 1902)"),
+    ("Discriminable pairs", "Vorobyev, M. & Osorio, D. (1998) Proc. R. Soc. B 265, 351-358 "
+                            "(receptor-noise-limited model)"),
+    ("Luminous transmittance, categories, signal-light quotients",
+     "ISO 12312-1:2013 (its own tables govern); CIE 1931 2 deg V(lambda), CIE illuminant D65"),
+    ("Colour rendition", "CIE 224:2017 / ANSI/IES TM-30-18 (Rf, Rg, local chroma shifts); CIE 13.3-1995 (Ra); "
+                         "computed with colour-science"),
+    ("Surface colours in the swatches", "Mallett, I. & Yuksel, C. (2019) Spectral primary decomposition for "
+                                        "rendering with sRGB reflectance; IEC 61966-2-1 (sRGB)"),
+    ("Figure palette", "Okabe, M. & Ito, K. (2008) Color Universal Design, https://jfly.uni-koeln.de/color/"),
+    ("Reference data and colorimetry", "colour-science (Mansencal et al.), https://www.colour-science.org"),
+)
+
+_LIBRARIES = ("numpy", "scipy", "colour-science", "matplotlib", "scikit-image", "typer")
+
+
+def environment() -> dict:
+    """Tool, Python, library and platform versions."""
+    import platform
+    import sys
+    from importlib.metadata import PackageNotFoundError, version
+
+    libs = {}
+    for name in _LIBRARIES:
+        try:
+            libs[name] = version(name)
+        except PackageNotFoundError:  # pragma: no cover - all are dependencies
+            libs[name] = "not installed"
+    return {"tool": "cvdfilter", "version": __version__, "python": sys.version.split()[0],
+            "libraries": libs, "platform": platform.platform()}
+
+
+def transmittance_sha256(transmittance) -> str:
+    """SHA-256 of a transmittance curve on the grid, as little-endian float64 bytes.
+
+    Examples
+    --------
+    >>> len(transmittance_sha256(np.ones(401)))
+    64
+    """
+    return hashlib.sha256(np.ascontiguousarray(transmittance, dtype="<f8").tobytes()).hexdigest()
+
+
+@dataclass
+class ReportFigure:
+    """One figure of a report: ``kind``, ``caption``, ``svg`` (bytes), ``note`` (why it is missing, if it is)."""
+
+    kind: str
+    caption: str
+    svg: bytes = b""
+    note: str = ""
+
+
+@dataclass
+class Report:
+    """A scorecard with its figures, models, cautions and reproduction record.
+
+    Attributes
+    ----------
+    card : dict
+        The scorecard (``Scorecard.to_dict()``).
+    filters : list of dict
+        Per filter: ``name``, ``source``, ``input``, ``sha256_file`` (or None),
+        ``sha256_transmittance``.
+    figures : list of ReportFigure
+    command : str
+        A command line that makes the same report.
+    environment : dict
+        Tool, Python, library and platform versions (:func:`environment`).
+    written : list of pathlib.Path
+        Files written by :func:`report` when it was given ``output``.
+    """
+
+    card: dict
+    filters: list
+    figures: list = field(default_factory=list)
+    command: str = ""
+    environment: dict = field(default_factory=environment)
+    written: list = field(default_factory=list)
+
+    # -- content shared by both formats -------------------------------------------------------
+
+    def _input_rows(self) -> list[tuple[str, str]]:
+        c = self.card
+        ill, surf, ad = c["illuminant"], c["surfaces"], c["adaptation"]
+        grid = c["grid"]
+        models = c.get("models", {})
+        disc = models.get("discrimination", {})
+        rows = [
+            ("Illuminant", f"{ill['name']} ({ill['source']})"),
+            ("Observers", "; ".join(f"{o['observer']} ({o['kind']})" for o in c["observers"])),
+            ("Surface set", f"{surf['name']}: {surf['count']} samples, {surf['pairs']} pairs ({surf['source']})"),
+            ("Adaptation", f"{ad['spec']} ({ad['model']})"),
+            ("Wavelength grid", f"{grid['start_nm']:g}-{grid['end_nm']:g} nm in {grid['step_nm']:g} nm steps"),
+            ("Metrics", ", ".join(c.get("metrics", []))),
+        ]
+        if disc:
+            rows.append(("Receptor noise", f"Weber fraction {disc.get('weber_fraction_l')} (L cone), cone ratios "
+                                           f"L:M:S {':'.join(f'{v:g}' for v in disc.get('cone_ratios_lms', []))}"))
+        conf = models.get("confusion")
+        if conf:
+            rows.append(("Confusion tolerance", f"{conf.get('tolerance_ln')} (natural-log units; {conf.get('space')})"))
+        for colour_name, v in c.get("signal_lights", {}).items():
+            rows.append((f"Signal lights, {colour_name}",
+                         f"limit {v['limit']:g}; " + ", ".join(f"{l['name']} ({l['kind']}: {l['source']})"
+                                                              for l in v["lights"])))
+        env = self.environment
+        rows.append(("Tool", f"cvdfilter {env['version']}, Python {env['python']}"))
+        rows.append(("Libraries", ", ".join(f"{k} {v}" for k, v in env["libraries"].items())))
+        rows.append(("Platform", env["platform"]))
+        return rows
+
+    def _filter_input_rows(self) -> tuple[list, list]:
+        header = ["filter", "source", "input", "SHA-256 of the file", "SHA-256 of the transmittance on the grid"]
+        rows = [[f["name"], f["source"], f["input"] or "", f["sha256_file"] or "-", f["sha256_transmittance"]]
+                for f in self.filters]
+        return header, rows
+
+    def _photometry_table(self) -> tuple[list, list]:
+        header = ["filter", "luminous transmittance (%)", "ISO 12312-1 category", "road use (day)", "night",
+                  "min T / tau_v, 475-650 nm", "signal quotients R / Y / G / B", "x", "y", "white shift du'v'"]
+        rows = []
+        for f in self.card["filters"]:
+            ru = f.get("road_use") or {}
+            q = f.get("signal_quotients") or {}
+            ch = f.get("chromaticity") or {}
+            tv = f.get("luminous_transmittance")
+            cat = f.get("iso12312_category")
+            rows.append([f["name"], _fmt(None if tv is None else 100 * tv, 1),
+                         "-" if not ru else ("outside" if cat is None else str(cat)),
+                         _yes(ru.get("suitable")), _yes(ru.get("night_suitable")),
+                         _fmt(ru.get("min_ratio_475_650"), 3),
+                         " / ".join(_fmt(q.get(k), 2) for k in ("red", "yellow", "green", "blue")) if q else "-",
+                         _fmt(ch.get("x"), 4), _fmt(ch.get("y"), 4), _fmt(f.get("white_shift"), 4)])
+        return header, rows
+
+    def _rendition_table(self) -> tuple[list, list]:
+        header = ["filter", "Rf", "Rg", "Ra", "CCT (K)", "Duv", "local chroma shifts h1-h16 (%)"]
+        rows = []
+        for f in self.card["filters"]:
+            r = f.get("rendition")
+            if r:
+                rows.append([f["name"], _fmt(r["rf"], 1), _fmt(r["rg"], 1), _fmt(r["ra"], 1), _fmt(r["cct_k"], 0),
+                             _fmt(r["duv"], 4), " ".join(_fmt(v, 0) for v in r["chroma_shifts"])])
+        return header, rows
+
+    def _observer_table(self) -> tuple[list, list]:
+        header = ["filter", "observer", "red-green gain", "blue-yellow gain", "luminance gain",
+                  "discriminable pairs without", "with", "gained", "lost",
+                  "confusion pairs without", "with", "resolved", "created"]
+        rows = []
+        for f in self.card["filters"]:
+            for o in f["observers"]:
+                p = o.get("discriminable_pairs")
+                cp = o.get("confusion_pairs")
+                rows.append([f["name"], o["observer"], _fmt(o.get("red_green_gain"), 3),
+                             _fmt(o.get("blue_yellow_gain"), 3), _fmt(o.get("luminance_contrast_gain"), 3),
+                             *(["-"] * 4 if not p else [p["without"], p["with"], p["gained"], p["lost"]]),
+                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]])])
+        return header, rows
+
+    def _reasons(self) -> list[tuple[str, list]]:
+        return [(f["name"], f["road_use"]["reasons"]) for f in self.card["filters"] if f.get("road_use")]
+
+    # -- HTML ---------------------------------------------------------------------------------
+
+    def to_html(self) -> str:
+        """The report as one self-contained HTML page (inline SVG figures, no scripts, no requests)."""
+        e = html.escape
+        out = ["<!DOCTYPE html>", '<html lang="en">', "<head>", '<meta charset="utf-8">',
+               '<meta http-equiv="Content-Security-Policy" content="default-src \'none\'; '
+               'style-src \'unsafe-inline\'; img-src data:">',
+               '<meta name="viewport" content="width=device-width, initial-scale=1">',
+               f"<title>cvdfilter report: {e(', '.join(f['name'] for f in self.filters[:3]))}"
+               f"{' ...' if len(self.filters) > 3 else ''}</title>",
+               f"<style>{_CSS}</style>", "</head>", "<body>", "<main>",
+               "<h1>cvdfilter report</h1>",
+               f'<p class="meta">cvdfilter {e(self.environment["version"])}; filters: '
+               f"{e(', '.join(f['name'] for f in self.filters))}</p>",
+               '<section id="caveat" class="caveat">', f"<h2>{SECTIONS['caveat']}</h2>",
+               f"<p><strong>{e(CAVEAT)}</strong></p>", "</section>"]
+        # inputs
+        out += ['<section id="inputs">', f"<h2>{SECTIONS['inputs']}</h2>", "<h3>Filters</h3>",
+                _html_table(*self._filter_input_rows(), mono_cols=(3, 4)), "<h3>Settings and versions</h3>",
+                '<table class="kv">', *(f"<tr><th>{e(k)}</th><td>{e(v)}</td></tr>" for k, v in self._input_rows()),
+                "</table>", "<h3>Command</h3>", f"<pre><code>{e(self.command)}</code></pre>", "</section>"]
+        # scorecard
+        out += ['<section id="scorecard">', f"<h2>{SECTIONS['scorecard']}</h2>",
+                "<h3>Photometry and road use (normal observer, CIE D65, CIE 1931 2 deg)</h3>",
+                _html_table(*self._photometry_table())]
+        reasons = self._reasons()
+        if reasons:
+            out.append("<h4>Road-use reasons</h4><ul>")
+            out += [f"<li><strong>{e(n)}</strong>: {e(' '.join(r))}</li>" for n, r in reasons]
+            out.append("</ul>")
+            out.append(f'<p class="caution">{e(ROAD_CAUTION)}</p>')
+        header, rows = self._rendition_table()
+        if rows:
+            out += ["<h3>Colour rendition of the light through the filter (TM-30 / CIE 224, CIE 13.3)</h3>",
+                    _html_table(header, rows)]
+        out += ["<h3>Per observer</h3>", f"<p>{e(_OBSERVER_NOTE)}</p>", _html_table(*self._observer_table()),
+                "<details><summary>Full scorecard (JSON)</summary>",
+                f"<pre><code>{e(json.dumps(self.card, indent=1, ensure_ascii=False))}</code></pre></details>",
+                "</section>"]
+        # figures
+        out += ['<section id="figures">', f"<h2>{SECTIONS['figures']}</h2>"]
+        for k, fig in enumerate(self.figures, start=1):
+            out.append(f'<figure id="figure-{e(fig.kind)}">')
+            if fig.svg:
+                out.append(_inline_svg(fig.svg, f"f{k}", fig.caption))
+            else:
+                out.append(f'<p class="note">{e(fig.note)}</p>')
+            out.append(f"<figcaption><strong>Figure {k}.</strong> {e(fig.caption)}</figcaption></figure>")
+        out.append("</section>")
+        # models
+        out += ['<section id="models">', f"<h2>{SECTIONS['models']}</h2>", "<dl>"]
+        for use, ref in REFERENCES:
+            out.append(f"<dt>{e(use)}</dt><dd>{e(ref)}</dd>")
+        out += ["</dl>", "</section>"]
+        # cautions
+        out += ['<section id="cautions">', f"<h2>{SECTIONS['cautions']}</h2>", "<ul>",
+                *(f"<li>{e(c)}</li>" for c in (CAVEAT, ROAD_CAUTION, EYE_CARE_CAUTION)), "</ul>", "</section>",
+                "</main>", "</body>", "</html>", ""]
+        return "\n".join(out)
+
+    # -- Markdown -----------------------------------------------------------------------------
+
+    def to_markdown(self, figure_dir: str = "report_figures") -> tuple[str, dict]:
+        """The report as Markdown plus its side files.
+
+        Returns
+        -------
+        text : str
+        files : dict
+            Relative path (under ``figure_dir``) -> bytes: one SVG per figure and ``scorecard.json``.
+        """
+        files: dict[str, bytes] = {}
+        lines = ["# cvdfilter report", "",
+                 f"cvdfilter {self.environment['version']}; filters: {', '.join(f['name'] for f in self.filters)}", "",
+                 f"## {SECTIONS['caveat']}", "", f"**{CAVEAT}**", "",
+                 f"## {SECTIONS['inputs']}", "", "### Filters", "", *_md_table(*self._filter_input_rows()), "",
+                 "### Settings and versions", "", *_md_table(["setting", "value"], self._input_rows()), "",
+                 "### Command", "", "```", self.command, "```", "",
+                 f"## {SECTIONS['scorecard']}", "",
+                 "### Photometry and road use (normal observer, CIE D65, CIE 1931 2 deg)", "",
+                 *_md_table(*self._photometry_table()), ""]
+        reasons = self._reasons()
+        if reasons:
+            lines += ["#### Road-use reasons", ""] + [f"- **{n}**: {' '.join(r)}" for n, r in reasons]
+            lines += ["", f"_{ROAD_CAUTION}_", ""]
+        header, rows = self._rendition_table()
+        if rows:
+            lines += ["### Colour rendition of the light through the filter (TM-30 / CIE 224, CIE 13.3)", "",
+                      *_md_table(header, rows), ""]
+        json_name = f"{figure_dir}/scorecard.json"
+        files[json_name] = (json.dumps(self.card, indent=2, ensure_ascii=False) + "\n").encode("utf-8")
+        lines += ["### Per observer", "", _OBSERVER_NOTE, "", *_md_table(*self._observer_table()), "",
+                  f"The full scorecard: [{json_name}]({_md_link(json_name)}).", "",
+                  f"## {SECTIONS['figures']}", ""]
+        for k, fig in enumerate(self.figures, start=1):
+            if fig.svg:
+                name = f"{figure_dir}/{k:02d}-{fig.kind}.svg"
+                files[name] = fig.svg
+                lines += [f"![Figure {k}: {fig.kind}]({_md_link(name)})", ""]
+            else:
+                lines += [f"_{fig.note}_", ""]
+            lines += [f"**Figure {k}.** {fig.caption}", ""]
+        lines += [f"## {SECTIONS['models']}", ""] + [f"- **{use}**: {ref}" for use, ref in REFERENCES] + [""]
+        lines += [f"## {SECTIONS['cautions']}", ""] + [f"- {c}" for c in (CAVEAT, ROAD_CAUTION, EYE_CARE_CAUTION)]
+        return "\n".join(lines) + "\n", files
+
+    # -- writing ------------------------------------------------------------------------------
+
+    def save(self, path: str | os.PathLike, *, inputs: Iterable[str | os.PathLike] = ()) -> list[pathlib.Path]:
+        """Write the report: ``.html``/``.htm`` (one file) or ``.md`` (plus ``<name>_figures/``).
+
+        Everything is built in memory first and each file is written atomically,
+        so bad input leaves nothing behind. Returns the paths written.
+        """
+        from .io.atomic import check_outputs, write_bytes, write_text
+
+        path = pathlib.Path(path)
+        suffix = path.suffix.lower()
+        if suffix in (".html", ".htm"):
+            text = self.to_html()
+            return [write_text(path, text, inputs=inputs)]
+        if suffix == ".md":
+            folder = f"{path.stem}_figures"
+            text, files = self.to_markdown(folder)
+            targets = {path.parent / rel: data for rel, data in files.items()}
+            check_outputs([path, *targets], inputs)
+            written = [write_bytes(p, data, inputs=inputs) for p, data in targets.items()]
+            written.append(write_text(path, text, inputs=inputs))
+            return written
+        raise InputError(f"cannot tell the report format from '{path.name}'", source=str(path),
+                         hint="end the file name in .html or .md")
+
+
+# --- helpers ----------------------------------------------------------------------------------
+
+_OBSERVER_NOTE = ("Gains are the RMS contrast of the surfaces with the filter divided by that without it (1 = no "
+                  "change). Pairs are surface pairs: discriminable at 1 JND or more (receptor-noise model) and "
+                  "confused (on one confusion line of the observer's deficient axis), without and with the "
+                  "filter. '-' where a metric does not apply (no red-green axis for a dichromat, no confusion "
+                  "axis for a normal observer).")
+
+_CSS = """
+body{font-family:"DejaVu Sans",Arial,Helvetica,sans-serif;font-size:15px;line-height:1.45;color:#222;margin:0;
+background:#fff}
+main{max-width:980px;margin:0 auto;padding:1rem 1.25rem 3rem}
+h1{font-size:1.6rem;margin:.4rem 0}h2{font-size:1.25rem;border-bottom:1px solid #ccc;padding-bottom:.2rem;
+margin-top:2rem}h3{font-size:1.05rem;margin-top:1.4rem}h4{font-size:.95rem}
+.meta{color:#555;font-size:.9rem}
+.caveat{border:2px solid #D55E00;background:#fff7f0;padding:.2rem 1rem .6rem;margin:1rem 0}
+.caveat h2{border:0;margin-top:.6rem}
+.caution{border-left:4px solid #D55E00;padding-left:.6rem}
+table{border-collapse:collapse;font-size:.82rem;margin:.4rem 0 1rem;display:block;overflow-x:auto;max-width:100%}
+th,td{border:1px solid #ccc;padding:.2rem .4rem;text-align:left;vertical-align:top}
+th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
+td.mono{font-family:"DejaVu Sans Mono",monospace;font-size:.72rem;word-break:break-all}
+table.kv th{width:12rem}
+pre{background:#f6f6f6;padding:.6rem;overflow-x:auto;font-size:.8rem;white-space:pre-wrap;word-break:break-all}
+figure{margin:1.2rem 0;padding:0}figure svg{width:100%;height:auto;display:block}
+figcaption{font-size:.88rem;color:#333;margin-top:.3rem}
+dt{font-weight:bold;margin-top:.5rem}dd{margin-left:1.2rem}
+.note{color:#555;font-style:italic}
+@media print{main{max-width:none}details{display:none}}
+"""
+
+
+def _fmt(x, digits: int) -> str:
+    return "-" if x is None else f"{round(float(x), digits) + 0.0:.{digits}f}"
+
+
+def _yes(b) -> str:
+    return "-" if b is None else ("yes" if b else "no")
+
+
+def _is_number(v) -> bool:
+    if isinstance(v, (int, float)) and not isinstance(v, bool):
+        return True
+    return bool(re.fullmatch(r"-?\d+(\.\d+)?", str(v)))
+
+
+def _html_table(header, rows, *, mono_cols=()) -> str:
+    e = html.escape
+    out = ["<table>", "<thead><tr>" + "".join(f"<th>{e(str(h))}</th>" for h in header) + "</tr></thead>", "<tbody>"]
+    for r in rows:
+        cells = []
+        for j, v in enumerate(r):
+            cls = "mono" if j in mono_cols else ("num" if _is_number(v) else "")
+            cells.append(f'<td class="{cls}">{e(str(v))}</td>' if cls else f"<td>{e(str(v))}</td>")
+        out.append("<tr>" + "".join(cells) + "</tr>")
+    out += ["</tbody>", "</table>"]
+    return "\n".join(out)
+
+
+def _md_cell(v) -> str:
+    return ("" if v is None else str(v)).replace("|", "\\|").replace("\n", " ")
+
+
+def _md_table(header, rows) -> list[str]:
+    lines = ["| " + " | ".join(_md_cell(h) for h in header) + " |", "|" + "|".join("---" for _ in header) + "|"]
+    lines += ["| " + " | ".join(_md_cell(v) for v in r) + " |" for r in rows]
+    return lines
+
+
+def _md_link(rel: str) -> str:
+    return "/".join(part.replace(" ", "%20") for part in rel.split("/"))
+
+
+def _inline_svg(svg: bytes, prefix: str, label: str) -> str:
+    """An SVG document as an inline element: no prolog, ids prefixed so figures never collide."""
+    text = svg.decode("utf-8")
+    text = text[text.index("<svg"):]
+    text = re.sub(r'\bid="([^"]+)"', rf'id="{prefix}-\1"', text)
+    text = re.sub(r"url\(#([^)]+)\)", rf"url(#{prefix}-\1)", text)
+    text = re.sub(r'(xlink:href|href)="#([^"]+)"', rf'\1="#{prefix}-\2"', text)
+    return text.replace("<svg ", f'<svg role="img" aria-label="{html.escape(label)}" ', 1)
+
+
+def _describe_filters(fs) -> list[dict]:
+    out = []
+    for i, name in enumerate(fs.names):
+        info = fs.info[i] if i < len(fs.info) else {}
+        sha_file = info.get("sha256")
+        if sha_file is None and info.get("parts"):
+            parts = [p.get("sha256") for p in info["parts"] if p.get("sha256")]
+            sha_file = " * ".join(parts) if parts else None
+        out.append({"name": name, "source": fs.sources[i] if i < len(fs.sources) else "array",
+                    "input": info.get("path") or info.get("spec"), "sha256_file": sha_file,
+                    "sha256_transmittance": transmittance_sha256(fs.transmittance[i])})
+    return out
+
+
+def _command(filters, illuminant, observers, surfaces, adaptation, metrics, style, output) -> str:
+    args = ["cvdfilter", "report", *[str(f) for f in filters]]
+    args += ["--illuminant", str(illuminant)]
+    for o in observers:
+        args += ["--observer", str(o)]
+    args += ["--surfaces", str(surfaces), "--adaptation", str(adaptation), "--metrics", str(metrics)]
+    for s in style or ():
+        args += ["--style", str(s)]
+    args += ["-o", str(output or "report.html")]
+    return " ".join(shlex.quote(a) for a in args)
+
+
+def _first_deficient(observers) -> str | None:
+    from .observers.observer import observer as make_observer
+
+    objs = [make_observer(o) for o in observers]
+    for kind in ("dichromat", "anomalous"):
+        for o in objs:
+            if o.kind == kind and o.deficiency in ("protan", "deutan", "tritan"):
+                return o.spec
+    return None
+
+
+def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) -> list[ReportFigure]:
+    from .figures import figure
+    from .figures.hues import hues_card
+
+    figs: list[ReportFigure] = []
+    n = len(fs)
+    names = ", ".join(fs.names[:4]) + (" ..." if n > 4 else "")
+    common = {"illuminant": illuminant, "adaptation": adaptation, "width": "double", "style": style}
+    deficient = _first_deficient(observers)
+    anomalous = [o for o in observers if "anomalous" in str(o)]
+
+    def add(kind, caption, make, limit=None):
+        if limit is not None and n > limit:
+            figs.append(ReportFigure(kind, caption, note=f"The {kind} figure is left out: it compares at most "
+                                                         f"{limit} filters and this report has {n}."))
+            return
+        result = make()
+        figs.append(ReportFigure(kind, caption, result.to_bytes("svg", salt=f"cvdfilter-report-{kind}")))
+        result.close()
+
+    add("spectrum", f"Spectral transmittance of {names} with notches marked (centre and FWHM), the relative "
+                    f"spectral power of {illuminant} and the cone fundamentals (CIE 170-1) of the normal observer"
+                    + (" and of " + ", ".join(anomalous) if anomalous else "") + ".",
+        lambda: figure("spectrum", fs, observers=["normal", *anomalous], **{k: v for k, v in common.items()
+                                                                            if k != "adaptation"}), limit=16)
+    if deficient:
+        add("chromaticity", f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} "
+                            f"without and with each filter (adaptation {adaptation}), with the {deficient} "
+                            "observer's copunctal point and confusion lines.",
+            lambda: figure("chromaticity", fs, observers=deficient, surfaces=surfaces, **common), limit=4)
+    add("gains", "Red-green, blue-yellow and luminance contrast gains (with / without the filter, log scale) "
+                 "and discriminable surface pairs gained and lost, per observer.",
+        lambda: figure("gains", fs, observers=observers, surfaces=surfaces, card=card, **common), limit=8)
+    if deficient:
+        first = fs.names[0]
+        add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
+                        f"{deficient} observer (simulated for a normal viewer), without and with {first}"
+                        + (" (the first filter)" if n > 1 else "") + ".",
+            lambda: figure("swatches", _one(fs, 0), observers=deficient, surfaces=surfaces, **common))
+    if all("rendition" in f for f in card["filters"]):
+        add("hues", f"TM-30 local chroma shift per hue bin of {illuminant} through each filter and alone.",
+            lambda: figure("hues", fs, card=hues_card(card, fs.grid, illuminant), **common), limit=7)
+    return figs
+
+
+def _one(fs, i):
+    from .spectra.filters import FilterSet
+
+    return FilterSet((fs.names[i],), fs.transmittance[i:i + 1], fs.grid, fs.sources[i:i + 1], fs.info[i:i + 1])
+
+
+def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = "ces99", adaptation="full",
+           metrics: str = "all", style=None, output: str | os.PathLike | None = None) -> Report:
+    """Score filters and build a report with tables, figures, models, cautions and a reproduction record.
+
+    Parameters
+    ----------
+    filters
+        Filter specs, paths, example names or a FilterSet (as for :func:`cvdfilter.score`).
+    illuminant, observers, surfaces, adaptation, metrics
+        As for :func:`cvdfilter.score` (observers default to its defaults).
+    style
+        Figure style (:func:`cvdfilter.figures.parse_style`).
+    output : path, optional
+        Also write the report there (``.html`` or ``.md``).
+
+    Returns
+    -------
+    Report
+        ``.to_html()``, ``.to_markdown()``, ``.save(path)``.
+
+    Raises
+    ------
+    cvdfilter.errors.InputError
+        For bad input, before anything is written.
+    """
+    from .figures.common import load_filters_checked
+    from .figures.style import parse_style
+    from .scorecard import DEFAULT_OBSERVERS, score
+
+    observers = list(DEFAULT_OBSERVERS if observers is None else
+                     ([observers] if isinstance(observers, str) else observers))
+    if output is not None and pathlib.Path(output).suffix.lower() not in (".html", ".htm", ".md"):
+        raise InputError(f"cannot tell the report format from '{pathlib.Path(output).name}'", source=str(output),
+                         hint="end the file name in .html or .md")
+    style_items = [style] if isinstance(style, str) else (list(style) if style else [])
+    parsed_style = parse_style(style_items or None) if not hasattr(style, "rc_params") else style
+    fs = load_filters_checked(filters)
+    card = score(fs, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
+                 metrics=metrics).to_dict()
+    observer_specs = [o["observer"] for o in card["observers"]]
+    figs = _figures(fs, card, illuminant=illuminant, observers=observer_specs, surfaces=surfaces,
+                    adaptation=adaptation, style=parsed_style)
+    raw_filters = [filters] if isinstance(filters, (str, os.PathLike)) else list(filters) \
+        if isinstance(filters, (list, tuple)) else list(fs.names)
+    command = _command(raw_filters, illuminant, observer_specs, surfaces, adaptation, metrics,
+                       style_items if all(isinstance(s, str) for s in style_items) else (), output)
+    result = Report(card=card, filters=_describe_filters(fs), figures=figs, command=command)
+    if output is not None:
+        inputs = [f for f in raw_filters if isinstance(f, (str, os.PathLike)) and pathlib.Path(f).exists()]
+        inputs += [s for s in style_items if isinstance(s, str) and pathlib.Path(s).exists()]
+        result.written = result.save(output, inputs=inputs)
+    return result
