@@ -30,6 +30,11 @@ demo: $(VENV)/.installed
 	$(BIN)/cvdfilter inspect-observer normal deuteranomalous:shift=8 protanope tritanope --white D65
 	$(BIN)/cvdfilter inspect-observer normal:age=70,field=10 deuteranomalous:severity=0.6,model=machado2009 \
 		protanomalous:shift=8 deuteranope --format json --output $(OUT)/observers.json
+	$(BIN)/cvdfilter score larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference
+	$(BIN)/cvdfilter score larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
+		--format json --output $(OUT)/scorecard.json
+	$(BIN)/cvdfilter score larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
+		--format markdown --output $(OUT)/scorecard.md
 
 test: $(VENV)/.installed-test
 	$(BIN)/python -m pytest -q
