@@ -271,7 +271,7 @@ def read_cube(path, *, wavelengths=None, kind: str | None = None, max_megapixels
         raise
     except ValueError as exc:
         text = " ".join(str(exc).split())
-        if "pickle" in text.lower():
+        if "pickle" in text.lower() or "python objects" in text.lower():
             raise InputError("holds Python objects; cubes are read with pickling disabled", source=src,
                              hint="save a plain numeric array") from None
         raise InputError(f"cannot read the cube ({text[:160]})", source=src) from None
