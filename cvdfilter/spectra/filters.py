@@ -323,6 +323,29 @@ def _sha256(path: pathlib.Path) -> str:
     return hashlib.sha256(path.read_bytes()).hexdigest()
 
 
+def _narrow_feature_warnings(wl, values, names) -> list[str]:
+    """Warnings for features spanning fewer than three samples (find_notches on each curve).
+
+    find_notches needs scipy.signal, whose import takes seconds; the warnings are
+    kept in the on-disk cache by the curves' content, so reading a file again
+    (or a bundled example) does not import it.
+    """
+    from .cache import cached_arrays
+
+    def build():
+        notes = []
+        for j, name in enumerate(names):
+            for n in find_notches(wl, values[j]):
+                if n["fwhm_samples"] < 3:
+                    notes.append(f"{name}: feature at {n['center']:.1f} nm spans fewer than three sampling steps")
+        return {"notes": np.array(notes, dtype=str)}
+
+    wl = np.ascontiguousarray(wl, dtype=float)
+    values = np.ascontiguousarray(values, dtype=float)
+    key = hashlib.sha1(wl.tobytes() + values.tobytes() + "\x00".join(names).encode()).hexdigest()
+    return [str(x) for x in cached_arrays(f"narrow-features-{key}", build)["notes"]]
+
+
 def _from_file(path: pathlib.Path, grid: Grid, units: str | None, bandwidth: float | None,
                source_kind: str) -> FilterSet:
     from ..io.spectra_files import read_spectra
@@ -334,10 +357,7 @@ def _from_file(path: pathlib.Path, grid: Grid, units: str | None, bandwidth: flo
     if bandwidth is not None:
         wl, values, bw_notes = _bandpass_correct(wl, values, bandwidth, str(path))
         warnings += bw_notes
-    for j, name in enumerate(table.names):
-        for n in find_notches(wl, values[j]):
-            if n["fwhm_samples"] < 3:
-                warnings.append(f"{name}: feature at {n['center']:.1f} nm spans fewer than three sampling steps")
+    warnings += _narrow_feature_warnings(wl, values, table.names)
     t = resample(wl, values.T, grid, method="linear", outside="edge").T
     digest = _sha256(path)
     names = tuple(table.names) if source_kind == "file" else tuple(
