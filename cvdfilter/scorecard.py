@@ -167,6 +167,10 @@ class Scorecard:
             d["input"] = where
         if info.get("sha256"):
             d["sha256"] = info["sha256"]
+        warnings = list(info.get("warnings", []))
+        for part in info.get("parts") or []:
+            warnings += part.get("warnings", [])
+        d["warnings"] = warnings
         if "photometry" in self.metrics:
             d["luminous_transmittance"] = _num(r["luminous_transmittance"][i])
             d["luminous_transmittance_illuminant"] = _num(r["luminous_transmittance_illuminant"][i])
@@ -497,7 +501,7 @@ def _flatten(d: dict, prefix: str = "") -> dict:
             out.update(_flatten(v, key + "."))
         elif v is None and k in _DICT_KEYS:
             out.update({f"{key}.{s}": None for s in _DICT_KEYS[k]})
-        elif isinstance(v, list) and v and all(isinstance(x, str) for x in v):
+        elif isinstance(v, list) and (k in _TEXT_LISTS or (v and all(isinstance(x, str) for x in v))):
             out[key] = " ".join(v)
         elif isinstance(v, list):
             out.update({f"{key}.{j + 1}": x for j, x in enumerate(v)})
@@ -506,6 +510,8 @@ def _flatten(d: dict, prefix: str = "") -> dict:
     return out
 
 
+#: Keys whose value is a list of sentences: one CSV cell, even when empty.
+_TEXT_LISTS = ("reasons", "warnings")
 #: Keys whose value is a dict or null, with the sub-keys a null flattens to (CSV columns stay aligned).
 _DICT_KEYS = {"confusion_pairs": ("without", "with", "resolved", "created"),
               "discriminable_pairs": ("without", "with", "gained", "lost")}

@@ -133,33 +133,33 @@ def contrast_rms(planes, white, channels, *, gains=None) -> np.ndarray:
     w = np.asarray(white, dtype=float)
     g = np.ones_like(w) if gains is None else np.asarray(gains, dtype=float)
     wg = w * g
+    n = np.shape(planes[0])[-1]
     memo: dict = {}
 
-    def combo(weights):  # sum_i weights_i g_i q_i, shape (B, N); computed once per weight vector
+    def normalised(weights):
+        # sum_i weights_i g_i q_i divided by the same sum for the white: (B, N), 1 at the white.
         key = tuple(float(v) for v in weights)
         if key not in memo:
+            scale = 1.0 / (wg @ weights)
             acc = None
             for i, wi in enumerate(weights):
                 if wi == 0.0:
                     continue
-                term = (wi * g[:, i])[:, None] * planes[i]
-                acc = term if acc is None else acc + term
+                term = planes[i] * (wi * g[:, i] * scale)[:, None]
+                acc = term if acc is None else np.add(acc, term, out=acc)
             memo[key] = acc
         return memo[key]
 
     out = np.full((w.shape[0], 3), np.nan)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         for k, ch in enumerate(channels):
             if ch is None:
                 continue
             num, den = ch
-            x = combo(num)
-            xw = wg @ num
+            c = normalised(num) - 1.0 if den is None else np.divide(normalised(num), normalised(den))
             if den is not None:
-                x = x / combo(den)
-                xw = xw / (wg @ den)
-            c = x / xw[:, None] - 1.0
-            out[:, k] = np.sqrt(np.mean(c * c, axis=1))
+                c -= 1.0
+            out[:, k] = np.sqrt(np.einsum("ij,ij->i", c, c) / n)
     return out
 
 

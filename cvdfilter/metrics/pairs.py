@@ -163,6 +163,7 @@ def count_close_pairs(points, radius: float = 1.0) -> np.ndarray:
         far = top + (np.arange(n_pts, dtype=float) + 2.0) * (10.0 * radius + 1.0)
         planes = [np.where(bad, far, planes[0])] + [np.where(bad, 0.0, c) for c in planes[1:]]
     step = max(1, _CHUNK_POINTS // n_pts)
+    step = -(-n_sets // -(-n_sets // step))  # equal chunks, none left tiny
     for lo in range(0, n_sets, step):
         hi = min(n_sets, lo + step)
         out[lo:hi] = _sweep([c[lo:hi] for c in planes], radius)
