@@ -28,6 +28,7 @@ Public: :func:`score`, :class:`Scorecard`, :data:`DEFAULT_OBSERVERS`,
 from __future__ import annotations
 
 import csv
+import functools
 import io
 import json
 import math
@@ -102,7 +103,7 @@ def _adaptation_text(a: float) -> str:
 def _num(x, digits: int = 6):
     """A finite float rounded to ``digits`` decimals, or None (NaN / inf -> null)."""
     x = float(x)
-    if not math.isfinite(x):
+    if x != x or x in (math.inf, -math.inf):
         return None
     return round(x, digits) + 0.0  # + 0.0 turns -0.0 into 0.0
 
@@ -155,10 +156,18 @@ class Scorecard:
 
     # -- the JSON document -----------------------------------------------------
 
+    @functools.cached_property
+    def _lists(self):
+        """The result arrays as Python lists (indexing lists is much faster than numpy scalars)."""
+        def conv(d):
+            return {k: (v.tolist() if isinstance(v, np.ndarray) else v) for k, v in d.items()}
+
+        return conv(self.results), [conv(o) for o in self.per_observer]
+
     def _filter_dict(self, i: int) -> dict:
         from .metrics.road_use import SIGNAL_COLOURS, road_use_reasons
 
-        r = self.results
+        r = self._lists[0]
         fs = self.filters
         info = fs.info[i] if i < len(fs.info) else {}
         d = {"name": fs.names[i], "source": fs.sources[i] if i < len(fs.sources) else "array"}
@@ -174,7 +183,7 @@ class Scorecard:
         if "photometry" in self.metrics:
             d["luminous_transmittance"] = _num(r["luminous_transmittance"][i])
             d["luminous_transmittance_illuminant"] = _num(r["luminous_transmittance_illuminant"][i])
-            d["chromaticity"] = {"x": _num(r["chromaticity"][i, 0]), "y": _num(r["chromaticity"][i, 1])}
+            d["chromaticity"] = {"x": _num(r["chromaticity"][i][0]), "y": _num(r["chromaticity"][i][1])}
             d["white_shift"] = _num(r["white_shift"][i])
         if "road_use" in self.metrics:
             cat = int(r["iso12312_category"][i])
@@ -202,7 +211,7 @@ class Scorecard:
         return d
 
     def _observer_dict(self, i: int, k: int) -> dict:
-        o = self.per_observer[k]
+        o = self._lists[1][k]
         d = {"observer": self.observers[k].spec}
         if "contrast" in self.metrics:
             d["red_green_gain"] = _num(o["red_green_gain"][i])
@@ -282,17 +291,20 @@ class Scorecard:
                "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
                "caveat": head["caveat"]}
         rows, columns = [], []
-        seen = set()
+        seen, layouts = set(), set()
         for i in range(len(self)):
             f = self._filter_dict(i)
             obs = f.pop("observers")
             flat_f = _flatten(f)
             for o in obs:
                 row = {**flat_f, **_flatten(o), **run}
-                for key in row:
-                    if key not in seen:
-                        seen.add(key)
-                        columns.append(key)
+                layout = tuple(row)
+                if layout not in layouts:  # rows share a few key layouts: merge each new one once
+                    layouts.add(layout)
+                    for key in layout:
+                        if key not in seen:
+                            seen.add(key)
+                            columns.append(key)
                 rows.append(row)
         # Run-level columns last, whatever order the rows met them in.
         columns = [c for c in columns if c not in run] + list(run)
