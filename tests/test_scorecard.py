@@ -121,6 +121,24 @@ def test_constructed_deuteranope_metamers_are_resolved_by_a_separating_filter():
     assert nd[1]["discriminable_pairs"]["without"] == 1  # the normal observer sees the M difference
 
 
+def test_metamer_pair_lies_on_one_deutan_confusion_line():
+    # Consistency with the confusion-line geometry (observers/confusion.py): the two surfaces the
+    # scorecard calls a deuteranope confusion pair are collinear with the deutan copunctal point.
+    from cvdfilter.observers.confusion import copunctal_point
+    from cvdfilter.observers.fundamentals import LMS_TO_XYZ_2DEG
+    from cvdfilter.observers.observer import observer
+    from cvdfilter.spectra.illuminants import illuminant
+
+    obs = observer("deuteranope")
+    surf = _deuteranope_metamers()
+    lms = (illuminant("D65").spd[:, None] * surf.reflectance).T @ obs.fundamentals
+    xyz = lms @ LMS_TO_XYZ_2DEG.T
+    p1, p2 = xyz[:, :2] / xyz.sum(axis=1, keepdims=True)
+    c = copunctal_point(obs, "deutan", xy_system="own-2")
+    u, v = p2 - p1, c - p1
+    assert abs(u[0] * v[1] - u[1] * v[0]) / (np.linalg.norm(u) * np.linalg.norm(v)) < 1e-3
+
+
 def test_anomalous_confusion_pairs_are_a_subset_of_the_dichromats():
     # Invariant: a deuteranomalous observer shares L and S with the deuteranope, and its confusion
     # ellipse (across-line and weakened axis within tolerance) lies inside the deuteranope's strip.
