@@ -449,7 +449,16 @@ def _inline_svg(svg: bytes, prefix: str, label: str) -> str:
     """An SVG document as an inline element: no prolog, ids prefixed so figures never collide."""
     text = svg.decode("utf-8")
     text = text[text.index("<svg"):]
-    text = re.sub(r'\bid="([^"]+)"', rf'id="{prefix}-\1"', text)
+    seen: dict[str, int] = {}
+
+    def unique(m):
+        # Artist gids may repeat inside one figure (one per panel); ids in a page must not.
+        name = m.group(1)
+        seen[name] = seen.get(name, 0) + 1
+        suffix = "" if seen[name] == 1 else f"__{seen[name]}"
+        return f'id="{prefix}-{name}{suffix}"'
+
+    text = re.sub(r'\bid="([^"]+)"', unique, text)
     text = re.sub(r"url\(#([^)]+)\)", rf"url(#{prefix}-\1)", text)
     text = re.sub(r'(xlink:href|href)="#([^"]+)"', rf'\1="#{prefix}-\2"', text)
     return text.replace("<svg ", f'<svg role="img" aria-label="{html.escape(label)}" ', 1)
