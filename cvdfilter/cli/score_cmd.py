@@ -83,14 +83,15 @@ def register(app: typer.Typer) -> None:
             progress.close()
             fail(exc)
         progress.close()
-        if format == "json":
-            text = card.to_json()
-        elif format == "csv":
-            text = card.to_csv()
-        elif format == "markdown":
-            text = card.to_markdown()
+        render = {"json": card.to_json, "csv": card.to_csv, "markdown": card.to_markdown,
+                  "table": lambda: card.to_table(width=100)}[format]
+        if len(card) * len(card.observers) > 5000:  # large sweeps take seconds to format: say so
+            from rich.console import Console
+
+            with Console(stderr=True).status(f"writing {len(card)} filters as {format}"):
+                text = render()
         else:
-            text = card.to_table(width=100)
+            text = render()
         inputs = [f for f in filters] + ([signal_spectra] if signal_spectra else []) + [surfaces, illuminant]
         try:
             emit(text, output, inputs=inputs)
