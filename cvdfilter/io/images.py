@@ -375,6 +375,20 @@ def _png_chunk(ctype: bytes, payload: bytes) -> bytes:
     return struct.pack(">I", len(payload)) + ctype + payload + struct.pack(">I", zlib.crc32(ctype + payload))
 
 
+def _png_parts(pixels: np.ndarray, metadata: dict | None, level: int) -> list:
+    """The PNG as pieces (no copy of the compressed data): signature + IHDR, added chunks, the rest."""
+    import imagecodecs
+
+    data = memoryview(imagecodecs.png_encode(np.ascontiguousarray(pixels), level=level))
+    # Insert sRGB (rendering intent 0, perceptual) and text chunks right after IHDR.
+    ihdr_end = 8 + 12 + 13
+    extra = _png_chunk(b"sRGB", b"\x00")
+    for key, value in (metadata or {}).items():
+        text = value if isinstance(value, str) else json.dumps(value, ensure_ascii=False)
+        extra += _png_chunk(b"iTXt", key.encode("latin-1")[:79] + b"\x00\x00\x00\x00\x00" + text.encode("utf-8"))
+    return [data[:ihdr_end], extra, data[ihdr_end:]]
+
+
 def encode_png(pixels: np.ndarray, metadata: dict | None = None, level: int = 3) -> bytes:
     """PNG bytes (imagecodecs) with an ``sRGB`` chunk and ``metadata`` as iTXt chunks.
 
@@ -387,16 +401,7 @@ def encode_png(pixels: np.ndarray, metadata: dict | None = None, level: int = 3)
     level : int
         zlib compression level, 0-9.
     """
-    import imagecodecs
-
-    data = bytes(imagecodecs.png_encode(np.ascontiguousarray(pixels), level=level))
-    # Insert sRGB (rendering intent 0, perceptual) and text chunks right after IHDR.
-    ihdr_end = 8 + 12 + 13
-    extra = _png_chunk(b"sRGB", b"\x00")
-    for key, value in (metadata or {}).items():
-        text = value if isinstance(value, str) else json.dumps(value, ensure_ascii=False)
-        extra += _png_chunk(b"iTXt", key.encode("latin-1")[:79] + b"\x00\x00\x00\x00\x00" + text.encode("utf-8"))
-    return data[:ihdr_end] + extra + data[ihdr_end:]
+    return b"".join(_png_parts(pixels, metadata, level))
 
 
 def write_image(path, pixels, *, encoding: str = "srgb", metadata: dict | None = None,
@@ -431,9 +436,10 @@ def write_image(path, pixels, *, encoding: str = "srgb", metadata: dict | None =
     if fmt == "png":
         if px.dtype not in (np.uint8, np.uint16):
             raise ValueError(f"PNG holds 8- or 16-bit integers, got {px.dtype}")
-        data = encode_png(px, meta, png_level)
-        with atomic_path(p, inputs=inputs) as tmp:
-            tmp.write_bytes(data)
+        parts = _png_parts(px, meta, png_level)
+        with atomic_path(p, inputs=inputs) as tmp, open(tmp, "wb") as fh:
+            for part in parts:
+                fh.write(part)
         return p
     if fmt == "jpeg":
         if px.dtype != np.uint8:
