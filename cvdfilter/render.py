@@ -1068,7 +1068,7 @@ def panel_footer(renderer: Renderer) -> str:
 
 def _small(px: np.ndarray, max_pixels: int = 1200) -> np.ndarray:
     step = max(1, int(np.ceil(max(px.shape[:2]) / max_pixels)))
-    return np.ascontiguousarray(px[::step, ::step])
+    return px[::step, ::step].copy()  # a copy: the full-size buffer is reused for the next view
 
 
 def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt: str = "auto",

@@ -290,3 +290,26 @@ def test_tiles_do_not_change_the_result(astronaut):
     inplace = astronaut.copy()
     c, nc = r.apply(inplace, "observer-filtered", out=inplace)
     assert c is inplace and np.array_equal(c, a) and nc == na
+
+
+def test_render_file_panel_holds_each_view(tmp_path, monkeypatch):
+    # The panel receives each view as rendered (not the reused full-size buffer of the last view).
+    import cvdfilter.render as rmod
+    from cvdfilter.io.images import read_image
+
+    seen = {}
+
+    def fake_panel(images, **kwargs):
+        seen.update({k: v.copy() for k, v in images.items()})
+        return b"png"
+
+    monkeypatch.setattr(rmod, "panel", fake_panel)
+    r = Renderer("larkhill-notch-575", observer="deuteranope")
+    outputs = {v: tmp_path / f"t.{v}.png" for v in VIEWS}
+    rec = rmod.render_file(TEST_IMAGES / "tabletop.png", r, outputs=outputs, panel_path=tmp_path / "t.panel.png")
+    assert rec["panel"] and list(seen) == list(VIEWS)
+    original = read_image(TEST_IMAGES / "tabletop.png").pixels
+    assert np.array_equal(seen["original"], original)
+    for v in VIEWS:
+        assert np.array_equal(seen[v], read_image(outputs[v]).pixels), v
+    assert not np.array_equal(seen["original"], seen["observer"])
