@@ -17,6 +17,7 @@ import contextlib
 import io
 import os
 import pathlib
+import re
 import textwrap
 from collections.abc import Iterable
 from dataclasses import dataclass, field
@@ -91,6 +92,31 @@ def freeze_layout(fig) -> None:
     fig.set_dpi(72)
     fig.draw_without_rendering()   # constrained layout iterates twice inside one draw
     fig.set_layout_engine("none")
+    # Round the axes boxes to 1e-7 of the figure (far below a printed digit), so round-off in the
+    # inputs (e.g. reference data computed afresh or read from the cache) cannot move them.
+    for ax in fig.get_axes():
+        box = ax.get_position(original=False)
+        ax.set_position([round(float(v), 7) for v in box.bounds], which="both")
+
+
+def _stable_svg_ids(svg: bytes) -> bytes:
+    """Number the SVG's hashed clip-path ids in order of appearance.
+
+    matplotlib hashes a clip box's coordinates, printed at full precision and
+    with their Python or numpy type, into its id; two runs that draw the same
+    picture can then differ in ids alone. Sequential ids depend only on the
+    drawing order.
+    """
+    text = svg.decode("utf-8")
+    order: dict[str, str] = {}
+    for m in re.finditer(r"url\(#(p[0-9a-f]{10})\)|id=\"(p[0-9a-f]{10})\"", text):
+        key = m.group(1) or m.group(2)
+        order.setdefault(key, f"clip{len(order) + 1}")
+    if not order:
+        return svg
+    text = re.sub(r"(?<=url\(#)(p[0-9a-f]{10})(?=\))|(?<=id=\")(p[0-9a-f]{10})(?=\")",
+                  lambda m: order[m.group(0)], text)
+    return text.encode("utf-8")
 
 
 def _metadata(fmt: str) -> dict:
@@ -134,7 +160,10 @@ def figure_bytes(fig, fmt: str = "svg", *, style: Style | None = None, dpi: floa
     buf = io.BytesIO()
     with style_context(style or Style(), **{"svg.hashsalt": salt}):
         fig.savefig(buf, format=fmt, dpi=dpi, metadata=_metadata(fmt))
-    return buf.getvalue()
+    data = buf.getvalue()
+    if fmt == "svg":
+        data = _stable_svg_ids(data)
+    return data
 
 
 def save_figure(fig, path: str | os.PathLike, *, style: Style | None = None, dpi: float = 300.0,
