@@ -49,6 +49,8 @@ _LAZY = {
     "Scorecard": "cvdfilter.scorecard",
     "render": "cvdfilter.render",
     "render_views": "cvdfilter.render",
+    "render_spectra": "cvdfilter.render",
+    "Renderer": "cvdfilter.render",
     "figure": "cvdfilter.figures",
     "report": "cvdfilter.report",
     "InputError": "cvdfilter.errors",

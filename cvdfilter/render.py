@@ -1062,7 +1062,9 @@ def panel_footer(renderer: Renderer) -> str:
     """Settings and the caveat, for a panel's footer."""
     d = renderer.describe()
     light = f"illuminant {d['illuminant']}" if d["illuminant"] else d["scene"]
-    return (f"filter {d['filter'] or 'none'}; {light}; adaptation {d['adaptation']:g}; simulation {d['simulation']}; "
+    a = d["adaptation"]
+    adapt = "full" if a == 1 else "none" if a == 0 else f"{a:g}"
+    return (f"filter {d['filter'] or 'none'}; {light}; adaptation {adapt}; simulation {d['simulation']}; "
             f"gamut {d['gamut']}. {d['caveat']}")
 
 
