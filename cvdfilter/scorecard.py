@@ -771,9 +771,10 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
                     store["red_green_gain"][lo:hi] = g[:, 1]
                     store["blue_yellow_gain"][lo:hi] = g[:, 2]
                 if need_logs:
-                    log_planes = [logs[:, i, :] for i in c]
+                    log_cones = logs[:, c, :]  # (filters, 3, surfaces)
+                    log_planes = [log_cones[:, 0], log_cones[:, 1], log_cones[:, 2]]
                 if "discrimination" in groups:
-                    d = discriminable_from_logs(log_planes, s["rnl"])
+                    d = discriminable_from_logs(log_cones, s["rnl"])
                     for key in ("without", "with", "gained", "lost"):
                         store[f"discriminable_{key}"][lo:hi] = d[key]
                 if "confusion" in s:

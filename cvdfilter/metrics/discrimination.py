@@ -225,12 +225,13 @@ def rnl_reference(catches_without, noise, *, threshold: float = 1.0) -> dict:
 
 
 def discriminable_from_logs(log_planes, reference: dict) -> dict:
-    """Discriminable-pair counts from log cone catches given as planes (the fast path).
+    """Discriminable-pair counts from log cone catches laid out by cone (the fast path).
 
     Parameters
     ----------
-    log_planes : sequence of 3 array_like
-        ln L, ln M, ln S of the surfaces through each filter, each (F, N).
+    log_planes : array_like or sequence of 3 array_like
+        ln L, ln M, ln S of the surfaces through each filter: shape (F, 3, N),
+        or three planes of shape (F, N).
     reference : dict
         From :func:`rnl_reference`.
 

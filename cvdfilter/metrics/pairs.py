@@ -209,7 +209,9 @@ def _sweep(planes: list, radius: float) -> np.ndarray:
         cols = [np.sort(x, axis=1).T.copy()]
     else:
         xs, order = _sort_rows(x)
-        cols = [xs.T.copy()] + [np.take_along_axis(p, order, axis=1).T.copy() for p in planes[1:]]
+        # Flat indices in the (point, set) layout gather the other coordinates directly.
+        flat = (order + (np.arange(c) * n)[:, None]).T.copy()
+        cols = [xs.T.copy()] + [np.ascontiguousarray(p).ravel().take(flat) for p in planes[1:]]
     # Coordinates are laid out (point, set), so every offset slice below is contiguous.
     xs = cols[0]
     bx = np.empty((n - 1, c))
@@ -300,8 +302,9 @@ def pair_changes(features_with, reference: dict):
 
     Parameters
     ----------
-    features_with : sequence of array_like
-        m feature planes, each (B, N) (None for a feature the transform does not use).
+    features_with : array_like or sequence of array_like
+        Shape (B, m, N): the m features of N points in each of B sets; or m
+        feature planes, each (B, N).
     reference : dict
         From :func:`pair_reference`.
 
@@ -315,14 +318,11 @@ def pair_changes(features_with, reference: dict):
         Shape (B,): pairs close in both.
     """
     t = reference["transform"]
-    planes = []
-    for row in t:
-        acc = None
-        for w, f in zip(row, features_with):
-            if w == 0.0:
-                continue
-            acc = w * f if acc is None else acc + w * f
-        planes.append(acc)
+    if isinstance(features_with, (list, tuple)):
+        features_with = np.stack(features_with, axis=1)
+    f = np.asarray(features_with, dtype=float)
+    y = np.matmul(t, f)  # (B, k, N): one small matrix product per set
+    planes = [y[:, r, :] for r in range(t.shape[0])]
     radius = reference["radius"]
     close_with = count_close_pairs(planes, radius)
     both = count_close_among(planes, reference["i"], reference["j"], radius)

@@ -163,14 +163,14 @@ def min_ratio_in_band(transmittance, tau_v, wavelengths, band=RATIO_BAND_NM):
     """
     t = np.atleast_2d(np.asarray(transmittance, dtype=float))
     wl = np.asarray(wavelengths, dtype=float)
-    inside = (wl >= band[0]) & (wl <= band[1])
-    sub = t[:, inside]
+    inside = np.nonzero((wl >= band[0]) & (wl <= band[1]))[0]
+    sub = t[:, inside[0]:inside[-1] + 1]  # the grid is sorted: a slice, not a copy
     idx = np.argmin(sub, axis=1)
-    low = sub[np.arange(len(sub)), idx]
+    low = np.take_along_axis(sub, idx[:, None], axis=1)[:, 0]
     tau = np.asarray(tau_v, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = np.where(tau > 0, low / tau, np.nan)
-    return ratio, wl[inside][idx]
+    return ratio, wl[inside[0] + idx]
 
 
 def _gaussian(wl, peak, fwhm):
