@@ -96,8 +96,18 @@ def image_benchmark(repeat: int) -> dict:
         return np.round(np.clip(colour.cctf_encoding(np.clip(sim, 0, 1), function="sRGB"), 0, 1) * 255).astype(
             np.uint8)
 
+    vienot = Renderer(NOTCH, observer="deuteranope", method="vienot1999")
+    normal = Renderer(NOTCH, observer="normal")
+
+    def ours_vienot():
+        vienot.apply(img, "observer-filtered", out=out)
+
+    def ours_normal():
+        normal.apply(img, "observer-filtered", out=out)
+
     ours()  # warm the tables and caches
-    t = _interleaved({"ours": ours, "floor_whole": floor_whole, "floor_tiled": floor_tiled}, repeat)
+    t = _interleaved({"ours": ours, "floor_whole": floor_whole, "floor_tiled": floor_tiled,
+                      "vienot": ours_vienot, "normal": ours_normal}, repeat)
     t.update(_interleaved({"colour_chain": colour_chain}, max(3, repeat // 3)))
     _, clipped = r.apply(img, "observer-filtered", out=out)
     floor = min(t["floor_whole"], t["floor_tiled"])
@@ -217,6 +227,10 @@ def main() -> None:
     print(f"   renderer set-up (once per batch)          {im['setup_s'] * 1e3:8.1f} ms")
     print(f"   Renderer.apply                            {im['ours'] * 1e3:8.1f} ms   "
           f"({im['clipped_pixels']} pixels clipped)")
+    print(f"   same, Vienot 1999 (one matrix)            {im['vienot'] * 1e3:8.1f} ms   "
+          f"ratio {im['vienot'] / im['floor']:.2f}x")
+    print(f"   same, normal observer (one matrix)        {im['normal'] * 1e3:8.1f} ms   "
+          f"ratio {im['normal'] / im['floor']:.2f}x")
     print(f"   floor, whole image (LUT+matmul+LUT)       {im['floor_whole'] * 1e3:8.1f} ms")
     print(f"   floor, tiled                              {im['floor_tiled'] * 1e3:8.1f} ms")
     print(f"   colour-science chain (Machado, vecmul)    {im['colour_chain'] * 1e3:8.1f} ms")
