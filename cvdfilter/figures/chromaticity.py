@@ -146,13 +146,20 @@ def _locus_labels(space: str):
 
 
 def _fan_directions(copunctal, points, n=9):
-    """Unit directions from the copunctal point spanning the angles of ``points``."""
+    """Unit directions from the copunctal point spanning the angles of ``points``.
+
+    Angles are measured from the points' mean direction, so a cloud that lies
+    across the -x axis (angle +-180 degrees) does not wrap around the circle.
+    """
     d = points - copunctal
-    ang = np.arctan2(d[:, 1], d[:, 0])
-    lo, hi = ang.min(), ang.max()
+    z = d[:, 0] + 1j * d[:, 1]
+    mean = np.mean(z / np.abs(z))
+    mean = mean / abs(mean)
+    rel = np.angle(z / mean)
+    lo, hi = rel.min(), rel.max()
     pad = 0.08 * (hi - lo) + 1e-4
-    angles = np.linspace(lo - pad, hi + pad, n)
-    return np.stack([np.cos(angles), np.sin(angles)], axis=-1)
+    rot = mean * np.exp(1j * np.linspace(lo - pad, hi + pad, n))
+    return np.stack([rot.real, rot.imag], axis=-1)
 
 
 def _draw_fan(ax, copunctal, directions, length, gid):

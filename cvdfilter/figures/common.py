@@ -6,7 +6,7 @@ import numpy as np
 
 from ..spectra.grid import DEFAULT_GRID
 
-__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes"]
+__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes", "legend_columns"]
 
 
 def load_filters_checked(filters, grid=DEFAULT_GRID):
@@ -192,3 +192,14 @@ def legend_axes(fig, spec, handles, labels, *, ncols: int = 2, **kwargs):
     ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 1.0), ncols=ncols, borderaxespad=0,
               **kwargs)
     return ax
+
+
+def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int = 4, handle_pt: float = 30.0) -> int:
+    """The most legend columns (up to ``max_cols``) whose labels fit side by side in ``width_mm``.
+
+    Text width is estimated at 0.6 em per character (DejaVu Sans averages
+    about 0.55 em; common practice), plus ``handle_pt`` for the handle and spacing.
+    """
+    widest = max((len(str(t)) for t in labels), default=0) * 0.6 * font_size + handle_pt
+    room = 0.95 * width_mm / 25.4 * 72
+    return int(max(1, min(max_cols, len(labels) or 1, room // widest)))

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import legend_axes, observer_label, short_name
+from .common import legend_axes, legend_columns, observer_label, short_name
 from .metrics import scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
@@ -147,7 +147,8 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
             for r in rows[:-1]:
                 ax.axhline(r - 0.5, color=NEUTRAL["light"], lw=0.4, zorder=0)
         if n_f > 1:
-            legend_axes(fig, gs[-1, :], handles, [h.get_label() for h in handles], ncols=2 if width_mm < 120 else 4,
+            texts = [h.get_label() for h in handles]
+            legend_axes(fig, gs[-1, :], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size),
                         handlelength=1.2, columnspacing=1.0)
         elif title:
             title = f"{title}: {short_name(fl[0]['name'], 40)}"

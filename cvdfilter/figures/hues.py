@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import legend_axes, load_filters_checked, short_name
+from .common import legend_axes, legend_columns, load_filters_checked, short_name
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
@@ -146,16 +146,20 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
             ring = np.linspace(0, 2 * np.pi, 181)
             ax.plot(ring, np.full_like(ring, 100.0), color=NEUTRAL["text"], lw=0.8, zorder=1)
             values = np.concatenate([ref] + [s["chroma_shift"] for s in filt])
-            lo = min(80.0, 100 + np.nanmin(values) - 5)
-            hi = max(120.0, 100 + np.nanmax(values) + 5)
+            # The radius starts at 0 % chroma, so areas and distances are not exaggerated.
+            lo = 0.0
+            hi = max(125.0, 100 + np.nanmax(values) + 5)
             ax.set_ylim(lo, hi)
             ax.set_xticks(np.deg2rad((bins - 1) * 22.5), [f"{(j - 1) * 22.5:g}\u00b0" if j % 2 else "" for j in bins])
-            ticks = [t for t in (60, 80, 100, 120, 140, 160) if lo <= t <= hi]
+            ticks = [t for t in (50, 100, 150, 200) if lo < t <= hi]
             ax.set_yticks(ticks, [f"{t}%" for t in ticks])
             ax.set_rlabel_position(100)
             ax.tick_params(axis="y", labelsize=style.tick_size * 0.95)
-            ax.set_title("Relative chroma per hue bin (100 % = as under the reference)", fontsize=style.font_size)
-        legend_axes(fig, gs[1, 0], handles, [h.get_label() for h in handles], ncols=2, handlelength=1.8,
+            ax.set_title("Relative chroma per hue bin (100 % = as under the reference;\n"
+                         "angle: CAM02-UCS hue)", fontsize=style.font_size)
+        texts = [h.get_label() for h in handles]
+        legend_axes(fig, gs[1, 0], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
+                    handlelength=1.8,
                     columnspacing=1.0)
         finish(fig, style, title=title, caveat=caveat)
 

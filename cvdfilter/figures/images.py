@@ -29,9 +29,10 @@ MAX_FIGURE_PIXELS = 640
 
 
 def default_image() -> pathlib.Path:
-    """The bundled synthetic scene in ``test_images/`` (invented; made by the generator script there)."""
+    """The bundled synthetic tabletop scene, ``test_images/tabletop.png`` (invented; made by
+    ``test_images/make_test_images.py`` from reflectance spectra)."""
     root = pathlib.Path(__file__).resolve().parents[2] / "test_images"
-    candidates = sorted(p for p in root.glob("*scene*.png")) if root.is_dir() else []
+    candidates = [root / "tabletop.png"] if (root / "tabletop.png").is_file() else []
     if not candidates:
         raise InputError("no default image: the bundled scene is missing from test_images/",
                          hint="give an image with --image")

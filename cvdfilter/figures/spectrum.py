@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import legend_below, load_inputs, observer_label, short_name, spread_callouts
+from .common import legend_below, legend_columns, load_inputs, observer_label, short_name, spread_callouts
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
@@ -141,7 +141,8 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
             h, t = ax.get_legend_handles_labels()
             handles += h
             texts += t
-        legend_below(fig, ax_s, handles, texts, ncols=2, handlelength=2.6, columnspacing=1.2)
+        legend_below(fig, ax_s, handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
+                     handlelength=2.6, columnspacing=1.2)
         finish(fig, style, title=title, caveat=caveat)
         spread_callouts(fig, ax_t, labels, label_pos)
 

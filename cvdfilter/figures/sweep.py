@@ -19,7 +19,7 @@ import re
 import numpy as np
 
 from ..errors import InputError
-from .common import legend_below, load_filters_checked, observer_label, short_name
+from .common import legend_below, legend_columns, load_filters_checked, observer_label, short_name
 from .metrics import RATIO_METRICS, metric_label, metric_values, scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
@@ -149,6 +149,7 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         axes = np.atleast_1d(fig.subplots(len(panels), 1, sharex=True, squeeze=False)[:, 0])
         observer_names = {}
         for ax, panel in zip(axes, panels):
+            missing = []
             for k, line in enumerate(panel["lines"]):
                 st = styles[k] if len(panel["lines"]) > 1 else styles[0]
                 text = line["label"]
@@ -157,8 +158,15 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
 
                     obs = observer_names.setdefault(line["observer"], observer_label(make_observer(line["observer"])))
                     text = ", ".join([obs] + [p for p in text.split(", ")[1:]])
+                if np.all(np.isnan(line["y"])):
+                    # e.g. a dichromat has no red-green axis: say so instead of an empty legend entry
+                    missing.append(text)
+                    continue
                 ax.plot(line["x"], line["y"], markersize=style.marker_size * 0.9, label=short_name(text, 40),
                         gid=f"sweep-{panel['metric']}-{k}", **st.line_kwargs())
+            if missing:
+                ax.set_title("not defined for " + ", ".join(missing), loc="right", fontsize=style.tick_size,
+                             color=NEUTRAL["text"], pad=2, gid=f"na-{panel['metric']}")
             if panel["metric"] in RATIO_METRICS:
                 ax.axhline(1.0, color=NEUTRAL["line"], lw=0.6, zorder=0, gid="reference-1")
             ax.set_ylabel(panel["label"])
@@ -166,11 +174,13 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
                 ax.set_ylim(0, 100)
         axes[-1].set_xlabel(_axis_label(x))
         # One legend under the panels: the observer lines are the same in every panel.
-        legend_panel = max(panels, key=lambda p: len(p["lines"]))
-        if len(legend_panel["lines"]) > 1:
-            ax = axes[panels.index(legend_panel)]
-            handles, texts = ax.get_legend_handles_labels()
-            legend_below(fig, axes[-1], handles, texts, ncols=2 if width_mm < 120 else 3,
+        seen: dict[str, object] = {}
+        for ax in axes:
+            for h, t in zip(*ax.get_legend_handles_labels()):
+                seen.setdefault(t, h)
+        if max(len(p["lines"]) for p in panels) > 1 and seen:
+            handles, texts = list(seen.values()), list(seen)
+            legend_below(fig, axes[-1], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
                          handlelength=2.6, columnspacing=1.2)
         fixed = [f"{_SHORT.get(k, k)} {values[k][0]:g}{(' ' + _UNITS.get(k, '')) if _UNITS.get(k) else ''}"
                  for k in values if k not in varying]
