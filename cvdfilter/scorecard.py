@@ -289,7 +289,7 @@ class Scorecard:
         head = self.header()
         run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
                "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
-               "caveat": head["caveat"]}
+               "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
         rows, columns = [], []
         seen, layouts = set(), set()
         for i in range(len(self)):

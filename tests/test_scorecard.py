@@ -218,9 +218,10 @@ def test_csv_one_row_per_filter_and_observer(card):
     first = rows[0]
     for key in ("name", "observer", "luminous_transmittance", "road_use.suitable", "signal_quotients.red",
                 "discriminable_pairs.gained", "confusion_pairs.resolved", "rendition.chroma_shifts.16",
-                "tool", "version", "caveat"):
+                "tool", "version", "caveat", "cautions"):
         assert key in first
     assert first["confusion_pairs.resolved"] == ""  # normal observer: null
+    assert ROAD_CAUTION in first["cautions"]
     assert first["road_use.suitable"] in ("true", "false")
     assert float(rows[5]["luminous_transmittance"]) == 0.5
 
