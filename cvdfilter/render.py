@@ -767,13 +767,14 @@ def _convert_alpha(a: np.ndarray, dtype: np.dtype) -> np.ndarray:
 # --- public functions ----------------------------------------------------------------
 
 def _as_input(image, *, cube_kind, wavelengths, max_megapixels):
-    from .io.cubes import Cube, is_cube_path, read_cube
+    from .io.cubes import Cube, is_cube_path, read_cube, tiff_is_cube
     from .io.images import DEFAULT_MAX_MEGAPIXELS, ImageData, read_image
 
     mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
     if isinstance(image, (str, pathlib.Path)):
         p = pathlib.Path(image)
-        if is_cube_path(p) or (wavelengths is not None and p.suffix.lower() in (".tif", ".tiff")):
+        tif = p.suffix.lower() in (".tif", ".tiff")
+        if is_cube_path(p) or (tif and tiff_is_cube(p, wavelengths_given=wavelengths is not None)):
             return read_cube(p, wavelengths=wavelengths, kind=cube_kind, max_megapixels=mp)
         return read_image(p, max_megapixels=mp)
     if isinstance(image, (Cube, ImageData)):
@@ -1104,13 +1105,13 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         ``warnings``.
     """
     from ._version import __version__
-    from .io.cubes import Cube, is_cube_path, read_cube, tiff_has_wavelengths
+    from .io.cubes import Cube, is_cube_path, read_cube, tiff_is_cube
     from .io.images import DEFAULT_MAX_MEGAPIXELS, read_image, write_image
 
     p = pathlib.Path(path)
     mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
     tif = p.suffix.lower() in (".tif", ".tiff")
-    if is_cube_path(p) or (tif and (wavelengths is not None or tiff_has_wavelengths(p))):
+    if is_cube_path(p) or (tif and tiff_is_cube(p, wavelengths_given=wavelengths is not None)):
         data = read_cube(p, wavelengths=wavelengths, kind=cube_kind, max_megapixels=mp)
     else:
         data = read_image(p, max_megapixels=mp)

@@ -165,3 +165,19 @@ def test_cube_views_and_output_types():
     assert not np.array_equal(views["original"], views["observer"])
     v16 = render(TEST_IMAGES / "tabletop_cube.npz", filter=None, dtype=np.uint16)
     assert v16.dtype == np.uint16 and np.abs((v16 >> 8).astype(int) - views["original"].astype(int)).max() <= 1
+
+
+def test_tiff_cube_detection(tmp_path):
+    import tifffile
+
+    from cvdfilter.io.cubes import tiff_is_cube
+
+    tifffile.imwrite(tmp_path / "rgb.tif", np.zeros((4, 4, 3), np.uint8), photometric="rgb")
+    tifffile.imwrite(tmp_path / "bands.tif", np.zeros((31, 4, 4), np.float32), photometric="minisblack")
+    tifffile.imwrite(tmp_path / "named.tif", np.zeros((31, 4, 4), np.float32), photometric="minisblack",
+                     metadata={"wavelengths": WL.tolist()})
+    assert not tiff_is_cube(tmp_path / "rgb.tif", wavelengths_given=True)  # an RGB image stays an image
+    assert tiff_is_cube(tmp_path / "bands.tif", wavelengths_given=True)
+    assert not tiff_is_cube(tmp_path / "bands.tif")
+    assert tiff_is_cube(tmp_path / "named.tif")
+    assert render(tmp_path / "rgb.tif", filter=None, wavelengths="400:700:10").shape == (4, 4, 3)

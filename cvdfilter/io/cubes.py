@@ -38,8 +38,8 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["Cube", "read_cube", "parse_wavelengths", "is_cube_path", "tiff_has_wavelengths", "CUBE_KINDS",
-           "CUBE_SUFFIXES"]
+__all__ = ["Cube", "read_cube", "parse_wavelengths", "is_cube_path", "tiff_is_cube", "tiff_has_wavelengths",
+           "CUBE_KINDS", "CUBE_SUFFIXES"]
 
 CUBE_KINDS = ("reflectance", "radiance")
 CUBE_SUFFIXES = (".npy", ".npz")
@@ -157,6 +157,24 @@ def parse_wavelengths(text) -> np.ndarray:
 def is_cube_path(path) -> bool:
     """True for ``.npy`` and ``.npz`` files (TIFF cubes are recognised by their wavelengths)."""
     return pathlib.Path(path).suffix.lower() in CUBE_SUFFIXES
+
+
+def tiff_is_cube(path, *, wavelengths_given: bool = False) -> bool:
+    """Whether a TIFF is read as a cube: it names its wavelengths, or (with wavelengths given by the
+    caller) it has an axis besides height and width with more than 4 entries (pages or samples).
+    RGB(A) TIFFs stay images."""
+    if tiff_has_wavelengths(path):
+        return True
+    if not wavelengths_given:
+        return False
+    try:
+        import tifffile
+
+        with tifffile.TiffFile(path) as tif:
+            series = tif.series[0]
+            return any(ax not in "YX" and n > 4 for ax, n in zip(series.axes, series.shape))
+    except Exception:  # not a readable TIFF: the image reader will say why
+        return False
 
 
 def tiff_has_wavelengths(path) -> bool:
