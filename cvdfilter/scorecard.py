@@ -38,6 +38,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from . import tables as _tables
+
 from ._version import __version__
 from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from .errors import InputError
@@ -364,16 +366,16 @@ class Scorecard:
         filt_rows, obs_rows, rend_rows = self._summary_rows(doc)
         parts = []
         if filt_rows:
-            parts.append(_text_table(_FILTER_HEADER, filt_rows, "Photometry and road use (CIE D65, CIE 1931 2 deg)",
+            parts.append(_tables.text_table(_FILTER_HEADER, filt_rows, "Photometry and road use (CIE D65, CIE 1931 2 deg)",
                                      width))
         if rend_rows:
-            parts.append(_text_table(_RENDITION_HEADER[:-1], [r[:-1] for r in rend_rows],
+            parts.append(_tables.text_table(_RENDITION_HEADER[:-1], [r[:-1] for r in rend_rows],
                                      "Colour rendition, illuminant x filter", width))
         if obs_rows and len(obs_rows[0]) > 2:
             parts.append(textwrap.fill(_OBSERVER_NOTE, width=width) + "\n")
             for f in doc["filters"]:
                 rows = [_observer_row(f["name"], o, self.metrics, compact=True) for o in f["observers"]]
-                parts.append(_text_table(_observer_header(self.metrics, compact=True), rows,
+                parts.append(_tables.text_table(_observer_header(self.metrics, compact=True), rows,
                                          f"Per observer: {f['name']}", width))
         notes = []
         if "road_use" in self.metrics:
@@ -487,21 +489,6 @@ def _md_table(header, rows) -> list:
     out = ["| " + " | ".join(header) + " |", "|" + "|".join("---" for _ in header) + "|"]
     out += ["| " + " | ".join(_md_cell(v) for v in r) + " |" for r in rows]
     return out
-
-
-def _text_table(header, rows, title: str, width: int) -> str:
-    from rich.console import Console
-    from rich.table import Table
-
-    t = Table(title=title, box=None, header_style="bold", pad_edge=False, title_justify="left")
-    for h in header:
-        t.add_column(str(h), overflow="fold")
-    for r in rows:
-        t.add_row(*("" if v is None else str(v) for v in r))
-    buf = io.StringIO()
-    Console(file=buf, width=width, color_system=None, legacy_windows=False, emoji=False,
-            highlight=False).print(t)
-    return "\n".join(line.rstrip() for line in buf.getvalue().splitlines()) + "\n"
 
 
 def _flatten(d: dict, prefix: str = "") -> dict:

@@ -5,8 +5,6 @@ Only presentation lives here; nothing in the CLI computes colour.
 
 from __future__ import annotations
 
-import csv
-import io
 import json
 import sys
 from collections.abc import Iterable, Sequence
@@ -14,6 +12,7 @@ from collections.abc import Iterable, Sequence
 import typer
 
 from ..errors import InputError
+from ..tables import csv_text, markdown_table, text_table
 
 __all__ = ["fail", "warn", "emit", "to_json", "table_text", "csv_text", "markdown_table", "FORMATS"]
 
@@ -51,36 +50,7 @@ def to_json(data) -> str:
     return json.dumps(_jsonable(data), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
-def csv_text(header: Sequence[str], rows: Iterable[Sequence]) -> str:
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(header)
-    for r in rows:
-        w.writerow(["" if v is None else v for v in r])
-    return buf.getvalue()
-
-
-def markdown_table(header: Sequence[str], rows: Iterable[Sequence]) -> str:
-    lines = ["| " + " | ".join(header) + " |", "|" + "|".join("---" for _ in header) + "|"]
-    for r in rows:
-        lines.append("| " + " | ".join("" if v is None else str(v) for v in r) + " |")
-    return "\n".join(lines) + "\n"
-
-
-def table_text(header: Sequence[str], rows: Iterable[Sequence], *, title: str | None = None,
-               width: int = 100) -> str:
-    """A plain-text table rendered with rich, at most ``width`` columns wide."""
-    from rich.console import Console
-    from rich.table import Table
-
-    t = Table(title=title, box=None, header_style="bold", pad_edge=False, title_justify="left")
-    for h in header:
-        t.add_column(str(h), overflow="fold")
-    for r in rows:
-        t.add_row(*("" if v is None else str(v) for v in r))
-    buf = io.StringIO()
-    Console(file=buf, width=width, color_system=None, legacy_windows=False).print(t)
-    return "\n".join(line.rstrip() for line in buf.getvalue().splitlines()) + "\n"
+table_text = text_table  # the CLI's name for it
 
 
 def emit(text: str, output: str | None, *, inputs: Iterable[str] = ()) -> None:
