@@ -37,6 +37,19 @@ demo: $(VENV)/.installed
 		--format markdown --output $(OUT)/scorecard.md
 	$(BIN)/cvdfilter render test_images/tabletop.png test_images/dots_deutan.png test_images/tabletop_cube.npz \
 		--filter larkhill-notch-575 --observer deuteranope --panel --force --out $(OUT)/render
+	$(BIN)/cvdfilter report larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
+		-o $(OUT)/report.html
+	$(BIN)/cvdfilter report larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
+		-o $(OUT)/report.md
+	$(BIN)/cvdfilter figure spectrum larkhill-notch-575 larkhill-double-notch --observer normal \
+		--observer deuteranomalous -o $(OUT)/figures/spectrum.pdf
+	$(BIN)/cvdfilter figure chromaticity larkhill-notch-575 --observer deuteranope -o $(OUT)/figures/chromaticity.pdf
+	$(BIN)/cvdfilter figure gains larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
+		-o $(OUT)/figures/gains.pdf
+	$(BIN)/cvdfilter figure swatches larkhill-notch-575 --observer deuteranope -o $(OUT)/figures/swatches.svg
+	$(BIN)/cvdfilter figure images larkhill-notch-575 --observer deuteranope -o $(OUT)/figures/images.png
+	$(BIN)/cvdfilter figure sweep "notch:center=530..620/5,fwhm=30,depth=0.8" --width double \
+		-o $(OUT)/figures/sweep.pdf
 
 test: $(VENV)/.installed-test
 	$(BIN)/python -m pytest -q

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import subprocess
 import sys
 
@@ -38,9 +39,12 @@ def test_figure_files_are_byte_identical_across_processes(tmp_path):
         "    r = CliRunner().invoke(app, ['figure', 'spectrum', 'larkhill-notch-575', '--observer',\n"
         "                                 'deuteranomalous', '-o', out])\n"
         "    assert r.exit_code == 0, r.output\n")
+    # The first process starts with an empty reference-data cache (computed afresh with
+    # colour-science), the second reads it back: the files must not notice.
+    env = {**os.environ, "CVDFILTER_CACHE_DIR": str(tmp_path / "cache")}
     for k in range(2):
         r = subprocess.run([sys.executable, "-c", script, str(tmp_path / f"run{k}.svg"),
-                            str(tmp_path / f"run{k}.pdf")], capture_output=True, text=True)
+                            str(tmp_path / f"run{k}.pdf")], capture_output=True, text=True, env=env)
         assert r.returncode == 0, r.stderr
     for fmt in ("svg", "pdf"):
         assert (tmp_path / f"run0.{fmt}").read_bytes() == (tmp_path / f"run1.{fmt}").read_bytes()

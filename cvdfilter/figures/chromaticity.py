@@ -34,7 +34,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import legend_axes, load_inputs, observer_label, short_name
+from .common import legend_axes, legend_columns, load_inputs, observer_label, short_name
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style
@@ -208,7 +208,11 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
     mb = space == "mb"
 
     if height_mm is None:
-        height_mm = width_mm * (1.55 if n_f == 1 else 1.2) if width_mm < 120 else width_mm * 0.62
+        if width_mm < 120:
+            rows = int(np.ceil(n_f / min(n_f, 2)))
+            height_mm = 48 + rows * (58 if n_f == 1 else 46) + 32
+        else:
+            height_mm = width_mm * 0.62
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
         if width_mm < 120:
@@ -268,6 +272,10 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
             ax_all.set_aspect("equal", adjustable="box")
 
         # --- zoomed panels -------------------------------------------------------------------------
+        zpts = np.vstack([data["white"][None]] + [np.vstack([f["without"], f["with"], f["white_filtered"][None]])
+                                                  for f in data["filters"]])
+        zlo, zhi = zpts.min(axis=0), zpts.max(axis=0)
+        zpad = 0.06 * (zhi - zlo) + 1e-4
         for k, (ax, f) in enumerate(zip(zoom_axes, data["filters"])):
             w0, w1 = f["without"], f["with"]
             if copunctal is not None:
@@ -299,29 +307,37 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
                                                  markersize=style.marker_size * 2.2, markerfacecolor="white",
                                                  markeredgecolor=OKABE_ITO["vermillion"], markeredgewidth=0.8,
                                                  zorder=6, gid=f"white-filtered-{k}")
-            pts = np.vstack([w0, w1, data["white"][None], f["white_filtered"][None]])
-            plo, phi = pts.min(axis=0), pts.max(axis=0)
-            ppad = 0.06 * (phi - plo) + 1e-4
-            ax.set_xlim(plo[0] - ppad[0], phi[0] + ppad[0])
-            ax.set_ylim(plo[1] - ppad[1], phi[1] + ppad[1])
+            # Every zoomed panel has the same limits, so the filters compare at a glance.
+            ax.set_xlim(zlo[0] - zpad[0], zhi[0] + zpad[0])
+            ax.set_ylim(zlo[1] - zpad[1], zhi[1] + zpad[1])
             ax.set_xlabel(data["axis_labels"][0])
-            ax.set_ylabel(data["axis_labels"][1])
+            first_in_row = k % (min(n_f, 2) if width_mm < 120 else n_f) == 0
+            if first_in_row:
+                ax.set_ylabel(data["axis_labels"][1])
+            else:
+                ax.tick_params(axis="y", labelleft=False)
             if n_f > 1:
-                ax.set_title(short_name(f["name"], 30), fontsize=style.font_size)
+                import textwrap
+
+                cols = min(n_f, 2) if width_mm < 120 else n_f + 0.8
+                chars = max(12, int((width_mm - 25) / cols / 25.4 * 72 / (0.58 * style.font_size)))
+                ax.set_title("\n".join(textwrap.wrap(f["name"], chars)[:2]), fontsize=style.font_size)
             ax.ticklabel_format(useOffset=False)
             if not mb:
                 ax.set_aspect("equal", adjustable="box")
 
         ax_all.set_title(f"{data['observer_label']}, {data['illuminant']}", loc="left", fontsize=style.font_size)
-        legend_items = [("without", "surface without filter"), ("with", "with filter (adapted)"),
-                        ("white", f"white ({data['illuminant']})"),
-                        ("white_filtered", "white through filter, unadapted")]
+        legend_items = [("without", "surface, no filter"), ("with", "with filter (adapted)"),
+                        ("white", f"white ({short_name(data['illuminant'], 12)})"),
+                        ("white_filtered", "filtered white, unadapted")]
         if "confusion" in handles:
             legend_items.append(("confusion", f"{data['deficiency']} confusion lines"))
         if "copunctal" in handles:
             legend_items.append(("copunctal", "copunctal point"))
-        legend_axes(fig, legend_spec, [handles[k] for k, _ in legend_items], [t for _, t in legend_items],
-                    ncols=2 if width_mm < 120 else 3, handlelength=1.8, columnspacing=1.0)
+        texts = [t for _, t in legend_items]
+        legend_axes(fig, legend_spec, [handles[k] for k, _ in legend_items], texts,
+                    ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3, handle_pt=24),
+                    handlelength=1.8, columnspacing=1.0)
         finish(fig, style, title=title, caveat=caveat)
 
     inputs = {"filters": [f["name"] for f in data["filters"]], "illuminant": data["illuminant"],
