@@ -126,7 +126,7 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
             ax.set_ylim(-top, top)
             ax.set_xlim(0.4, N_BINS + 0.6)
             ax.set_xticks(bins)
-            ax.set_xlabel("TM-30 hue bin (22.5\u00b0 of CAM02-UCS hue each, bin 1 from 0\u00b0)")
+            ax.set_xlabel("TM-30 hue bin\n(22.5\u00b0 of CAM02-UCS hue each, bin 1 from 0\u00b0)")
             ax.set_ylabel("Local chroma shift R$_{cs,h}$ (%)")
             for x in bins[:-1] + 0.5:
                 ax.axvline(x, color=NEUTRAL["light"], lw=0.4, zorder=0)
