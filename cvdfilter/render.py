@@ -357,7 +357,7 @@ class Renderer:
     """
 
     def __init__(self, filter=None, *, observer="normal", illuminant="D65", adaptation="full",
-                 method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
+                 method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
                  gamut: str = "clip", grid: Grid = DEFAULT_GRID) -> None:
         from .observers.observer import observer as make_observer
         from .observers.spaces import parse_adaptation
@@ -401,7 +401,7 @@ class Renderer:
         if key not in self._sims:
             mine = obs is self.observer
             self._sims[key] = simulation(obs, method=self.method if mine else None,
-                                         normalisation=self.normalisation if mine else "cone",
+                                         normalisation=self.normalisation if mine else "auto",
                                          reference_white=self.scene_white)
         return self._sims[key]
 
@@ -447,7 +447,8 @@ class Renderer:
             "illuminant": self.illuminant.name if self.scene == "reflectance" else None,
             "adaptation": self.adaptation,
             "simulation": self._simulation(self.observer).method,
-            "normalisation": self.normalisation if self.observer.kind == "anomalous" else None,
+            "normalisation": (self._simulation(self.observer).info.get("normalisation")
+                              if self.observer.kind == "anomalous" else None),
             "scene": self.scene,
             "display_model": ("normal observer's adapted cone excitations of the Mallett-Yuksel 2019 basis "
                               "under CIE D65" if self.scene == "reflectance" else
@@ -783,7 +784,7 @@ def _as_input(image, *, cube_kind, wavelengths, max_megapixels):
 
 
 def render(image, *, filter, observer="normal", illuminant="D65", adaptation="full", view: str = "observer-filtered",
-           method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
+           method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
            gamut: str = "clip", encoding: str = "auto", dtype=None,
            grid: Grid = DEFAULT_GRID, cube_kind: str | None = None, wavelengths=None,
            max_megapixels: float | None = None) -> np.ndarray:
@@ -861,7 +862,7 @@ def _render_one(r: Renderer, image, view, *, encoding, dtype, cube_kind, wavelen
 
 
 def render_views(image, *, filter, observer="normal", illuminant="D65", adaptation="full", views=VIEWS,
-                 method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
+                 method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
                  gamut: str = "clip", encoding: str = "auto", dtype=None,
                  grid: Grid = DEFAULT_GRID, cube_kind: str | None = None, wavelengths=None,
                  max_megapixels: float | None = None) -> dict:
@@ -897,7 +898,7 @@ def render_views(image, *, filter, observer="normal", illuminant="D65", adaptati
 
 def render_spectra(spectra, *, filter, observer="normal", illuminant="D65", adaptation="full",
                    view: str = "observer-filtered", kind: str = "reflectance", method: str | None = None,
-                   normalisation: str = "cone", grid: Grid = DEFAULT_GRID) -> np.ndarray:
+                   normalisation: str = "auto", grid: Grid = DEFAULT_GRID) -> np.ndarray:
     """Linear sRGB of spectra on the grid, step by step (no folding, no clipping).
 
     The single-spectrum path, computed from the observer's cone excitations,
@@ -940,7 +941,7 @@ def render_spectra(spectra, *, filter, observer="normal", illuminant="D65", adap
     gains = von_kries_gains(who.cone_excitations(e * t), who.cone_excitations(e),
                             adaptation=parse_adaptation(adaptation))
     seen = simulate(lms * gains, who, method=method if who is obs else None,
-                    normalisation=normalisation if who is obs else "cone", reference_white=e)
+                    normalisation=normalisation if who is obs else "auto", reference_white=e)
     return np.linalg.solve(display_matrix(normal, grid).T, seen.reshape(-1, 3).T).T.reshape(seen.shape)
 
 

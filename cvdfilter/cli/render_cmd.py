@@ -147,8 +147,9 @@ def register(app: typer.Typer) -> None:
                                         "(auto: the input's container and bit depth; JPEG and cubes give PNG)."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a fraction 0-1."),
         method: Optional[str] = typer.Option(None, "--method", help="Dichromat simulation: brettel1997 or vienot1999."),
-        normalisation: str = typer.Option("cone", "--normalisation",
-                                          help="Machado 2009 observers: cone (von Kries) or opponent."),
+        normalisation: str = typer.Option("auto", "--normalisation",
+                                          help="Anomalous observers (Machado 2009 mapping): auto (opponent where "
+                                               "well-conditioned, else cone), cone (von Kries) or opponent."),
         scene: str = typer.Option("reflectance", "--scene",
                                   help="reflectance (surfaces under the illuminant) or display[:PRIMARIES] "
                                        "(light from a display)."),
