@@ -30,18 +30,22 @@ from .fundamentals import V_WEIGHTS_2DEG, V_WEIGHTS_10DEG
 
 __all__ = ["Observer", "observer", "observer_forms", "anomalous_absorbance", "DEFAULT_SHIFTS", "SEVERITY_SHIFTS"]
 
-#: Pigment shifts in nm for the severity words (from memory: chosen to span
-#: Machado et al. 2009's 0-20 nm range for the L and M cones, where 20 nm
-#: approximates dichromacy; for S a comparable fraction of the S-M separation).
+#: Pigment shifts in nm for the severity words. L and M: hybrid pigments found in
+#: anomalous trichromats lie roughly 2-12 nm from the pigment they are confused
+#: with (from memory: Neitz & Neitz 2011, Vision Research 51, 633-651; Merbs &
+#: Nathans 1992), i.e. shifts of about 11-21 nm on the CIE 2006 scale, whose L-M
+#: separation is 23.1 nm (cie2006.pigment_peaks). The words leave about 12, 7 and
+#: 3 nm between the pigments. S: no comparable data at hand; points spanning the
+#: lower part of the 112 nm S-M separation (from memory).
 SEVERITY_SHIFTS = {
-    "protan": {"mild": 4.0, "moderate": 10.0, "severe": 16.0},
-    "deutan": {"mild": 4.0, "moderate": 10.0, "severe": 16.0},
+    "protan": {"mild": 11.0, "moderate": 16.0, "severe": 20.0},
+    "deutan": {"mild": 11.0, "moderate": 16.0, "severe": 20.0},
     "tritan": {"mild": 8.0, "moderate": 15.0, "severe": 30.0},
 }
 #: Default shift when a spec gives none: ``moderate``.
 DEFAULT_SHIFTS = {k: v["moderate"] for k, v in SEVERITY_SHIFTS.items()}
-#: Machado severity for the words (shift / 20 nm).
-SEVERITY_MACHADO = {"mild": 0.2, "moderate": 0.5, "severe": 0.8}
+#: Machado severity for the words: the same L/M shifts on Machado's 20 nm scale.
+SEVERITY_MACHADO = {"mild": 0.55, "moderate": 0.8, "severe": 1.0}
 
 _NAMES = {
     "normal": ("normal", None),
