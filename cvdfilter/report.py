@@ -54,8 +54,8 @@ SECTIONS = {
     "cautions": "Cautions",
 }
 
-#: Figures a report draws, in order.
-REPORT_FIGURES = ("spectrum", "chromaticity", "gains", "swatches", "hues")
+#: Figures a report draws, in order (``sweep`` only when the filters differ in a parameter).
+REPORT_FIGURES = ("spectrum", "chromaticity", "gains", "swatches", "sweep", "hues")
 
 #: (what it is used for, reference)
 REFERENCES = (
@@ -540,6 +540,13 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
                         f"{deficient} observer (simulated for a normal viewer), without and with {first}"
                         + (" (the first filter)" if n > 1 else "") + ".",
             lambda: figure("swatches", _one(fs, 0), observers=deficient, surfaces=surfaces, **common))
+    from .figures.sweep import swept_parameters
+
+    varying, _ = swept_parameters(fs.names) if n >= 3 else ([], {})
+    if varying:
+        add("sweep", f"Red-green gain per observer and luminous transmittance against the swept parameter "
+                     f"({varying[0]}).",
+            lambda: figure("sweep", fs, card=card, **common))
     if all("rendition" in f for f in card["filters"]):
         add("hues", f"TM-30 local chroma shift per hue bin of {illuminant} through each filter and alone.",
             lambda: figure("hues", fs, card=hues_card(card, fs.grid, illuminant), **common), limit=7)
@@ -578,7 +585,7 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
         For bad input, before anything is written.
     """
     from .figures.common import load_filters_checked
-    from .figures.style import parse_style
+    from .figures.style import Style, parse_style
     from .scorecard import DEFAULT_OBSERVERS, score
 
     observers = list(DEFAULT_OBSERVERS if observers is None else
@@ -586,8 +593,11 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
     if output is not None and pathlib.Path(output).suffix.lower() not in (".html", ".htm", ".md"):
         raise InputError(f"cannot tell the report format from '{pathlib.Path(output).name}'", source=str(output),
                          hint="end the file name in .html or .md")
-    style_items = [style] if isinstance(style, str) else (list(style) if style else [])
-    parsed_style = parse_style(style_items or None) if not hasattr(style, "rc_params") else style
+    if style is None or isinstance(style, (dict, Style)):
+        style_items, parsed_style = [], parse_style(style)
+    else:
+        style_items = [style] if isinstance(style, (str, os.PathLike)) else list(style)
+        parsed_style = parse_style([str(x) for x in style_items])
     fs = load_filters_checked(filters)
     card = score(fs, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
                  metrics=metrics).to_dict()

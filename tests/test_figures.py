@@ -541,3 +541,22 @@ def test_images_show_the_renderers_views(every_kind):
         assert np.array_equal(shown, arr[..., :3])
     titles = [ax.get_title(loc="left") for ax in r.figure.axes]
     assert any("deuteranope" in t and "larkhill-notch-575" in t for t in titles)
+
+
+def test_spectrum_notch_labels_never_overlap():
+    # Invariant: notch labels set side by side do not overlap; when they cannot fit in one row they
+    # move into the legend instead.
+    r = figure("spectrum", ["larkhill-notch-575", "larkhill-double-notch", "notch:center=560,fwhm=20,depth=0.7"],
+               width="double")
+    fig = r.figure
+    renderer = fig.canvas.get_renderer()
+    from matplotlib.text import Text
+
+    boxes = [Text.get_window_extent(t, renderer) for t in fig.axes[0].texts]   # the text, not the leader
+    assert len(boxes) == 4
+    for a, b in itertools.combinations(boxes, 2):
+        assert not a.overlaps(b)
+    many = figure("spectrum", "notch:center=530..620/10,fwhm=30,depth=0.8")
+    assert not many.figure.axes[0].texts
+    labels = [t.get_text() for t in many.figure.axes[1].get_legend().get_texts()]
+    assert "center=530; 530 nm/FWHM 30" in labels

@@ -201,3 +201,15 @@ def test_html_renders_in_headless_chromium(built, chromium, tmp_path):
     # the caveat box (vermillion border, pale fill) is painted near the top
     top = px[:600]
     assert np.any(np.all(np.abs(top - [213, 94, 0]) < 30, axis=-1))
+
+
+def test_report_of_a_sweep_adds_the_sweep_figure_and_says_what_it_leaves_out():
+    r = report("notch:center=530..620/10,fwhm=30,depth=0.8", observers=["normal", "deuteranope"],
+               surfaces="colorchecker", metrics="core")
+    kinds = {f.kind: f for f in r.figures}
+    assert kinds["sweep"].svg and kinds["spectrum"].svg
+    assert not kinds["chromaticity"].svg and "at most 4 filters" in kinds["chromaticity"].note
+    assert not kinds["gains"].svg and "at most 8" in kinds["gains"].note
+    assert "hues" not in kinds                        # no rendition block: no hue figure
+    text = r.to_html()
+    assert "left out" in text and 'id="figure-sweep"' in text

@@ -6,7 +6,8 @@ import numpy as np
 
 from ..spectra.grid import DEFAULT_GRID
 
-__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes", "legend_columns"]
+__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes", "legend_columns",
+           "filter_labels", "callouts_fit"]
 
 
 def load_filters_checked(filters, grid=DEFAULT_GRID):
@@ -128,6 +129,10 @@ def spread_callouts(fig, ax, annotations, anchors_x, *, pad_pt: float = 3.0, lif
     (p0, _), (p1, _) = inv.transform([[0, 0], [pad_pt * fig.dpi / 72.0, 0]])
     pad = abs(p1 - p0)
     order = sorted(range(len(annotations)), key=lambda i: anchors_x[i])
+    _spread_row(order, annotations, anchors_x, to_data_width, pad, ax, lift_pt, 0.0)
+
+
+def _spread_row(order, annotations, anchors_x, to_data_width, pad, ax, lift_pt, base_pt):
     groups = [[i] for i in order]
 
     def layout(group):
@@ -156,8 +161,10 @@ def spread_callouts(fig, ax, annotations, anchors_x, *, pad_pt: float = 3.0, lif
         _, _, xs = layout(group)
         for i, x in zip(group, xs):
             moved = abs(x - anchors_x[i]) > 1e-9
-            _, y = annotations[i].xyann
-            annotations[i].xyann = (x, y + (lift_pt if moved else 0.0))
+            a = annotations[i]
+            if not hasattr(a, "_cvd_y0"):
+                a._cvd_y0 = a.xyann[1]      # the offset asked for; later calls start from it again
+            a.xyann = (x, a._cvd_y0 + base_pt + (lift_pt if moved else 0.0))
 
 
 def legend_below(fig, ax, handles, labels, *, ncols: int = 2, gap_pt: float = 3.0, center_on_figure: bool = False,
@@ -204,3 +211,26 @@ def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int =
     widest = max((len(str(t)) for t in labels), default=0) * 0.56 * font_size + handle_pt
     room = 0.97 * width_mm / 25.4 * 72
     return int(max(1, min(max_cols, len(labels) or 1, room // widest)))
+
+
+def filter_labels(names, limit: int = 34) -> list[str]:
+    """Legend labels for filters: for a sweep, only the parameters that vary (``center=530``)."""
+    from .sweep import swept_parameters
+
+    names = [str(n) for n in names]
+    if len(names) >= 2 and all("=" in n for n in names):
+        varying, values = swept_parameters(names)
+        if varying:
+            return [", ".join(f"{k}={values[k][i]:g}" for k in varying) for i in range(len(names))]
+    return [short_name(n, limit) for n in names]
+
+
+def callouts_fit(fig, ax, annotations, *, pad_pt: float = 3.0, fill: float = 0.95) -> bool:
+    """Whether the annotations, set side by side, fit in one row across ``fill`` of the axes width."""
+    if not annotations:
+        return True
+    fig.draw_without_rendering()
+    renderer = fig.canvas.get_renderer()
+    total = sum(a.get_window_extent(renderer).width for a in annotations)
+    total += pad_pt * fig.dpi / 72.0 * len(annotations)
+    return total <= fill * ax.bbox.width

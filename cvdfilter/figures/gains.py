@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import legend_axes, legend_columns, observer_label, short_name
+from .common import filter_labels, legend_axes, legend_columns, observer_label, short_name
 from .metrics import scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
@@ -103,6 +103,7 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         axes = [fig.add_subplot(gs[p // ncols, p % ncols]) for p in range(4)]
         for ax in axes[1:]:
             ax.sharey(axes[0])
+        legend_names = filter_labels([f["name"] for f in fl])
         limits = _gain_limits(np.concatenate([g.ravel() for g in gains.values()]))
         handles = []
         for p, (key, label) in enumerate(GAIN_PANELS):
@@ -112,7 +113,7 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
             for i in range(n_f):
                 y = rows + offsets[i]
                 h, = ax.plot(gains[key][i], y, markersize=style.marker_size * 1.1, gid=f"gain-{key}-{i}",
-                             label=short_name(fl[i]["name"], 34), **styles[i].marker_kwargs())
+                             label=legend_names[i], **styles[i].marker_kwargs())
                 if p == 0:
                     handles.append(h)
             for k in range(n_o):

@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import legend_axes, legend_columns, load_filters_checked, short_name
+from .common import filter_labels, legend_axes, legend_columns, load_filters_checked
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
@@ -94,6 +94,7 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
     bins = np.arange(1, N_BINS + 1)
     filt = data_series[1:]
     styles = series(len(filt))
+    legend_names = filter_labels([s["name"] for s in filt])
     ill_name = card["illuminant"]["name"] if isinstance(card.get("illuminant"), dict) else str(card.get("illuminant"))
 
     if height_mm is None:
@@ -109,7 +110,7 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
             for i, s in enumerate(filt):
                 x = bins - 0.4 + width * (i + 0.5)
                 bars = ax.bar(x, s["chroma_shift"], width=width * 0.92, color=styles[i].color, lw=0,
-                              label=short_name(s["name"], 34), gid=f"hue-bars-{i}",
+                              label=legend_names[i], gid=f"hue-bars-{i}",
                               hatch=None if i % 2 == 0 else "////", edgecolor="white" if i % 2 else None)
                 for b, j in zip(bars.patches, bins):
                     b.set_gid(f"hue-bar-{i}-{j}")
@@ -141,7 +142,7 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
             for i, s in enumerate(filt):
                 r = 100 + np.append(s["chroma_shift"], s["chroma_shift"][0])
                 h, = ax.plot(closed, r, markersize=style.marker_size, gid=f"hue-outline-{i}",
-                             label=short_name(s["name"], 34), **styles[i].line_kwargs())
+                             label=legend_names[i], **styles[i].line_kwargs())
                 handles.append(h)
             ring = np.linspace(0, 2 * np.pi, 181)
             ax.plot(ring, np.full_like(ring, 100.0), color=NEUTRAL["text"], lw=0.8, zorder=1)

@@ -100,23 +100,27 @@ def freeze_layout(fig) -> None:
 
 
 def _stable_svg_ids(svg: bytes) -> bytes:
-    """Number the SVG's hashed clip-path ids in order of appearance.
+    """Number the SVG's hashed ids (clip paths, markers, hatches) in order of appearance.
 
-    matplotlib hashes a clip box's coordinates, printed at full precision and
+    matplotlib hashes an object's coordinates, printed at full precision and
     with their Python or numpy type, into its id; two runs that draw the same
     picture can then differ in ids alone. Sequential ids depend only on the
     drawing order.
     """
     text = svg.decode("utf-8")
+    names = {"p": "clip", "m": "marker", "h": "hatch"}
+    pattern = re.compile(r"(?<=url\(#)([pmh][0-9a-f]{10})(?=\))|(?<=id=\")([pmh][0-9a-f]{10})(?=\")"
+                         r"|(?<=href=\"#)([pmh][0-9a-f]{10})(?=\")")
     order: dict[str, str] = {}
-    for m in re.finditer(r"url\(#(p[0-9a-f]{10})\)|id=\"(p[0-9a-f]{10})\"", text):
-        key = m.group(1) or m.group(2)
-        order.setdefault(key, f"clip{len(order) + 1}")
+    counts: dict[str, int] = {}
+    for m in pattern.finditer(text):
+        key = m.group(0)
+        if key not in order:
+            counts[key[0]] = counts.get(key[0], 0) + 1
+            order[key] = f"{names[key[0]]}{counts[key[0]]}"
     if not order:
         return svg
-    text = re.sub(r"(?<=url\(#)(p[0-9a-f]{10})(?=\))|(?<=id=\")(p[0-9a-f]{10})(?=\")",
-                  lambda m: order[m.group(0)], text)
-    return text.encode("utf-8")
+    return pattern.sub(lambda m: order[m.group(0)], text).encode("utf-8")
 
 
 def _metadata(fmt: str) -> dict:

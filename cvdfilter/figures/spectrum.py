@@ -14,7 +14,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import legend_below, legend_columns, load_inputs, observer_label, short_name, spread_callouts
+from .common import (callouts_fit, filter_labels, legend_below, legend_columns, load_inputs, observer_label,
+                     short_name, spread_callouts)
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
@@ -94,9 +95,10 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
 
         # --- transmittance with notches -------------------------------------------------------
         label_pos, label_text, label_color = [], [], []
+        legend_names = filter_labels(fs.names)
         for i, (name, t) in enumerate(zip(fs.names, fs.transmittance)):
             st = styles[i]
-            ax_t.plot(wl, 100 * t, color=st.color, linestyle=st.linestyle, label=short_name(name),
+            ax_t.plot(wl, 100 * t, color=st.color, linestyle=st.linestyle, label=legend_names[i],
                       gid=f"transmittance-{i}")
             for n in notches[i]:
                 lo, hi = n["center"] - n["fwhm"] / 2, n["center"] + n["fwhm"] / 2
@@ -112,6 +114,17 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
                                             "shrinkB": 0})
                   for x, text, color in zip(label_pos, label_text, label_color)]
         ax_t.set_ylim(0, 104)
+        ax_t.set_xlim(wl[0], wl[-1])
+        # Notch labels stay above the panel while they fit side by side in one row; beyond that
+        # they would overlap, so centre and FWHM go into the legend instead.
+        if not callouts_fit(fig, ax_t, labels):
+            for a in labels:
+                a.remove()
+            labels, label_pos = [], []
+            for i, line in enumerate(ax_t.get_lines()):
+                if line.get_gid() == f"transmittance-{i}" and notches[i]:
+                    line.set_label(line.get_label() + "; " + ", ".join(
+                        f"{n['center']:.0f} nm/FWHM {n['fwhm']:.0f}" for n in notches[i]))
         ax_t.set_yticks([0, 25, 50, 75, 100])
         ax_t.set_ylabel("Transmittance (%)")
 
@@ -144,7 +157,9 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
         legend_below(fig, ax_s, handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
                      handlelength=2.6, columnspacing=1.2)
         finish(fig, style, title=title, caveat=caveat)
-        spread_callouts(fig, ax_t, labels, label_pos)
+        # Twice: the second pass measures the labels in the layout the first pass produced.
+        for _ in range(2):
+            spread_callouts(fig, ax_t, labels, label_pos, pad_pt=4.0)
 
     data = {"wavelengths": wl, "transmittance": fs.transmittance, "filters": list(fs.names),
             "notches": [[{k: n[k] for k in ("center", "fwhm", "depth")} for n in ns] for ns in notches],
