@@ -201,14 +201,15 @@ def legend_axes(fig, spec, handles, labels, *, ncols: int = 2, **kwargs):
     return ax
 
 
-def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int = 4, handle_pt: float = 30.0) -> int:
+def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int = 4, handle_pt: float = 36.0) -> int:
     """The most legend columns (up to ``max_cols``) whose labels fit side by side in ``width_mm``.
 
-    Text width is estimated at 0.56 em per character (DejaVu Sans averages
-    about 0.55 em for mixed text; common practice), plus ``handle_pt`` for the
-    handle and spacing.
+    Text width is estimated at 0.62 em per character (DejaVu Sans averages
+    about 0.55 em for mixed text, more for lower-case runs and hyphens; common
+    practice, with a margin so that no label is clipped), plus ``handle_pt``
+    for the handle, padding and column spacing.
     """
-    widest = max((len(str(t)) for t in labels), default=0) * 0.56 * font_size + handle_pt
+    widest = max((len(str(t)) for t in labels), default=0) * 0.62 * font_size + handle_pt
     room = 0.97 * width_mm / 25.4 * 72
     return int(max(1, min(max_cols, len(labels) or 1, room // widest)))
 
