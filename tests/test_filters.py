@@ -140,3 +140,10 @@ def test_bandwidth_correction_matches_colour_and_warns(write):
     ref = colour.colorimetry.bandpass_correction_Stearns1988(colour.SpectralDistribution(t, wl)).values
     assert np.allclose(fs.transmittance[0][::2], np.clip(ref, 0, 1), atol=1e-9)
     assert any("narrower than twice" in w for w in fs.info[0]["warnings"])
+
+
+@pytest.mark.parametrize("kwargs,match", [({"units": "kelvin"}, "unknown units"), ({"bandwidth": 50}, "0-20 nm")])
+def test_bad_options_refused_up_front(kwargs, match):
+    # Options are checked before any filter is built, also for specs that never read a file.
+    with pytest.raises(InputError, match=match):
+        load_filters("nd:t=0.5", **kwargs)

@@ -460,6 +460,12 @@ def load_filters(filters, *, grid: Grid = DEFAULT_GRID, units: str | None = None
     -------
     FilterSet
     """
+    from ..io.spectra_files import UNITS
+
+    if units is not None and units not in UNITS:
+        raise InputError(f"unknown units '{units}'", hint="use fraction, percent or od")
+    if bandwidth is not None and not (0 < bandwidth <= 20):
+        raise InputError(f"bandwidth {bandwidth:g} nm is outside 0-20 nm")
     if isinstance(filters, (str, pathlib.Path, FilterSet, tuple)) or _is_colour_sd(filters) or (
             isinstance(filters, np.ndarray)):
         filters = [filters]
