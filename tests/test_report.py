@@ -159,10 +159,12 @@ def chromium():
     """Path to Chromium; installed with apt-get when missing and we are root, else the test is skipped."""
     exe = shutil.which("chromium") or shutil.which("chromium-browser")
     if exe is None and hasattr(os, "geteuid") and os.geteuid() == 0 and shutil.which("apt-get"):
+        env = {**os.environ, "DEBIAN_FRONTEND": "noninteractive"}
         try:
+            # A fresh machine has no package lists yet: update them first.
+            subprocess.run(["apt-get", "update"], capture_output=True, timeout=600, check=False, env=env)
             subprocess.run(["apt-get", "install", "-y", "--no-install-recommends", "chromium"],
-                           capture_output=True, timeout=900, check=False,
-                           env={**os.environ, "DEBIAN_FRONTEND": "noninteractive"})
+                           capture_output=True, timeout=900, check=False, env=env)
         except (OSError, subprocess.TimeoutExpired):
             pass
         exe = shutil.which("chromium") or shutil.which("chromium-browser")
