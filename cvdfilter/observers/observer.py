@@ -224,20 +224,19 @@ def observer_forms() -> list[dict]:
     return [
         {"form": "normal", "parameters": common + ", data=cie2006|ss2|ss10|sp1975",
          "model": "CIE 170-1:2006 physiological observer (Stockman & Sharpe 2000)"},
-        {"form": "protanomalous",
-         "parameters": common + ", shift=0-27.35 or separation=0-27.35 (nm, L' to M fundamental peaks) "
-                                "or severity=mild|moderate|severe (separation 15|10|5; default 10)",
-         "model": "L pigment shifted toward M on a log-wavenumber axis until the L fundamental's peak "
-                  "has moved by shift"},
-        {"form": "deuteranomalous",
-         "parameters": common + ", shift=0-27.35 or separation=0-27.35 (nm, M' to L fundamental peaks) "
-                                "or severity=mild|moderate|severe (separation 9|6|3; default 6)",
-         "model": "M pigment shifted toward L on a log-wavenumber axis until the M fundamental's peak "
-                  "has moved by shift"},
+        *({"form": NAME,
+           "parameters": common + f", shift=0-{normal_separation(d):.2f} or separation=0-{normal_separation(d):.2f} "
+                                  f"(nm, {MINE}' to {OTHER} fundamental peaks) or severity=mild|moderate|severe "
+                                  f"(separation {'|'.join(f'{v:g}' for v in SEVERITY_SEPARATIONS[d].values())}; "
+                                  f"default {SEVERITY_SEPARATIONS[d]['moderate']:g})",
+           "model": f"{MINE} pigment shifted toward {OTHER} on a log-wavenumber axis so that the {MINE} "
+                    "fundamental's peak moves by shift (CIE 2006 observer, 32 years, 2 deg)"}
+          for NAME, d, MINE, OTHER in (("protanomalous", "protan", "L", "M"), ("deuteranomalous", "deutan", "M", "L"))),
         {"form": "tritanomalous",
-         "parameters": common + ", shift=0-112.4 or separation (nm, S pigment peak) "
-                                "or severity=mild|moderate|severe (shift 8|15|30; default 15)",
-         "model": "S pigment peak shifted toward M on a log-wavenumber axis"},
+         "parameters": common + f", shift=0-{normal_separation('tritan'):.1f} or separation (nm, S pigment peak) "
+                                f"or severity=mild|moderate|severe (shift "
+                                f"{'|'.join(f'{v:g}' for v in _TRITAN_SHIFTS.values())}; default 15)",
+         "model": "S pigment's peak shifted toward M on a log-wavenumber axis"},
         {"form": "DEFICIENCY:model=machado2009,severity=0-1", "parameters": common,
          "model": "Machado et al. (2009), via colour-science"},
         {"form": "protanope", "parameters": common, "model": "reduction dichromat: no L cone"},
