@@ -27,8 +27,15 @@ References: CIE 170-1:2006, Fundamental chromaticity diagram with
 physiological axes - Part 1; Stockman & Sharpe (2000), Vision Research 40,
 1711-1737.
 
+Anomalous pigments (:func:`anomalous_pigment`) and the meaning of an L/M
+``shift``: :func:`peak_shift_table` relates a pigment shift to the move of the
+fundamental's peak (:func:`fundamental_peaks`) in the reference observer (32
+years, 2 deg); :func:`pigment_shift_for` inverts it.
+
 Public: :func:`table_wavelengths`, :func:`photopigment_absorbance`,
-:func:`pigment_peaks`, :func:`shifted_absorbance`, :func:`ocular_media_density`,
+:func:`pigment_peaks`, :func:`shifted_absorbance`, :func:`anomalous_pigment`,
+:func:`fundamental_peaks`, :func:`peak_shift_table`, :func:`pigment_shift_for`,
+:func:`fundamental_separation`, :func:`ocular_media_density`,
 :func:`macular_density`, :func:`peak_optical_density`,
 :func:`fundamentals_from_absorbance`, :func:`cone_fundamentals`, :func:`to_grid`.
 """
@@ -286,7 +293,8 @@ def peak_shift_table(cone: int, other: int) -> np.ndarray:
 
     See :func:`_peak_shift_table`; cached on disk, so the hot path needs no scipy.
     """
-    table = _disk_cached(f"peak-shift-{int(cone)}-{int(other)}-{_PEAK_TABLE_ROWS}",
+    # the key names the rule's version: change it when the peak rule or the template blend changes
+    table = _disk_cached(f"peak-shift-v1-{int(cone)}-{int(other)}-{_PEAK_TABLE_ROWS}",
                          lambda: _peak_shift_table(cone, other))
     table = np.array(table)
     table.flags.writeable = False

@@ -69,6 +69,11 @@ def normal_separation(deficiency: str) -> float:
 
     L-M: 27.35 nm between the reference observer's fundamental peaks (570.17
     and 542.82 nm); S-M: 112.4 nm between the S and M pigment peaks.
+
+    Examples
+    --------
+    >>> round(normal_separation("protan"), 2), round(normal_separation("deutan"), 2)
+    (27.35, 27.35)
     """
     cone, other = _CONE[deficiency], _TOWARD[deficiency]
     if SHIFT_MEASURE[deficiency] == "fundamental peak":
@@ -83,6 +88,11 @@ def pigment_shift(deficiency: str, shift: float) -> float:
     Protan and deutan: the inverse of :func:`cie2006.peak_shift_table` (continuous,
     strictly increasing; 0 -> 0, the fundamental separation -> the pigment
     separation, 23.14 nm). Tritan: the shift itself.
+
+    Examples
+    --------
+    >>> round(pigment_shift("protan", 16.0), 2), round(pigment_shift("deutan", 16.0), 2)
+    (11.99, 15.44)
     """
     if SHIFT_MEASURE[deficiency] == "pigment peak":
         return float(shift)
@@ -288,6 +298,8 @@ def observer(spec: str | Observer = "normal", grid: Grid = DEFAULT_GRID) -> Obse
     8.0
     >>> observer("protanope").missing_cone
     0
+    >>> observer("deuteranomalous").spec, observer("deuteranomalous").params["separation"]
+    ('deuteranomalous:separation=6', 6.0)
     """
     if isinstance(spec, Observer):
         return spec
