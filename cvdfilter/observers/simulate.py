@@ -151,7 +151,7 @@ class Simulation:
     observer : Observer
         The simulated observer.
     method : str
-        ``identity``, ``brettel1997``, ``vienot1999`` or ``machado2009``.
+        One of :data:`METHODS` (see :data:`METHOD_DESCRIPTIONS`).
     matrices : numpy.ndarray
         Shape (k, 3, 3), k = 1 or 2, float64; act on column vectors
         (``out = M @ lms``).
@@ -457,7 +457,9 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
         raise InputError(f"method {method} does not apply to this observer", source=obs.spec,
                          hint="use " + " or ".join(allowed))
     if normalisation not in NORMALISATIONS:
-        raise InputError(f"normalisation '{normalisation}' is not cone or opponent", source=obs.spec)
+        raise InputError(f"normalisation '{normalisation}' is not cone or opponent", source=obs.spec,
+                         hint="'auto' was removed: it switched between the two at a hidden boundary"
+                         if normalisation == "auto" else None)
     if method == "identity":
         return Simulation(obs, method, np.eye(3)[None], None, white, {})
     p = None
