@@ -172,7 +172,7 @@ def test_rendering_default_is_continuous_in_age(kind, age, ill, filt):
 def test_rendering_default_has_no_jump_where_one_was_found(ill, ages):
     import colour
 
-    labs = [_render_lab(f"deuteranomalous:age={a:g}", ill) for a in ages]
+    labs = [_render_lab(f"deuteranomalous:shift=16,age={a:g}", ill) for a in ages]
     _assert_no_jump(labs, ill)
     # measured with the previous default ('auto'): 10.4 mean / 28.5 max (D65, 78.5 -> 79) and 15.2 / 30.5
     # (FL2, 41.5 -> 42); now 0.04 / 0.14 and 0.01 / 0.04
