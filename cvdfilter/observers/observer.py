@@ -360,21 +360,22 @@ def _observer(spec: str, grid: Grid) -> Observer:
         raise InputError("give one of shift, separation or severity", source=spec)
     cone = _CONE[deficiency]
     if model == "machado2009":
-        from .machado2009 import MAX_SHIFT_NM, machado_fundamentals
+        from .machado2009 import machado_fundamentals, machado_severity, machado_shift_nm, max_shift_nm
 
         sev_text = params.get("severity", "moderate")
         if "separation" in params:
             raise InputError("separation goes with the shifted-pigment model; give severity=0-1 for "
                              "model=machado2009", source=spec)
         if "shift" in params:
-            severity = _number(params["shift"], "shift", spec, 0, MAX_SHIFT_NM) / MAX_SHIFT_NM
+            severity = machado_severity(deficiency, _number(params["shift"], "shift", spec, 0,
+                                                            max_shift_nm(deficiency)))
         elif sev_text.lower() in SEVERITY_MACHADO[deficiency]:
             severity = SEVERITY_MACHADO[deficiency][sev_text.lower()]
         else:
             severity = _number(sev_text, "severity", spec, 0.0, 1.0)
         table = machado_fundamentals(deficiency, severity, age=age, field=fld)
         p = {"age": age, "field": fld, "model": "machado2009", "severity": severity,
-             "shift": severity * MAX_SHIFT_NM}
+             "shift": machado_shift_nm(deficiency, severity)}
         return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
                         weights, p, base, grid)
 
