@@ -252,7 +252,14 @@ def observer_forms() -> list[dict]:
         {"form": "protanope", "parameters": common, "model": "reduction dichromat: no L cone"},
         {"form": "deuteranope", "parameters": common, "model": "reduction dichromat: no M cone"},
         {"form": "tritanope", "parameters": common, "model": "reduction dichromat: no S cone"},
+        _population_form(),
     ]
+
+
+def _population_form() -> dict:
+    from .population import population_form
+
+    return population_form()
 
 
 def _luminance_weights(field: float) -> tuple:
@@ -316,6 +323,9 @@ def _observer(spec: str, grid: Grid) -> Observer:
     if kind == "anomalous":
         allowed |= {"shift", "separation", "severity", "model"}
     unknown = set(params) - allowed
+    if "n" in params:
+        raise InputError("n= makes a population, not one observer", source=spec,
+                         hint="use cvdfilter.population(spec) (see cvdfilter list observers)")
     if unknown:
         raise InputError(f"unknown parameter '{sorted(unknown)[0]}' for {name}", source=spec,
                          hint=f"allowed: {', '.join(sorted(allowed))}")
