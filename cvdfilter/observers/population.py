@@ -276,7 +276,11 @@ def _to_grid(values: np.ndarray, grid: Grid) -> np.ndarray:
         out = np.zeros((values.shape[0], len(target), 3))
         idx = np.round(target - wl[0]).astype(int)
         ok = (idx >= 0) & (idx < len(wl))
-        out[:, ok] = values[:, idx[ok]]
+        k = np.flatnonzero(ok)
+        if len(k) and np.all(np.diff(idx[k]) == 1):  # a whole-nm 1 nm grid: one block copy
+            out[:, k[0]:k[-1] + 1] = values[:, idx[k[0]]:idx[k[-1]] + 1]
+        else:
+            out[:, ok] = values[:, idx[ok]]
         return out
     n = values.shape[0]
     flat = np.moveaxis(values, 1, 0).reshape(len(wl), n * 3)
