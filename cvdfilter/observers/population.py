@@ -42,8 +42,9 @@ physiology for every observer kind).
 
 References: Asano Y, Fairchild MD, Blonde L (2016), Individual colorimetric
 observer model, PLoS One 11, e0145671; CIE 170-1:2006; DeMarco P, Pokorny J,
-Smith VC (1992), JOSA A 9, 1465-1476; Merbs SL, Nathans J (1992), Nature 356,
-433-435; Neitz J, Neitz M, Kainz PM (1996), Science 274, 801-804.
+Smith VC (1992), JOSA A 9, 1465-1476; Merbs SL, Nathans J (1992), Science 258,
+464-466 (hybrid pigments; from memory); Neitz J, Neitz M, Kainz PM (1996),
+Science 274, 801-804 (from memory).
 
 Public: :func:`population`, :class:`Population`, :func:`is_population_spec`,
 :func:`parse_population_spec`, :func:`individual_fundamentals`,
