@@ -12,7 +12,6 @@ from typer.testing import CliRunner
 
 from cvdfilter.cli.app import app
 from cvdfilter.errors import InputError
-from cvdfilter.observers import cie2006
 from cvdfilter.observers.observer import Observer, normal_separation, observer
 from cvdfilter.observers.population import (
     DEFAULT_SEED,

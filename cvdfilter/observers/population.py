@@ -29,9 +29,10 @@ anomalous pigment's position: the residual ``separation`` (on the observer
 spec's own measure, :data:`observer.SHIFT_MEASURE`) is drawn from a normal
 distribution centred on the spec's separation (default DeMarco, Pokorny &
 Smith 1992) with SD ``separation_sd`` (default :data:`SEPARATION_SD`, ours),
-truncated to 0..the normal separation; the anomalous pigment then takes the
-individual peak shift of the pigment it moves toward (the two move together, so
-the residual separation keeps the drawn spread). Dichromats vary like normal observers;
+truncated to 0..the normal separation; a protan/deutan anomalous pigment then
+takes the individual peak shift of the pigment it moves toward (the two move
+together, so the residual separation keeps the drawn spread; a tritan S pigment
+keeps its own). Dichromats vary like normal observers;
 their missing cone carries no signal.
 
 Randomness: ``numpy.random.default_rng`` streams spawned from
@@ -434,12 +435,14 @@ def _draws(ps: PopulationSpec, centre: Observer) -> dict:
         else:
             pshift = shift.copy()
         out.update(separation_nm=sep, shift_nm=shift, pigment_shift_nm=pshift)
-        # The anomalous pigment's place relative to the pigment it resembles is what the separation
-        # distribution describes; an independent individual peak shift on top would count that spread
-        # twice (the normal L/M peak polymorphisms are the same amino-acid sites). So it moves with
-        # the other pigment: its individual peak shift is the other pigment's.
-        names = ("l_peak_shift_nm", "m_peak_shift_nm", "s_peak_shift_nm")
-        out[names[_CONE[centre.deficiency]]] = out[names[_TOWARD[centre.deficiency]]].copy()
+        # Protan/deutan: the hybrid pigment's place relative to the pigment it resembles is what the
+        # separation distribution describes; an independent individual peak shift on top would count
+        # that spread twice (the normal L/M peak polymorphisms sit at the same amino-acid sites as the
+        # hybrids' differences). So it moves with the other pigment: its individual peak shift is the
+        # other pigment's. Tritan: the S pigment is no hybrid of M and keeps its own S peak shift.
+        if centre.deficiency != "tritan":
+            names = ("l_peak_shift_nm", "m_peak_shift_nm", "s_peak_shift_nm")
+            out[names[_CONE[centre.deficiency]]] = out[names[_TOWARD[centre.deficiency]]].copy()
     for v in out.values():
         v.flags.writeable = False
     return out
