@@ -285,7 +285,8 @@ class Scorecard:
                     "model": "receptor-noise-limited, Vorobyev & Osorio 1998",
                     "threshold_jnd": self.settings.get("discrimination_threshold"),
                     "distribution_thresholds_jnd": list(self.settings.get("distribution_thresholds", ())),
-                    "median": "median Delta S over all surface pairs, with the filter / without it",
+                    "median": "median Delta S over the pairs the normal observer (the observer's base, or itself) "
+                              "discriminates without the filter, with the filter / without it",
                     "weber_fraction_l": self.settings.get("weber_fraction"),
                     "cone_ratios_lms": list(self.settings.get("cone_ratios", ())),
                     "noise_by_observer": {o.spec: [_num(v, 5) for v in receptor_noise(
@@ -338,6 +339,10 @@ class Scorecard:
         run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
                "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
                "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
+        if "road_use" in self.metrics:
+            ru = head["models"]["road_use"]
+            run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
+            run["signal_limits_reading"] = ru["signal_limits_reading"]
         rows, columns = [], []
         seen, layouts = set(), set()
         for i in range(len(self)):
@@ -380,7 +385,7 @@ class Scorecard:
                                   _fmt(rd["cct_k"], 0), _fmt(rd["duv"], 4),
                                   " ".join(_fmt(v, 0) for v in rd["chroma_shifts"])])
             for o in f["observers"]:
-                obs_rows.append(_observer_row(f["name"], o, self.metrics))
+                obs_rows.append(_observer_row(f["name"], o, self.metrics, f=f))
         return filt_rows, obs_rows, rend_rows
 
     def to_markdown(self) -> str:
@@ -401,8 +406,12 @@ class Scorecard:
             lines += ["## Colour rendition of the illuminant through the filter (CIE 2017 / TM-30, CIE 13.3)", ""]
             lines += _md_table(_RENDITION_HEADER, rend_rows) + [""]
         if obs_rows and len(obs_rows[0]) > 2:
-            lines += ["## Per observer", "", _OBSERVER_NOTE, ""]
+            lines += ["## Per observer", "", _observer_note(doc), ""]
             lines += _md_table(_observer_header(self.metrics), obs_rows) + [""]
+        if self.sensitivity is not None:
+            lines += ["## Sensitivity", "", _SENSITIVITY_NOTE, ""]
+            for f, rows in _sensitivity_rows(self.sensitivity):
+                lines += [f"### {f}", ""] + _md_table(_SENSITIVITY_HEADER, rows) + [""]
         lines += ["## Cautions", ""] + [f"- {c}" for c in [doc["caveat"], *doc["cautions"]]] + [""]
         return "\n".join(lines)
 
@@ -418,11 +427,15 @@ class Scorecard:
             parts.append(_tables.text_table(_RENDITION_HEADER[:-1], [r[:-1] for r in rend_rows],
                                      "Colour rendition, illuminant x filter", width))
         if obs_rows and len(obs_rows[0]) > 2:
-            parts.append(textwrap.fill(_OBSERVER_NOTE, width=width) + "\n")
+            parts.append(textwrap.fill(_observer_note(doc), width=width) + "\n")
             for f in doc["filters"]:
                 rows = [_observer_row(f["name"], o, self.metrics, compact=True) for o in f["observers"]]
                 parts.append(_tables.text_table(_observer_header(self.metrics, compact=True), rows,
-                                         f"Per observer: {f['name']}", width))
+                                         f"Per observer: {f['name']} - costs: {_costs_text(f)}", width))
+        if self.sensitivity is not None:
+            parts.append(textwrap.fill(_SENSITIVITY_NOTE, width=width) + "\n")
+            for name, rows in _sensitivity_rows(self.sensitivity):
+                parts.append(_tables.text_table(_SENSITIVITY_HEADER, rows, f"Sensitivity: {name}", width))
         notes = []
         if "road_use" in self.metrics:
             unsuitable = [f for f in doc["filters"] if not f["road_use"]["suitable"]]
@@ -440,6 +453,7 @@ class Scorecard:
             modelled = any(l["kind"] == "modelled" for v in doc["signal_lights"].values() for l in v["lights"])
             notes.append("Signal lights: " + lights + (" - modelled spectra are an approximation, from memory."
                                                         if modelled else "."))
+            notes.append(_limits_text(doc))
         notes += _inputs_lines(doc, markdown=False)
         notes += [doc["caveat"], *doc["cautions"]]
         wrapped = "\n".join(textwrap.fill(n, width=width) for n in notes)
@@ -450,9 +464,73 @@ class Scorecard:
 
 _FILTER_HEADER = ["filter", "tau_v %", "cat", "day", "night", "min T/tau_v", "lowest Q", "x", "y", "du'v'"]
 _RENDITION_HEADER = ["filter", "Rf", "Rg", "Ra", "CCT K", "Duv", "chroma shifts h1-h16 %"]
-_OBSERVER_NOTE = ("Gains: RMS contrast with the filter / without it (1 = no change; RG red-green, BY "
-                  "blue-yellow, lum luminance). Surface pairs: discriminable (>= 1 JND) and confused (on one "
-                  "confusion line), without -> with the filter; +gained/-lost, -resolved/+new.")
+#: Why a gain is not a recommendation (printed with every table of gains).
+GAIN_CAUTION = ("A gain is not a recommendation: a smooth tint can raise the red-green gain as much as a notch; "
+                "read every gain beside its costs (luminous transmittance, white shift, Rf for the normal "
+                "observer, pairs lost).")
+
+
+def _observer_note(doc: dict) -> str:
+    """The note above the per-observer tables: what each column is, with every threshold named."""
+    m = doc["models"]
+    t = m["discrimination"]["threshold_jnd"]
+    dist = "/".join(f"{x:g}" for x in m["discrimination"]["distribution_thresholds_jnd"])
+    tn, td = m["confusion"]["normal_threshold_jnd"], m["confusion"]["deficient_threshold_jnd"]
+    return ("Gains: RMS contrast with the filter / without it (1 = no change; RG red-green, BY blue-yellow, lum "
+            "luminance). Surface pairs, receptor-noise model (Vorobyev & Osorio 1998), without -> with the "
+            f"filter: discriminable at Delta S >= {t:g} JND (+gained/-lost; counts at {dist} JND in the JSON); "
+            f"confused = Delta S >= {tn:g} JND for the normal observer and < {td:g} JND for this observer "
+            "(-resolved/+created). dS ratio: median Delta S, over the pairs the normal observer discriminates, "
+            "with / without the filter (no threshold of its own; above 1 the surfaces move apart). "
+            + GAIN_CAUTION)
+
+
+def _costs_text(f: dict) -> str:
+    """The costs of one filter, for the line beside its gains."""
+    tv = f.get("luminous_transmittance")
+    ws = f.get("white_shift")
+    rf = (f.get("rendition") or {}).get("rf")
+    return (f"tau_v {_fmt(None if tv is None else 100 * tv, 1)} %, white shift du'v' {_fmt(ws, 4)}, "
+            f"Rf {_fmt(rf, 1) if 'rendition' in f else 'not computed (--metrics all)'}")
+
+
+def _limits_text(doc: dict) -> str:
+    from .metrics.road_use import describe_signal_limits
+
+    ru = doc["models"]["road_use"]
+    return describe_signal_limits(ru["signal_limits"], ru["signal_limits_reading"])
+
+
+_SENSITIVITY_NOTE = ("Sensitivity: each verdict recomputed with one model constant or threshold moved at a time "
+                     "(Weber fraction x0.5 and x1.5, L:M cone ratio 1:1 and 4:1, every JND threshold x0.8 and "
+                     "x1.25, the other reading of the signal-quotient limits). 'robust' = the sign of the change "
+                     "(net pairs, ratio - 1, road-use verdict) is the same in every variation.")
+_SENSITIVITY_HEADER = ["observer", "measure", "default", "range", "robust"]
+_SENSITIVITY_LABELS = {"discriminable_net": "discriminable gained - lost",
+                       "confused_net_resolved": "confused resolved - created",
+                       "median_delta_s_ratio": "dS ratio"}
+
+
+def _sensitivity_rows(sens: dict):
+    """(filter name, rows) for the sensitivity tables."""
+    def show(v):
+        return "-" if v is None else (f"{v:.3f}" if isinstance(v, float) else f"{v:+d}" if isinstance(v, int)
+                                      and not isinstance(v, bool) else str(v))
+
+    for f in sens["filters"]:
+        rows = []
+        if "road_use_suitable" in f:
+            r = f["road_use_suitable"]
+            vals = r["values"]
+            rows.append(["-", "road use (day)", _yes(vals["default"]),
+                         ", ".join(f"{k}: {_yes(v)}" for k, v in vals.items() if k != "default"), _yes(r["robust"])])
+        for o in f["observers"]:
+            for key, label in _SENSITIVITY_LABELS.items():
+                if key in o:
+                    r = o[key]
+                    rows.append([o["observer"], label, show(r["values"]["default"]),
+                                 f"{show(r['min'])} .. {show(r['max'])}", _yes(r["robust"])])
+        yield f["name"], rows
 
 
 def _fmt(x, digits: int) -> str:
@@ -490,10 +568,14 @@ def _observer_header(metrics, *, compact: bool = False) -> list:
             "discriminable without", "with", "gained", "lost"]
     if "confusion" in metrics:
         h += ["confused", "res./new"] if compact else ["confused without", "with", "resolved", "created"]
+    if "discrimination" in metrics or "confusion" in metrics:
+        h += ["dS ratio"]
+    if not compact:
+        h += ["tau_v %", "du'v'", "Rf"]
     return h
 
 
-def _observer_row(name: str, o: dict, metrics, *, compact: bool = False) -> list:
+def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict | None = None) -> list:
     row = [] if compact else [name]
     row.append(o["observer"])
     if "contrast" in metrics:
@@ -510,7 +592,22 @@ def _observer_row(name: str, o: dict, metrics, *, compact: bool = False) -> list
             row += ["-", "-"] if c is None else [f"{c['without']}->{c['with']}", f"-{c['resolved']}/+{c['created']}"]
         else:
             row += ["-"] * 4 if c is None else [c["without"], c["with"], c["resolved"], c["created"]]
+    if "discrimination" in metrics or "confusion" in metrics:
+        row.append(_fmt(_median_ratio(o), 3))
+    if f is not None:
+        tv = f.get("luminous_transmittance")
+        row += [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
+                _fmt((f.get("rendition") or {}).get("rf"), 1)]
     return row
+
+
+def _median_ratio(o: dict):
+    """The median Delta S ratio of an observer entry (the same number in both pair blocks)."""
+    c = o.get("confusion_pairs")
+    if c is not None:
+        return c["median_delta_s_ratio"]
+    d = o.get("delta_s_distribution")
+    return None if d is None else d["median_ratio"]
 
 
 def _inputs_lines(doc: dict, *, markdown: bool) -> list:
@@ -524,6 +621,7 @@ def _inputs_lines(doc: dict, *, markdown: bool) -> list:
         for c, v in doc["signal_lights"].items():
             names = ", ".join(f"{l['name']} ({l['kind']}: {l['source']})" for l in v["lights"])
             lines.append(f"- Signal lights, {c} (limit {v['limit']:g}): {names}.")
+        lines.append(f"- {_limits_text(doc)}")
     return lines
 
 
@@ -994,11 +1092,11 @@ def _sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
         p = o.get("discriminable_pairs")
         if p is not None:
             out["discriminable_net"] = p["gained"] - p["lost"]
-            out["median_delta_s_ratio_all_pairs"] = o["delta_s_distribution"]["median_ratio"]
         c = o.get("confusion_pairs")
         if c is not None:
             out["confused_net_resolved"] = c["resolved"] - c["created"]
-            out["median_delta_s_ratio"] = c["median_delta_s_ratio"]
+        if p is not None or c is not None:
+            out["median_delta_s_ratio"] = _median_ratio(o)
         return out
 
     filters = []
