@@ -841,7 +841,11 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     except (TypeError, ValueError):
         raise InputError(f"distribution thresholds must be numbers, got {distribution_thresholds!r}") from None
     for name, t in [*thresholds.items(), *(("distribution threshold", t) for t in distribution_thresholds)]:
-        if not (isinstance(t, (int, float)) and math.isfinite(t) and t > 0):
+        try:
+            ok = math.isfinite(float(t)) and float(t) > 0
+        except (TypeError, ValueError):
+            ok = False
+        if not ok:
             raise InputError(f"{name} must be a positive number of JND, got {t!r}")
     try:
         noise_check = receptor_noise(None, weber=weber_fraction, cone_ratios=cone_ratios)
