@@ -663,7 +663,9 @@ _CONFUSION_KEYS = ("without", "with", "resolved", "created")
 _DICT_KEYS = {"confusion_pairs": ("normal_threshold_jnd", "deficient_threshold_jnd", "normally_discriminable",
                                   *_CONFUSION_KEYS, "median_delta_s_without", "median_delta_s_with",
                                   "median_delta_s_ratio"),
-              "discriminable_pairs": ("threshold_jnd", *_PAIR_KEYS)}
+              "discriminable_pairs": ("threshold_jnd", *_PAIR_KEYS),
+              "delta_s_distribution": (*(f"{_at}.{k}" for _at in ("at_1_jnd", "at_2_jnd", "at_4_jnd")
+                                         for k in _PAIR_KEYS), "median_without", "median_with", "median_ratio")}
 
 
 def _at_key(t: float) -> str:
