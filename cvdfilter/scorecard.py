@@ -260,7 +260,7 @@ class Scorecard:
         """The top-level keys of :meth:`to_dict` other than ``filters``."""
         from .metrics.discrimination import receptor_noise
         from .metrics.pairs import pair_count
-        from .metrics.road_use import (DEFAULT_SIGNAL_READING, NIGHT_MIN, RATIO_BAND_NM, RATIO_LIMIT,
+        from .metrics.road_use import (CATEGORY_BANDS, DEFAULT_SIGNAL_READING, NIGHT_MIN, RATIO_BAND_NM, RATIO_LIMIT,
                                        SIGNAL_COLOURS, SIGNAL_LIMIT_READINGS, SIGNAL_LIMIT_SOURCES, SIGNAL_LIMITS)
 
         ill, surf = self.illuminant, self.surfaces
@@ -309,6 +309,7 @@ class Scorecard:
                         self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING), "given by the user"),
                     "other_readings": {k: v for k, v in SIGNAL_LIMIT_READINGS.items()},
                     "ratio_band_nm": list(RATIO_BAND_NM), "ratio_limit": RATIO_LIMIT, "night_min": NIGHT_MIN,
+                    "category_bands": [{"category": c, "above": lo, "up_to": hi} for c, lo, hi in CATEGORY_BANDS],
                 },
             },
             "inputs": self.inputs,
