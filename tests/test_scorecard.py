@@ -405,3 +405,27 @@ def test_scorecard_defaults_are_continuous_in_notch_centre_and_depth(center, dep
                                 11), metrics="core", observers=observers)
         sub = np.abs(np.diff(np.asarray(_continuous_metrics(fine)[name], dtype=float)))
         assert sub.max() <= 0.6 * d[i] + 1e-6, (name, d.tolist(), sub.tolist())
+
+
+def test_costs_sit_beside_every_gain(card):
+    # Issue 9: the scorecard never reads as a recommendation; every gain is printed with its costs.
+    from cvdfilter.figures.gains import cost_label, gains_figure
+    from cvdfilter.report import Report
+
+    md = card.to_markdown()
+    header = next(line for line in md.splitlines() if line.startswith("| filter | observer | RG gain"))
+    for col in ("tau_v %", "du'v'", "Rf", "lost", "dS ratio"):
+        assert f"| {col} |" in header
+    assert "A gain is not a recommendation" in md
+    flat = " ".join(card.to_table().split())
+    assert "Per observer: larkhill-notch-575 - costs: tau_v" in flat and "Rf " in flat
+    d = card.to_dict()
+    fig = gains_figure(None, card=d)
+    texts = [t.get_text() for t in fig.figure.legends[0].get_texts()] if fig.figure.legends else [
+        t.get_text() for ax in fig.figure.axes if ax.get_legend() for t in ax.get_legend().get_texts()]
+    assert all(cost_label(f) in t for f, t in zip(d["filters"], texts)) and len(texts) == len(d["filters"])
+    rep = Report.__new__(Report)
+    rep.card = d
+    head, rows = rep._observer_table()
+    assert "cost: luminous transmittance (%)" in head and "cost: Rf (normal observer)" in head
+    assert all(len(r) == len(head) for r in rows)
