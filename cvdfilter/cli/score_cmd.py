@@ -65,12 +65,12 @@ def register(app: typer.Typer) -> None:
             "green, blue. They replace the modelled lights of those colours.")),
         # -- model constants, thresholds and sensitivity (kept together in one block) --
         weber_fraction: float = typer.Option(0.02, "--weber-fraction", help=(
-            "Weber fraction of the normal L-cone channel in the receptor-noise model (default 0.02).")),
+            "Weber fraction of the normal L-cone channel in the receptor-noise model.")),
         cone_ratios: str = typer.Option("10:5:1", "--cone-ratios", help=(
-            "Relative L:M:S cone numbers of the receptor-noise model (default 10:5:1).")),
+            "Relative L:M:S cone numbers of the receptor-noise model.")),
         jnd_threshold: float = typer.Option(1.0, "--jnd-threshold", help=(
             "Delta S (JND) used for the pair counts: discriminable at or above it; confused when the normal "
-            "observer is at or above it and the deficient observer below it (default 1).")),
+            "observer is at or above it and the deficient observer below it.")),
         signal_limits: Optional[str] = typer.Option(None, "--signal-limits", help=(
             "Signal-quotient limits: a reading (guidance: red/yellow 0.8, green/blue 0.6, the default; "
             "blue-0.4) or colour=value pairs, e.g. red=0.8,yellow=0.8,green=0.6,blue=0.4.")),
