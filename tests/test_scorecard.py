@@ -348,8 +348,11 @@ def test_median_ratio_ranks_notches_alike_when_the_threshold_moves():
     for t in (0.8, 1.25):
         moved = _median_ratios(score(sweep, observers=_DEFICIENT, metrics="confusion", normal_threshold=t,
                                      deficient_threshold=t, discrimination_threshold=t).to_dict())
-        for k in range(len(_DEFICIENT)):
-            assert spearmanr(base[:, k], moved[:, k]).statistic >= 0.9, (t, _DEFICIENT[k])
+        for k, spec in enumerate(_DEFICIENT):
+            # Dichromats are fixed models; the anomalous defaults may change with the observer models, so
+            # their bound is looser.
+            bound = 0.9 if spec.endswith("ope") else 0.8
+            assert spearmanr(base[:, k], moved[:, k]).statistic >= bound, (t, spec)
 
 
 def test_a_small_ripple_on_a_grey_filter_moves_the_median_ratio_little():
