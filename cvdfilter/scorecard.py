@@ -488,11 +488,13 @@ def _observer_note(doc: dict) -> str:
 
 def _costs_text(f: dict) -> str:
     """The costs of one filter, for the line beside its gains."""
-    tv = f.get("luminous_transmittance")
-    ws = f.get("white_shift")
     rf = (f.get("rendition") or {}).get("rf")
-    return (f"tau_v {_fmt(None if tv is None else 100 * tv, 1)} %, white shift du'v' {_fmt(ws, 4)}, "
-            f"Rf {_fmt(rf, 1) if 'rendition' in f else 'not computed (--metrics all)'}")
+    rf_text = f"Rf {_fmt(rf, 1)}" if "rendition" in f else "Rf not computed (--metrics all)"
+    if "luminous_transmittance" not in f:
+        return f"tau_v and white shift not computed (add photometry to --metrics), {rf_text}"
+    tv = f.get("luminous_transmittance")
+    return (f"tau_v {_fmt(None if tv is None else 100 * tv, 1)} %, white shift du'v' {_fmt(f.get('white_shift'), 4)}, "
+            + rf_text)
 
 
 def _limits_text(doc: dict) -> str:
