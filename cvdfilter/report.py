@@ -173,9 +173,19 @@ class Report:
         if disc:
             rows.append(("Receptor noise", f"Weber fraction {disc.get('weber_fraction_l')} (L cone), cone ratios "
                                            f"L:M:S {':'.join(f'{v:g}' for v in disc.get('cone_ratios_lms', []))}"))
+            rows.append(("Discrimination thresholds",
+                         f"discriminable at Delta S >= {disc.get('threshold_jnd', 1.0):g} JND; distribution at "
+                         + ", ".join(f"{t:g}" for t in disc.get("distribution_thresholds_jnd", [])) + " JND"))
         conf = models.get("confusion")
         if conf:
-            rows.append(("Confusion tolerance", f"{conf.get('tolerance_ln')} (natural-log units; {conf.get('space')})"))
+            rows.append(("Confused pairs", f"Delta S >= {conf.get('normal_threshold_jnd', 1.0):g} JND for the normal "
+                                           f"observer and < {conf.get('deficient_threshold_jnd', 1.0):g} JND for the "
+                                           "deficient observer (receptor-noise model)"))
+        road = models.get("road_use")
+        if road:
+            limits = ", ".join(f"{k} {v:g}" for k, v in road["signal_limits"].items())
+            rows.append(("Signal-quotient limits", f"{limits} (reading '{road['signal_limits_reading']}': "
+                                                   f"{road['signal_limits_source']})"))
         for colour_name, v in c.get("signal_lights", {}).items():
             rows.append((f"Signal lights, {colour_name}",
                          f"limit {v['limit']:g}; " + ", ".join(f"{l['name']} ({l['kind']}: {l['source']})"
@@ -221,18 +231,27 @@ class Report:
         return header, rows
 
     def _observer_table(self) -> tuple[list, list]:
+        # Costs (luminous transmittance, white shift, Rf for the normal observer; pairs lost) sit in the same
+        # row as every gain: a gain is never shown alone.
         header = ["filter", "observer", "red-green gain", "blue-yellow gain", "luminance gain",
                   "discriminable pairs without", "with", "gained", "lost",
-                  "confusion pairs without", "with", "resolved", "created"]
+                  "confused pairs without", "with", "resolved", "created", "median Delta S ratio",
+                  "cost: luminous transmittance (%)", "cost: white shift du'v'", "cost: Rf (normal observer)"]
         rows = []
         for f in self.card["filters"]:
+            tv = f.get("luminous_transmittance")
+            costs = [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
+                     _fmt((f.get("rendition") or {}).get("rf"), 1)]
             for o in f["observers"]:
                 p = o.get("discriminable_pairs")
                 cp = o.get("confusion_pairs")
+                dist = o.get("delta_s_distribution")
+                ratio = cp["median_delta_s_ratio"] if cp else (dist or {}).get("median_ratio")
                 rows.append([f["name"], o["observer"], _fmt(o.get("red_green_gain"), 3),
                              _fmt(o.get("blue_yellow_gain"), 3), _fmt(o.get("luminance_contrast_gain"), 3),
                              *(["-"] * 4 if not p else [p["without"], p["with"], p["gained"], p["lost"]]),
-                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]])])
+                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]]),
+                             _fmt(ratio, 3), *costs])
         return header, rows
 
     def _reasons(self) -> list[tuple[str, list]]:
@@ -375,10 +394,13 @@ class Report:
 # --- helpers ----------------------------------------------------------------------------------
 
 _OBSERVER_NOTE = ("Gains are the RMS contrast of the surfaces with the filter divided by that without it (1 = no "
-                  "change). Pairs are surface pairs: discriminable at 1 JND or more (receptor-noise model) and "
-                  "confused (on one confusion line of the observer's deficient axis), without and with the "
-                  "filter. '-' where a metric does not apply (no red-green axis for a dichromat, no confusion "
-                  "axis for a normal observer).")
+                  "change). Pairs are surface pairs in the receptor-noise model (Vorobyev & Osorio 1998): "
+                  "discriminable at the threshold named under Inputs (1 JND by default), and confused when the "
+                  "normal observer discriminates them and the deficient observer does not; the median Delta S "
+                  "ratio (over the pairs the normal observer discriminates, with / without the filter) needs no "
+                  "threshold. '-' where a metric does not apply (no red-green axis for a dichromat, no confused "
+                  "pairs for a normal observer). A gain is not a recommendation: a smooth tint can raise the "
+                  "red-green gain as much as a notch; every gain is printed beside its costs.")
 
 _CSS = """
 body{font-family:"DejaVu Sans",Arial,Helvetica,sans-serif;font-size:15px;line-height:1.45;color:#222;margin:0;

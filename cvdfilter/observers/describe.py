@@ -112,7 +112,9 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
         "xy_system": xy_system_for(base),
         "copunctal_point": None,
         "neutral_points": [],
-        "simulation": {"normal": "identity", "dichromat": "brettel1997", "anomalous": "machado2009"}[obs.kind],
+        "simulation": {"normal": "identity",
+                       "dichromat": "brettel1997 (API default); brettel-adapted in render, figures and reports",
+                       "anomalous": "machado2009"}[obs.kind],
     }
     if obs.kind == "anomalous" and obs.deficiency != "tritan":
         from .observer import _CONE, _TOWARD
