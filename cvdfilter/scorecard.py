@@ -144,6 +144,12 @@ class Scorecard:
     sensitivity : dict or None
         With ``score(..., sensitivity=True)``: the verdicts under each
         variation of :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section).
+    members : bool
+        Population entries carry every member's values (``members``).
+
+    For a population (an entry of ``observers`` that is a :class:`~cvdfilter.observers.population.Population`)
+    ``per_observer`` holds arrays shaped (filters, members) (and (members,) for values that do not depend
+    on the filter); its JSON entry is :meth:`_population_dict`.
     """
 
     filters: object
@@ -158,6 +164,7 @@ class Scorecard:
     settings: dict = field(default_factory=dict)
     inputs: dict = field(default_factory=dict)
     sensitivity: dict | None = None
+    members: bool = False
 
     def __len__(self) -> int:
         return len(self.filters)
@@ -220,6 +227,8 @@ class Scorecard:
         return d
 
     def _observer_dict(self, i: int, k: int) -> dict:
+        if _is_population(self.observers[k]):
+            return self._population_dict(i, k)
         o = self._lists[1][k]
         d = {"observer": self.observers[k].spec}
         if "contrast" in self.metrics:
@@ -256,10 +265,109 @@ class Scorecard:
                 }
         return d
 
+    @functools.cached_property
+    def _population_summaries(self) -> dict:
+        """Per population index: metric -> statistics arrays over filters (computed once, vectorised)."""
+        from .metrics.population_stats import RATIO_TOLERANCE, share_helped, spread
+
+        out = {}
+        for k, pop in enumerate(self.observers):
+            if not _is_population(pop):
+                continue
+            o = self.per_observer[k]
+            undefined = o.get("undefined", np.zeros((len(self), pop.n), dtype=bool))
+            stats, helped = {}, {}
+            for key, v in o.items():
+                if key == "undefined":
+                    continue
+                v = np.asarray(v, dtype=float)
+                if v.ndim == 2 and key not in _CONTRAST_KEYS:
+                    v = np.where(undefined, np.nan, v)
+                stats[key] = spread(v)
+            defined = ~undefined
+            if "red_green_gain" in o:
+                for key in ("red_green_gain", "blue_yellow_gain"):
+                    g = np.asarray(o[key], dtype=float)
+                    helped[key] = share_helped(np.nan_to_num(g, nan=0.0) > 1.0 + RATIO_TOLERANCE, np.isfinite(g))
+            if "discriminable_gained" in o:
+                net = np.asarray(o["discriminable_gained"]) - np.asarray(o["discriminable_lost"])
+                helped["discriminable_pairs_net"] = share_helped(net > 0, defined)
+            if "confusion_resolved" in o:
+                net = np.asarray(o["confusion_resolved"]) - np.asarray(o["confusion_created"])
+                helped["confusion_pairs_net"] = share_helped(net > 0, defined)
+            ratio = o.get("confusion_median_ratio", o.get("discriminable_median_ratio"))
+            if ratio is not None:
+                r = np.where(undefined, np.nan, np.asarray(ratio, dtype=float))
+                helped["median_delta_s_ratio"] = share_helped(np.nan_to_num(r, nan=0.0) > 1.0 + RATIO_TOLERANCE,
+                                                              np.isfinite(r))
+            out[k] = (stats, helped)
+        return out
+
+    def _population_dict(self, i: int, k: int) -> dict:
+        """A population's entry: every per-observer metric as ``{mean, sd, p2_5, p50, p97_5}`` over members
+        (counts per count), ``helped`` shares with Wilson 95 % intervals, ``members`` when asked."""
+        pop = self.observers[k]
+        stats, helped = self._population_summaries[k]
+        st = self.settings
+
+        def s(key, digits: int = 6):
+            v = stats[key]
+            if v["n"].ndim:
+                v = {name: a[i] for name, a in v.items()}
+            if int(v["n"]) == 0:
+                return None
+            return {name: _num(v[name], digits) for name in _STATS}
+
+        d = {"observer": pop.spec, "population": {"n": pop.n, "variation": pop.variation, "seed": pop.seed}}
+        if "contrast" in self.metrics:
+            for key in _CONTRAST_KEYS:
+                d[key] = s(key)
+        if "discrimination" in self.metrics:
+            pairs = {key: s(f"discriminable_{key}") for key in _PAIR_KEYS}
+            d["discriminable_pairs"] = None if pairs["with"] is None else {
+                "threshold_jnd": st["discrimination_threshold"], **pairs}
+            dist = {_at_key(t): {key: s(f"discriminable_at_{t:g}_{key}") for key in _PAIR_KEYS}
+                    for t in st["distribution_thresholds"]}
+            dist["median_without"] = s("discriminable_median_without", 4)
+            dist["median_with"] = s("discriminable_median_with", 4)
+            dist["median_ratio"] = s("discriminable_median_ratio")
+            d["delta_s_distribution"] = None if pairs["with"] is None else dist
+        if "confusion" in self.metrics:
+            if "confusion_with" not in stats or s("confusion_with") is None:
+                d["confusion_pairs"] = None
+            else:
+                d["confusion_pairs"] = {
+                    "normal_threshold_jnd": st["normal_threshold"],
+                    "deficient_threshold_jnd": st["deficient_threshold"],
+                    "normally_discriminable": s("confusion_normally_discriminable"),
+                    **{key: s(f"confusion_{key}") for key in _CONFUSION_KEYS},
+                    "median_delta_s_without": s("confusion_median_without", 4),
+                    "median_delta_s_with": s("confusion_median_with", 4),
+                    "median_delta_s_ratio": s("confusion_median_ratio"),
+                }
+        d["helped"] = {key: {"share": _num(h["share"][i]), "ci_low": _num(h["ci_low"][i]),
+                             "ci_high": _num(h["ci_high"][i]), "helped": int(h["helped"][i]), "n": int(h["n"][i])}
+                       for key, h in helped.items()}
+        if self.members:
+            o = self.per_observer[k]
+            undefined = o.get("undefined")
+            mem = {}
+            for key, v in o.items():
+                if key == "undefined":
+                    continue
+                v = np.asarray(v)
+                row = v[i] if v.ndim == 2 else v
+                if undefined is not None and v.ndim == 2 and key not in _CONTRAST_KEYS:
+                    row = np.where(undefined[i], np.nan, row.astype(float))
+                mem[key] = [_num(x) if isinstance(x, float) else x for x in row.tolist()]
+            d["members"] = mem
+        return d
+
     def header(self) -> dict:
         """The top-level keys of :meth:`to_dict` other than ``filters``."""
         from .metrics.discrimination import receptor_noise
         from .metrics.pairs import pair_count
+        from .metrics.population_stats import CONFIDENCE, RATIO_TOLERANCE
         from .metrics.road_use import (CATEGORY_BANDS, DEFAULT_SIGNAL_READING, NIGHT_MIN, RATIO_BAND_NM, RATIO_LIMIT,
                                        SIGNAL_COLOURS, SIGNAL_LIMIT_READINGS, SIGNAL_LIMIT_SOURCES, SIGNAL_LIMITS)
 
@@ -274,7 +382,9 @@ class Scorecard:
                          "pairs": pair_count(len(surf))},
             "adaptation": {"spec": _adaptation_text(self.adaptation), "degree": self.adaptation,
                            "model": "von Kries, to the illuminant seen through the filter"},
-            "observers": [{"observer": o.spec, "kind": o.kind, "deficiency": o.deficiency} for o in self.observers],
+            "observers": [{"observer": o.spec, "kind": o.kind, "deficiency": o.deficiency,
+                           **({"population": {"n": o.n, "variation": o.variation, "seed": o.seed}}
+                              if _is_population(o) else {})} for o in self.observers],
             "metrics": list(self.metrics),
             "grid": {"start_nm": self.filters.grid.start, "end_nm": self.filters.grid.end,
                      "step_nm": self.filters.grid.step},
@@ -302,6 +412,17 @@ class Scorecard:
                     "median": "median over the normally discriminable pairs of the deficient observer's "
                               "Delta S, with the filter / without it",
                 },
+                **({"populations": {
+                    "model": "individual observers: Asano, Fairchild & Blonde (2016) variation of lens, macula, "
+                             "photopigment densities and peaks on the CIE 170-1 observer (docs/models.md section 8)",
+                    "statistics": "over members: mean, sd (ddof 1), p2_5, p50, p97_5 (linear interpolation); "
+                                  "members for whom a metric is undefined are left out",
+                    "helped": "share of members with red_green_gain or blue_yellow_gain above 1, net "
+                              "discriminable or confused pairs (gained - lost, resolved - created) above 0, or "
+                              "median_delta_s_ratio above 1 (ratios: above 1 + ratio_tolerance, a numerical "
+                              "tolerance for rounding); Wilson (1927) score interval",
+                    "confidence": CONFIDENCE, "ratio_tolerance": RATIO_TOLERANCE,
+                }} if any(_is_population(o) for o in self.observers) else {}),
                 "road_use": {
                     "signal_limits": dict(self.settings.get("signal_limits", SIGNAL_LIMITS)),
                     "signal_limits_reading": self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING),
@@ -335,7 +456,9 @@ class Scorecard:
     # -- CSV -------------------------------------------------------------------
 
     def csv_rows(self) -> tuple[list, list]:
-        """Header and rows: one row per filter x observer, nested keys joined with dots."""
+        """Header and rows: one row per filter x observer, nested keys joined with dots; a population gives
+        one row per statistic (column ``statistic``: mean, sd, p2_5, p50, p97_5), its ``helped`` shares on
+        every row, and no per-member values."""
         head = self.header()
         run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
                "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
@@ -350,7 +473,7 @@ class Scorecard:
             f = self._filter_dict(i)
             obs = f.pop("observers")
             flat_f = _flatten(f)
-            for o in obs:
+            for o in [r for o0 in obs for r in _population_csv_entries(o0)]:
                 row = {**flat_f, **_flatten(o), **run}
                 layout = tuple(row)
                 if layout not in layouts:  # rows share a few key layouts: merge each new one once
@@ -408,6 +531,8 @@ class Scorecard:
             lines += _md_table(_RENDITION_HEADER, rend_rows) + [""]
         if obs_rows and len(obs_rows[0]) > 2:
             lines += ["## Per observer", "", _observer_note(doc), ""]
+            if any("population" in o for o in doc["observers"]):
+                lines += [_POPULATION_NOTE, ""]
             lines += _md_table(_observer_header(self.metrics), obs_rows) + [""]
         if self.sensitivity is not None:
             lines += ["## Sensitivity", "", _SENSITIVITY_NOTE, ""]
@@ -429,6 +554,8 @@ class Scorecard:
                                      "Colour rendition, illuminant x filter", width))
         if obs_rows and len(obs_rows[0]) > 2:
             parts.append(textwrap.fill(_observer_note(doc), width=width) + "\n")
+            if any("population" in o for o in doc["observers"]):
+                parts.append(textwrap.fill(_POPULATION_NOTE, width=width) + "\n")
             for f in doc["filters"]:
                 rows = [_observer_row(f["name"], o, self.metrics, compact=True) for o in f["observers"]]
                 parts.append(_tables.text_table(_observer_header(self.metrics, compact=True), rows,
@@ -579,6 +706,8 @@ def _observer_header(metrics, *, compact: bool = False) -> list:
 
 
 def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict | None = None) -> list:
+    if "population" in o:  # tables show the median member (JSON: the spread and the shares helped)
+        o = _population_csv_entries(o, statistics=("p50",))[0]
     row = [] if compact else [name]
     row.append(o["observer"])
     if "contrast" in metrics:
@@ -635,6 +764,52 @@ def _md_cell(v) -> str:
 def _md_table(header, rows) -> list:
     out = ["| " + " | ".join(header) + " |", "|" + "|".join("---" for _ in header) + "|"]
     out += ["| " + " | ".join(_md_cell(v) for v in r) + " |" for r in rows]
+    return out
+
+
+#: Printed with the tables when an observer is a population.
+_POPULATION_NOTE = ("Population rows (a spec with n=N) show the median member; --format json gives each metric's "
+                    "mean, SD and 2.5/50/97.5 percentiles over the members and the share of members helped, with a "
+                    "Wilson 95 % interval (--format csv: one row per statistic).")
+#: Statistics of a population metric (JSON keys), from metrics.population_stats.STATISTICS.
+_STATS = ("mean", "sd", "p2_5", "p50", "p97_5")
+_CONTRAST_KEYS = ("luminance_contrast_gain", "red_green_gain", "blue_yellow_gain")
+
+
+def _is_population(o) -> bool:
+    return type(o).__name__ == "Population"
+
+
+def _pick(v, stat: str):
+    if isinstance(v, dict):
+        if set(v) == set(_STATS):
+            return v[stat]
+        return {k: _pick(x, stat) for k, x in v.items()}
+    return v
+
+
+def _population_csv_entries(o: dict, statistics=_STATS) -> list:
+    """A fixed observer's entry as is; a population's as one entry per statistic (``statistic`` key)."""
+    if "population" not in o:
+        return [o]
+    body = {k: v for k, v in o.items() if k not in ("members", "helped", "population", "observer")}
+    return [{"observer": o["observer"], "statistic": stat, "population": o["population"], **_pick(body, stat),
+             "helped": o["helped"]} for stat in statistics]
+
+
+def _population_scores(fs, pop, groups, kwargs: dict, progress=None, batch: int = 64) -> dict:
+    """Per-observer arrays of every member of ``pop``: (filters, members), or (members,) for values that do
+    not depend on the filter. Members are scored in batches through :func:`score`'s per-observer path."""
+    parts = []
+    for lo in range(0, pop.n, batch):
+        sub = score(fs, observers=pop.members(lo, lo + batch), metrics=list(groups), **kwargs)
+        parts.append(sub.per_observer)
+        if progress is not None:
+            progress("members", min(pop.n, lo + batch), pop.n)
+    out = {}
+    for key in parts[0][0]:
+        vals = [np.asarray(p[key]) for part in parts for p in part]
+        out[key] = np.stack(vals, axis=-1)
     return out
 
 
@@ -746,7 +921,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
           cone_ratios=CONE_RATIOS, discrimination_threshold: float = DISCRIMINATION_THRESHOLD,
           distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
           deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
-          progress=None) -> Scorecard:
+          members: bool = False, progress=None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -759,8 +934,11 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     illuminant : str or Illuminant
         The light the surfaces are seen in (photometry and road use always use
         CIE D65, as ISO 12312-1 prescribes).
-    observers : sequence of str or Observer
-        Observer specs; default :data:`DEFAULT_OBSERVERS`.
+    observers : sequence of str, Observer or Population
+        Observer specs; default :data:`DEFAULT_OBSERVERS`. A population spec (any spec plus ``n=N``,
+        :func:`cvdfilter.population`) is scored member by member and reported as statistics over its
+        members (``{mean, sd, p2_5, p50, p97_5}`` per metric) and the share ``helped`` with a Wilson 95 %
+        interval (:mod:`cvdfilter.metrics.population_stats`).
     surfaces : str or SurfaceSet
         ``ces99`` (default), ``colorchecker``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
@@ -794,8 +972,10 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         Also score every filter under the documented variations of
         :data:`SENSITIVITY_RANGES` and report how the verdicts move
         (``Scorecard.sensitivity``, JSON key ``sensitivity``).
+    members : bool
+        With populations: also carry every member's values in the JSON (``members``).
     progress : callable, optional
-        ``progress(stage, done, total)``; stages ``filters`` and ``rendition``.
+        ``progress(stage, done, total)``; stages ``filters``, ``members`` (populations) and ``rendition``.
 
     Returns
     -------
@@ -861,7 +1041,15 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     fs = load_filters(filters, grid=grid)
     ill = make_illuminant(illuminant, grid)
     surf = surface_set(surfaces, grid)
-    obs = [make_observer(o, grid) for o in observers]
+    from .observers.population import Population, is_population_spec
+    from .observers.population import population as make_population
+
+    obs = [o if isinstance(o, Population) else make_population(o, grid) if is_population_spec(o)
+           else make_observer(o, grid) for o in observers]
+    populations = {k: o for k, o in enumerate(obs) if isinstance(o, Population)}
+    if populations and sensitivity:
+        raise InputError("sensitivity is not available for population observers yet",
+                         hint="score the population without --sensitivity, or its centre observer with it")
     cmfs = cie1931_cmfs(grid)
     ybar = cmfs[:, 1]
     d65 = make_illuminant("D65", grid).spd
@@ -899,8 +1087,11 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
 
     # -- per observer: one product gives every cone catch ----------------------
     per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
-    if per_observer_groups:
-        basis, cols = _cone_basis(obs)
+    # populations are scored below, in batches of members; this block scores the fixed observers
+    run_obs = [o for o in obs if not isinstance(o, Population)]
+    run_store = [per_obs[k] for k, o in enumerate(obs) if not isinstance(o, Population)]
+    if per_observer_groups and run_obs:
+        basis, cols = _cone_basis(run_obs)
         k_cols = basis.shape[1]
         stimuli = E[:, None] * np.concatenate([surf.reflectance, np.ones((grid.size, 1))], axis=1)
         # B[lambda, (cone, sample)]: the last sample is the white (the light itself).
@@ -909,11 +1100,11 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         whites = np.empty((n_f, k_cols))
         normal_noise = receptor_noise(None, weber=weber_fraction, cone_ratios=cone_ratios)
         setup = []
-        for k, o in enumerate(obs):
+        for k, o in enumerate(run_obs):
             c = cols[k]
             q0, w0 = Q0[c, :n_s].T, Q0[c, n_s]
             s = {"cols": c, "w0": w0}
-            store = per_obs[k]
+            store = run_store[k]
             if "contrast" in groups:
                 s["channels"] = opponent_channels(o.kind, o.deficiency, o.luminance_weights)
                 s["rms0"] = rms_without(q0, w0, s["channels"])
@@ -962,7 +1153,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
             for k, s in enumerate(setup):
                 c = s["cols"]
                 planes = [S[:, i, :] for i in c]
-                store = per_obs[k]
+                store = run_store[k]
                 if "contrast" in groups:
                     g = gains_from_planes(planes, white[:, c], s["w0"], s["rms0"], s["channels"], adaptation=a)
                     store["luminance_contrast_gain"][lo:hi] = g[:, 0]
@@ -1012,10 +1203,17 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
                         progress("filters", min(n_f, done * _CHUNK_FILTERS), n_f)
         # A filter that leaves some cone no light (a black filter) has no defined pair statistics.
         for k, s in enumerate(setup):
-            present = [c for i, c in enumerate(s["cols"]) if i != obs[k].missing_cone]
-            per_obs[k]["undefined"] = ~np.all(whites[:, present] > 0, axis=1)
+            present = [c for i, c in enumerate(s["cols"]) if i != run_obs[k].missing_cone]
+            run_store[k]["undefined"] = ~np.all(whites[:, present] > 0, axis=1)
     elif progress is not None:
         progress("filters", n_f, n_f)
+    if per_observer_groups and populations:
+        kwargs = dict(illuminant=ill, surfaces=surf, adaptation=a, grid=grid, weber_fraction=weber_fraction,
+                      cone_ratios=cone_ratios, discrimination_threshold=discrimination_threshold,
+                      distribution_thresholds=distribution_thresholds, normal_threshold=normal_threshold,
+                      deficient_threshold=deficient_threshold)
+        for k, pop in populations.items():
+            per_obs[k] = _population_scores(fs, pop, per_observer_groups, kwargs, progress)
 
     # -- colour rendition (colour-science, one call per filter) -----------------
     if "rendition" in groups:
@@ -1033,7 +1231,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
                 "distribution_thresholds": [float(t) for t in distribution_thresholds],
                 "normal_threshold": float(normal_threshold), "deficient_threshold": float(deficient_threshold),
                 "signal_limits": limits, "signal_limits_reading": reading}
-    card = Scorecard(fs, ill, surf, obs, a, groups, lights, results, per_obs, settings, inputs)
+    card = Scorecard(fs, ill, surf, obs, a, groups, lights, results, per_obs, settings, inputs, members=members)
     if sensitivity:
         card.sensitivity = _sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid)
     return card

@@ -32,7 +32,8 @@ class _LazyProgress:
                                 TimeRemainingColumn(), console=Console(stderr=True), transient=True)
             self.bar.start()
         if stage not in self.tasks:
-            label = {"filters": "scoring filters", "rendition": "colour rendition"}.get(stage, stage)
+            label = {"filters": "scoring filters", "rendition": "colour rendition",
+                     "members": "population members"}.get(stage, stage)
             self.tasks[stage] = self.bar.add_task(label, total=total)
         self.bar.update(self.tasks[stage], completed=done)
 
@@ -77,6 +78,8 @@ def register(app: typer.Typer) -> None:
         sensitivity: bool = typer.Option(False, "--sensitivity", help=(
             "Also show how each verdict changes when the Weber fraction, cone ratios, JND thresholds and "
             "signal-quotient limits vary over a documented range (docs/metrics.md).")),
+        members: bool = typer.Option(False, "--members", help=(
+            "With population observers (a spec plus n=N): also write every member's values (JSON only).")),
     ) -> None:
         """Score filters: photometry and road use, colour rendition, and for each observer the contrast
         gains and the surface pairs gained, lost, resolved or created.
@@ -84,6 +87,8 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter score larkhill-notch-575 "notch:center=540..600/10,fwhm=30,depth=0.8" --metrics core
 
         Example: cvdfilter score larkhill-notch-575 larkhill-rose-tint --metrics core --sensitivity
+
+        Example: cvdfilter score larkhill-notch-575 --observer deuteranomalous:n=200,seed=7 --metrics core
         """
         from ..errors import InputError
         from ..scorecard import DEFAULT_OBSERVERS, score
@@ -102,7 +107,7 @@ def register(app: typer.Typer) -> None:
                          surfaces=surfaces, adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
                          weber_fraction=weber_fraction, cone_ratios=ratios, discrimination_threshold=jnd_threshold,
                          normal_threshold=jnd_threshold, deficient_threshold=jnd_threshold,
-                         signal_limits=signal_limits, sensitivity=sensitivity, progress=progress)
+                         signal_limits=signal_limits, sensitivity=sensitivity, members=members, progress=progress)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)

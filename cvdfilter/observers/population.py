@@ -513,6 +513,24 @@ class Population:
         return self._compute(False)
 
     @property
+    def missing_cone(self) -> int | None:
+        """Index of the absent cone for dichromats (0 L, 1 M, 2 S), else None (as :class:`Observer`)."""
+        return self.centre.missing_cone
+
+    @property
+    def affected_cone(self) -> int | None:
+        return self.centre.affected_cone
+
+    @property
+    def label(self) -> str:
+        return self.spec
+
+    def members(self, start: int = 0, stop: int | None = None) -> list:
+        """Members ``start`` to ``stop`` as :class:`Observer` objects."""
+        stop = self.n if stop is None else min(stop, self.n)
+        return [self[i] for i in range(start, stop)]
+
+    @property
     def luminance(self) -> np.ndarray:
         """(n, n_wl): a L + b M per member."""
         a, b = self.luminance_weights
