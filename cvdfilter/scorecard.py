@@ -900,18 +900,16 @@ def _signal_lights(signal_spectra, grid, ybar):
 
 def _cone_basis(observers):
     """Unique cone-sensitivity columns (n_wl, K) and, per observer, the indices of its L, M, S columns."""
-    columns, index = [], []
+    columns, index, seen = [], [], {}
     for o in observers:
         idx = []
         for c in range(3):
-            col = o.fundamentals[:, c]
-            for k, u in enumerate(columns):
-                if u is col or np.array_equal(u, col):
-                    idx.append(k)
-                    break
-            else:
+            col = np.ascontiguousarray(o.fundamentals[:, c], dtype=float)
+            key = col.tobytes()  # equal bytes = equal columns (one dictionary look-up, not a scan)
+            if key not in seen:
+                seen[key] = len(columns)
                 columns.append(col)
-                idx.append(len(columns) - 1)
+            idx.append(seen[key])
         index.append(idx)
     return np.stack(columns, axis=1), index
 
