@@ -388,3 +388,26 @@ def test_inspect_observer_bad_population_is_one_line_exit_2():
     r = runner.invoke(app, ["inspect-observer", "normal:n=0"])
     assert r.exit_code == 2
     assert "n=0" in r.output and "Traceback" not in r.output
+
+
+@pytest.mark.parametrize("spec", ["protanope:n=4,seed=2", "deuteranope:n=4,seed=2", "tritanope:n=3,seed=2"])
+def test_dichromat_members_simulate_with_their_remaining_cones_unchanged(spec):
+    # Invariant (CONVENTIONS section 5): a dichromat simulation leaves the two remaining cone signals
+    # unchanged, here for every member (each with its own fundamentals and base).
+    from cvdfilter.observers.simulate import simulation
+
+    x = np.random.default_rng(4).uniform(0.05, 2, (100, 3))
+    for member in population(spec):
+        out = simulation(member).apply(x)
+        keep = list(member.cones_present)
+        assert np.array_equal(out[:, keep], x[:, keep])
+        assert np.allclose(simulation(member).apply(out), out, rtol=1e-12, atol=1e-12)
+
+
+def test_anomalous_members_simulate_continuously():
+    from cvdfilter.observers.simulate import simulation
+
+    for member in population("deuteranomalous:n=3,seed=2"):
+        s = simulation(member)
+        x = np.random.default_rng(4).uniform(0.05, 2, (50, 3))
+        assert np.all(np.isfinite(s.apply(x)))
