@@ -324,8 +324,9 @@ def _observer(spec: str, grid: Grid) -> Observer:
         allowed |= {"shift", "separation", "severity", "model"}
     unknown = set(params) - allowed
     if "n" in params:
-        raise InputError("n= makes a population, not one observer", source=spec,
-                         hint="use cvdfilter.population(spec) (see cvdfilter list observers)")
+        raise InputError("n= makes a population, and this takes single observers", source=spec,
+                         hint="populations go to 'cvdfilter score' and 'cvdfilter inspect-observer' "
+                              "(Python: cvdfilter.population(spec)); drop n= for one observer")
     if unknown:
         raise InputError(f"unknown parameter '{sorted(unknown)[0]}' for {name}", source=spec,
                          hint=f"allowed: {', '.join(sorted(allowed))}")
