@@ -534,6 +534,10 @@ class Scorecard:
             if any("population" in o for o in doc["observers"]):
                 lines += [_POPULATION_NOTE, ""]
             lines += _md_table(_observer_header(self.metrics), obs_rows) + [""]
+            helped = _helped_rows(doc)
+            if helped:
+                lines += ["### Share of population members helped (Wilson 95 % interval)", ""]
+                lines += _md_table(helped[0], helped[1]) + [""]
         if self.sensitivity is not None:
             lines += ["## Sensitivity", "", _SENSITIVITY_NOTE, ""]
             for f, rows in _sensitivity_rows(self.sensitivity):
@@ -560,6 +564,10 @@ class Scorecard:
                 rows = [_observer_row(f["name"], o, self.metrics, compact=True) for o in f["observers"]]
                 parts.append(_tables.text_table(_observer_header(self.metrics, compact=True), rows,
                                          f"Per observer: {f['name']} - costs: {_costs_text(f)}", width))
+            helped = _helped_rows(doc)
+            if helped:
+                parts.append(_tables.text_table(helped[0], helped[1],
+                                                "Share of population members helped (Wilson 95 % interval)", width))
         if self.sensitivity is not None:
             parts.append(textwrap.fill(_SENSITIVITY_NOTE, width=width) + "\n")
             for name, rows in _sensitivity_rows(self.sensitivity):
@@ -786,6 +794,34 @@ def _pick(v, stat: str):
             return v[stat]
         return {k: _pick(x, stat) for k, x in v.items()}
     return v
+
+
+_HELPED_LABELS = {"red_green_gain": "RG gain > 1", "blue_yellow_gain": "BY gain > 1",
+                  "discriminable_pairs_net": "discr. net > 0", "confusion_pairs_net": "confused net > 0",
+                  "median_delta_s_ratio": "dS ratio > 1"}
+
+
+def _helped_rows(doc: dict):
+    """(header, rows) of the shares helped, one row per filter x population; None without populations."""
+    rows, keys = [], []
+    for f in doc["filters"]:
+        for o in f["observers"]:
+            if "population" not in o:
+                continue
+            for k in o["helped"]:
+                if k not in keys:
+                    keys.append(k)
+            rows.append((f["name"], o))
+    if not rows:
+        return None
+
+    def cell(h):
+        if h is None or h["share"] is None:
+            return "-"
+        return f"{100 * h['share']:.0f} % ({100 * h['ci_low']:.0f}-{100 * h['ci_high']:.0f})"
+
+    header = ["filter", "population", *(_HELPED_LABELS.get(k, k) for k in keys)]
+    return header, [[name, o["observer"], *(cell(o["helped"].get(k)) for k in keys)] for name, o in rows]
 
 
 def _population_csv_entries(o: dict, statistics=_STATS) -> list:

@@ -166,5 +166,6 @@ def test_score_cli_with_a_population():
     assert len(o["members"]["red_green_gain"]) == 20
     r = runner.invoke(app, ["score", NOTCH, "--observer", "deuteranomalous:n=20,seed=7", "--metrics", "core"])
     assert r.exit_code == 0 and "median member" in r.stdout
+    assert "Share of population members helped (Wilson 95 % interval)" in r.stdout
     r = runner.invoke(app, ["score", NOTCH, "--observer", "normal:n=0", "--metrics", "core"])
     assert r.exit_code == 2 and "Traceback" not in r.output
