@@ -140,7 +140,7 @@ def _encode(linear, bits):
 def deutan_direction():
     """Linear-sRGB direction along which the model deuteranope's L and S stay fixed (M changes)."""
     from cvdfilter.observers.observer import observer
-    from cvdfilter.render import display_matrix
+    from cvdfilter.rendering import display_matrix
 
     d = display_matrix(observer("normal"))  # rgb @ d = adapted L, M, S of the normal base observer
     direction = np.linalg.solve(d.T, np.array([0.0, 1.0, 0.0]))  # changes M only

@@ -492,7 +492,7 @@ def test_sweep_plots_scorecard_values(every_kind):
 
 
 def test_swatches_are_the_renderers_colours(every_kind):
-    from cvdfilter.render import encode_srgb, render_spectra
+    from cvdfilter.rendering import encode_srgb, render_spectra
     from cvdfilter.spectra.surfaces import surface_set
 
     r = every_kind["swatches"]
@@ -532,7 +532,7 @@ def test_swatches_normal_view_matches_colour_science_srgb():
 
 
 def test_images_show_the_renderers_views(every_kind):
-    from cvdfilter.render import render_views
+    from cvdfilter.rendering import render_views
 
     r = every_kind["images"]
     views = render_views(_small_image(), filter="larkhill-notch-575", observer="deuteranope")

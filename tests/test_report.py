@@ -15,7 +15,7 @@ import pytest
 
 from cvdfilter.cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from cvdfilter.errors import InputError
-from cvdfilter.report import REFERENCES, SECTIONS, report, transmittance_sha256
+from cvdfilter.reporting import REFERENCES, SECTIONS, report, transmittance_sha256
 
 CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
                   "--disable-background-networking", "--disable-component-update", "--disable-sync",

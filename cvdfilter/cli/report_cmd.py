@@ -43,7 +43,7 @@ def register(app: typer.Typer) -> None:
             fail(InputError(f"cannot tell the report format from '{pathlib.Path(output).name}'", source=output,
                             hint="end the file name in .html or .md"))
         try:
-            from ..report import report as make_report
+            from ..reporting import report as make_report
 
             result = make_report(filters, illuminant=illuminant, observers=observer or None, surfaces=surfaces,
                                  adaptation=adaptation, metrics=metrics, style=style or None, output=output)

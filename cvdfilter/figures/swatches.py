@@ -2,7 +2,7 @@
 
 Rows: the normal observer without and with the filter, then the chosen
 observer without and with the filter, each surface's colour computed by the
-renderer's single-spectrum path (:func:`cvdfilter.render.render_spectra`:
+renderer's single-spectrum path (:func:`cvdfilter.rendering.render_spectra`:
 illuminant x reflectance x filter, the observer's cone excitations, von Kries
 adaptation, the simulation for a normal viewer, the display model) and
 encoded as sRGB. Colours outside the sRGB gamut are clipped channel by
@@ -43,7 +43,7 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
         view -> number of surfaces outside the gamut, ``labels``, ``filter``,
         ``observer``, ``illuminant``, ``surfaces``.
     """
-    from ..render import encode_srgb, render_spectra
+    from ..rendering import encode_srgb, render_spectra
 
     got = load_inputs(filters, illuminant=illuminant, observers=[observer], surfaces=surfaces)
     fs, obs, surf, ill = got["filters"], got["observers"][0], got["surfaces"], got["illuminant"]
