@@ -19,6 +19,7 @@ Public: :class:`Observer`, :func:`observer`, :func:`observer_forms`, :data:`DEFA
 from __future__ import annotations
 
 import functools
+import types
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -83,8 +84,8 @@ class Observer:
         The observer's luminous efficiency, a L + b M, shape (n_wl,).
     luminance_weights : tuple of float
         (a, b); (0, 1) for protanopes and (1, 0) for deuteranopes (no missing-cone input).
-    params : dict
-        age, field, data, shift (nm), severity, model.
+    params : Mapping
+        age, field, data, shift (nm), severity, model (read-only; the arrays are read-only too).
     base : Observer or None
         The normal observer this one derives from (same age and field).
     """
@@ -98,6 +99,15 @@ class Observer:
     params: dict = field(default_factory=dict)
     base: Observer | None = None
     grid: Grid = DEFAULT_GRID
+
+    def __post_init__(self) -> None:
+        # Observers are shared (spec strings are memoised), so nothing in one may change:
+        # own read-only copies of the arrays and a read-only view of the parameters.
+        for name in ("wavelengths", "fundamentals"):
+            a = np.array(getattr(self, name), dtype=float)
+            a.setflags(write=False)
+            object.__setattr__(self, name, a)
+        object.__setattr__(self, "params", types.MappingProxyType(dict(self.params)))
 
     @property
     def luminance(self) -> np.ndarray:
