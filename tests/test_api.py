@@ -99,3 +99,26 @@ def test_type_checker_sees_the_lazy_names(tmp_path):
     revealed = [line for line in out.splitlines() if "Revealed type" in line]
     assert len(revealed) == 2
     assert '"def (image:' in revealed[0] and "cvdfilter.reporting.Report" in revealed[1], out
+
+
+def test_the_24_patch_chart_has_a_neutral_name():
+    # The 24-patch chart set is named chart24; the product name of the physical chart appears nowhere in
+    # the interface, docs or outputs, only as colour-science's own dataset key (needed to load the data).
+    from typer.testing import CliRunner
+
+    from cvdfilter.cli.app import app
+    from cvdfilter.spectra.surfaces import SURFACE_SETS, surface_set
+
+    old = "color" + "checker"
+    assert "chart24" in SURFACE_SETS and len(surface_set("chart24")) == 24
+    assert "Ohta" in SURFACE_SETS["chart24"]  # whose measurements they are
+    root = PACKAGE.parent
+    files = [p for p in root.glob("**/*") if p.is_file() and p.suffix in (".py", ".md", ".sh", ".toml", ".json",
+                                                                           ".pyi", ".csv")
+             and not any(part.startswith(".") or part in ("build", "demo-output") for part in p.relative_to(root).parts)]
+    for path in files:
+        for line in path.read_text(errors="replace").splitlines():
+            if old in line.lower():
+                assert "SDS_COLOURCHECKERS[" in line, f"{path.relative_to(root)}: {line.strip()}"
+    out = CliRunner().invoke(app, ["list", "surfaces", "--format", "json"]).stdout
+    assert old not in out.lower() and "chart24" in out

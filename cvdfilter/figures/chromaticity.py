@@ -59,7 +59,7 @@ def _project(space: str, obs, lms, matrix=None) -> np.ndarray:
         return xyz[..., :2] / xyz.sum(axis=-1, keepdims=True)
 
 
-def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surfaces="colorchecker",
+def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surfaces="chart24",
                       adaptation="full", space: str = "mb") -> dict:
     """The numbers the chromaticity figure plots.
 
@@ -169,7 +169,7 @@ def _draw_fan(ax, copunctal, directions, length, gid):
                 linestyle=(0, (3, 2)), zorder=1, gid=f"{gid}-{k}")
 
 
-def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="colorchecker",
+def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="chart24",
                         adaptation="full", space: str = "mb", style: Style | None = None, width_mm: float = 89.0,
                         height_mm: float | None = None, title: str | None = None,
                         caveat: str | None = None) -> FigureResult:
@@ -183,7 +183,7 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         Exactly one observer (default deuteranope); its fundamentals define the
         space and its deficiency the confusion lines.
     surfaces : str
-        Surface set (default the 24-patch ColorChecker, readable as arrows).
+        Surface set (default the 24-patch chart set chart24, readable as arrows).
     space : str
         ``mb``, ``xy`` or ``xy2015`` (:data:`SPACES`).
 
