@@ -49,6 +49,9 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
     fs, obs, surf, ill = got["filters"], got["observers"][0], got["surfaces"], got["illuminant"]
     if len(fs) != 1:
         raise InputError(f"{len(fs)} filters: the swatches figure shows one filter", hint="one figure per filter")
+    from .chromaticity import check_adaptable
+
+    check_adaptable(fs, illuminant=ill, observer=obs, adaptation=adaptation)
     views = [v for v, _ in SWATCH_ROWS]
     linear, srgb8, clipped = {}, {}, {}
     for v in views:
