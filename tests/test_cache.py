@@ -241,3 +241,20 @@ def test_old_key_folders_are_evicted_and_foreign_files_kept(monkeypatch, tmp_pat
 def test_cache_command_bad_action():
     r = runner.invoke(app, ["cache", "purge"])
     assert r.exit_code == 2 and "info or clear" in r.output
+
+
+def test_observers_pickle_for_worker_processes():
+    # render --jobs sends observers to worker processes: read-only parameters must still pickle.
+    import copy
+    import pickle
+
+    import cvdfilter as cf
+
+    obs = cf.observer("deuteranomalous:shift=8")
+    back = pickle.loads(pickle.dumps(obs))
+    assert back.params == obs.params and back.spec == obs.spec
+    np.testing.assert_array_equal(back.fundamentals, obs.fundamentals)
+    with pytest.raises(TypeError):
+        back.params["shift"] = 2
+    assert copy.deepcopy(obs).params == obs.params
+    assert json.loads(json.dumps(obs.params)) == dict(obs.params)

@@ -19,7 +19,6 @@ Public: :class:`Observer`, :func:`observer`, :func:`observer_forms`, :data:`DEFA
 from __future__ import annotations
 
 import functools
-import types
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -60,6 +59,19 @@ _NAMES = {
 _CONE = {"protan": 0, "deutan": 1, "tritan": 2}
 # The pigment each anomalous pigment moves toward.
 _TOWARD = {"protan": 1, "deutan": 0, "tritan": 1}
+
+
+class ReadOnlyDict(dict):
+    """A dict that cannot be changed after construction (it still pickles and serialises to JSON)."""
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("an observer's parameters are read-only; build a new observer instead")
+
+    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _refuse  # type: ignore[assignment]
+    __ior__ = _refuse  # type: ignore[assignment]
+
+    def __reduce__(self):
+        return (type(self), (dict(self),))
 
 
 @dataclass(frozen=True, eq=False)
@@ -107,7 +119,7 @@ class Observer:
             a = np.array(getattr(self, name), dtype=float)
             a.setflags(write=False)
             object.__setattr__(self, name, a)
-        object.__setattr__(self, "params", types.MappingProxyType(dict(self.params)))
+        object.__setattr__(self, "params", ReadOnlyDict(self.params))
 
     @property
     def luminance(self) -> np.ndarray:
