@@ -113,9 +113,10 @@ def test_the_24_patch_chart_has_a_neutral_name():
     assert "chart24" in SURFACE_SETS and len(surface_set("chart24")) == 24
     assert "Ohta" in SURFACE_SETS["chart24"]  # whose measurements they are
     root = PACKAGE.parent
-    files = [p for p in root.glob("**/*") if p.is_file() and p.suffix in (".py", ".md", ".sh", ".toml", ".json",
-                                                                           ".pyi", ".csv")
-             and not any(part.startswith(".") or part in ("build", "demo-output") for part in p.relative_to(root).parts)]
+    suffixes = (".py", ".md", ".sh", ".toml", ".json", ".pyi", ".csv")
+    skip = ("build", "demo-output")
+    files = [p for p in root.glob("**/*") if p.is_file() and p.suffix in suffixes
+             and not any(part.startswith(".") or part in skip for part in p.relative_to(root).parts)]
     for path in files:
         for line in path.read_text(errors="replace").splitlines():
             if old in line.lower():

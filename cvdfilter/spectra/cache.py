@@ -42,7 +42,6 @@ import json
 import os
 import pathlib
 import re
-import shutil
 import sys
 import threading
 from collections.abc import Callable
