@@ -258,3 +258,10 @@ def test_observers_pickle_for_worker_processes():
         back.params["shift"] = 2
     assert copy.deepcopy(obs).params == obs.params
     assert json.loads(json.dumps(obs.params)) == dict(obs.params)
+
+
+def test_grid_wavelengths_are_read_only():
+    from cvdfilter.spectra.grid import DEFAULT_GRID
+
+    with pytest.raises(ValueError):
+        DEFAULT_GRID.wavelengths[0] = 0.0

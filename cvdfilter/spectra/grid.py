@@ -52,9 +52,11 @@ class Grid:
 
     @cached_property
     def wavelengths(self) -> np.ndarray:
-        """Wavelengths in nm, shape (n_wl,)."""
+        """Wavelengths in nm, shape (n_wl,); read-only (one array shared by every user of the grid)."""
         n = int(round((self.end - self.start) / self.step)) + 1
-        return np.round(self.start + self.step * np.arange(n), 6)
+        wl = np.round(self.start + self.step * np.arange(n), 6)
+        wl.setflags(write=False)
+        return wl
 
     @property
     def size(self) -> int:
