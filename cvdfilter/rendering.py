@@ -22,9 +22,13 @@ The pipeline, per pixel
    geometrically).
 6. **Simulation for a normal viewer**
    (:func:`cvdfilter.observers.simulate.simulation`): identity for normal
-   observers, Brettel 1997 (default) or Vienot 1999 for dichromats, the
-   Machado 2009 mapping for anomalous trichromats. Its reference white is the
-   illuminant. Output: the normal base observer's adapted L, M, S.
+   observers; for dichromats Brettel's half-planes with the neutral axis at
+   the scene's white (``brettel-adapted``, default) or any other method by
+   name (``brettel1997`` as published, ``vienot1999``, ``brettel-plane``); the
+   Machado 2009 mapping for anomalous trichromats with the cone-level
+   normalisation (default) or Machado's opponent one. Its reference white is
+   the scene's white (the illuminant). Output: the normal base observer's
+   adapted L, M, S.
 7. **Display**: adapted L, M, S to linear sRGB through the *display model*
    below, then out-of-gamut handling and sRGB encoding.
 
@@ -79,6 +83,7 @@ from .spectra.cache import cached_arrays
 from .spectra.grid import DEFAULT_GRID, Grid
 
 __all__ = ["render", "render_views", "render_spectra", "render_file", "Renderer", "ViewTransform", "mallett_basis",
+           "render_method", "RENDER_METHODS",
            "display_matrix", "decode_srgb", "encode_srgb", "panel", "panel_titles", "output_suffix", "output_dtype",
            "VIEWS", "VIEW_TITLES", "GAMUT_MODES", "OUTPUT_FORMATS", "TILE_PIXELS"]
 
@@ -270,6 +275,19 @@ def display_matrix(normal, grid: Grid = DEFAULT_GRID) -> np.ndarray:
 
 # --- views -----------------------------------------------------------------------------
 
+#: The simulation each kind of observer gets when rendering, unless ``method`` says otherwise.
+#: Dichromats: Brettel's half-planes with the neutral axis at the scene's (adapting) white, so that
+#: after von Kries adaptation a white stays white for the dichromat as for the normal observer;
+#: the paper's own neutral axis (``brettel1997``, the equal-energy stimulus) tints an adapted D65
+#: white by 0.5-5 CIEDE2000 and an illuminant-A white by about 20 (docs/models.md, section 5).
+RENDER_METHODS = {"normal": "identity", "dichromat": "brettel-adapted", "anomalous": "machado2009"}
+
+
+def render_method(obs, method: str | None = None) -> str:
+    """The simulation method a rendering uses for ``obs``: ``method`` if given, else :data:`RENDER_METHODS`."""
+    return RENDER_METHODS[obs.kind] if method is None else method
+
+
 @dataclass(frozen=True, eq=False)
 class ViewTransform:
     """Everything one view needs, folded.
@@ -350,14 +368,19 @@ class Renderer:
     adaptation : str or float
         ``full``, ``none`` or a fraction 0-1: how far the observer adapts to the filter.
     method : str, optional
-        Simulation method for the observer (``brettel1997``, ``vienot1999``, ``machado2009``).
+        Simulation method for the observer (see
+        :data:`cvdfilter.observers.simulate.METHOD_DESCRIPTIONS`); None: :data:`RENDER_METHODS`
+        (``brettel-adapted`` for dichromats). ``vienot1999`` takes the scene's stimuli for
+        R, G and B (the display, or the reflectance basis under the illuminant) as its primaries.
+    normalisation : str
+        Anomalous observers: ``cone`` (default, continuous in every parameter) or ``opponent``.
     gamut : str
         ``clip`` (default) or ``none`` (float output only keeps out-of-gamut values).
     grid : Grid
     """
 
     def __init__(self, filter=None, *, observer="normal", illuminant="D65", adaptation="full",
-                 method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
+                 method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
                  gamut: str = "clip", grid: Grid = DEFAULT_GRID) -> None:
         from .observers.observer import observer as make_observer
         from .observers.spaces import parse_adaptation
@@ -400,9 +423,9 @@ class Renderer:
         key = obs.spec
         if key not in self._sims:
             mine = obs is self.observer
-            self._sims[key] = simulation(obs, method=self.method if mine else None,
-                                         normalisation=self.normalisation if mine else "auto",
-                                         reference_white=self.scene_white)
+            self._sims[key] = simulation(obs, method=render_method(obs, self.method if mine else None),
+                                         normalisation=self.normalisation if mine else "cone",
+                                         reference_white=self.scene_white, primaries=self.stimuli)
         return self._sims[key]
 
     def transform(self, view: str) -> ViewTransform:
@@ -784,7 +807,7 @@ def _as_input(image, *, cube_kind, wavelengths, max_megapixels):
 
 
 def render(image, *, filter, observer="normal", illuminant="D65", adaptation="full", view: str = "observer-filtered",
-           method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
+           method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
            gamut: str = "clip", encoding: str = "auto", dtype=None,
            grid: Grid = DEFAULT_GRID, cube_kind: str | None = None, wavelengths=None,
            max_megapixels: float | None = None) -> np.ndarray:
@@ -807,7 +830,7 @@ def render(image, *, filter, observer="normal", illuminant="D65", adaptation="fu
     view : str
         ``original``, ``filtered``, ``observer`` or ``observer-filtered``.
     method : str, optional
-        Simulation method for dichromats (``brettel1997``, ``vienot1999``).
+        Simulation method (see :class:`Renderer`; default ``brettel-adapted`` for dichromats).
     normalisation : str
         Machado 2009 observers: ``cone`` (von Kries at the cones, default) or
         ``opponent`` (Machado's per-opponent-channel gains); see
@@ -862,7 +885,7 @@ def _render_one(r: Renderer, image, view, *, encoding, dtype, cube_kind, wavelen
 
 
 def render_views(image, *, filter, observer="normal", illuminant="D65", adaptation="full", views=VIEWS,
-                 method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
+                 method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
                  gamut: str = "clip", encoding: str = "auto", dtype=None,
                  grid: Grid = DEFAULT_GRID, cube_kind: str | None = None, wavelengths=None,
                  max_megapixels: float | None = None) -> dict:
@@ -898,7 +921,7 @@ def render_views(image, *, filter, observer="normal", illuminant="D65", adaptati
 
 def render_spectra(spectra, *, filter, observer="normal", illuminant="D65", adaptation="full",
                    view: str = "observer-filtered", kind: str = "reflectance", method: str | None = None,
-                   normalisation: str = "auto", grid: Grid = DEFAULT_GRID) -> np.ndarray:
+                   normalisation: str = "cone", grid: Grid = DEFAULT_GRID) -> np.ndarray:
     """Linear sRGB of spectra on the grid, step by step (no folding, no clipping).
 
     The single-spectrum path, computed from the observer's cone excitations,
@@ -940,8 +963,9 @@ def render_spectra(spectra, *, filter, observer="normal", illuminant="D65", adap
     lms = who.cone_excitations(radiance)
     gains = von_kries_gains(who.cone_excitations(e * t), who.cone_excitations(e),
                             adaptation=parse_adaptation(adaptation))
-    seen = simulate(lms * gains, who, method=method if who is obs else None,
-                    normalisation=normalisation if who is obs else "auto", reference_white=e)
+    seen = simulate(lms * gains, who, method=render_method(who, method if who is obs else None),
+                    normalisation=normalisation if who is obs else "cone", reference_white=e,
+                    primaries=mallett_basis(grid) * e[:, None])
     return np.linalg.solve(display_matrix(normal, grid).T, seen.reshape(-1, 3).T).T.reshape(seen.shape)
 
 

@@ -53,7 +53,7 @@ def test_csv_markdown_and_output_file(tmp_path):
     assert r.stdout == "" and "wrote" in r.stderr
     rows = list(csv.DictReader(io.StringIO(out.read_text())))
     assert len(rows) == 4 * 5  # 4 swept filters x 5 default observers
-    assert {row["observer"] for row in rows} == {"normal", "protanomalous:shift=16", "deuteranomalous:shift=16",
+    assert {row["observer"] for row in rows} == {"normal", "protanomalous:separation=10", "deuteranomalous:separation=6",
                                                  "protanope", "deuteranope"}
     assert rows[0]["caveat"] == CAVEAT
     md = run("larkhill-notch-575", "--metrics", "core", "--format", "markdown")

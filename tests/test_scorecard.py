@@ -41,7 +41,7 @@ def test_json_schema_keys(card):
     assert d["illuminant"]["name"] == "D65" and d["surfaces"]["name"] == "ces99" and d["surfaces"]["count"] == 99
     assert d["adaptation"]["spec"] == "full" and d["adaptation"]["degree"] == 1.0
     assert [o["observer"] for o in d["observers"]] == [
-        "normal", "protanomalous:shift=16", "deuteranomalous:shift=16", "protanope", "deuteranope"]
+        "normal", "protanomalous:separation=10", "deuteranomalous:separation=6", "protanope", "deuteranope"]
     for f in d["filters"]:
         assert FILTER_KEYS <= set(f)
         assert ROAD_KEYS <= set(f["road_use"])

@@ -146,10 +146,13 @@ def register(app: typer.Typer) -> None:
                                    help="auto, png, png8, png16, tiff, tiff8, tiff16, tiff-float or jpeg "
                                         "(auto: the input's container and bit depth; JPEG and cubes give PNG)."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a fraction 0-1."),
-        method: Optional[str] = typer.Option(None, "--method", help="Dichromat simulation: brettel1997 or vienot1999."),
-        normalisation: str = typer.Option("auto", "--normalisation",
-                                          help="Anomalous observers (Machado 2009 mapping): auto (opponent where "
-                                               "well-conditioned, else cone), cone (von Kries) or opponent."),
+        method: Optional[str] = typer.Option(None, "--method",
+                                             help="Dichromat simulation: brettel-adapted (default: neutral axis at "
+                                                  "the scene's white), brettel1997 (as published), vienot1999 or "
+                                                  "brettel-plane; see 'cvdfilter list methods'."),
+        normalisation: str = typer.Option("cone", "--normalisation",
+                                          help="Anomalous observers (Machado 2009 mapping): cone (von Kries; "
+                                               "default, continuous) or opponent (Machado's channel gains)."),
         scene: str = typer.Option("reflectance", "--scene",
                                   help="reflectance (surfaces under the illuminant) or display[:PRIMARIES] "
                                        "(light from a display)."),
