@@ -762,7 +762,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     observers : sequence of str or Observer
         Observer specs; default :data:`DEFAULT_OBSERVERS`.
     surfaces : str or SurfaceSet
-        ``ces99`` (default), ``colorchecker``, ``tcs14``, ``vs15`` or a reflectance file.
+        ``ces99`` (default), ``chart24``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
         ``full`` (default: von Kries adaptation to the filtered light),
         ``none`` (adapted to the unfiltered light) or a degree 0-1.

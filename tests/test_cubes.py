@@ -10,7 +10,7 @@ import pytest
 
 from cvdfilter.errors import InputError
 from cvdfilter.io.cubes import Cube, parse_wavelengths, read_cube, tiff_has_wavelengths
-from cvdfilter.render import Renderer, encode_srgb, render, render_spectra, render_views
+from cvdfilter.rendering import Renderer, encode_srgb, render, render_spectra, render_views
 
 TEST_IMAGES = pathlib.Path(__file__).resolve().parent.parent / "test_images"
 WL = np.arange(400.0, 701.0, 10.0)  # 31 bands, a common camera sampling

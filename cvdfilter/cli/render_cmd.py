@@ -1,6 +1,6 @@
 """``cvdfilter render``: images and spectral cubes before and after a filter, for any observer.
 
-A thin shell over :func:`cvdfilter.render.render_file`: expands directories
+A thin shell over :func:`cvdfilter.rendering.render_file`: expands directories
 and globs, plans the output names, skips finished inputs (resumable), runs the
 inputs in worker processes with a progress bar, and summarises failures.
 Exit status: 0 all done, 1 some inputs failed (the others are still
@@ -35,7 +35,7 @@ def _init_worker(renderer, options) -> None:
 def _task(job: dict) -> dict:
     """Render one input in a worker; never raises (failures come back as records)."""
     from ..errors import InputError
-    from ..render import render_file
+    from ..rendering import render_file
 
     start = time.perf_counter()
     try:
@@ -103,7 +103,7 @@ def _expand(items: List[str], out_dir: pathlib.Path) -> list[tuple[pathlib.Path,
 
 def _plan(files, out_dir: pathlib.Path, views, fmt: str, panel: bool) -> list[dict]:
     """Output names: OUT/[subdir/]STEM.VIEW.EXT and OUT/[subdir/]STEM.panel.png; clashing stems get the suffix."""
-    from ..render import output_suffix
+    from ..rendering import output_suffix
 
     stems = []
     for f, base in files:
@@ -175,7 +175,7 @@ def register(app: typer.Typer) -> None:
         from ..io.atomic import check_outputs, write_text
         from ..io.cubes import CUBE_KINDS, parse_wavelengths
         from ..io.images import DEFAULT_MAX_MEGAPIXELS, set_pixel_limit
-        from ..render import OUTPUT_FORMATS, VIEWS, Renderer
+        from ..rendering import OUTPUT_FORMATS, VIEWS, Renderer
         from .common import to_json
 
         views = [v.strip().lower() for v in (view or VIEWS)]
