@@ -64,10 +64,11 @@ def test_render_folder_with_panels(stimuli, tmp_path):
     assert read_image(out / "sub/cube.observer.png").pixels.shape == (96, 96, 3)
     assert np.array_equal(read_image(out / "tabletop.original.png").pixels, read_image(stimuli / "tabletop.png").pixels)
     manifest = json.loads((out / "render-manifest.json").read_text())
-    assert {"tool", "version", "caveat", "settings", "items"} <= manifest.keys()
-    assert manifest["settings"]["observer"] == "deuteranope" and manifest["rendered"] == 6
+    assert {"tool", "version", "caveat", "runs", "items"} <= manifest.keys()
+    assert manifest["runs"][-1]["settings"]["observer"] == "deuteranope" and manifest["rendered"] == 6
     item = next(i for i in manifest["items"] if i["input"].endswith("tabletop.png"))
-    assert set(item["clipped_pixels"]) == set(VIEWS)
+    assert set(item["clipped_pixels"]) == set(VIEWS) and set(item["fingerprints"]) == {*VIEWS, "panel"}
+    assert item["run"] == manifest["runs"][-1]["id"] and len(item["input_sha256"]) == 64
     # the settings and the caveat travel inside each image
     from PIL import Image
 
