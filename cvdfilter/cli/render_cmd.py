@@ -386,8 +386,10 @@ def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, job
         fail(exc)
     clipped = sum(sum(r["clipped_pixels"].values()) for r in done)
     pixels = sum(r["width"] * r["height"] * len(r["clipped_pixels"]) for r in done)
+    written = sum(len(r["outputs"]) + (1 if r.get("panel") else 0) for r in done)
+    kept = sum(len(j.get("kept", {})) for j in [*todo, *done_before])
     msg = (f"rendered {len(done)}, skipped {len(skipped)} (outputs exist with these settings), "
-           f"failed {len(failed)}; outputs in {out_dir}")
+           f"failed {len(failed)}; {written} file(s) written, {kept} kept; outputs in {out_dir}")
     typer.echo(msg, err=True)
     if done and pixels:
         share = f" ({100 * clipped / pixels:.2f} % of rendered pixels)"
@@ -582,9 +584,10 @@ def _run(todo: list, renderer, options: dict, jobs: int, quiet: bool) -> list:
             except KeyboardInterrupt:
                 why = "interrupted"
             finally:
+                workers = list((getattr(pool, "_processes", None) or {}).values())
                 pool.shutdown(wait=why is None, cancel_futures=True)
                 if why is not None:
-                    for proc in list(getattr(pool, "_processes", {}).values()):  # stop workers still busy
+                    for proc in workers:  # stop workers still busy: their results would not be recorded
                         if proc.is_alive():
                             proc.kill()
             for j in todo:
