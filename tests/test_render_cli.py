@@ -187,7 +187,8 @@ def _manifest(out):
 
 def _one_line_error(r):
     lines = r.stderr.strip().splitlines()
-    return r.returncode == 2 and len(lines) == 1 and lines[0].startswith("cvdfilter: error:") and "Traceback" not in r.stderr
+    return (r.returncode == 2 and len(lines) == 1 and lines[0].startswith("cvdfilter: error:")
+            and "Traceback" not in r.stderr)
 
 
 def test_rerun_with_other_settings_is_refused(stimuli, tmp_path):
@@ -466,3 +467,73 @@ def test_workers_die_with_their_parent(stimuli, tmp_path):
 
     _wait_for(lambda: all(dead(pid) for pid in workers), None, 30.0)  # without the fix they run on for 60 s
     assert not out.exists() or not list(out.glob("slow*.png"))
+
+
+# --- outputs that cannot be written, for every command that writes -------------------------------------
+
+_WRITERS = {
+    "score": (["score", "larkhill-notch-575"], ".json"),
+    "figure": (["figure", "spectrum", "larkhill-notch-575"], ".png"),
+    "report": (["report", "larkhill-notch-575"], ".md"),
+    "inspect": (["inspect", "larkhill-notch-575"], ".json"),
+    "inspect-observer": (["inspect-observer", "deuteranope"], ".json"),
+}
+
+
+@pytest.mark.parametrize("case", ["virtual-fs", "parent-is-a-file", "existing-directory"])
+@pytest.mark.parametrize("command", sorted(_WRITERS))
+def test_unwritable_output_is_one_line_for_every_command(tmp_path, command, case):
+    args, ext = _WRITERS[command]
+    (tmp_path / "afile").write_text("x")
+    target = {"virtual-fs": pathlib.Path(f"/proc/cvdfilter-out{ext}"),  # procfs: no new files, even for root
+              "parent-is-a-file": tmp_path / "afile" / f"out{ext}",
+              "existing-directory": tmp_path / f"out{ext}"}[case]
+    if case == "existing-directory":
+        target.mkdir()
+    r = subprocess.run([sys.executable, "-m", "cvdfilter", *args, "-o", str(target)], capture_output=True,
+                       text=True)
+    assert _one_line_error(r), r.stderr
+    assert str(target) in r.stderr or str(target.parent) in r.stderr
+    assert [p.name for p in tmp_path.iterdir()] in (["afile"], ["afile", target.name], [target.name, "afile"])
+    assert not [p for p in tmp_path.rglob("*") if ".cvdfilter-" in p.name]
+
+
+@pytest.mark.parametrize("case", ["virtual-fs", "parent-is-a-file", "a-file"])
+def test_render_unwritable_out_folder(stimuli, tmp_path, case):
+    (tmp_path / "afile").write_text("x")
+    out = {"virtual-fs": "/proc/cvdfilter-rendered", "parent-is-a-file": tmp_path / "afile" / "o",
+           "a-file": tmp_path / "afile"}[case]
+    r = run_here(stimuli / "tabletop.png", "--filter", "nd:t=0.5", "--out", out)
+    assert _one_line_error(r), r.stderr
+
+
+def test_named_pipe_input_is_refused_without_waiting(tmp_path):
+    import os
+
+    os.mkfifo(tmp_path / "pipe.png")
+    r = subprocess.run([sys.executable, "-m", "cvdfilter", "render", str(tmp_path / "pipe.png"), "--filter",
+                        "nd:t=0.5", "--out", str(tmp_path / "o")], capture_output=True, text=True, timeout=120)
+    assert _one_line_error(r) and "not a regular file" in r.stderr
+
+
+def test_nan_pixel_in_a_cube_fails_the_input_not_black(stimuli, tmp_path):
+    cube = np.load(TEST_IMAGES / "tabletop_cube.npz")
+    data = cube["cube"].copy()
+    data[50, 61, 7] = np.nan
+    np.savez_compressed(stimuli / "nan.npz", cube=data, wavelengths=cube["wavelengths"])
+    r = run(stimuli / "nan.npz", "--filter", "nd:t=0.5", "--out", tmp_path / "o")
+    assert r.returncode == 1 and "nan.npz: cube holds 1 NaN or infinite value" in r.stderr
+    assert not list((tmp_path / "o").glob("nan.*"))
+
+
+def test_render_in_process_changes_no_global_setting(stimuli, tmp_path):
+    """No BLAS environment variables and no Pillow pixel limit are set by a render call."""
+    import os
+
+    from PIL import Image
+
+    env_before, limit_before = dict(os.environ), Image.MAX_IMAGE_PIXELS
+    r = run_here(stimuli / "sub" / "dots.jpg", "--filter", "nd:t=0.5", "--view", "observer", "--out",
+                 tmp_path / "o", "--max-megapixels", "500")
+    assert r.returncode == 0, r.stderr
+    assert dict(os.environ) == env_before and Image.MAX_IMAGE_PIXELS == limit_before
