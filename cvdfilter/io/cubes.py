@@ -167,28 +167,30 @@ def tiff_is_cube(path, *, wavelengths_given: bool = False) -> bool:
         return True
     if not wavelengths_given:
         return False
-    try:
-        import tifffile
+    import tifffile
 
+    try:
         with tifffile.TiffFile(path) as tif:
             series = tif.series[0]
             return any(ax not in "YX" and n > 4 for ax, n in zip(series.axes, series.shape))
-    except Exception:  # not a readable TIFF: the image reader will say why
-        return False
+    except (tifffile.TiffFileError, OSError, ValueError, EOFError, KeyError, IndexError):
+        return False  # not a readable TIFF: the image reader will say why
 
 
 def tiff_has_wavelengths(path) -> bool:
     """True if a TIFF carries a ``wavelengths`` list in its JSON metadata (a cube), read from the header only."""
-    try:
-        import tifffile
+    import tifffile
 
+    if not pathlib.Path(path).is_file():  # never open a pipe or device
+        return False
+    try:
         with tifffile.TiffFile(path) as tif:
             if tif.shaped_metadata:
                 return "wavelengths" in tif.shaped_metadata[0]
             desc = tif.pages[0].description
             return desc.lstrip().startswith("{") and "wavelengths" in json.loads(desc)
-    except Exception:  # not a readable TIFF: the image reader will say why
-        return False
+    except (tifffile.TiffFileError, OSError, ValueError, EOFError, KeyError, IndexError, TypeError):
+        return False  # not a readable TIFF (or its description is not our JSON): the image reader will say why
 
 
 def _sidecar(p: pathlib.Path) -> tuple[np.ndarray | None, str | None, str | None]:
