@@ -252,7 +252,8 @@ def test_rerun_merges_and_keeps_earlier_records(stimuli, tmp_path):
     items = {pathlib.Path(i["input"]).name: i for i in m["items"]}
     assert set(items) == {"tabletop.png", "gradient_grey.png"} and m["rendered"] == 2
     # the skipped input keeps its record, with the run that made it and its clipped-pixel counts
-    assert items["tabletop.png"]["run"] == m["runs"][0]["id"] or items["tabletop.png"]["outputs"]
+    assert items["tabletop.png"]["run"] == m["runs"][0]["id"]
+    assert items["gradient_grey.png"]["run"] == m["runs"][1]["id"]
     assert set(items["tabletop.png"]["clipped_pixels"]) == {"observer"}
     assert items["tabletop.png"]["width"] == read_image(stimuli / "tabletop.png").pixels.shape[1]
     # other settings into the same folder, other output names: both kept, each with its own settings
@@ -267,7 +268,8 @@ def test_rerun_merges_and_keeps_earlier_records(stimuli, tmp_path):
     assert r.returncode == 0 and "skipped 2" in r.stderr
     m = _manifest(out)
     assert sorted(pathlib.Path(i["input"]).name for i in m["items"]) == ["gradient_grey.png", "tabletop.png"]
-    assert all(i["outputs"]["observer"] and i["fingerprints"]["observer"] for i in m["items"])
+    assert all(i["outputs"]["observer"] and i["fingerprints"]["observer"] and "rebuilt" in i["note"]
+               for i in m["items"])
 
 
 def test_two_renders_into_one_folder_keep_both_records(stimuli, tmp_path):

@@ -376,7 +376,8 @@ def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, job
     for r in records:
         j = by_input[r["input"]]
         items.append(_item(r, j, run_id, settings_fp))
-    skipped = [_item({"input": j["input"], "status": "rendered"}, j, run_id, settings_fp) for j in done_before]
+    skipped = [{**_item({"input": j["input"], "status": "rendered"}, j, None, settings_fp), "skipped": True}
+               for j in done_before]
     run = {"id": run_id, "started": started, "finished": _now(), "inputs": list(inputs), "settings": settings,
            "settings_fingerprint": settings_fp, "rendered": len(done), "skipped": len(skipped),
            "failed": len(failed), "force": force}
@@ -504,7 +505,15 @@ def _update_manifest(out_dir: pathlib.Path, run: dict, items: list, all_inputs: 
         for it in items:
             key = (it["input"], it["settings_fingerprint"])
             prev = merged.get(key)
-            if prev is not None and it["status"] != "rendered":
+            if it.pop("skipped", False):  # nothing done this run: keep the record of the run that made the files
+                if prev is not None and prev.get("status") == "rendered":
+                    it = {**prev, "outputs": {**it["outputs"], **prev.get("outputs", {})},
+                          "fingerprints": {**it["fingerprints"], **prev.get("fingerprints", {})},
+                          "clipped_pixels": {**it["clipped_pixels"], **prev.get("clipped_pixels", {})},
+                          "panel": prev.get("panel") or it["panel"]}
+                else:
+                    it["note"] = "record rebuilt from the files' own metadata (the run that made them is not known)"
+            elif prev is not None and it["status"] != "rendered":
                 # a failure keeps the outputs an earlier run of the same settings made
                 it = {**it, "outputs": {**prev.get("outputs", {}), **it["outputs"]},
                       "fingerprints": {**prev.get("fingerprints", {}), **it["fingerprints"]},
