@@ -1184,6 +1184,8 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
     fps = dict(fingerprints or {})
     record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
               "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
+    if input_sha256 is not None:
+        record["input_sha256"] = input_sha256
 
     def stamp(key: str) -> dict:
         extra = {"fingerprint": fps[key]} if key in fps else {}

@@ -74,8 +74,15 @@ def _task(job: dict) -> dict:
         os._exit(1)
     start = time.perf_counter()
     try:
+        sha, fps = job["input_sha256"], job["fingerprints"]
+        if sha is None:
+            from ..render import file_checksum, output_fingerprint
+
+            sha = file_checksum(job["input"])
+            keys = [*job["outputs"], *(["panel"] if job["panel"] else [])]
+            fps = {k: output_fingerprint(job["settings_fp"], sha, k) for k in keys}
         rec = render_file(job["input"], _WORKER["renderer"], outputs=job["outputs"], panel_path=job["panel"],
-                          fingerprints=job["fingerprints"], input_sha256=job["input_sha256"], **_WORKER["options"])
+                          fingerprints=fps, input_sha256=sha, **_WORKER["options"])
         rec["status"] = "rendered"
     except InputError as exc:
         rec = {"input": job["input"], "status": "failed", "error": " ".join(str(exc).split())}
@@ -211,15 +218,19 @@ def _existing_state(plan: list, settings_fp: str, force: bool) -> tuple[list, li
 
     todo, nothing_to_do, conflicts = [], [], []
     for j in plan:
-        try:
-            sha = file_checksum(j["input"])
-        except InputError as exc:
-            todo.append({**j, "input_sha256": None, "fingerprints": {}, "unreadable": str(exc),
-                         "outputs_all": j["outputs"], "panel_path_all": j["panel"]})
-            continue
         wanted = dict(j["outputs"])
         if j["panel"]:
             wanted["panel"] = j["panel"]
+        base = {**j, "outputs_all": j["outputs"], "panel_path_all": j["panel"], "settings_fp": settings_fp}
+        if not any(pathlib.Path(o).exists() or pathlib.Path(o).is_symlink() for o in wanted.values()):
+            # nothing to compare: the worker hashes the input (in parallel) and fingerprints the outputs
+            todo.append({**base, "input_sha256": None, "fingerprints": None, "kept": {}})
+            continue
+        try:
+            sha = file_checksum(j["input"])
+        except InputError as exc:
+            todo.append({**base, "input_sha256": None, "fingerprints": {}, "unreadable": str(exc)})
+            continue
         fps = {k: output_fingerprint(settings_fp, sha, k) for k in wanted}
         missing, kept = {}, {}
         for k, path in wanted.items():
@@ -234,8 +245,7 @@ def _existing_state(plan: list, settings_fp: str, force: bool) -> tuple[list, li
                 missing[k] = path
             else:
                 conflicts.append((path, meta))
-        job = {**j, "input_sha256": sha, "fingerprints": fps, "kept": kept, "outputs_all": j["outputs"],
-               "panel_path_all": j["panel"],
+        job = {**base, "input_sha256": sha, "fingerprints": fps, "kept": kept,
                "outputs": {v: o for v, o in j["outputs"].items() if v in missing},
                "panel": missing.get("panel")}
         if missing:
@@ -365,6 +375,7 @@ def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, job
     todo = [j for j in todo if "unreadable" not in j]
     records = _run(todo, renderer, {**options, "inputs": all_inputs}, jobs, quiet)
     records += [{"input": j["input"], "status": "failed", "error": j["unreadable"]} for j in unreadable]
+    remove_stale_temporaries(out_dir)  # those of workers that died during this run
     failed = [r for r in records if r["status"] != "rendered"]
     done = [r for r in records if r["status"] == "rendered"]
     for r in done:
@@ -413,7 +424,8 @@ def _item(rec: dict, job: dict, run_id: str, settings_fp: str) -> dict:
     """A manifest record for one input and one set of settings: the outputs that now exist with their
     fingerprints (new ones from ``rec``, earlier ones kept from ``job``)."""
     item = {k: v for k, v in rec.items() if k not in ("outputs", "panel", "fingerprints", "clipped_pixels")}
-    item.update(run=run_id, settings_fingerprint=settings_fp, input_sha256=job.get("input_sha256"),
+    item.update(run=run_id, settings_fingerprint=settings_fp,
+                input_sha256=job.get("input_sha256") or rec.get("input_sha256"),
                 outputs={}, fingerprints={}, clipped_pixels={}, panel=None)
     for key, meta in job.get("kept", {}).items():
         path = job["panel_path_all"] if key == "panel" else job["outputs_all"][key]
