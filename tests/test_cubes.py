@@ -255,6 +255,8 @@ def test_one_bad_value_anywhere_is_caught(tmp_path, value):
     np.savez_compressed(tmp_path / "c.npz", cube=cube, wavelengths=WL)
     with pytest.raises(InputError, match="NaN or infinite"):
         read_cube(tmp_path / "c.npz")
+    with pytest.raises(InputError, match="1 NaN or infinite value"):  # a cube built in memory too
+        Cube(cube, WL, "reflectance")
 
 
 def test_percent_reflectance_seen_anywhere(tmp_path):

@@ -69,6 +69,13 @@ class Cube:
     kind_source : str
         ``argument``, ``file``, ``sidecar`` or ``assumed``.
     warnings : list of str
+    max_value : float
+        The largest value (set on creation, when every value is checked; ``-inf`` for integers).
+
+    Raises
+    ------
+    InputError
+        Bad shape or wavelengths, or any NaN or infinite value.
     """
 
     data: np.ndarray
@@ -98,6 +105,13 @@ class Cube:
             raise InputError(f"unsupported cube sample type {data.dtype}", source=src)
         self.data = data
         self.wavelengths = wl
+        # Every value, not a sample: one NaN would otherwise render as a black pixel.
+        self.max_value = -np.inf
+        if np.issubdtype(data.dtype, np.floating):
+            bad, self.max_value = _scan_values(data)
+            if bad:
+                raise InputError(f"cube holds {bad} NaN or infinite value(s)", source=src,
+                                 hint="replace them (e.g. with 0 for no signal) before rendering")
 
     @property
     def height(self) -> int:
@@ -442,10 +456,7 @@ def _value_warnings(cube: Cube) -> list:
         raise InputError(f"integer values ({cube.data.dtype}) cannot be reflectance fractions", source=src,
                          hint="store reflectance as floats 0-1, or read the cube as --cube-kind radiance")
     if np.issubdtype(cube.data.dtype, np.floating):
-        bad, top = _scan_values(cube.data)
-        if bad:
-            raise InputError(f"cube holds {bad} NaN or infinite value(s)", source=src,
-                             hint="replace them (e.g. with 0 for no signal) before rendering")
+        top = cube.max_value  # found while checking every value (Cube.__post_init__)
         if cube.kind == "reflectance" and top > 1.5:
             out.append(f"{src}: reflectance values reach {top:.3g}; expected 0-1 "
                        "(percent? radiance? use --cube-kind radiance)")
