@@ -503,13 +503,15 @@ def test_unwritable_output_is_one_line_for_every_command(tmp_path, command, case
     assert not [p for p in tmp_path.rglob("*") if ".cvdfilter-" in p.name]
 
 
-@pytest.mark.parametrize("case", ["virtual-fs", "parent-is-a-file", "a-file"])
+@pytest.mark.parametrize("case", ["virtual-fs", "parent-is-a-file", "a-file", "folder-at-an-output-name"])
 def test_render_unwritable_out_folder(stimuli, tmp_path, case):
     (tmp_path / "afile").write_text("x")
+    (tmp_path / "o" / "tabletop.observer.png").mkdir(parents=True)
     out = {"virtual-fs": "/proc/cvdfilter-rendered", "parent-is-a-file": tmp_path / "afile" / "o",
-           "a-file": tmp_path / "afile"}[case]
-    r = run_here(stimuli / "tabletop.png", "--filter", "nd:t=0.5", "--out", out)
-    assert _one_line_error(r), r.stderr
+           "a-file": tmp_path / "afile", "folder-at-an-output-name": tmp_path / "o"}[case]
+    for extra in ([], ["--force"]):
+        r = run_here(stimuli / "tabletop.png", "--filter", "nd:t=0.5", "--view", "observer", "--out", out, *extra)
+        assert _one_line_error(r), r.stderr
 
 
 def test_named_pipe_input_is_refused_without_waiting(tmp_path):

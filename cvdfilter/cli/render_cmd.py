@@ -221,6 +221,10 @@ def _existing_state(plan: list, settings_fp: str, force: bool) -> tuple[list, li
         wanted = dict(j["outputs"])
         if j["panel"]:
             wanted["panel"] = j["panel"]
+        for o in wanted.values():
+            if pathlib.Path(o).is_dir() or (pathlib.Path(o).exists() and not pathlib.Path(o).is_file()):
+                raise InputError("is a folder or a device where an output file would go", source=o,
+                                 hint="move it away, or choose another --out")
         base = {**j, "outputs_all": j["outputs"], "panel_path_all": j["panel"], "settings_fp": settings_fp}
         if not any(pathlib.Path(o).exists() or pathlib.Path(o).is_symlink() for o in wanted.values()):
             # nothing to compare: the worker hashes the input (in parallel) and fingerprints the outputs
