@@ -97,8 +97,8 @@ def check_writable(path: str | os.PathLike, *, folder: bool = False) -> None:
         probe = probe.parent
     if not probe.is_dir():
         raise InputError(f"a parent folder ({probe}) is a file", source=str(p), hint="choose another output path")
-    # A trial file: the only test that sees read-only mounts, virtual file systems and ACLs alike.
-    # Nothing is created when the folder does not exist yet (the probe is its nearest existing ancestor).
+    # A trial file: the only test that sees read-only mounts, virtual file systems and ACLs alike. It goes
+    # in the nearest existing folder (no folder is created here) and is removed at once.
     trial = probe / _temp_name(p if p.name else pathlib.Path("out"))
     try:
         fd = os.open(trial, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
