@@ -274,14 +274,14 @@ def read_metadata(path, key: str = "cvdfilter") -> dict | None:
                 record = text
             elif fmt == "jpeg":
                 comment = _jpeg_info(fh, str(p))["comment"]
-                record = json.loads(comment.decode("utf-8")).get(key) if comment else None
+                record = _json_key(comment.decode("utf-8"), key) if comment else None
             else:
                 import tifffile
 
                 with tifffile.TiffFile(fh) as tif:
                     desc = tif.pages[0].description
-                record = json.loads(desc).get(key) if desc.lstrip().startswith("{") else None
-    except (InputError, UnicodeDecodeError, AttributeError) + _decode_errors():
+                record = _json_key(desc, key)
+    except (InputError, UnicodeDecodeError) + _decode_errors():
         return None
     if isinstance(record, str):
         try:
@@ -289,6 +289,14 @@ def read_metadata(path, key: str = "cvdfilter") -> dict | None:
         except ValueError:
             return None
     return record if isinstance(record, dict) else None
+
+
+def _json_key(text: str, key: str):
+    """``key`` of the JSON object in ``text``; None when ``text`` is not a JSON object."""
+    if not text.lstrip().startswith("{"):
+        return None
+    obj = json.loads(text)
+    return obj.get(key) if isinstance(obj, dict) else None
 
 
 def _decode_errors() -> tuple:
