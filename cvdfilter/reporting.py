@@ -372,7 +372,7 @@ class Report:
         Everything is built in memory first and each file is written atomically,
         so bad input leaves nothing behind. Returns the paths written.
         """
-        from .io.atomic import check_outputs, write_bytes, write_text
+        from .io.atomic import check_outputs, check_writable, write_bytes, write_text
 
         path = pathlib.Path(path)
         suffix = path.suffix.lower()
@@ -384,6 +384,8 @@ class Report:
             text, files = self.to_markdown(folder)
             targets = {path.parent / rel: data for rel, data in files.items()}
             check_outputs([path, *targets], inputs)
+            for p in (path, *targets):  # refuse before the first file is written
+                check_writable(p)
             written = [write_bytes(p, data, inputs=inputs) for p, data in targets.items()]
             written.append(write_text(path, text, inputs=inputs))
             return written
