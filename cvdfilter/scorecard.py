@@ -974,7 +974,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         members (``{mean, sd, p2_5, p50, p97_5}`` per metric) and the share ``helped`` with a Wilson 95 %
         interval (:mod:`cvdfilter.metrics.population_stats`).
     surfaces : str or SurfaceSet
-        ``ces99`` (default), ``colorchecker``, ``tcs14``, ``vs15`` or a reflectance file.
+        ``ces99`` (default), ``chart24``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
         ``full`` (default: von Kries adaptation to the filtered light),
         ``none`` (adapted to the unfiltered light) or a degree 0-1.

@@ -1,4 +1,4 @@
-"""The rendering pipeline (cvdfilter.render): checks against outside references and invariants.
+"""The rendering pipeline (cvdfilter.rendering): checks against outside references and invariants.
 
 Outside references: scikit-image's open ``astronaut()`` image, colour-science (sRGB transfer
 function IEC 61966-2-1, Mallett & Yuksel 2019 basis, Stockman & Sharpe cone fundamentals, CIE D65,
@@ -15,7 +15,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from cvdfilter.errors import InputError
-from cvdfilter.render import (VIEWS, Renderer, _Kernel, decode_srgb, display_matrix, encode_srgb, mallett_basis,
+from cvdfilter.rendering import (VIEWS, Renderer, _Kernel, decode_srgb, display_matrix, encode_srgb, mallett_basis,
                               render, render_spectra, render_views)
 
 TEST_IMAGES = pathlib.Path(__file__).resolve().parent.parent / "test_images"
@@ -401,7 +401,7 @@ def test_tiles_do_not_change_the_result(astronaut):
 
 def test_render_file_panel_holds_each_view(tmp_path, monkeypatch):
     # The panel receives each view as rendered (not the reused full-size buffer of the last view).
-    import cvdfilter.render as rmod
+    import cvdfilter.rendering as rmod
     from cvdfilter.io.images import read_image
 
     seen = {}

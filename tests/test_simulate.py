@@ -515,7 +515,7 @@ def _simulated_lab(spec, illuminant):
     """
     import colour
 
-    from cvdfilter.render import display_matrix, mallett_basis
+    from cvdfilter.rendering import display_matrix, mallett_basis
     from cvdfilter.spectra.illuminants import illuminant as make_illuminant
 
     obs = observer(spec)

@@ -52,7 +52,7 @@ def register(app: typer.Typer) -> None:
         observer: Optional[List[str]] = typer.Option(None, "--observer", help=(
             "Observer spec; repeat for several. Default: normal, protanomalous, deuteranomalous, "
             "protanope, deuteranope.")),
-        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, colorchecker, tcs14, vs15 or a "
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15 or a "
                                                                  "reflectance file."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a degree 0-1 of von Kries "
                                                                     "adaptation to the filtered light."),

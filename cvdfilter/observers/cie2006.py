@@ -107,10 +107,36 @@ def _tables_digest() -> str:
 
 def _disk_cached(key: str, build) -> np.ndarray:
     # The splines below need scipy.interpolate, which takes most of a second to
-    # import; their results go to the on-disk reference cache instead.
+    # import. Results on the bundled tables alone (reference data) go to the
+    # on-disk reference cache; results that depend on a user's parameter do not.
     from ..spectra.cache import cached_arrays
 
     return cached_arrays(f"cie2006-{key}-{_tables_digest()}", lambda: {"v": build()})["v"]
+
+
+def _spline_pieces() -> dict[str, np.ndarray]:
+    """Breakpoints ``x{i}`` and coefficients ``c{i}`` (4, n) of the log-absorbance splines (reference data)."""
+    from ..spectra.cache import cached_arrays
+
+    def build():
+        out = {}
+        for i, s in enumerate(_log_abs_splines()):
+            out[f"x{i}"], out[f"c{i}"] = np.asarray(s.x, dtype=float), np.asarray(s.c, dtype=float)
+        return out
+
+    return cached_arrays(f"cie2006-log-abs-splines-{_tables_digest()}", build)
+
+
+def _spline_eval(cone: int, xq: np.ndarray, nu: int = 0) -> np.ndarray:
+    """Evaluate the cubic spline of :func:`_log_abs_splines` (or its first derivative) with numpy alone."""
+    pieces = _spline_pieces()
+    x, c = pieces[f"x{cone}"], pieces[f"c{cone}"]
+    xq = np.asarray(xq, dtype=float)
+    i = np.clip(np.searchsorted(x, xq, side="right") - 1, 0, len(x) - 2)
+    dx = xq - x[i]
+    if nu == 1:
+        return (3.0 * c[0, i] * dx + 2.0 * c[1, i]) * dx + c[2, i]
+    return ((c[0, i] * dx + c[1, i]) * dx + c[2, i]) * dx + c[3, i]
 
 
 @functools.lru_cache(maxsize=1)
@@ -164,20 +190,23 @@ def shifted_absorbance(cone: int, shift_nm: float) -> np.ndarray:
     """
     if shift_nm == 0:
         return photopigment_absorbance()[:, cone]
-    return _disk_cached(f"shifted-{int(cone)}-{float(shift_nm)!r}",
-                        lambda: _shifted_absorbance(cone, shift_nm)).copy()
+    from ..spectra.cache import memo_arrays
+
+    return memo_arrays(f"cie2006-shifted-{int(cone)}-{float(shift_nm)!r}",
+                       lambda: {"v": _shifted_absorbance(cone, shift_nm)})["v"].copy()
 
 
 def _shifted_absorbance(cone: int, shift_nm: float) -> np.ndarray:
     wl = _tables()["wl"]
-    spline = _log_abs_splines()[cone]
+    pieces = _spline_pieces()
     peak = pigment_peaks()[cone]
     x = wl * peak / (peak + shift_nm)
-    lo, hi = spline.x[0], spline.x[-1]
-    y = spline(np.clip(x, lo, hi))
-    d_lo, d_hi = spline(lo, 1), spline(hi, 1)
-    y = np.where(x < lo, spline(lo) + d_lo * (x - lo), y)
-    y = np.where(x > hi, spline(hi) + d_hi * (x - hi), y)
+    lo, hi = pieces[f"x{cone}"][0], pieces[f"x{cone}"][-1]
+    y = _spline_eval(cone, np.clip(x, lo, hi))
+    ends = _spline_eval(cone, np.array([lo, hi]))
+    d_lo, d_hi = _spline_eval(cone, np.array([lo, hi]), nu=1)
+    y = np.where(x < lo, ends[0] + d_lo * (x - lo), y)
+    y = np.where(x > hi, ends[1] + d_hi * (x - hi), y)
     return 10.0 ** y
 
 

@@ -138,6 +138,19 @@ _CONE = {"protan": 0, "deutan": 1, "tritan": 2}
 _TOWARD = {"protan": 1, "deutan": 0, "tritan": 1}
 
 
+class ReadOnlyDict(dict):
+    """A dict that cannot be changed after construction (it still pickles and serialises to JSON)."""
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("an observer's parameters are read-only; build a new observer instead")
+
+    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _refuse  # type: ignore[assignment]
+    __ior__ = _refuse  # type: ignore[assignment]
+
+    def __reduce__(self):
+        return (type(self), (dict(self),))
+
+
 @dataclass(frozen=True, eq=False)
 class Observer:
     """An observer: cone fundamentals on the grid and what they mean.
@@ -160,8 +173,8 @@ class Observer:
         The observer's luminous efficiency, a L + b M, shape (n_wl,).
     luminance_weights : tuple of float
         (a, b); (0, 1) for protanopes and (1, 0) for deuteranopes (no missing-cone input).
-    params : dict
-        age, field, data, shift (nm), severity, model.
+    params : Mapping
+        age, field, data, shift (nm), severity, model (read-only; the arrays are read-only too).
     base : Observer or None
         The normal observer this one derives from (same age and field).
     """
@@ -175,6 +188,15 @@ class Observer:
     params: dict = field(default_factory=dict)
     base: Observer | None = None
     grid: Grid = DEFAULT_GRID
+
+    def __post_init__(self) -> None:
+        # Observers are shared (spec strings are memoised), so nothing in one may change:
+        # own read-only copies of the arrays and a read-only view of the parameters.
+        for name in ("wavelengths", "fundamentals"):
+            a = np.array(getattr(self, name), dtype=float)
+            a.setflags(write=False)
+            object.__setattr__(self, name, a)
+        object.__setattr__(self, "params", ReadOnlyDict(self.params))
 
     @property
     def luminance(self) -> np.ndarray:

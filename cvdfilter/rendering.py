@@ -85,7 +85,8 @@ from .spectra.grid import DEFAULT_GRID, Grid
 __all__ = ["render", "render_views", "render_spectra", "render_file", "Renderer", "ViewTransform", "mallett_basis",
            "render_method", "RENDER_METHODS",
            "display_matrix", "decode_srgb", "encode_srgb", "panel", "panel_titles", "output_suffix", "output_dtype",
-           "VIEWS", "VIEW_TITLES", "GAMUT_MODES", "OUTPUT_FORMATS", "TILE_PIXELS"]
+           "VIEWS", "VIEW_TITLES", "GAMUT_MODES", "OUTPUT_FORMATS", "TILE_PIXELS", "file_checksum",
+           "settings_fingerprint", "output_fingerprint"]
 
 #: The views, in panel order.
 VIEWS = ("original", "filtered", "observer", "observer-filtered")
@@ -985,7 +986,7 @@ def _for_display(px: np.ndarray) -> np.ndarray:
 
 
 def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_mm: float = 183.0,
-          dpi: int = 300, max_pixels: int = 1200) -> bytes:
+          dpi: int = 300, max_pixels: int = 1200, metadata: dict | None = None) -> bytes:
     """A labelled 2x2 panel of views, as PNG bytes (matplotlib, Agg).
 
     Parameters
@@ -1001,6 +1002,8 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     dpi : int
     max_pixels : int
         Each view is shown downsampled (stride) to at most this many pixels on its long side.
+    metadata : dict, optional
+        More PNG text chunks (key -> text or JSON-able value).
 
     Returns
     -------
@@ -1049,7 +1052,7 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     canvas = FigureCanvasAgg(fig)
     canvas.draw()
     rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])
-    return encode_png(rgb, {"Software": f"cvdfilter {__version__}", "Description": footer})
+    return encode_png(rgb, {"Software": f"cvdfilter {__version__}", "Description": footer, **(metadata or {})})
 
 
 # --- files ---------------------------------------------------------------------------
@@ -1099,9 +1102,62 @@ def _small(px: np.ndarray, max_pixels: int = 1200) -> np.ndarray:
     return px[::step, ::step].copy()  # a copy: the full-size buffer is reused for the next view
 
 
+def file_checksum(path) -> str:
+    """SHA-256 of a file's bytes, hex (read in blocks; a pipe or device is refused)."""
+    import hashlib
+
+    from .io.images import regular_file
+
+    p = regular_file(path)
+    h = hashlib.sha256()
+    try:
+        with open(p, "rb") as fh:
+            for block in iter(lambda: fh.read(1 << 20), b""):
+                h.update(block)
+    except OSError as exc:
+        raise InputError(f"cannot read ({exc.strerror or exc})", source=str(p)) from None
+    return h.hexdigest()
+
+
+def _digest(obj) -> str:
+    import hashlib
+    import json
+
+    return hashlib.sha256(json.dumps(obj, sort_keys=True, separators=(",", ":")).encode("utf-8")).hexdigest()
+
+
+def settings_fingerprint(renderer: Renderer, *, fmt: str = "auto", cube_kind: str | None = None,
+                         wavelengths=None) -> str:
+    """A SHA-256 over everything that decides a rendered file, except the input and the view.
+
+    It covers the renderer's settings (:meth:`Renderer.describe`, which includes the tool's version),
+    the numbers behind them (the filter's transmittance, the illuminant, both observers' fundamentals,
+    the scene's stimuli and display matrix, so that an edited filter file with the same name changes
+    it), the output format, the cube kind and the cube wavelengths. ``--max-megapixels`` and ``--jobs``
+    do not change a file and are left out.
+    """
+    import hashlib
+
+    arrays = hashlib.sha256()
+    for a in (renderer.transmittance, renderer.illuminant.spd, renderer.observer.fundamentals,
+              renderer.normal.fundamentals, renderer.stimuli, renderer.display, renderer.grid.wavelengths):
+        a = np.ascontiguousarray(np.asarray(a, dtype=np.float64))
+        arrays.update(str(a.shape).encode())
+        arrays.update(a.tobytes())
+    wl = None if wavelengths is None else [float(w) for w in np.asarray(wavelengths, dtype=float).ravel()]
+    settings = {k: v for k, v in renderer.describe().items()}
+    return _digest({"settings": settings, "arrays": arrays.hexdigest(), "format": fmt, "cube_kind": cube_kind,
+                    "wavelengths": wl})
+
+
+def output_fingerprint(settings_fp: str, input_sha256: str, view: str) -> str:
+    """The fingerprint of one output file: settings, the input's checksum and the view (or ``panel``)."""
+    return _digest({"settings": settings_fp, "input": input_sha256, "view": view})
+
+
 def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt: str = "auto",
                 cube_kind: str | None = None, wavelengths=None, max_megapixels: float | None = None,
-                inputs=()) -> dict:
+                inputs=(), fingerprints: dict | None = None, input_sha256: str | None = None) -> dict:
     """Render one image or cube file to the requested views (and a panel), writing each atomically.
 
     Parameters
@@ -1121,13 +1177,19 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         Refuse larger inputs.
     inputs : iterable of paths
         Paths no output may overwrite (all inputs of a batch).
+    fingerprints : dict, optional
+        View (or ``panel``) -> fingerprint (:func:`output_fingerprint`), stored in each file's
+        metadata (``cvdfilter`` record, key ``fingerprint``) so that a later batch can tell whether
+        the file was made with the same settings and input.
+    input_sha256 : str, optional
+        The input's checksum, stored in the metadata too.
 
     Returns
     -------
     dict
         ``input``, ``kind`` (image or cube), ``width``, ``height``, ``outputs``
         (view -> path), ``panel``, ``clipped_pixels`` (view -> count),
-        ``warnings``.
+        ``fingerprints`` (view or ``panel`` -> fingerprint, those given), ``warnings``.
     """
     from ._version import __version__
     from .io.cubes import Cube, is_cube_path, read_cube, tiff_is_cube
@@ -1143,8 +1205,17 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
     cube = isinstance(data, Cube)
     guard = [str(x) for x in inputs] + [str(p)]
     settings = renderer.describe()
+    fps = dict(fingerprints or {})
     record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
-              "clipped_pixels": {}, "warnings": list(data.warnings)}
+              "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
+    if input_sha256 is not None:
+        record["input_sha256"] = input_sha256
+
+    def stamp(key: str) -> dict:
+        extra = {"fingerprint": fps[key]} if key in fps else {}
+        if input_sha256 is not None:
+            extra["input_sha256"] = input_sha256
+        return extra
     if cube:
         record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
                       wavelengths=f"{data.wavelengths[0]:g}-{data.wavelengths[-1]:g} nm, {data.bands} bands")
@@ -1174,9 +1245,12 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         record["clipped_pixels"][v] = clipped
         meta = {"Software": f"cvdfilter {__version__}",
                 "cvdfilter": {**settings, "view": v, "input": str(p), "clipped_pixels": clipped,
-                              "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)"}}
+                              "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)",
+                              "format": fmt, **stamp(v)}}
         write_image(outputs[v], arr, encoding=encoding, metadata=meta, inputs=guard)
         record["outputs"][v] = str(outputs[v])
+        if v in fps:
+            record["fingerprints"][v] = fps[v]
         if panel_path is not None:
             small[v] = _small(arr)
     if panel_path is not None:
@@ -1192,6 +1266,10 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
                 buffer = None if cube else arr
                 small[v] = _small(arr)
         ordered = {v: small[v] for v in VIEWS}
-        write_bytes(panel_path, panel(ordered, titles=titles, footer=panel_footer(renderer)), inputs=guard)
+        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png", **stamp("panel")}}
+        write_bytes(panel_path, panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=meta),
+                    inputs=guard)
         record["panel"] = str(panel_path)
+        if "panel" in fps:
+            record["fingerprints"]["panel"] = fps["panel"]
     return record

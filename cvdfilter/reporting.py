@@ -372,7 +372,7 @@ class Report:
         Everything is built in memory first and each file is written atomically,
         so bad input leaves nothing behind. Returns the paths written.
         """
-        from .io.atomic import check_outputs, write_bytes, write_text
+        from .io.atomic import check_outputs, check_writable, write_bytes, write_text
 
         path = pathlib.Path(path)
         suffix = path.suffix.lower()
@@ -384,6 +384,8 @@ class Report:
             text, files = self.to_markdown(folder)
             targets = {path.parent / rel: data for rel, data in files.items()}
             check_outputs([path, *targets], inputs)
+            for p in (path, *targets):  # refuse before the first file is written
+                check_writable(p)
             written = [write_bytes(p, data, inputs=inputs) for p, data in targets.items()]
             written.append(write_text(path, text, inputs=inputs))
             return written
@@ -549,19 +551,42 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
         lambda: figure("spectrum", fs, observers=["normal", *anomalous], **{k: v for k, v in common.items()
                                                                             if k != "adaptation"}), limit=16)
     if deficient:
-        add("chromaticity", f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} "
-                            f"without and with each filter (adaptation {adaptation}), with the {deficient} "
-                            "observer's copunctal point and confusion lines.",
-            lambda: figure("chromaticity", fs, observers=deficient, surfaces=surfaces, **common), limit=4)
+        # A filter that passes no light to a cone has no chromaticity: it is left out of this figure, and
+        # said so in the caption (or in a note when no filter is left).
+        from .figures.chromaticity import unlit_cones
+
+        unlit = unlit_cones(fs, illuminant=illuminant, observer=deficient)
+        keep = [i for i, name in enumerate(fs.names) if name not in unlit]
+        left_out = "; ".join(f"{name} (no light for the {', '.join(cones)} cone{'s' if len(cones) > 1 else ''})"
+                             for name, cones in unlit.items())
+        caption = (f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} without and "
+                   f"with each filter (adaptation {adaptation}), with the {deficient} observer's copunctal point "
+                   "and confusion lines." + (f" Left out, having no chromaticity: {left_out}." if unlit else ""))
+        if keep:
+            add("chromaticity", caption, lambda: figure("chromaticity", _subset(fs, keep), observers=deficient,
+                                                        surfaces=surfaces, **common), limit=4)
+        else:
+            figs.append(ReportFigure("chromaticity", caption, note=f"The chromaticity figure is left out: no "
+                                                                   f"filter has a chromaticity ({left_out})."))
     add("gains", "Red-green, blue-yellow and luminance contrast gains (with / without the filter, log scale) "
                  "and discriminable surface pairs gained and lost, per observer.",
         lambda: figure("gains", fs, observers=observers, surfaces=surfaces, card=card, **common), limit=8)
     if deficient:
-        first = fs.names[0]
-        add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
-                        f"{deficient} observer (simulated for a normal viewer), without and with {first}"
-                        + (" (the first filter)" if n > 1 else "") + ".",
-            lambda: figure("swatches", _one(fs, 0), observers=deficient, surfaces=surfaces, **common))
+        # the first filter that lets every cone see some light (adapting to a black filter is undefined)
+        from .observers.spaces import parse_adaptation
+
+        lit = keep if parse_adaptation(adaptation) > 0 else list(range(n))
+        if lit:
+            first = fs.names[lit[0]]
+            add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
+                            f"{deficient} observer (simulated for a normal viewer), without and with {first}"
+                            + (" (the first filter)" if n > 1 and lit[0] == 0 else "")
+                            + (" (the first filter with light for every cone)" if lit[0] > 0 else "") + ".",
+                lambda: figure("swatches", _one(fs, lit[0]), observers=deficient, surfaces=surfaces, **common))
+        else:
+            figs.append(ReportFigure("swatches", "Surface colours without and with the filter.",
+                                     note=f"The swatches figure is left out: no filter passes light to every cone "
+                                          f"({left_out}), so there is nothing to adapt to."))
     from .figures.sweep import swept_parameters
 
     varying, _ = swept_parameters(fs.names) if n >= 3 else ([], {})
@@ -576,9 +601,15 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
 
 
 def _one(fs, i):
+    return _subset(fs, [i])
+
+
+def _subset(fs, keep):
     from .spectra.filters import FilterSet
 
-    return FilterSet((fs.names[i],), fs.transmittance[i:i + 1], fs.grid, fs.sources[i:i + 1], fs.info[i:i + 1])
+    return FilterSet(tuple(fs.names[i] for i in keep), fs.transmittance[keep], fs.grid,
+                     tuple(fs.sources[i] for i in keep) if fs.sources else (),
+                     tuple(fs.info[i] for i in keep) if fs.info else ())
 
 
 def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = "ces99", adaptation="full",
