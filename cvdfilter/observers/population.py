@@ -149,12 +149,13 @@ def population_form() -> dict:
 def _template(cone: int, x: np.ndarray) -> np.ndarray:
     """Linear absorbance of pigment ``cone`` at wavelengths ``x`` (any shape), log absorbance continued
     linearly past the table (the rule of :func:`cie2006.shifted_absorbance`, operation for operation)."""
-    spline = cie2006._log_abs_splines()[cone]
-    lo, hi = spline.x[0], spline.x[-1]
-    y = spline(np.clip(x, lo, hi))
-    d_lo, d_hi = spline(lo, 1), spline(hi, 1)
-    y = np.where(x < lo, spline(lo) + d_lo * (x - lo), y)
-    y = np.where(x > hi, spline(hi) + d_hi * (x - hi), y)
+    knots = cie2006._spline_pieces()[f"x{cone}"]
+    lo, hi = knots[0], knots[-1]
+    y = cie2006._spline_eval(cone, np.clip(x, lo, hi))
+    ends = cie2006._spline_eval(cone, np.array([lo, hi]))
+    d_lo, d_hi = cie2006._spline_eval(cone, np.array([lo, hi]), nu=1)
+    y = np.where(x < lo, ends[0] + d_lo * (x - lo), y)
+    y = np.where(x > hi, ends[1] + d_hi * (x - hi), y)
     return 10.0 ** y
 
 
@@ -170,7 +171,7 @@ def _normal_pigment(cone: int, peak_shift: np.ndarray) -> np.ndarray:
     x = wl[None, :] - peak_shift[:, None]
     shifted = _template(cone, x)
     if cone == 2:
-        hi = cie2006._log_abs_splines()[2].x[-1]
+        hi = cie2006._spline_pieces()["x2"][-1]
         shifted = np.where(x > hi, 0.0, shifted)
     return np.where(peak_shift[:, None] == 0, table[None, :], shifted)
 
