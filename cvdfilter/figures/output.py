@@ -18,7 +18,6 @@ import io
 import os
 import pathlib
 import re
-import textwrap
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
@@ -59,11 +58,14 @@ def new_figure(style: Style, width_mm: float, height_mm: float, *, compress: boo
     return fig
 
 
-def _wrap(text: str, width_mm: float, size_pt: float) -> str:
-    # Average DejaVu Sans advance is about 0.55 em (common practice for a
-    # sans-serif); keep a margin so the line never runs past the edge.
-    chars = max(30, int(0.92 * width_mm / MM_PER_INCH * 72 / (0.56 * size_pt)))
-    return "\n".join(textwrap.wrap(" ".join(text.split()), chars))
+def _wrap(text: str, width_mm: float, size_pt: float, *, weight: str = "normal") -> str:
+    """Wrap to the figure width, measuring each line in the current font (2 % margin each side)."""
+    import matplotlib
+
+    from .common import wrap_to_width
+
+    with matplotlib.rc_context({"font.weight": weight}):
+        return wrap_to_width(text, 0.96 * width_mm / MM_PER_INCH * 72, size_pt)
 
 
 def finish(fig, style: Style, *, title: str | None = None, caveat: str | None = None) -> None:
@@ -76,7 +78,8 @@ def finish(fig, style: Style, *, title: str | None = None, caveat: str | None = 
         fig.supxlabel(text, x=0.01, ha="left", va="bottom", fontsize=style.caveat_size, color="#333333",
                       gid="caveat", linespacing=1.15, multialignment="left")
     if title:
-        fig.suptitle(title, x=0.01, ha="left", fontsize=style.title_size, fontweight="bold")
+        fig.suptitle(_wrap(title, width_mm, style.title_size, weight="bold"), x=0.01, ha="left",
+                     fontsize=style.title_size, fontweight="bold", multialignment="left")
 
 
 def freeze_layout(fig) -> None:
