@@ -50,7 +50,7 @@ def test_style_from_options_and_file(tmp_path):
     assert style.rc_params()["pdf.fonttype"] == 42 and style.rc_params()["svg.fonttype"] == "none"
 
 
-@pytest.mark.parametrize("text,word", [("font_size=3", "below 5 pt"), ("colour=red", "unknown style key"),
+@pytest.mark.parametrize("text,word", [("font_size=3", "below 6 pt"), ("colour=red", "unknown style key"),
                                        ("font_size=big", "not a number"), ("font=NoSuchFontXyz", "not installed"),
                                        ("lines.linewidth=thick", "lines.linewidth")])
 def test_style_errors_are_one_line(text, word):
