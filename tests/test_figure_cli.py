@@ -111,7 +111,7 @@ def test_caveat_title_and_style_options(tmp_path):
     (["figure", "pie", "larkhill-notch-575", "-o", "{tmp}/x.svg"], "unknown figure kind"),
     (["figure", "spectrum", "larkhill-notch-575", "-o", "{tmp}/x.jpg"], "end the file name in .pdf, .svg or .png"),
     (["figure", "spectrum", "nope-filter", "-o", "{tmp}/x.svg"], "unknown filter"),
-    (["figure", "spectrum", "larkhill-notch-575", "--style", "font_size=2", "-o", "{tmp}/x.svg"], "below 5 pt"),
+    (["figure", "spectrum", "larkhill-notch-575", "--style", "font_size=2", "-o", "{tmp}/x.svg"], "below 6 pt"),
     (["figure", "spectrum", "larkhill-notch-575", "--width", "huge", "-o", "{tmp}/x.svg"], "--width"),
     (["figure", "spectrum", "larkhill-notch-575", "--chart", "bar", "-o", "{tmp}/x.svg"], "does not apply"),
     (["figure", "chromaticity", "larkhill-notch-575", "--space", "luv", "-o", "{tmp}/x.svg"], "--space luv"),

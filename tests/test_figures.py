@@ -559,4 +559,4 @@ def test_spectrum_notch_labels_never_overlap():
     many = figure("spectrum", "notch:center=530..620/10,fwhm=30,depth=0.8")
     assert not many.figure.axes[0].texts
     labels = [t.get_text() for t in many.figure.axes[1].get_legend().get_texts()]
-    assert "center=530; 530 nm/FWHM 30" in labels
+    assert "center=530; 530 nm, FWHM 30 nm" in labels and "center=620; 620 nm, FWHM 30 nm" in labels

@@ -139,8 +139,10 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
             for a in labels:
                 a.remove()
             labels, label_pos = [], []
-            for i, line in enumerate(ax_t.get_lines()):
-                if line.get_gid() == f"transmittance-{i}" and notches[i]:
+            by_gid = {line.get_gid(): line for line in ax_t.get_lines()}
+            for i in range(len(fs)):
+                line = by_gid[f"transmittance-{i}"]
+                if notches[i]:
                     line.set_label(line.get_label() + "; " + ", ".join(
                         f"{n['center']:.0f} nm, FWHM {n['fwhm']:.0f} nm" for n in notches[i]))
         ax_t.set_yticks([0, 25, 50, 75, 100])
