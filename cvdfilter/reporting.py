@@ -451,7 +451,7 @@ th,td{border:1px solid #ccc;padding:.2rem .4rem;text-align:left;vertical-align:t
 th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
 td.mono{font-family:"DejaVu Sans Mono",monospace;font-size:.72rem;word-break:break-all}
 table.kv th{width:12rem}
-table.observers td.num{white-space:nowrap}table.observers th.group{text-align:center}
+table.observers td.num,table.observers td:first-child{white-space:nowrap}table.observers th.group{text-align:center}
 table.observers tr.filter th{background:#fafafa;font-weight:bold;text-align:left;word-break:break-word}
 pre{background:#f6f6f6;padding:.6rem;overflow-x:auto;font-size:.8rem;white-space:pre-wrap;word-break:break-all}
 figure{margin:1.2rem 0;padding:0}figure svg{width:100%;height:auto;display:block}
