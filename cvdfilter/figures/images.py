@@ -42,11 +42,12 @@ def default_image() -> pathlib.Path:
 
 
 def _reduce(img: np.ndarray, max_pixels: int) -> np.ndarray:
-    """Block-average an sRGB image (in linear light) so its long side is at most ``max_pixels``."""
+    """Block-average an sRGB image (in linear light) by the largest whole factor that keeps its long side at
+    least ``max_pixels``."""
     from ..rendering import decode_srgb, encode_srgb
 
     h, w = img.shape[:2]
-    f = int(np.ceil(max(h, w) / max_pixels))
+    f = int(max(h, w) // max_pixels)     # whole blocks, never below max_pixels (antialiased resampling does the rest)
     if f <= 1:
         return img
     from skimage.transform import downscale_local_mean
@@ -111,7 +112,7 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
     max_pixels = min(MAX_FIGURE_PIXELS, int(np.ceil(panel_mm / 25.4 * FIGURE_DPI)))
     shown = {v: _reduce(_to8(a), max_pixels) for v, a in rendered.items()}
     full = next(iter(rendered.values()))
-    reduced_by = int(np.ceil(max(full.shape[:2]) / max_pixels)) if max(full.shape[:2]) > max_pixels else 1
+    reduced_by = max(1, int(max(full.shape[:2]) // max_pixels))
     titles = {v: VIEW_TITLES[v].format(observer=obs_text, filter=filt_text) for v in VIEWS}
     titles["original"] = "original (normal observer, no filter)"
     h, w = next(iter(shown.values())).shape[:2]

@@ -218,6 +218,18 @@ class FigureResult:
         """Write the figure atomically; the format follows the suffix (.pdf, .svg, .png)."""
         return save_figure(self.figure, path, style=self.style, dpi=dpi, format=format, inputs=inputs)
 
+    def data_csv(self) -> str:
+        """The plotted numbers as CSV text (:func:`cvdfilter.figures.data_export.data_csv`)."""
+        from .data_export import data_csv
+
+        return data_csv(self)
+
+    def save_data(self, path: str | os.PathLike, *, inputs: Iterable[str | os.PathLike] = ()) -> pathlib.Path:
+        """Write the plotted numbers as CSV, atomically (so a lab can re-plot them in its own style)."""
+        from .data_export import save_data
+
+        return save_data(self, path, inputs=inputs)
+
     def close(self) -> None:
         """Release the figure's memory (it is not registered with pyplot, so this only clears it)."""
         self.figure.clear()
