@@ -34,7 +34,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import display_names, legend_axes, legend_columns, legend_labels, load_inputs, observer_label, pad_lines, wrap_to_width
+from .common import display_names, ensure_axes_height, legend_axes, legend_columns, legend_labels, load_inputs, observer_label, pad_lines, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style
@@ -433,7 +433,7 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         # Panel titles wrapped to the panel's measured width and padded to the same line count, so the
         # panels of a row stay aligned.
         fig.draw_without_rendering()
-        wrapped = [wrap_to_width(t, zoom_axes[k].bbox.width * 72 / fig.dpi, style.font_size, max_lines=3)
+        wrapped = [wrap_to_width(t, zoom_axes[k].bbox.width * 72 / fig.dpi, style.font_size)
                    for k, t in enumerate(zoom_titles)]
         for ax, t in zip(zoom_axes, pad_lines(wrapped)):
             ax.set_title(t, fontsize=style.font_size, loc="left")
@@ -460,6 +460,8 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         if title:
             title = f"{title}: {shown_names[0] if n_f == 1 else f'{n_f} filters'} ({data['surfaces']})"
         finish(fig, style, title=title, caveat=caveat)
+        zoom_rows = int(np.ceil(n_f / 2)) if (width_mm < 120 or n_f > 2) else 1
+        ensure_axes_height(fig, zoom_axes, 30.0, rows=zoom_rows + (1 if width_mm < 120 else 0))
 
     inputs = {"filters": [f["name"] for f in data["filters"]], "illuminant": data["illuminant"],
               "observer": data["observer"], "surfaces": data["surfaces"], "adaptation": data["adaptation"],

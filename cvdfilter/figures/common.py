@@ -8,7 +8,7 @@ from ..observers.labels import observer_label
 from ..spectra.grid import DEFAULT_GRID
 
 __all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes", "legend_columns",
-           "filter_labels", "callouts_fit", "legend_labels", "text_width_pt", "wrap_to_width", "display_names", "pad_lines"]
+           "filter_labels", "callouts_fit", "legend_labels", "text_width_pt", "wrap_to_width", "display_names", "pad_lines", "ensure_axes_height"]
 
 
 def load_filters_checked(filters, grid=DEFAULT_GRID):
@@ -322,3 +322,29 @@ def callouts_fit(fig, ax, annotations, *, pad_pt: float = 3.0, fill: float = 0.9
     total = sum(a.get_window_extent(renderer).width for a in annotations)
     total += pad_pt * fig.dpi / 72.0 * len(annotations)
     return total <= fill * ax.bbox.width
+
+
+def ensure_axes_height(fig, axes, min_mm: float, *, rows: int | None = None, passes: int = 3) -> None:
+    """Grow the figure's height until every axes in ``axes`` is at least ``min_mm`` tall.
+
+    Legends, wrapped titles and notes take the room they need (constrained layout measures them);
+    when they would squeeze the plots below ``min_mm``, the figure gets taller instead (by the deficit
+    times ``rows``, the number of axes stacked vertically; default: as many as given).
+    """
+    import warnings
+
+    axes = [a for a in axes if a is not None]
+    rows = rows or len(axes)
+    for _ in range(passes + 4):
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            fig.draw_without_rendering()
+        if any("collapsed" in str(w.message) for w in caught):
+            # the decorations alone are taller than the figure: grow it, then measure again
+            fig.set_figheight(fig.get_figheight() * 1.5)
+            continue
+        heights = [a.get_position().height * fig.get_figheight() * 25.4 for a in axes]
+        deficit = min_mm - min(heights)
+        if deficit <= 0.2:
+            return
+        fig.set_figheight(fig.get_figheight() + (deficit * rows + 1.0) / 25.4)

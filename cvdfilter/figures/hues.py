@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import filter_labels, legend_axes, legend_columns, legend_labels, load_filters_checked, wrap_to_width
+from .common import filter_labels, legend_axes, legend_columns, legend_labels, load_filters_checked, wrap_to_width, ensure_axes_height
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
@@ -195,6 +195,7 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
                     handlelength=1.8,
                     columnspacing=1.0)
         finish(fig, style, title=title, caveat=caveat)
+        ensure_axes_height(fig, [ax], 35.0 if width_mm < 120 else 45.0)
 
     data = {"bins": bins, "series": data_series, "chart": chart, "illuminant": ill_name}
     inputs = {"filters": [s["name"] for s in filt], "illuminant": ill_name, "chart": chart}

@@ -14,7 +14,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import (callouts_fit, display_names, filter_labels, legend_below, legend_columns, legend_labels,
+from .common import (callouts_fit, display_names, ensure_axes_height, filter_labels, legend_below, legend_columns, legend_labels,
                      load_inputs, observer_label, spread_callouts)
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
@@ -43,6 +43,22 @@ def _label_cones(ax, wl, fundamentals, style):
     i_l = l_peak + int(np.argmin(np.abs(fundamentals[l_peak:, 0] - 0.8)))
     ax.annotate("L", xy=(wl[i_l], fundamentals[i_l, 0]), xytext=(4, 0), textcoords="offset points",
                 ha="left", va="center", fontsize=style.font_size, color=_CONE_GREY, gid="cone-label-L")
+
+
+def _callouts_clear(fig, labels, pad_pt: float = 2.0) -> bool:
+    """Whether the laid-out callouts stay inside the figure and apart from each other (measured)."""
+    from matplotlib.text import Text
+
+    fig.draw_without_rendering()
+    renderer = fig.canvas.get_renderer()
+    boxes = [Text.get_window_extent(a, renderer) for a in labels]
+    pad = pad_pt * fig.dpi / 72.0
+    inside = all(b.x0 >= fig.bbox.x0 and b.x1 <= fig.bbox.x1 and b.y1 <= fig.bbox.y1 for b in boxes)
+    apart = all(a.x1 + pad <= b.x0 or b.x1 + pad <= a.x0 or a.y1 <= b.y0 or b.y1 <= a.y0
+                for a, b in zip(boxes, boxes[1:])) and all(
+        not (a.x0 < b.x1 and b.x0 < a.x1 and a.y0 < b.y1 and b.y0 < a.y1)
+        for k, a in enumerate(boxes) for b in boxes[k + 1:])
+    return inside and apart
 
 
 def _cone_legend(base) -> str:
@@ -133,18 +149,22 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
                   for x, text, color in zip(label_pos, label_text, label_color)]
         ax_t.set_ylim(0, 104)
         ax_t.set_xlim(wl[0], wl[-1])
+        def notches_to_legend():
+            # Centre and FWHM go into the legend when the callouts cannot stand side by side.
+            by_gid = {line.get_gid(): line for line in ax_t.get_lines()}
+            for i in range(len(fs)):
+                line = by_gid[f"transmittance-{i}"]
+                if notches[i] and "FWHM" not in line.get_label():
+                    line.set_label(line.get_label() + "; " + ", ".join(
+                        f"{n['center']:.0f} nm, FWHM {n['fwhm']:.0f} nm" for n in notches[i]))
+
         # Notch labels stay above the panel while they fit side by side in one row; beyond that
         # they would overlap, so centre and FWHM go into the legend instead.
         if not callouts_fit(fig, ax_t, labels, pad_pt=7.0):
             for a in labels:
                 a.remove()
             labels, label_pos = [], []
-            by_gid = {line.get_gid(): line for line in ax_t.get_lines()}
-            for i in range(len(fs)):
-                line = by_gid[f"transmittance-{i}"]
-                if notches[i]:
-                    line.set_label(line.get_label() + "; " + ", ".join(
-                        f"{n['center']:.0f} nm, FWHM {n['fwhm']:.0f} nm" for n in notches[i]))
+            notches_to_legend()
         ax_t.set_yticks([0, 25, 50, 75, 100])
         ax_t.set_ylabel("Transmittance (%)")
 
@@ -169,27 +189,41 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
         ax_s.set_xlim(wl[0], wl[-1])
         ax_s.set_xticks(np.arange(400, wl[-1] + 1, 100))
         ax_s.set_xticks(np.arange(400, wl[-1] + 1, 50), minor=True)
-        handles, texts = [], []
-        for ax in (ax_t, ax_s):
-            h, t = ax.get_legend_handles_labels()
-            handles += h
-            texts += t
         from matplotlib.lines import Line2D
 
-        if any(notches):
-            handles.append(Line2D([], [], color=NEUTRAL["text"], lw=style.line_width * 2.2, marker="|",
-                                  markersize=style.marker_size * 1.6, markeredgewidth=style.line_width * 1.2,
-                                  solid_capstyle="butt"))
-            texts.append("notch: full width at half depth (FWHM)")
-        handles.append(Line2D([], [], color=_CONE_GREY, lw=style.line_width))
-        texts.append(_cone_legend(base))
-        texts = legend_labels(texts, width_mm, style.font_size)
-        legend_below(fig, ax_s, handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
-                     handlelength=2.6, columnspacing=1.2)
+        def legend():
+            handles, texts = [], []
+            for ax in (ax_t, ax_s):
+                h, t = ax.get_legend_handles_labels()
+                handles += h
+                texts += t
+            if any(notches):
+                handles.append(Line2D([], [], color=NEUTRAL["text"], lw=style.line_width * 2.2, marker="|",
+                                      markersize=style.marker_size * 1.6, markeredgewidth=style.line_width * 1.2,
+                                      solid_capstyle="butt"))
+                texts.append("notch: full width at half depth (FWHM)")
+            handles.append(Line2D([], [], color=_CONE_GREY, lw=style.line_width))
+            texts.append(_cone_legend(base))
+            texts = legend_labels(texts, width_mm, style.font_size)
+            legend_below(fig, ax_s, handles, texts, ncols=legend_columns(texts, width_mm, style.font_size,
+                                                                         max_cols=3),
+                         handlelength=2.6, columnspacing=1.2)
+
+        legend()
         finish(fig, style, title=title, caveat=caveat)
+        ensure_axes_height(fig, [ax_t, ax_s], 24.0 if width_mm < 120 else 30.0)
         # Twice: the second pass measures the labels in the layout the first pass produced.
         for _ in range(2):
             spread_callouts(fig, ax_t, labels, label_pos, pad_pt=7.0)
+        if labels and not _callouts_clear(fig, labels):
+            # measured in the final layout: they do not fit after all
+            for a in labels:
+                a.remove()
+            labels = []
+            notches_to_legend()
+            ax_s.get_legend().remove()
+            legend()
+            ensure_axes_height(fig, [ax_t, ax_s], 24.0 if width_mm < 120 else 30.0)
 
     data = {"wavelengths": wl, "transmittance": fs.transmittance, "filters": list(fs.names),
             "notches": [[{k: n[k] for k in ("center", "fwhm", "depth")} for n in ns] for ns in notches],

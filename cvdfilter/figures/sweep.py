@@ -24,7 +24,7 @@ import re
 import numpy as np
 
 from ..errors import InputError
-from .common import (legend_below, legend_columns, legend_labels, load_filters_checked, observer_label,
+from .common import (ensure_axes_height, legend_below, legend_columns, legend_labels, load_filters_checked, observer_label,
                      text_width_pt, wrap_to_width)
 from .metrics import RATIO_METRICS, metric_label, metric_values, scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
@@ -213,6 +213,7 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         if title and fixed:
             full_title = f"{title} ({', '.join(fixed)})"
         finish(fig, style, title=full_title, caveat=caveat)
+        ensure_axes_height(fig, list(axes), 22.0)
 
     data = {"x_key": x, "x": values[x], "parameters": values, "varying": varying, "panels": panels,
             "filters": list(fs.names)}
