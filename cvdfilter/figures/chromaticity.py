@@ -360,7 +360,7 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         flo, fhi = frame.min(axis=0), frame.max(axis=0)
         fpad = 0.05 * (fhi - flo)
         ax_all.set_xlim(flo[0] - fpad[0], fhi[0] + fpad[0])
-        ax_all.set_ylim(flo[1] - (2.5 if mb else 1.0) * fpad[1], fhi[1] + 1.6 * fpad[1])
+        ax_all.set_ylim(flo[1] - (4.0 if mb else 1.0) * fpad[1], fhi[1] + 1.6 * fpad[1])
         ax_all.set_xlabel(data["axis_labels"][0])
         ax_all.set_ylabel(data["axis_labels"][1])
         if not mb:
@@ -433,14 +433,14 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         # Panel titles wrapped to the panel's measured width and padded to the same line count, so the
         # panels of a row stay aligned.
         fig.draw_without_rendering()
-        wrapped = [wrap_to_width(t, zoom_axes[k].bbox.width * 72 / fig.dpi, style.font_size)
+        wrapped = [wrap_to_width(t, 0.92 * zoom_axes[k].bbox.width * 72 / fig.dpi, style.font_size)
                    for k, t in enumerate(zoom_titles)]
         for ax, t in zip(zoom_axes, pad_lines(wrapped)):
             ax.set_title(t, fontsize=style.font_size, loc="left")
         what = (f"{data['observer_label']}, {data['illuminant']}, {data['surfaces']} ({n_surf} surfaces"
                 + {"all": ")", "subset": f"; arrows for {min(n_arrows, n_surf)} spread over the diagram)",
                    "mean": "; arrows: mean shift per cell of a 4 x 4 grid)"}[mode])
-        ax_all.set_title(wrap_to_width(what, ax_all.bbox.width * 72 / fig.dpi, style.font_size), loc="left",
+        ax_all.set_title(wrap_to_width(what, 0.9 * ax_all.bbox.width * 72 / fig.dpi, style.font_size), loc="left",
                          fontsize=style.font_size)
         legend_items = [("without", "surface, no filter" if mode != "mean" else "mean of a cell, no filter"),
                         ("with", "with filter (adapted)"),

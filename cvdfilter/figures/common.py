@@ -171,15 +171,19 @@ def legend_below(fig, ax, handles, labels, *, ncols: int = 2, gap_pt: float = 3.
 
 
 def legend_axes(fig, spec, handles, labels, *, ncols: int = 2, **kwargs):
-    """A legend in its own (invisible) grid cell ``spec``, spanning the columns it is given.
+    """A legend in its own (invisible) grid cell ``spec``, centred on the figure's width.
 
     The cell gets a tiny height; constrained layout grows its margin to fit
-    the legend, centred under the panels it spans.
+    the legend. Centred on the figure (not on the cell, which the y labels
+    push to the right), so a legend as wide as the figure stays inside it.
     """
+    from matplotlib.transforms import blended_transform_factory
+
     ax = fig.add_subplot(spec)
     ax.set_axis_off()
-    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 1.0), ncols=ncols, borderaxespad=0,
-              **kwargs)
+    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 1.0),
+              bbox_transform=blended_transform_factory(fig.transFigure, ax.transAxes), ncols=ncols,
+              borderaxespad=0, **kwargs)
     return ax
 
 
@@ -259,8 +263,8 @@ def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int =
     labels = [str(t) for t in labels]
     if not labels:
         return 1
-    room = 0.96 * width_mm / 25.4 * 72
-    widths = [text_width_pt(t, font_size) + handle_pt for t in labels]
+    room = 0.92 * width_mm / 25.4 * 72
+    widths = [text_width_pt(t, font_size) * 1.05 + handle_pt for t in labels]
     best = 1
     for cols in range(1, min(max_cols, len(labels)) + 1):
         rows = -(-len(labels) // cols)
@@ -273,7 +277,9 @@ def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int =
 
 def legend_labels(labels, width_mm: float, font_size: float, *, handle_pt: float = 36.0) -> list[str]:
     """Labels wrapped so that each fits one legend column across the figure (never cut at the edge)."""
-    room = 0.96 * width_mm / 25.4 * 72 - handle_pt
+    # 10 % to spare: glyph advances are hinted differently at each raster resolution (a 110 dpi preview
+    # draws text up to 5 % wider than the 72 dpi layout measures it)
+    room = 0.9 * width_mm / 25.4 * 72 - handle_pt
     return [wrap_to_width(t, room, font_size) for t in labels]
 
 

@@ -65,7 +65,7 @@ def _wrap(text: str, width_mm: float, size_pt: float, *, weight: str = "normal")
     from .common import wrap_to_width
 
     with matplotlib.rc_context({"font.weight": weight}):
-        return wrap_to_width(text, 0.96 * width_mm / MM_PER_INCH * 72, size_pt)
+        return wrap_to_width(text, 0.93 * width_mm / MM_PER_INCH * 72, size_pt)
 
 
 def finish(fig, style: Style, *, title: str | None = None, caveat: str | None = None) -> None:

@@ -207,7 +207,7 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
             texts = legend_labels(texts, width_mm, style.font_size)
             legend_below(fig, ax_s, handles, texts, ncols=legend_columns(texts, width_mm, style.font_size,
                                                                          max_cols=3),
-                         handlelength=2.6, columnspacing=1.2)
+                         handlelength=2.6, columnspacing=1.2, center_on_figure=True)
 
         legend()
         finish(fig, style, title=title, caveat=caveat)

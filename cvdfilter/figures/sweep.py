@@ -207,7 +207,7 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         if max(len(p["lines"]) for p in panels) > 1 and seen:
             handles, texts = list(seen.values()), legend_labels(list(seen), width_mm, style.font_size)
             legend_below(fig, axes[-1], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
-                         handlelength=2.6, columnspacing=1.2)
+                         handlelength=2.6, columnspacing=1.2, center_on_figure=True)
         fixed = _fixed_text(values, varying)
         full_title = title
         if title and fixed:
