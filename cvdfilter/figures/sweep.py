@@ -28,7 +28,7 @@ from .common import (ensure_axes_height, legend_below, legend_columns, legend_la
                      text_width_pt, wrap_to_width)
 from .metrics import RATIO_METRICS, metric_label, metric_values, scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
-from .palette import NEUTRAL, series
+from .palette import NEUTRAL, OKABE_ITO, SeriesStyle, series
 from .style import Style
 
 __all__ = ["sweep_figure", "swept_parameters", "filter_parameters", "DEFAULT_SWEEP_METRICS", "HEATMAP_CMAP"]
@@ -43,6 +43,9 @@ _SHORT = {"fwhm": "FWHM"}
 _UNITS = {"center": "nm", "fwhm": "nm", "edge": "nm", "width": "nm", "depth": "", "od": "", "t": "", "order": ""}
 _NAMES = {"center": "Notch centre", "fwhm": "Notch FWHM", "depth": "Notch depth", "od": "Optical density",
           "edge": "Edge wavelength", "width": "Edge width (10-90 %)", "t": "Transmittance", "order": "Order"}
+
+
+_NEUTRAL_SERIES = SeriesStyle(OKABE_ITO["black"], "-", "o", "black")   # a filter property: plain black
 
 
 def swept_parameters(names) -> tuple[list[str], dict[str, np.ndarray]]:
@@ -173,7 +176,8 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         for ax, panel in zip(axes, panels):
             missing = []
             for k, line in enumerate(panel["lines"]):
-                st = styles[k] if len(panel["lines"]) > 1 else styles[0]
+                # a filter property (one line, no observer) in neutral black: it belongs to no observer's style
+                st = styles[k] if (len(panel["lines"]) > 1 or line["observer"]) else _NEUTRAL_SERIES
                 text = line["label"]
                 if line["observer"]:
                     from ..observers.observer import observer as make_observer
