@@ -435,13 +435,20 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         fig.draw_without_rendering()
         wrapped = [wrap_to_width(t, 0.92 * zoom_axes[k].bbox.width * 72 / fig.dpi, style.font_size)
                    for k, t in enumerate(zoom_titles)]
-        for ax, t in zip(zoom_axes, pad_lines(wrapped)):
-            ax.set_title(t, fontsize=style.font_size, loc="left")
         what = (f"{data['observer_label']}, {data['illuminant']}, {data['surfaces']} ({n_surf} surfaces"
                 + {"all": ")", "subset": f"; arrows for {min(n_arrows, n_surf)} spread over the diagram)",
                    "mean": "; arrows: mean shift per cell of a 4 x 4 grid)"}[mode])
-        ax_all.set_title(wrap_to_width(what, 0.9 * ax_all.bbox.width * 72 / fig.dpi, style.font_size), loc="left",
-                         fontsize=style.font_size)
+        what = wrap_to_width(what, 0.9 * ax_all.bbox.width * 72 / fig.dpi, style.font_size)
+        if width_mm >= 120:
+            # the overview stands in the zoomed panels' (first) row: all titles of that row get one line count
+            first_row = min(n_f, 2) if n_f > 2 else n_f
+            padded = pad_lines([what] + wrapped[:first_row])
+            what, wrapped = padded[0], padded[1:] + pad_lines(wrapped[first_row:])
+        else:
+            wrapped = pad_lines(wrapped)
+        for ax, t in zip(zoom_axes, wrapped):
+            ax.set_title(t, fontsize=style.font_size, loc="left")
+        ax_all.set_title(what, loc="left", fontsize=style.font_size)
         legend_items = [("without", "surface, no filter" if mode != "mean" else "mean of a cell, no filter"),
                         ("with", "with filter (adapted)"),
                         ("white", f"white ({data['illuminant']})"),
