@@ -173,9 +173,19 @@ class Report:
         if disc:
             rows.append(("Receptor noise", f"Weber fraction {disc.get('weber_fraction_l')} (L cone), cone ratios "
                                            f"L:M:S {':'.join(f'{v:g}' for v in disc.get('cone_ratios_lms', []))}"))
+            rows.append(("Discrimination thresholds",
+                         f"discriminable at Delta S >= {disc.get('threshold_jnd', 1.0):g} JND; distribution at "
+                         + ", ".join(f"{t:g}" for t in disc.get("distribution_thresholds_jnd", [])) + " JND"))
         conf = models.get("confusion")
         if conf:
-            rows.append(("Confusion tolerance", f"{conf.get('tolerance_ln')} (natural-log units; {conf.get('space')})"))
+            rows.append(("Confused pairs", f"Delta S >= {conf.get('normal_threshold_jnd', 1.0):g} JND for the normal "
+                                           f"observer and < {conf.get('deficient_threshold_jnd', 1.0):g} JND for the "
+                                           "deficient observer (receptor-noise model)"))
+        road = models.get("road_use")
+        if road:
+            limits = ", ".join(f"{k} {v:g}" for k, v in road["signal_limits"].items())
+            rows.append(("Signal-quotient limits", f"{limits} (reading '{road['signal_limits_reading']}': "
+                                                   f"{road['signal_limits_source']})"))
         for colour_name, v in c.get("signal_lights", {}).items():
             rows.append((f"Signal lights, {colour_name}",
                          f"limit {v['limit']:g}; " + ", ".join(f"{l['name']} ({l['kind']}: {l['source']})"
@@ -221,10 +231,19 @@ class Report:
         return header, rows
 
     #: Per-observer table: column groups (HTML spans them over their columns) and the columns.
+    # Costs (luminous transmittance, white shift, Rf for the normal observer) sit in the same row as every
+    # gain: a gain is never shown alone.
     _OBSERVER_GROUPS = (("", 1), ("contrast gain (with / without filter)", 3),
-                        ("discriminable surface pairs", 4), ("confused surface pairs", 4))
+                        ("discriminable surface pairs", 4), ("confused surface pairs", 4), ("", 1),
+                        ("costs of the filter", 3))
     _OBSERVER_COLUMNS = ("observer", "red-green", "blue-yellow", "luminance", "without filter", "with filter",
-                         "gained", "lost", "without filter", "with filter", "resolved", "created")
+                         "gained", "lost", "without filter", "with filter", "resolved", "created",
+                         "median \u0394S ratio", "luminous transmittance (%)", "white shift \u0394u\u2032v\u2032",
+                         "Rf (normal observer)")
+    _OBSERVER_FLAT = ("contrast gain: red-green", "contrast gain: blue-yellow", "contrast gain: luminance",
+                      "discriminable pairs: without", "with", "gained", "lost", "confused pairs: without", "with",
+                      "resolved", "created", "median Delta S ratio", "cost: luminous transmittance (%)",
+                      "cost: white shift du'v'", "cost: Rf (normal observer)")
 
     def _observer_rows(self) -> list[tuple[str, list]]:
         """Per filter: its name and one row per observer (readable observer label, then the numbers)."""
@@ -232,10 +251,15 @@ class Report:
 
         out = []
         for f in self.card["filters"]:
+            tv = f.get("luminous_transmittance")
+            costs = [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
+                     _fmt((f.get("rendition") or {}).get("rf"), 1)]
             rows = []
             for o in f["observers"]:
                 p = o.get("discriminable_pairs")
                 cp = o.get("confusion_pairs")
+                dist = o.get("delta_s_distribution")
+                ratio = cp["median_delta_s_ratio"] if cp else (dist or {}).get("median_ratio")
                 try:
                     who = observer_label(o["observer"])
                 except Exception:   # a label is cosmetic; the spec is always a valid name
@@ -243,16 +267,14 @@ class Report:
                 rows.append([who, _fmt(o.get("red_green_gain"), 3),
                              _fmt(o.get("blue_yellow_gain"), 3), _fmt(o.get("luminance_contrast_gain"), 3),
                              *(["-"] * 4 if not p else [p["without"], p["with"], p["gained"], p["lost"]]),
-                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]])])
+                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]]),
+                             _fmt(ratio, 3), *costs])
             out.append((f["name"], rows))
         return out
 
     def _observer_table(self) -> tuple[list, list]:
         """The per-observer numbers as one flat table (filter, observer, ...): for CSV-like uses."""
-        groups = ["contrast gain", "contrast gain", "contrast gain", "discriminable pairs", "discriminable pairs",
-                  "discriminable pairs", "discriminable pairs", "confused pairs", "confused pairs",
-                  "confused pairs", "confused pairs"]
-        header = ["filter", "observer"] + [f"{g}: {c}" for g, c in zip(groups, self._OBSERVER_COLUMNS[1:])]
+        header = ["filter", "observer", *self._OBSERVER_FLAT]
         return header, [[name, *r] for name, rows in self._observer_rows() for r in rows]
 
     def _observer_html(self) -> str:
@@ -272,8 +294,7 @@ class Report:
         return "\n".join(out)
 
     def _observer_markdown(self) -> list[str]:
-        header = ["observer", "red-green gain", "blue-yellow gain", "luminance gain", "discriminable pairs without",
-                  "with", "gained", "lost", "confused pairs without", "with", "resolved", "created"]
+        header = ["observer", *self._OBSERVER_FLAT]
         lines = []
         for name, rows in self._observer_rows():
             lines += [f"**{_md_cell(name)}**", "", *_md_table(header, rows), ""]
@@ -409,7 +430,7 @@ class Report:
         Everything is built in memory first and each file is written atomically,
         so bad input leaves nothing behind. Returns the paths written.
         """
-        from .io.atomic import check_outputs, write_bytes, write_text
+        from .io.atomic import check_outputs, check_writable, write_bytes, write_text
 
         path = pathlib.Path(path)
         suffix = path.suffix.lower()
@@ -421,6 +442,8 @@ class Report:
             text, files = self.to_markdown(folder)
             targets = {path.parent / rel: data for rel, data in files.items()}
             check_outputs([path, *targets], inputs)
+            for p in (path, *targets):  # refuse before the first file is written
+                check_writable(p)
             written = [write_bytes(p, data, inputs=inputs) for p, data in targets.items()]
             written.append(write_text(path, text, inputs=inputs))
             return written
@@ -431,10 +454,13 @@ class Report:
 # --- helpers ----------------------------------------------------------------------------------
 
 _OBSERVER_NOTE = ("Gains are the RMS contrast of the surfaces with the filter divided by that without it (1 = no "
-                  "change). Pairs are surface pairs: discriminable at 1 JND or more (receptor-noise model) and "
-                  "confused (on one confusion line of the observer's deficient axis), without and with the "
-                  "filter. '-' where a metric does not apply (no red-green axis for a dichromat, no confusion "
-                  "axis for a normal observer).")
+                  "change). Pairs are surface pairs in the receptor-noise model (Vorobyev & Osorio 1998): "
+                  "discriminable at the threshold named under Inputs (1 JND by default), and confused when the "
+                  "normal observer discriminates them and the deficient observer does not; the median Delta S "
+                  "ratio (over the pairs the normal observer discriminates, with / without the filter) needs no "
+                  "threshold. '-' where a metric does not apply (no red-green axis for a dichromat, no confused "
+                  "pairs for a normal observer). A gain is not a recommendation: a smooth tint can raise the "
+                  "red-green gain as much as a notch; every gain is printed beside its costs.")
 
 _CSS = """
 body{font-family:"DejaVu Sans",Arial,Helvetica,sans-serif;font-size:15px;line-height:1.45;color:#222;margin:0;
@@ -451,7 +477,8 @@ th,td{border:1px solid #ccc;padding:.2rem .4rem;text-align:left;vertical-align:t
 th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
 td.mono{font-family:"DejaVu Sans Mono",monospace;font-size:.72rem;word-break:break-all}
 table.kv th{width:12rem}
-table.observers td.num,table.observers td:first-child{white-space:nowrap}table.observers th.group{text-align:center}
+table.observers{font-size:.76rem}table.observers td.num,table.observers td:first-child{white-space:nowrap}
+table.observers th,table.observers td{padding:.15rem .3rem}table.observers th.group{text-align:center}
 table.observers tr.filter th{background:#fafafa;font-weight:bold;text-align:left;word-break:break-word}
 pre{background:#f6f6f6;padding:.6rem;overflow-x:auto;font-size:.8rem;white-space:pre-wrap;word-break:break-all}
 figure{margin:1.2rem 0;padding:0}figure svg{width:100%;height:auto;display:block}
@@ -586,20 +613,43 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
         lambda: figure("spectrum", fs, observers=["normal", *anomalous], **{k: v for k, v in common.items()
                                                                             if k != "adaptation"}), limit=16)
     if deficient:
-        add("chromaticity", f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} "
-                            f"without and with each filter (adaptation {adaptation}), with the {deficient} "
-                            "observer's copunctal point and confusion lines; above 24 surfaces, arrows are drawn "
-                            "for 24 spread over the diagram and the others are dots.",
-            lambda: figure("chromaticity", fs, observers=deficient, surfaces=surfaces, **common), limit=4)
+        # A filter that passes no light to a cone has no chromaticity: it is left out of this figure, and
+        # said so in the caption (or in a note when no filter is left).
+        from .figures.chromaticity import unlit_cones
+
+        unlit = unlit_cones(fs, illuminant=illuminant, observer=deficient)
+        keep = [i for i, name in enumerate(fs.names) if name not in unlit]
+        left_out = "; ".join(f"{name} (no light for the {', '.join(cones)} cone{'s' if len(cones) > 1 else ''})"
+                             for name, cones in unlit.items())
+        caption = (f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} without and "
+                   f"with each filter (adaptation {adaptation}), with the {deficient} observer's copunctal point "
+                   "and confusion lines; above 24 surfaces, arrows are drawn for 24 spread over the diagram and the "
+                   "others are dots." + (f" Left out, having no chromaticity: {left_out}." if unlit else ""))
+        if keep:
+            add("chromaticity", caption, lambda: figure("chromaticity", _subset(fs, keep), observers=deficient,
+                                                        surfaces=surfaces, **common), limit=4)
+        else:
+            figs.append(ReportFigure("chromaticity", caption, note=f"The chromaticity figure is left out: no "
+                                                                   f"filter has a chromaticity ({left_out})."))
     add("gains", "Red-green, blue-yellow and luminance contrast gains (with / without the filter, log scale) "
                  "and discriminable surface pairs gained and lost, per observer.",
         lambda: figure("gains", fs, observers=observers, surfaces=surfaces, card=card, **common), limit=8)
     if deficient:
-        first = fs.names[0]
-        add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
-                        f"{deficient} observer (simulated for a normal viewer), without and with {first}"
-                        + (" (the first filter)" if n > 1 else "") + ".",
-            lambda: figure("swatches", _one(fs, 0), observers=deficient, surfaces=surfaces, **common))
+        # the first filter that lets every cone see some light (adapting to a black filter is undefined)
+        from .observers.spaces import parse_adaptation
+
+        lit = keep if parse_adaptation(adaptation) > 0 else list(range(n))
+        if lit:
+            first = fs.names[lit[0]]
+            add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
+                            f"{deficient} observer (simulated for a normal viewer), without and with {first}"
+                            + (" (the first filter)" if n > 1 and lit[0] == 0 else "")
+                            + (" (the first filter with light for every cone)" if lit[0] > 0 else "") + ".",
+                lambda: figure("swatches", _one(fs, lit[0]), observers=deficient, surfaces=surfaces, **common))
+        else:
+            figs.append(ReportFigure("swatches", "Surface colours without and with the filter.",
+                                     note=f"The swatches figure is left out: no filter passes light to every cone "
+                                          f"({left_out}), so there is nothing to adapt to."))
     from .figures.sweep import filter_parameters
 
     varying, _ = filter_parameters(fs) if n >= 3 else ([], {})
@@ -619,9 +669,15 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
 
 
 def _one(fs, i):
+    return _subset(fs, [i])
+
+
+def _subset(fs, keep):
     from .spectra.filters import FilterSet
 
-    return FilterSet((fs.names[i],), fs.transmittance[i:i + 1], fs.grid, fs.sources[i:i + 1], fs.info[i:i + 1])
+    return FilterSet(tuple(fs.names[i] for i in keep), fs.transmittance[keep], fs.grid,
+                     tuple(fs.sources[i] for i in keep) if fs.sources else (),
+                     tuple(fs.info[i] for i in keep) if fs.info else ())
 
 
 def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = "ces99", adaptation="full",

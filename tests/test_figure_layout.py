@@ -8,7 +8,7 @@ at final size (common practice; the issue asks for it).
 
 The default run covers every kind, count, name length and width at least once (a covering subset of the
 matrix); ``CVDFILTER_FULL_LAYOUT=1`` runs the full matrix. Scorecards are computed once per filter set
-(ColorChecker surfaces, three observers) and reused.
+(the 24-patch chart set, three observers) and reused.
 """
 
 from __future__ import annotations
@@ -58,7 +58,7 @@ def _card(n: int, length: str) -> dict:
     if key not in _CARDS:
         from cvdfilter.scorecard import score
 
-        _CARDS[key] = score(_filterset(n, length), observers=OBSERVERS, surfaces="colorchecker",
+        _CARDS[key] = score(_filterset(n, length), observers=OBSERVERS, surfaces="chart24",
                             metrics="core").to_dict()
     return _CARDS[key]
 
@@ -73,7 +73,7 @@ def _sweep_card(n: int) -> dict:
     if key not in _CARDS:
         from cvdfilter.scorecard import score
 
-        _CARDS[key] = score(_SWEEPS[n], observers=OBSERVERS, surfaces="colorchecker", metrics="core").to_dict()
+        _CARDS[key] = score(_SWEEPS[n], observers=OBSERVERS, surfaces="chart24", metrics="core").to_dict()
     return _CARDS[key]
 
 
@@ -91,7 +91,7 @@ def _small_image():
 
 def _make(kind: str, n: int, length: str, width: str):
     if kind == "sweep":
-        return figure("sweep", _SWEEPS[n], observers=OBSERVERS, surfaces="colorchecker", width=width,
+        return figure("sweep", _SWEEPS[n], observers=OBSERVERS, surfaces="chart24", width=width,
                       card=_sweep_card(n))
     fs = _filterset(n, length)
     if kind == "spectrum":
@@ -100,11 +100,11 @@ def _make(kind: str, n: int, length: str, width: str):
         return figure("chromaticity", fs, observers="deuteranope", surfaces="ces99", illuminant="FL2",
                       width=width)
     if kind == "gains":
-        return figure("gains", fs, observers=OBSERVERS, surfaces="colorchecker", width=width, card=_card(n, length))
+        return figure("gains", fs, observers=OBSERVERS, surfaces="chart24", width=width, card=_card(n, length))
     if kind == "hues":
         return figure("hues", fs, width=width)
     if kind == "swatches":
-        return figure("swatches", fs, observers="deuteranope", surfaces="colorchecker", width=width)
+        return figure("swatches", fs, observers="deuteranope", surfaces="chart24", width=width)
     if kind == "images":
         return figure("images", fs, observers="protanomalous:shift=16", width=width,
                       image=None if (length, width) == ("long", "double") else _small_image())

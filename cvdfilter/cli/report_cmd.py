@@ -20,7 +20,7 @@ def register(app: typer.Typer) -> None:
         observer: Optional[List[str]] = typer.Option(
             None, "--observer", help="Observer spec; repeat for several (default: normal, protanomalous, "
                                      "deuteranomalous, protanope, deuteranope)."),
-        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, colorchecker, tcs14, vs15 or a file."),
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15 or a file."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a fraction 0-1 (von Kries)."),
         metrics: str = typer.Option("all", "--metrics", help="all, core or a comma-separated list of groups."),
         style: Optional[List[str]] = typer.Option(None, "--style",
@@ -33,7 +33,7 @@ def register(app: typer.Typer) -> None:
 
         Example: cvdfilter report larkhill-notch-575 larkhill-double-notch -o report.html
 
-        Example: cvdfilter report lens.csv --observer deuteranomalous --surfaces colorchecker -o report.md
+        Example: cvdfilter report lens.csv --observer deuteranomalous --surfaces chart24 -o report.md
         """
         import pathlib
 

@@ -101,6 +101,9 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
     fs = load_filters_checked(filters)
     if len(fs) != 1:
         raise InputError(f"{len(fs)} filters: the images figure shows one filter", hint="one figure per filter")
+    from .chromaticity import check_adaptable
+
+    check_adaptable(fs, illuminant=illuminant, observer=observers[0], adaptation=adaptation)
     source = default_image() if image is None else image
     rendered = render_views(source if not isinstance(source, pathlib.Path) else str(source), filter=fs,
                             observer=observers[0], illuminant=illuminant, adaptation=adaptation, views=VIEWS)

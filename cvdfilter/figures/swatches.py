@@ -32,7 +32,7 @@ _MAX_PER_LINE = 30
 _OUT_TOL = 0.5 / 255  # out of gamut: more than half an 8-bit code value outside 0-1
 
 
-def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surfaces="colorchecker",
+def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surfaces="chart24",
                    adaptation="full") -> dict:
     """Linear and 8-bit sRGB of every surface in the four swatch rows.
 
@@ -50,6 +50,9 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
     fs, obs, surf, ill = got["filters"], got["observers"][0], got["surfaces"], got["illuminant"]
     if len(fs) != 1:
         raise InputError(f"{len(fs)} filters: the swatches figure shows one filter", hint="one figure per filter")
+    from .chromaticity import check_adaptable
+
+    check_adaptable(fs, illuminant=ill, observer=obs, adaptation=adaptation)
     views = [v for v, _ in SWATCH_ROWS]
     linear, srgb8, clipped = {}, {}, {}
     for v in views:
@@ -75,7 +78,7 @@ def _row_image(rgb8: np.ndarray, per_line: int, gap: int = 1, cell: int = 10) ->
     return img
 
 
-def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="colorchecker",
+def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="chart24",
                     adaptation="full", style: Style | None = None, width_mm: float = 89.0,
                     height_mm: float | None = None, title: str | None = None,
                     caveat: str | None = None) -> FigureResult:
@@ -88,7 +91,7 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
     observers : sequence of str
         One observer (default deuteranope).
     surfaces : str
-        Surface set (default the 24-patch ColorChecker).
+        Surface set (default chart24, the 24-patch chart).
 
     Returns
     -------

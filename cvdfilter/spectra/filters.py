@@ -326,11 +326,11 @@ def _sha256(path: pathlib.Path) -> str:
 def _narrow_feature_warnings(wl, values, names) -> list[str]:
     """Warnings for features spanning fewer than three samples (find_notches on each curve).
 
-    find_notches needs scipy.signal, whose import takes seconds; the warnings are
-    kept in the on-disk cache by the curves' content, so reading a file again
-    (or a bundled example) does not import it.
+    The warnings are remembered in memory (never on disk: they are results on
+    a user's data) by the curves' content, so reading a file again in the same
+    process does not repeat the work.
     """
-    from .cache import cached_arrays
+    from .cache import memo_arrays
 
     def build():
         notes = []
@@ -343,7 +343,7 @@ def _narrow_feature_warnings(wl, values, names) -> list[str]:
     wl = np.ascontiguousarray(wl, dtype=float)
     values = np.ascontiguousarray(values, dtype=float)
     key = hashlib.sha1(wl.tobytes() + values.tobytes() + "\x00".join(names).encode()).hexdigest()
-    return [str(x) for x in cached_arrays(f"narrow-features-{key}", build)["notes"]]
+    return [str(x) for x in memo_arrays(f"narrow-features-{key}", build)["notes"]]
 
 
 def _from_file(path: pathlib.Path, grid: Grid, units: str | None, bandwidth: float | None,
