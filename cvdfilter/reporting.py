@@ -231,22 +231,22 @@ class Report:
         return header, rows
 
     #: Per-observer table: column groups (HTML spans them over their columns) and the columns.
-    # Costs (luminous transmittance, white shift, Rf for the normal observer) sit in the same row as every
-    # gain: a gain is never shown alone.
+    # Costs (luminous transmittance, white shift, Rf for the normal observer) are the filter's, the same for
+    # every observer: they head each filter's group of rows (and sit in every row of the flat table), so a
+    # gain is never shown alone.
     _OBSERVER_GROUPS = (("", 1), ("contrast gain (with / without filter)", 3),
-                        ("discriminable surface pairs", 4), ("confused surface pairs", 4), ("", 1),
-                        ("costs of the filter", 3))
+                        ("discriminable surface pairs", 4), ("confused surface pairs", 4), ("", 1))
     _OBSERVER_COLUMNS = ("observer", "red-green", "blue-yellow", "luminance", "without filter", "with filter",
                          "gained", "lost", "without filter", "with filter", "resolved", "created",
-                         "median \u0394S ratio", "luminous transmittance (%)", "white shift \u0394u\u2032v\u2032",
-                         "Rf (normal observer)")
+                         "median \u0394S ratio")
     _OBSERVER_FLAT = ("contrast gain: red-green", "contrast gain: blue-yellow", "contrast gain: luminance",
                       "discriminable pairs: without", "with", "gained", "lost", "confused pairs: without", "with",
                       "resolved", "created", "median Delta S ratio", "cost: luminous transmittance (%)",
                       "cost: white shift du'v'", "cost: Rf (normal observer)")
 
     def _observer_rows(self) -> list[tuple[str, list]]:
-        """Per filter: its name and one row per observer (readable observer label, then the numbers)."""
+        """Per filter: its name, its costs and one row per observer (readable observer label, the numbers, then
+        the filter's three costs repeated)."""
         from .observers.labels import observer_label
 
         out = []
@@ -269,13 +269,19 @@ class Report:
                              *(["-"] * 4 if not p else [p["without"], p["with"], p["gained"], p["lost"]]),
                              *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]]),
                              _fmt(ratio, 3), *costs])
-            out.append((f["name"], rows))
+            out.append((f["name"], costs, rows))
         return out
+
+    @staticmethod
+    def _costs_text(costs) -> str:
+        tv, ws, rf = costs
+        return (f"costs: luminous transmittance {tv} %, white shift \u0394u\u2032v\u2032 {ws}, "
+                f"Rf (normal observer) {rf}")
 
     def _observer_table(self) -> tuple[list, list]:
         """The per-observer numbers as one flat table (filter, observer, ...): for CSV-like uses."""
         header = ["filter", "observer", *self._OBSERVER_FLAT]
-        return header, [[name, *r] for name, rows in self._observer_rows() for r in rows]
+        return header, [[name, *r] for name, _, rows in self._observer_rows() for r in rows]
 
     def _observer_html(self) -> str:
         """Grouped headers, a full-width row naming each filter, then its observers (no filter column:
@@ -285,19 +291,22 @@ class Report:
         out = ['<table class="observers">', "<thead><tr>" + "".join(
             f'<th colspan="{span}" class="group">{e(g)}</th>' for g, span in self._OBSERVER_GROUPS) + "</tr>",
                "<tr>" + "".join(f"<th>{e(c)}</th>" for c in self._OBSERVER_COLUMNS) + "</tr></thead>", "<tbody>"]
-        for name, rows in self._observer_rows():
-            out.append(f'<tr class="filter"><th colspan="{n_cols}" scope="rowgroup">{e(name)}</th></tr>')
+        for name, costs, rows in self._observer_rows():
+            out.append(f'<tr class="filter"><th colspan="{n_cols}" scope="rowgroup">{e(name)} '
+                       f'<span class="costs">\u2014 {e(self._costs_text(costs))}</span></th></tr>')
             for r in rows:
+                r = r[:n_cols]
                 out.append("<tr>" + "".join(f'<td class="num">{e(str(v))}</td>' if _is_number(v) and j else
                                             f"<td>{e(str(v))}</td>" for j, v in enumerate(r)) + "</tr>")
         out += ["</tbody>", "</table>"]
         return "\n".join(out)
 
     def _observer_markdown(self) -> list[str]:
-        header = ["observer", *self._OBSERVER_FLAT]
+        header = ["observer", *self._OBSERVER_FLAT[:len(self._OBSERVER_COLUMNS) - 1]]
         lines = []
-        for name, rows in self._observer_rows():
-            lines += [f"**{_md_cell(name)}**", "", *_md_table(header, rows), ""]
+        for name, costs, rows in self._observer_rows():
+            lines += [f"**{_md_cell(name)}** \u2014 {self._costs_text(costs)}", "",
+                      *_md_table(header, [r[:len(header)] for r in rows]), ""]
         return lines
 
     def _numbered(self) -> list[tuple]:
@@ -478,7 +487,7 @@ th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
 td.mono{font-family:"DejaVu Sans Mono",monospace;font-size:.72rem;word-break:break-all}
 table.kv th{width:12rem}
 table.observers{font-size:.76rem}table.observers td.num,table.observers td:first-child{white-space:nowrap}
-table.observers th,table.observers td{padding:.15rem .3rem}table.observers th.group{text-align:center}
+table.observers th,table.observers td{padding:.15rem .3rem}table.observers .costs{font-weight:normal}table.observers th.group{text-align:center}
 table.observers tr.filter th{background:#fafafa;font-weight:bold;text-align:left;word-break:break-word}
 pre{background:#f6f6f6;padding:.6rem;overflow-x:auto;font-size:.8rem;white-space:pre-wrap;word-break:break-all}
 figure{margin:1.2rem 0;padding:0}figure svg{width:100%;height:auto;display:block}
