@@ -381,7 +381,7 @@ class Renderer:
             fs = load_filters(filter, grid=grid)
             if len(fs) != 1:
                 raise InputError(f"describes {len(fs)} filters; rendering takes one", source=str(filter),
-                                 hint="give a single filter (no sweep, no list)")
+                                 hint="give a single filter (no sweep, no list); pick one column of a file with FILE:COLUMN or FILE:N, e.g. lenses.csv:2")
             self.filter_name = fs.names[0]
             self.transmittance = np.asarray(fs.transmittance[0], dtype=float)
         self.scene, self.stimuli, self.display = _scene(scene, self.illuminant.spd, self.normal, grid)

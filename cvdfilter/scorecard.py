@@ -176,6 +176,14 @@ class Scorecard:
         where = info.get("path") or info.get("spec")
         if where:
             d["input"] = where
+        if info.get("column_number") is not None:  # files: the path and column each filter came from
+            d["source"] = {"kind": d["source"], "path": info["path"], "column": info.get("column"),
+                           "column_number": info["column_number"], "units": info.get("units"),
+                           "units_reason": info.get("units_reason")}
+        extrapolated = list(info.get("extrapolated", []))
+        for part in info.get("parts") or []:
+            extrapolated += part.get("extrapolated", [])
+        d["extrapolated"] = extrapolated
         if info.get("sha256"):
             d["sha256"] = info["sha256"]
         warnings = list(info.get("warnings", []))

@@ -6,7 +6,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import fail
+from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options, input_files
 
 _KINDS_HELP = "spectrum, chromaticity, gains, hues, swatches, images or sweep"
 
@@ -42,6 +42,9 @@ def register(app: typer.Typer) -> None:
         image: Optional[str] = typer.Option(None, "--image", help="images: the image to render "
                                                                   "(default: the bundled synthetic scene)."),
         chart: Optional[str] = typer.Option(None, "--chart", help="hues: bar (default) or radial."),
+        # -- file reading: units and bandwidth of filter files --
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
     ) -> None:
         """Make one figure for a paper and write it as PDF, SVG or PNG.
 
@@ -72,10 +75,11 @@ def register(app: typer.Typer) -> None:
             from ..figures.output import format_of
 
             format_of(pathlib.Path(output), None)
-            result = make_figure(kind, filters, illuminant=illuminant, observers=observer or None,
+            filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
+            result = make_figure(kind, filter_specs, illuminant=illuminant, observers=observer or None,
                                  surfaces=surfaces, adaptation=adaptation, width=width, height=height,
                                  style=style or None, title=title, caveat=not no_caveat, **options)
-            inputs = [f for f in filters if pathlib.Path(f).exists()]
+            inputs = input_files(filters)
             inputs += [p for p in (style or []) if pathlib.Path(p).exists()]
             if image:
                 inputs.append(image)

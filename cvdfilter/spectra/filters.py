@@ -58,7 +58,7 @@ SPEC_FORMS = {
 #: How files are named in a spec, shown by ``cvdfilter list filters`` (docs/getting-started.md).
 FILE_FORMS = {
     "PATH": "a curve file; every value column is a filter, named by the file stem (one column) or stem:column",
-    "PATH:COLUMN": 'one column by its header, e.g. lenses.csv:"Lens A" (quotes optional in the shell\'s quotes)',
+    "PATH:COLUMN": "one column by its header, e.g. 'lenses.csv:Lens A' or lenses.csv:\"Lens A\"",
     "PATH:N": "one column by number, counting value columns from 1 (the wavelength column is not counted)",
     "PATH@units=U": "this file's units: fraction, percent or od (overrides --units)",
     "PATH@bandwidth=NM": "this file's instrument bandwidth, nm (Stearns & Stearns correction)",
