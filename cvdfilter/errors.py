@@ -51,7 +51,8 @@ def did_you_mean(word, choices, *, n: int = 3, cutoff: float = 0.6) -> str:
     matches = difflib.get_close_matches(str(word).lower(), list(lower), n=n, cutoff=cutoff)
     if not matches:
         return ""
-    return "did you mean " + " or ".join(f"'{lower[m]}'" for m in matches) + "?"
+    quoted = [f"'{lower[m]}'" for m in matches]
+    return "did you mean " + (", ".join(quoted[:-1]) + " or " if len(quoted) > 1 else "") + quoted[-1] + "?"
 
 
 class InputWarning(UserWarning):

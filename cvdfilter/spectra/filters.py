@@ -31,6 +31,7 @@ import hashlib
 import itertools
 import math
 import pathlib
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -281,7 +282,22 @@ def _check_members(n: int, spec: str, grid: Grid) -> None:
                          hint="use coarser sweep steps or split the sweep")
 
 
+def _parametric_count(term: str, spec: str) -> int:
+    """How many filters a parametric term describes, without building them."""
+    kind, params, _ = _parametric_params(term, spec)
+    return math.prod(_count(params[k], k, spec) for k in params)
+
+
 def _parametric(term: str, spec: str, grid: Grid) -> FilterSet:
+    kind, params, words = _parametric_params(term, spec)
+    keys = sorted(params)
+    n_total = math.prod(_count(params[k], k, spec) for k in keys)
+    _check_members(n_total, spec, grid)
+    values = {k: _parse_value(params[k], k, spec) for k in keys}
+    return _build_parametric(kind, keys, values, words, spec, grid)
+
+
+def _parametric_params(term: str, spec: str):
     kind, _, rest = term.partition(":")
     kind = kind.strip().lower()
     required, optional = _KINDS[kind]
@@ -314,10 +330,10 @@ def _parametric(term: str, spec: str, grid: Grid) -> FilterSet:
         if len(given) != 1:
             raise InputError(f"{kind} needs exactly one of {' or '.join(sorted(strength))}", source=spec,
                              hint=SPEC_FORMS[kind])
-    keys = sorted(params)
-    n_total = math.prod(_count(params[k], k, spec) for k in keys)
-    _check_members(n_total, spec, grid)
-    values = {k: _parse_value(params[k], k, spec) for k in keys}
+    return kind, params, words
+
+
+def _build_parametric(kind, keys, values, words, spec, grid):
     combos = np.array(list(itertools.product(*(values[k] for k in keys))), dtype=float).reshape(-1, len(keys))
     p = {k: combos[:, i] for i, k in enumerate(keys)}
     _check_ranges(kind, p, spec)
@@ -451,13 +467,14 @@ def file_term(term: str) -> FileTerm | None:
     """Parse one stack term as a file (or bundled example) with optional column and options; None if it is not."""
     term = term.strip()
     options: dict = {}
-    base = term
-    found = _split_path_column(term)
-    if found is None and "@" in term:
+    found = None
+    if "@" in term and not pathlib.Path(term).exists():
         base, _, opts = term.rpartition("@")
         found = _split_path_column(base)
         if found is not None:
             options = _parse_options(opts, term)
+    if found is None:
+        found = _split_path_column(term)
     if found is None:
         return None
     path, column, example = found
@@ -680,6 +697,8 @@ def parse_filter_spec(spec: str, grid: Grid = DEFAULT_GRID, *, units: str | None
     if any(not t for t in terms):
         raise InputError("empty term in a stack ('*' with nothing on one side)", source=spec,
                          hint="stack filters as A*B, e.g. notch:center=575,fwhm=35,depth=0.8*nd:t=0.5")
+    counts = [_parametric_count(t, spec) if _is_parametric(t) else 1 for t in terms]
+    _check_members(math.prod(counts), spec, grid)  # before anything is built
     result: FilterSet | None = None
     for term in terms:
         part = _term(term, spec, grid, units, bandwidth)
@@ -687,6 +706,12 @@ def parse_filter_spec(spec: str, grid: Grid = DEFAULT_GRID, *, units: str | None
             _check_members(len(result) * len(part), spec, grid)
         result = part if result is None else result.stack(part)
     return result
+
+
+def _is_parametric(term: str) -> bool:
+    kind = term.partition(":")[0].strip().lower()
+    return kind in _KINDS and (":" in term or kind == "nd") and not pathlib.Path(term).exists() \
+        and "@" not in term
 
 
 def _term(term: str, spec: str, grid: Grid, units, bandwidth) -> FilterSet:
@@ -705,7 +730,8 @@ def _term(term: str, spec: str, grid: Grid, units, bandwidth) -> FilterSet:
         if "@" in term:
             raise InputError("'@' options apply to files, not to parametric filters", source=spec)
         return _parametric(term, spec, grid)
-    if any(ch in term for ch in "/\\") or path.suffix:
+    looks_parametric = ":" in term and "=" in term.partition(":")[2] and re.fullmatch(r"[A-Za-z_-]+", kind)
+    if not looks_parametric and (any(ch in term for ch in "/\\") or path.suffix):
         raise InputError("no such file", source=clip_text(term.partition("@")[0], 200))
     close = did_you_mean(kind if ":" in term else term, list(_KINDS) + example_names())
     raise InputError(f"unknown filter '{clip_text(term)}'" + (f"; {close}" if close else ""), source=spec,
