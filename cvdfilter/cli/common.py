@@ -16,7 +16,7 @@ from ..errors import InputError
 from ..tables import csv_text, markdown_table, text_table
 
 __all__ = ["fail", "warn", "emit", "to_json", "table_text", "csv_text", "markdown_table", "FORMATS",
-           "resolve_format", "file_options", "input_files", "UNITS_HELP", "BANDWIDTH_HELP", "FORMAT_SUFFIXES"]
+           "resolve_format", "file_options", "flush_warnings", "input_files", "UNITS_HELP", "BANDWIDTH_HELP", "FORMAT_SUFFIXES"]
 
 FORMATS = ("table", "json", "csv", "markdown")
 #: Output formats told by the -o file's extension (shared/CONVENTIONS.md: --format, else the extension).
@@ -76,13 +76,24 @@ def input_files(filters) -> list[str]:
     return [p for f in items for p in spec_paths(f)]
 
 
+_PENDING: list = []
+
+
 def _show_warning(message, category, filename, lineno, file=None, line=None):
     from ..errors import InputWarning
 
     if issubclass(category, InputWarning):
-        typer.echo(f"cvdfilter: warning: {message}", err=True)
+        text = f"cvdfilter: warning: {message}"
+        if text not in _PENDING:
+            _PENDING.append(text)
     else:
         _ORIGINAL_SHOWWARNING(message, category, filename, lineno, file, line)
+
+
+def flush_warnings() -> None:
+    """Print the input warnings collected so far (one line each); called when a command ends."""
+    while _PENDING:
+        typer.echo(_PENDING.pop(0), err=True)
 
 
 # The command line prints input warnings (extrapolation, clipping) as one line each.
@@ -93,6 +104,7 @@ warnings.showwarning = _show_warning
 def fail(message: str | Exception, code: int = 2) -> None:
     """Print a one-line error to stderr and exit with ``code`` (2 = bad input)."""
     text = " ".join(str(message).split())
+    _PENDING.clear()  # a failed command prints its one error line, not the warnings of inputs it never used
     typer.echo(f"cvdfilter: error: {text}", err=True)
     raise typer.Exit(code)
 

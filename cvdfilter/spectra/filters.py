@@ -856,8 +856,9 @@ RIPPLE_MIN_COUNT = 3
 #: Dips wider than this at half depth are a tint's broad absorption, not a notch (common practice: notch
 #: filters for colour vision are tens of nm wide).
 BROAD_DIP_NM = 100.0
-#: A feature needs at least this many samples below its half-depth level to be told from one bad sample.
-MIN_SAMPLES_BELOW_HALF = 2
+#: A dip must lie more than the detection threshold below its baseline on at least this many samples to be
+#: told from one bad sample.
+MIN_SAMPLES_DEEP = 2
 
 
 def noise_level(transmittance) -> float:
@@ -960,10 +961,11 @@ def _notch(wl, t, a, b, thr, step):
         level = base - depth / 2
     if base is not None:
         shoulder = float(base[i])
-    below = int(np.sum((wl >= lo) & (wl <= hi) & (t <= level)))
-    if below < MIN_SAMPLES_BELOW_HALF or (hi - lo) < step:
-        return {"ignored": f"dip at {(lo + hi) / 2:.1f} nm spans {below} sample(s) below half depth: "
-                           f"narrower than the {step:g} nm sampling, taken as noise"}
+    base_line = base if base is not None else np.full(t.shape, shoulder)
+    deep = int(np.sum((base_line - t) >= thr))
+    if deep < MIN_SAMPLES_DEEP or (hi - lo) < step:
+        return {"ignored": f"dip at {(lo + hi) / 2:.1f} nm lies on {deep} sample(s): narrower than the "
+                           f"{step:g} nm sampling, taken as noise"}
     return {"kind": "notch", "center": float((lo + hi) / 2), "fwhm": float(hi - lo),
             "depth": float(1 - tmin / shoulder) if shoulder > 0 else 0.0,
             "depth_abs": float(shoulder - tmin), "baseline": shoulder, "min_transmittance": tmin,
@@ -1006,8 +1008,8 @@ def find_features(wavelengths, transmittance, *, min_prominence: float = 0.05,
 
     Dips shallower than ``max(min_prominence, NOISE_SIGMAS * noise_level)``
     are ignored, and so are dips with fewer than
-    :data:`MIN_SAMPLES_BELOW_HALF` samples below half depth or narrower than
-    the sampling (a single bad sample is not a notch).
+    :data:`MIN_SAMPLES_DEEP` samples deeper than the threshold or narrower
+    than the sampling (a single bad sample is not a notch).
 
     Parameters
     ----------
