@@ -591,7 +591,8 @@ def _cone_basis(observers):
 
 def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="ces99", adaptation="full",
           metrics="all", signal_spectra=None, grid=None, confusion_tolerance: float = CONFUSION_TOLERANCE,
-          weber_fraction: float = WEBER_FRACTION, cone_ratios=CONE_RATIOS, progress=None) -> Scorecard:
+          weber_fraction: float = WEBER_FRACTION, cone_ratios=CONE_RATIOS, progress=None,
+          units: str | None = None, bandwidth: float | None = None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -629,6 +630,10 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         L:M:S cone numbers of the receptor-noise model.
     progress : callable, optional
         ``progress(stage, done, total)``; stages ``filters`` and ``rendition``.
+    units, bandwidth : optional
+        Units (``fraction``, ``percent``, ``od``) and instrument bandwidth (nm) of
+        filter files that do not set their own (``FILE@units=od``); see
+        :func:`cvdfilter.load_filters`.
 
     Returns
     -------
@@ -678,7 +683,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     except ValueError as exc:
         raise InputError(str(exc)) from None
     del noise_check
-    fs = load_filters(filters, grid=grid)
+    fs = load_filters(filters, grid=grid, units=units, bandwidth=bandwidth)
     ill = make_illuminant(illuminant, grid)
     surf = surface_set(surfaces, grid)
     obs = [make_observer(o, grid) for o in observers]
