@@ -33,7 +33,8 @@ BANDWIDTH_HELP = ("Instrument bandwidth of filter files, nm (0-20): apply the St
 def resolve_format(format: str | None, output: str | None, allowed=FORMATS, default: str = "table") -> str:
     """The output format: ``--format`` if given, else the ``-o`` file's extension, else ``default``.
 
-    A ``--format`` that contradicts the extension (``--format json -o x.csv``) is refused,
+    A ``--format`` that contradicts the extension (``--format json -o x.csv``) is refused (``.txt``
+    takes any format),
     and so is an -o extension that names a format this command cannot write.
     """
     import pathlib
@@ -49,7 +50,7 @@ def resolve_format(format: str | None, output: str | None, allowed=FORMATS, defa
         if told not in allowed:
             raise InputError(f"cannot write {told} here", source=output, hint=f"use one of {', '.join(allowed)}")
         return told
-    if told is not None and told != format:
+    if told is not None and told != format and pathlib.Path(output).suffix.lower() not in (".txt", ".text"):
         raise InputError(f"--format {format} contradicts the file extension ({told})", source=output,
                          hint=f"drop --format, or name the file for {format}")
     return format
