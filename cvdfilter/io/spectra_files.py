@@ -446,8 +446,9 @@ def _read_tm2714(path: pathlib.Path, kind: str, units: str | None, given_by: str
         raise InputError("IES TM-27-14 file holds no spectral data", source=str(path),
                          hint="it needs SpectralData elements with wavelength and value")
     quantity = str(getattr(sd, "spectral_quantity", "") or "")
-    if units is None and kind != "spd" and re.search(r"transmit|reflect", quantity, re.I):
-        # TM-27-14 gives transmittance and reflectance as factors (0-1).
+    if units is None and kind != "spd" and re.search(r"transmit|reflect", quantity, re.I) and \
+            float(values.max()) <= 1 + NOISE_TOLERANCE:
+        # TM-27-14 gives transmittance and reflectance as factors (0-1); other ranges go through the value rules.
         units, given_by = "fraction", f"TM-27-14 spectral quantity '{clip_text(quantity)}' is a factor 0-1"
     text = f"nm,{quantity.replace(',', ' ')}\n" + "\n".join(f"{w!r},{v!r}" for w, v in zip(wavelengths, values))
     table = parse_spectra_text(text, str(path), kind=kind, units=units, units_given_by=given_by)
