@@ -188,3 +188,19 @@ def test_named_pipe_does_not_hang(tmp_path):
     r = subprocess.run([sys.executable, "-m", "cvdfilter", "inspect", str(fifo)], capture_output=True, text=True,
                        timeout=120)
     _one_line_exit_2(r, "not a regular file")
+
+
+@pytest.mark.parametrize("fmt,output,expected", [
+    (None, None, "table"), (None, "x.csv", "csv"), (None, "x.json", "json"), (None, "x.md", "markdown"),
+    (None, "x.txt", "table"), ("json", "x.txt", "json"), ("csv", "x.CSV", "csv"), ("json", None, "json"),
+    (None, "x.out", "table"), ("json", "x.csv", "contradicts"), ("yaml", None, "is not one of"),
+])
+def test_resolve_format_rule(fmt, output, expected):
+    from cvdfilter.cli.common import resolve_format
+    from cvdfilter.errors import InputError
+
+    if expected in ("contradicts", "is not one of"):
+        with pytest.raises(InputError, match=expected):
+            resolve_format(fmt, output)
+    else:
+        assert resolve_format(fmt, output) == expected

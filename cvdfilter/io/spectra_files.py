@@ -305,6 +305,9 @@ def parse_spectra_text(text: str, source: str, *, kind: str = "transmittance",
         raise InputError("the file is empty (no data rows)", source=source,
                          hint="give a wavelength column in nm and one or more value columns")
     delim = _detect_delimiter([ln for _, ln in rows])
+    widest = max(ln.count(delim) if delim else len(ln.split()) - 1 for _, ln in rows[:2]) + 1
+    if widest > MAX_COLUMNS:  # before any cell is split out
+        raise InputError(f"{widest} columns; at most {MAX_COLUMNS:,} are read", source=source, line=rows[0][0])
     header_cells: list[str] | None = None
     first_cells = _split(rows[0][1], delim)
     if _to_float(first_cells[0]) is None:
