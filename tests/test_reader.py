@@ -303,3 +303,17 @@ def test_huge_header_refused(tmp_path):
     with pytest.raises(InputError, match="characters long") as info:
         read_spectra(f)
     assert len(str(info.value)) < 700
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.lists(st.floats(0.0, 1.0), min_size=81, max_size=81))
+def test_values_within_0_1_without_unit_word_are_never_guessed(vals):
+    # Property: values that fit a fraction also fit percent and optical density, so with no unit word the
+    # reader refuses (asking for --units); with a unit word or --units it reads them exactly.
+    rows = "\n".join(f"{w:g},{v!r}" for w, v in zip(WL, vals))
+    with pytest.raises(InputError, match="--units"):
+        parse_spectra_text("nm,T\n" + rows, "fuzz.csv")
+    t = parse_spectra_text("nm,T (fraction)\n" + rows, "fuzz.csv")
+    assert np.allclose(t.values[0], vals)
+    p = parse_spectra_text("nm,T\n" + rows, "fuzz.csv", units="percent")
+    assert np.allclose(p.values[0], np.asarray(vals) / 100)
