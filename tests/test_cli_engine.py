@@ -135,7 +135,7 @@ def test_score_names_filters_by_file_and_keeps_them_apart():
             str(DATA / "batch2/lens.csv"), "--metrics", "core", "--observer", "normal", "--format", "json")
     assert r.returncode == 0, r.stderr
     names = [f["name"] for f in json.loads(r.stdout)["filters"]]
-    assert names == ["same_header_a", "same_header_b", "lens", "lens #2"]
+    assert names == ["same_header_a", "same_header_b", "batch1/lens", "batch2/lens"]
 
 
 @pytest.mark.parametrize("cmd", ["score", "inspect"])

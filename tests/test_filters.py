@@ -175,7 +175,7 @@ def test_multi_column_files_are_named_stem_colon_column():
 
 def test_names_are_unique_never_merged():
     fs = load_filters([str(DATA / "batch1" / "lens.csv"), str(DATA / "batch2" / "lens.csv"), "nd:t=0.5", "nd:t=0.5"])
-    assert fs.names == ("lens", "lens #2", "nd:t=0.5", "nd:t=0.5 #2")
+    assert fs.names == ("batch1/lens", "batch2/lens", "nd:t=0.5", "nd:t=0.5 #2")
     assert not np.allclose(fs.transmittance[0], fs.transmittance[1])
 
 
@@ -340,3 +340,9 @@ def test_sweep_just_under_the_limit_stays_within_memory():
     tracemalloc.stop()
     assert len(fs) == n
     assert peak < 1.2 * 2**30  # far from the 2.2 GB a member limit on a single parameter allowed
+
+
+def test_same_file_twice_is_numbered_not_merged():
+    f = str(DATA / "same_header_a.csv")
+    fs = load_filters([f, f])
+    assert fs.names == ("same_header_a", "same_header_a #2") and len(fs) == 2

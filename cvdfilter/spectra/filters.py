@@ -740,16 +740,33 @@ def _term(term: str, spec: str, grid: Grid, units, bandwidth) -> FilterSet:
 
 
 def _unique_names(fs: FilterSet) -> FilterSet:
-    """Make names unique within a run: the second and later uses of a name get ' #2', ' #3'... (never merged)."""
+    """Make names unique within a run (never merged).
+
+    Files of the same stem in different folders get their folder in front (``batch1/lens``,
+    ``batch2/lens``); any name still repeated gets ``#2``, ``#3``... on its second and later uses.
+    """
+    given = list(fs.names)
+    groups: dict = {}
+    for i, n in enumerate(given):
+        groups.setdefault(n, []).append(i)
+    for n, idx in groups.items():
+        if len(idx) < 2:
+            continue
+        files = [fs.info[i].get("file") if i < len(fs.info) else None for i in idx]
+        if all(files):
+            parents = [pathlib.Path(f).resolve().parent.name for f in files]
+            if len(set(parents)) == len(parents):
+                for i, parent in zip(idx, parents):
+                    given[i] = f"{parent}/{n}"
     seen: dict = {}
     names = []
-    for n in fs.names:
+    for n in given:
         k = seen.get(n, 0) + 1
         seen[n] = k
         names.append(n if k == 1 else f"{n} #{k}")
     taken = set(names)
-    if len(taken) != len(names):  # a generated name collided with a given one: number every repeat
-        names = [f"{n} #{i + 1}" for i, n in enumerate(fs.names)]
+    if len(taken) != len(names):  # a generated name collided with a given one: number every filter
+        names = [f"{n} #{i + 1}" for i, n in enumerate(given)]
     if tuple(names) == fs.names:
         return fs
     return FilterSet(tuple(names), fs.transmittance, fs.grid, fs.sources, fs.info)
@@ -782,7 +799,8 @@ def load_filters(filters, *, grid: Grid = DEFAULT_GRID, units: str | None = None
     -------
     FilterSet
         Names are unique within the call: a single-column file is named by its
-        stem, a multi-column file ``stem:column``; repeats get ``#2``, ``#3``.
+        stem, a multi-column file ``stem:column``; same stems from different
+        folders get the folder in front, other repeats ``#2``, ``#3``.
 
     Warns
     -----
