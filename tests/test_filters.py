@@ -346,3 +346,13 @@ def test_same_file_twice_is_numbered_not_merged():
     f = str(DATA / "same_header_a.csv")
     fs = load_filters([f, f])
     assert fs.names == ("same_header_a", "same_header_a #2") and len(fs) == 2
+
+
+def test_spike_in_a_2nm_file_is_no_notch_after_resampling():
+    # One bad sample in a file sampled every 2 nm spans three 1 nm grid points after resampling; the notches of
+    # a file are found on its own samples, so it stays noise (the spectrum figure shades only real notches).
+    from cvdfilter.spectra.filters import filter_notches
+
+    fs = load_filters(str(DATA / "noise_spike_760_2nm_sampling.csv"))
+    assert filter_notches(fs) == [[]]
+    assert filter_notches(load_filters("notch:center=575,fwhm=30,depth=0.8"))[0][0]["fwhm"] == pytest.approx(30, abs=0.1)

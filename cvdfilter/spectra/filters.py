@@ -43,7 +43,7 @@ __all__ = [
     "FilterSet", "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density",
     "parse_filter_spec", "load_filters", "find_notches", "find_features", "noise_level", "example_names",
     "example_path", "SPEC_FORMS", "FILE_FORMS", "FileTerm", "file_term", "spec_paths", "with_file_options",
-    "extrapolation_text", "MAX_SWEEP_MEMBERS", "MAX_FILTER_VALUES",
+    "extrapolation_text", "filter_notches", "MAX_SWEEP_MEMBERS", "MAX_FILTER_VALUES",
 ]
 
 #: Spec forms shown by ``cvdfilter list filters``.
@@ -1130,3 +1130,21 @@ def find_notches(wavelengths, transmittance, *, min_prominence: float = 0.05,
     return [{k: f[k] for k in ("center", "fwhm", "depth", "min_transmittance", "fwhm_samples")}
             for f in find_features(wavelengths, transmittance, min_prominence=min_prominence,
                                    sampling_nm=sampling_nm) if f["kind"] == "notch"]
+
+
+def filter_notches(fs: FilterSet) -> list[list[dict]]:
+    """The notches of every filter of a set: from a file's measured samples when the filter is one file
+    column (so its own sampling decides what is noise), else found on the grid.
+
+    Returns one list per filter, as :func:`find_notches` does.
+    """
+    keys = ("center", "fwhm", "depth", "min_transmittance", "fwhm_samples")
+    out = []
+    for i in range(len(fs)):
+        info = fs.info[i] if i < len(fs.info) else {}
+        feats = info.get("features")
+        if feats is None:
+            out.append(find_notches(fs.wavelengths, fs.transmittance[i]))
+        else:
+            out.append([{k: f[k] for k in keys} for f in feats if f["kind"] == "notch"])
+    return out

@@ -61,7 +61,7 @@ def main() -> None:
     # Spreadsheet workbooks (a tiny zip container stands in for the real thing).
     for name in ("workbook.xlsx", "workbook.ods"):
         with zipfile.ZipFile(HERE / name, "w") as z:
-            z.writestr("mimetype", "invented test workbook")
+            z.writestr(zipfile.ZipInfo("mimetype", date_time=(2026, 1, 1, 0, 0, 0)), "invented test workbook")
     # A curve measured 400-700 nm only: the rest of the 380-780 nm grid is extrapolated.
     wl_part = np.arange(400, 701, 5.0)
     write("measured_400_700_only.csv", "nm,T (fraction)", wl_part, 0.9 - 0.5 * gauss(wl_part, 575, 30))
@@ -73,6 +73,11 @@ def main() -> None:
     spike = 0.9 + rng.normal(0, 0.002, wl1.size)
     spike[wl1 == 759] = 0.72
     write("noise_spike_759.csv", "nm,T (fraction)", wl1, spike)
+    # The same bad sample in a file sampled every 2 nm (it spans three points of the 1 nm grid after resampling).
+    wl2 = np.arange(380, 781, 2.0)
+    spike2 = np.full(wl2.size, 0.9)
+    spike2[wl2 == 760] = 0.72
+    write("noise_spike_760_2nm_sampling.csv", "nm,T (fraction)", wl2, spike2)
     # A 25 nm FWHM dip (depth 40 %) at 520 nm under a broad rose tint.
     tint = (0.85 - 0.35 * gauss(wl1, 620, 210)) * (1 - 0.4 * gauss(wl1, 520, 25))
     write("dip_25nm_under_broad_tint.csv", "nm,T (fraction)", wl1, tint)
