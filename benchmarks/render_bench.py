@@ -58,7 +58,7 @@ def image_benchmark(repeat: int) -> dict:
     import colour
     from skimage import data
 
-    from cvdfilter.render import _SCALE, Renderer, _srgb_tables
+    from cvdfilter.rendering import _SCALE, Renderer, _srgb_tables
 
     img = np.ascontiguousarray(np.tile(data.astronaut(), (4, 4, 1)))[:2048, :2048]
     flat = img.reshape(-1, 3)
@@ -118,7 +118,7 @@ def image_benchmark(repeat: int) -> dict:
 
 def cube_benchmark(repeat: int) -> dict:
     from cvdfilter.io.cubes import Cube
-    from cvdfilter.render import Renderer
+    from cvdfilter.rendering import Renderer
 
     here = pathlib.Path(__file__).resolve().parent.parent
     with np.load(here / "test_images" / "tabletop_cube.npz") as z:
@@ -151,7 +151,7 @@ _API_CHILD = _HWM + """
 import os
 os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 import numpy as np
-from cvdfilter.render import Renderer
+from cvdfilter.rendering import Renderer
 h, w = {h}, {w}
 r = Renderer("{notch}", observer="deuteranope")
 r.transform("observer-filtered")

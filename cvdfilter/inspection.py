@@ -13,11 +13,11 @@ from .spectra.grid import DEFAULT_GRID, Grid
 
 __all__ = ["inspect_filters", "catalog", "feature_text", "CATALOG_KINDS"]
 
-CATALOG_KINDS = ("illuminants", "observers", "surfaces", "filters")
+CATALOG_KINDS = ("illuminants", "observers", "surfaces", "filters", "methods")
 
 
 def catalog(kind: str) -> dict:
-    """What is available: ``illuminants``, ``observers``, ``surfaces`` or ``filters``."""
+    """What is available: ``illuminants``, ``observers``, ``surfaces``, ``filters`` or simulation ``methods``."""
     from .errors import InputError
 
     if kind == "illuminants":
@@ -41,6 +41,14 @@ def catalog(kind: str) -> dict:
             first = example_path(n).read_text().splitlines()[0].lstrip("# ").strip()
             examples.append({"name": n, "description": first})
         items = {"examples": examples, "spec_forms": SPEC_FORMS, "file_forms": FILE_FORMS}
+    elif kind == "methods":
+        from .observers.simulate import METHOD_DESCRIPTIONS, NORMALISATIONS
+
+        items = [{"name": k, "description": v} for k, v in METHOD_DESCRIPTIONS.items()]
+        items += [{"name": f"normalisation={n}", "description": "machado2009: " + d}
+                  for n, d in zip(NORMALISATIONS, ("von Kries at the cones (default; continuous in every parameter)",
+                                                   "Machado's per-opponent-channel gains (refused where "
+                                                   "ill-conditioned)"))]
     else:
         from .errors import clip_text, did_you_mean
 

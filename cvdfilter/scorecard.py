@@ -43,10 +43,11 @@ from . import tables as _tables
 from ._version import __version__
 from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from .errors import InputError
-from .metrics.confusion import CONFUSION_TOLERANCE
-from .metrics.discrimination import CONE_RATIOS, WEBER_FRACTION
+from .metrics.confusion import DEFICIENT_THRESHOLD, NORMAL_THRESHOLD
+from .metrics.discrimination import CONE_RATIOS, DISCRIMINATION_THRESHOLD, DISTRIBUTION_THRESHOLDS, WEBER_FRACTION
 
-__all__ = ["score", "Scorecard", "DEFAULT_OBSERVERS", "METRIC_GROUPS", "CORE_METRICS", "parse_metrics"]
+__all__ = ["score", "Scorecard", "DEFAULT_OBSERVERS", "METRIC_GROUPS", "CORE_METRICS", "parse_metrics",
+           "SENSITIVITY_RANGES"]
 
 #: Observers scored when none are given.
 DEFAULT_OBSERVERS = ("normal", "protanomalous", "deuteranomalous", "protanope", "deuteranope")
@@ -136,9 +137,13 @@ class Scorecard:
     per_observer : list of dict of numpy.ndarray
         Per observer, arrays over filters.
     settings : dict
-        Model constants used (Weber fraction, cone ratios, confusion tolerance).
+        Model constants and thresholds used (Weber fraction, cone ratios, JND
+        thresholds, signal-quotient limits).
     inputs : dict
         The arguments that produced the scorecard.
+    sensitivity : dict or None
+        With ``score(..., sensitivity=True)``: the verdicts under each
+        variation of :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section).
     """
 
     filters: object
@@ -152,6 +157,7 @@ class Scorecard:
     per_observer: list
     settings: dict = field(default_factory=dict)
     inputs: dict = field(default_factory=dict)
+    sensitivity: dict | None = None
 
     def __len__(self) -> int:
         return len(self.filters)
@@ -201,7 +207,8 @@ class Scorecard:
             worst = {c: r[f"signal_light_{c}"][i] for c in SIGNAL_COLOURS}
             reasons = road_use_reasons(float(r["luminous_transmittance"][i]), cat, float(r["min_ratio"][i]),
                                        float(r["min_ratio_at_nm"][i]),
-                                       {c: float(r[f"signal_quotient_{c}"][i]) for c in SIGNAL_COLOURS}, worst)
+                                       {c: float(r[f"signal_quotient_{c}"][i]) for c in SIGNAL_COLOURS}, worst,
+                                       limits=self.settings.get("signal_limits"))
             d["iso12312_category"] = cat if cat >= 0 else None
             d["road_use"] = {
                 "suitable": bool(r["suitable"][i]),
@@ -228,22 +235,41 @@ class Scorecard:
             d["blue_yellow_gain"] = _num(o["blue_yellow_gain"][i])
             d["luminance_contrast_gain"] = _num(o["luminance_contrast_gain"][i])
         undefined = bool(o["undefined"][i]) if "undefined" in o else False
+        st = self.settings
         if "discrimination" in self.metrics:
-            d["discriminable_pairs"] = None if undefined else {
-                key: int(o[f"discriminable_{key}"][i]) for key in ("without", "with", "gained", "lost")}
+            if undefined:
+                d["discriminable_pairs"] = None
+                d["delta_s_distribution"] = None
+            else:
+                d["discriminable_pairs"] = {"threshold_jnd": st["discrimination_threshold"],
+                                            **{key: int(o[f"discriminable_{key}"][i]) for key in _PAIR_KEYS}}
+                dist = {_at_key(t): {key: int(o[f"discriminable_at_{t:g}_{key}"][i]) for key in _PAIR_KEYS}
+                        for t in st["distribution_thresholds"]}
+                dist["median_without"] = _num(o["discriminable_median_without"], 4)
+                dist["median_with"] = _num(o["discriminable_median_with"][i], 4)
+                dist["median_ratio"] = _num(o["discriminable_median_ratio"][i])
+                d["delta_s_distribution"] = dist
         if "confusion" in self.metrics:
             if o.get("confusion_with") is None or undefined:
                 d["confusion_pairs"] = None
             else:
-                d["confusion_pairs"] = {key: int(o[f"confusion_{key}"][i])
-                                        for key in ("without", "with", "resolved", "created")}
+                d["confusion_pairs"] = {
+                    "normal_threshold_jnd": st["normal_threshold"],
+                    "deficient_threshold_jnd": st["deficient_threshold"],
+                    "normally_discriminable": int(o["confusion_normally_discriminable"]),
+                    **{key: int(o[f"confusion_{key}"][i]) for key in _CONFUSION_KEYS},
+                    "median_delta_s_without": _num(o["confusion_median_without"], 4),
+                    "median_delta_s_with": _num(o["confusion_median_with"][i], 4),
+                    "median_delta_s_ratio": _num(o["confusion_median_ratio"][i]),
+                }
         return d
 
     def header(self) -> dict:
         """The top-level keys of :meth:`to_dict` other than ``filters``."""
         from .metrics.discrimination import receptor_noise
         from .metrics.pairs import pair_count
-        from .metrics.road_use import SIGNAL_COLOURS, SIGNAL_LIMITS
+        from .metrics.road_use import (CATEGORY_BANDS, DEFAULT_SIGNAL_READING, NIGHT_MIN, RATIO_BAND_NM, RATIO_LIMIT,
+                                       SIGNAL_COLOURS, SIGNAL_LIMIT_READINGS, SIGNAL_LIMIT_SOURCES, SIGNAL_LIMITS)
 
         ill, surf = self.illuminant, self.surfaces
         head = {
@@ -264,21 +290,41 @@ class Scorecard:
                 "photometry": "CIE 1931 2 deg V(lambda) with CIE D65 (ISO 12312-1); white shift and "
                               "luminous_transmittance_illuminant under the chosen illuminant",
                 "discrimination": {
-                    "model": "receptor-noise-limited, Vorobyev & Osorio 1998; threshold 1 JND",
+                    "model": "receptor-noise-limited, Vorobyev & Osorio 1998",
+                    "threshold_jnd": self.settings.get("discrimination_threshold"),
+                    "distribution_thresholds_jnd": list(self.settings.get("distribution_thresholds", ())),
+                    "median": "median Delta S over the pairs the normal observer (the observer's base, or itself) "
+                              "discriminates without the filter, with the filter / without it",
                     "weber_fraction_l": self.settings.get("weber_fraction"),
                     "cone_ratios_lms": list(self.settings.get("cone_ratios", ())),
                     "noise_by_observer": {o.spec: [_num(v, 5) for v in receptor_noise(
                         o.missing_cone, weber=self.settings["weber_fraction"],
                         cone_ratios=self.settings["cone_ratios"])] for o in self.observers},
                 },
-                "confusion": {"tolerance_ln": self.settings.get("confusion_tolerance"),
-                              "space": "log ratios of the observer's own adapted cone catches"},
+                "confusion": {
+                    "model": "pairs the normal observer (the observer's own base, same age and field) "
+                             "discriminates without the filter (Delta S >= normal threshold) and the deficient "
+                             "observer does not (Delta S < deficient threshold); receptor-noise-limited model",
+                    "normal_threshold_jnd": self.settings.get("normal_threshold"),
+                    "deficient_threshold_jnd": self.settings.get("deficient_threshold"),
+                    "median": "median over the normally discriminable pairs of the deficient observer's "
+                              "Delta S, with the filter / without it",
+                },
+                "road_use": {
+                    "signal_limits": dict(self.settings.get("signal_limits", SIGNAL_LIMITS)),
+                    "signal_limits_reading": self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING),
+                    "signal_limits_source": SIGNAL_LIMIT_SOURCES.get(
+                        self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING), "given by the user"),
+                    "other_readings": {k: v for k, v in SIGNAL_LIMIT_READINGS.items()},
+                    "ratio_band_nm": list(RATIO_BAND_NM), "ratio_limit": RATIO_LIMIT, "night_min": NIGHT_MIN,
+                    "category_bands": [{"category": c, "above": lo, "up_to": hi} for c, lo, hi in CATEGORY_BANDS],
+                },
             },
             "inputs": self.inputs,
         }
         if "road_use" in self.metrics:
             head["signal_lights"] = {
-                c: {"limit": SIGNAL_LIMITS[c],
+                c: {"limit": self.settings.get("signal_limits", SIGNAL_LIMITS)[c],
                     "lights": [l.describe() for l in self.signal_lights if l.colour == c]}
                 for c in SIGNAL_COLOURS}
         return head
@@ -287,6 +333,8 @@ class Scorecard:
         """The scorecard as the JSON document ``cvdfilter score --format json`` prints."""
         d = self.header()
         d["filters"] = [self._filter_dict(i) for i in range(len(self))]
+        if self.sensitivity is not None:
+            d["sensitivity"] = self.sensitivity
         return d
 
     def to_json(self) -> str:
@@ -300,6 +348,10 @@ class Scorecard:
         run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
                "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
                "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
+        if "road_use" in self.metrics:
+            ru = head["models"]["road_use"]
+            run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
+            run["signal_limits_reading"] = ru["signal_limits_reading"]
         rows, columns = [], []
         seen, layouts = set(), set()
         for i in range(len(self)):
@@ -342,7 +394,7 @@ class Scorecard:
                                   _fmt(rd["cct_k"], 0), _fmt(rd["duv"], 4),
                                   " ".join(_fmt(v, 0) for v in rd["chroma_shifts"])])
             for o in f["observers"]:
-                obs_rows.append(_observer_row(f["name"], o, self.metrics))
+                obs_rows.append(_observer_row(f["name"], o, self.metrics, f=f))
         return filt_rows, obs_rows, rend_rows
 
     def to_markdown(self) -> str:
@@ -363,8 +415,12 @@ class Scorecard:
             lines += ["## Colour rendition of the illuminant through the filter (CIE 2017 / TM-30, CIE 13.3)", ""]
             lines += _md_table(_RENDITION_HEADER, rend_rows) + [""]
         if obs_rows and len(obs_rows[0]) > 2:
-            lines += ["## Per observer", "", _OBSERVER_NOTE, ""]
+            lines += ["## Per observer", "", _observer_note(doc), ""]
             lines += _md_table(_observer_header(self.metrics), obs_rows) + [""]
+        if self.sensitivity is not None:
+            lines += ["## Sensitivity", "", _SENSITIVITY_NOTE, ""]
+            for f, rows in _sensitivity_rows(self.sensitivity):
+                lines += [f"### {f}", ""] + _md_table(_SENSITIVITY_HEADER, rows) + [""]
         lines += ["## Cautions", ""] + [f"- {c}" for c in [doc["caveat"], *doc["cautions"]]] + [""]
         return "\n".join(lines)
 
@@ -380,11 +436,15 @@ class Scorecard:
             parts.append(_tables.text_table(_RENDITION_HEADER[:-1], [r[:-1] for r in rend_rows],
                                      "Colour rendition, illuminant x filter", width))
         if obs_rows and len(obs_rows[0]) > 2:
-            parts.append(textwrap.fill(_OBSERVER_NOTE, width=width) + "\n")
+            parts.append(textwrap.fill(_observer_note(doc), width=width) + "\n")
             for f in doc["filters"]:
                 rows = [_observer_row(f["name"], o, self.metrics, compact=True) for o in f["observers"]]
                 parts.append(_tables.text_table(_observer_header(self.metrics, compact=True), rows,
-                                         f"Per observer: {f['name']}", width))
+                                         f"Per observer: {f['name']} - costs: {_costs_text(f)}", width))
+        if self.sensitivity is not None:
+            parts.append(textwrap.fill(_SENSITIVITY_NOTE, width=width) + "\n")
+            for name, rows in _sensitivity_rows(self.sensitivity):
+                parts.append(_tables.text_table(_SENSITIVITY_HEADER, rows, f"Sensitivity: {name}", width))
         notes = []
         if "road_use" in self.metrics:
             unsuitable = [f for f in doc["filters"] if not f["road_use"]["suitable"]]
@@ -402,6 +462,7 @@ class Scorecard:
             modelled = any(l["kind"] == "modelled" for v in doc["signal_lights"].values() for l in v["lights"])
             notes.append("Signal lights: " + lights + (" - modelled spectra are an approximation, from memory."
                                                         if modelled else "."))
+            notes.append(_limits_text(doc))
         notes += _inputs_lines(doc, markdown=False)
         notes += [doc["caveat"], *doc["cautions"]]
         wrapped = "\n".join(textwrap.fill(n, width=width) for n in notes)
@@ -412,9 +473,75 @@ class Scorecard:
 
 _FILTER_HEADER = ["filter", "tau_v %", "cat", "day", "night", "min T/tau_v", "lowest Q", "x", "y", "du'v'"]
 _RENDITION_HEADER = ["filter", "Rf", "Rg", "Ra", "CCT K", "Duv", "chroma shifts h1-h16 %"]
-_OBSERVER_NOTE = ("Gains: RMS contrast with the filter / without it (1 = no change; RG red-green, BY "
-                  "blue-yellow, lum luminance). Surface pairs: discriminable (>= 1 JND) and confused (on one "
-                  "confusion line), without -> with the filter; +gained/-lost, -resolved/+new.")
+#: Why a gain is not a recommendation (printed with every table of gains).
+GAIN_CAUTION = ("A gain is not a recommendation: a smooth tint can raise the red-green gain as much as a notch; "
+                "read every gain beside its costs (luminous transmittance, white shift, Rf for the normal "
+                "observer, pairs lost).")
+
+
+def _observer_note(doc: dict) -> str:
+    """The note above the per-observer tables: what each column is, with every threshold named."""
+    m = doc["models"]
+    t = m["discrimination"]["threshold_jnd"]
+    dist = "/".join(f"{x:g}" for x in m["discrimination"]["distribution_thresholds_jnd"])
+    tn, td = m["confusion"]["normal_threshold_jnd"], m["confusion"]["deficient_threshold_jnd"]
+    return ("Gains: RMS contrast with the filter / without it (1 = no change; RG red-green, BY blue-yellow, lum "
+            "luminance). Surface pairs, receptor-noise model (Vorobyev & Osorio 1998), without -> with the "
+            f"filter: discriminable at Delta S >= {t:g} JND (+gained/-lost; counts at {dist} JND in the JSON); "
+            f"confused = Delta S >= {tn:g} JND for the normal observer and < {td:g} JND for this observer "
+            "(-resolved/+created). dS ratio: median Delta S, over the pairs the normal observer discriminates, "
+            "with / without the filter (no threshold of its own; above 1 the surfaces move apart). "
+            + GAIN_CAUTION)
+
+
+def _costs_text(f: dict) -> str:
+    """The costs of one filter, for the line beside its gains."""
+    rf = (f.get("rendition") or {}).get("rf")
+    rf_text = f"Rf {_fmt(rf, 1)}" if "rendition" in f else "Rf not computed (--metrics all)"
+    if "luminous_transmittance" not in f:
+        return f"tau_v and white shift not computed (add photometry to --metrics), {rf_text}"
+    tv = f.get("luminous_transmittance")
+    return (f"tau_v {_fmt(None if tv is None else 100 * tv, 1)} %, white shift du'v' {_fmt(f.get('white_shift'), 4)}, "
+            + rf_text)
+
+
+def _limits_text(doc: dict) -> str:
+    from .metrics.road_use import describe_signal_limits
+
+    ru = doc["models"]["road_use"]
+    return describe_signal_limits(ru["signal_limits"], ru["signal_limits_reading"])
+
+
+_SENSITIVITY_NOTE = ("Sensitivity: each verdict recomputed with one model constant or threshold moved at a time "
+                     "(Weber fraction x0.5 and x1.5, L:M cone ratio 1:1 and 4:1, every JND threshold x0.8 and "
+                     "x1.25, the other reading of the signal-quotient limits). 'robust' = the sign of the change "
+                     "(net pairs, ratio - 1, road-use verdict) is the same in every variation.")
+_SENSITIVITY_HEADER = ["observer", "measure", "default", "range", "robust"]
+_SENSITIVITY_LABELS = {"discriminable_net": "discriminable gained - lost",
+                       "confused_net_resolved": "confused resolved - created",
+                       "median_delta_s_ratio": "dS ratio"}
+
+
+def _sensitivity_rows(sens: dict):
+    """(filter name, rows) for the sensitivity tables."""
+    def show(v):
+        return "-" if v is None else (f"{v:.3f}" if isinstance(v, float) else f"{v:+d}" if isinstance(v, int)
+                                      and not isinstance(v, bool) else str(v))
+
+    for f in sens["filters"]:
+        rows = []
+        if "road_use_suitable" in f:
+            r = f["road_use_suitable"]
+            vals = r["values"]
+            rows.append(["-", "road use (day)", _yes(vals["default"]),
+                         ", ".join(f"{k}: {_yes(v)}" for k, v in vals.items() if k != "default"), _yes(r["robust"])])
+        for o in f["observers"]:
+            for key, label in _SENSITIVITY_LABELS.items():
+                if key in o:
+                    r = o[key]
+                    rows.append([o["observer"], label, show(r["values"]["default"]),
+                                 f"{show(r['min'])} .. {show(r['max'])}", _yes(r["robust"])])
+        yield f["name"], rows
 
 
 def _fmt(x, digits: int) -> str:
@@ -452,10 +579,14 @@ def _observer_header(metrics, *, compact: bool = False) -> list:
             "discriminable without", "with", "gained", "lost"]
     if "confusion" in metrics:
         h += ["confused", "res./new"] if compact else ["confused without", "with", "resolved", "created"]
+    if "discrimination" in metrics or "confusion" in metrics:
+        h += ["dS ratio"]
+    if not compact:
+        h += ["tau_v %", "du'v'", "Rf"]
     return h
 
 
-def _observer_row(name: str, o: dict, metrics, *, compact: bool = False) -> list:
+def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict | None = None) -> list:
     row = [] if compact else [name]
     row.append(o["observer"])
     if "contrast" in metrics:
@@ -472,7 +603,22 @@ def _observer_row(name: str, o: dict, metrics, *, compact: bool = False) -> list
             row += ["-", "-"] if c is None else [f"{c['without']}->{c['with']}", f"-{c['resolved']}/+{c['created']}"]
         else:
             row += ["-"] * 4 if c is None else [c["without"], c["with"], c["resolved"], c["created"]]
+    if "discrimination" in metrics or "confusion" in metrics:
+        row.append(_fmt(_median_ratio(o), 3))
+    if f is not None:
+        tv = f.get("luminous_transmittance")
+        row += [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
+                _fmt((f.get("rendition") or {}).get("rf"), 1)]
     return row
+
+
+def _median_ratio(o: dict):
+    """The median Delta S ratio of an observer entry (the same number in both pair blocks)."""
+    c = o.get("confusion_pairs")
+    if c is not None:
+        return c["median_delta_s_ratio"]
+    d = o.get("delta_s_distribution")
+    return None if d is None else d["median_ratio"]
 
 
 def _inputs_lines(doc: dict, *, markdown: bool) -> list:
@@ -486,6 +632,7 @@ def _inputs_lines(doc: dict, *, markdown: bool) -> list:
         for c, v in doc["signal_lights"].items():
             names = ", ".join(f"{l['name']} ({l['kind']}: {l['source']})" for l in v["lights"])
             lines.append(f"- Signal lights, {c} (limit {v['limit']:g}): {names}.")
+        lines.append(f"- {_limits_text(doc)}")
     return lines
 
 
@@ -519,9 +666,22 @@ def _flatten(d: dict, prefix: str = "") -> dict:
 
 #: Keys whose value is a list of sentences: one CSV cell, even when empty.
 _TEXT_LISTS = ("reasons", "warnings")
+#: Counts of the discriminable-pair blocks.
+_PAIR_KEYS = ("without", "with", "gained", "lost")
+#: Counts of the confused-pair block.
+_CONFUSION_KEYS = ("without", "with", "resolved", "created")
 #: Keys whose value is a dict or null, with the sub-keys a null flattens to (CSV columns stay aligned).
-_DICT_KEYS = {"confusion_pairs": ("without", "with", "resolved", "created"),
-              "discriminable_pairs": ("without", "with", "gained", "lost")}
+_DICT_KEYS = {"confusion_pairs": ("normal_threshold_jnd", "deficient_threshold_jnd", "normally_discriminable",
+                                  *_CONFUSION_KEYS, "median_delta_s_without", "median_delta_s_with",
+                                  "median_delta_s_ratio"),
+              "discriminable_pairs": ("threshold_jnd", *_PAIR_KEYS),
+              "delta_s_distribution": (*(f"{_at}.{k}" for _at in ("at_1_jnd", "at_2_jnd", "at_4_jnd")
+                                         for k in _PAIR_KEYS), "median_without", "median_with", "median_ratio")}
+
+
+def _at_key(t: float) -> str:
+    """JSON key of a distribution threshold: 1 -> ``at_1_jnd``, 0.8 -> ``at_0_8_jnd``."""
+    return f"at_{t:g}_jnd".replace(".", "_")
 
 
 # --- the computation ----------------------------------------------------------
@@ -590,9 +750,11 @@ def _cone_basis(observers):
 
 
 def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="ces99", adaptation="full",
-          metrics="all", signal_spectra=None, grid=None, confusion_tolerance: float = CONFUSION_TOLERANCE,
-          weber_fraction: float = WEBER_FRACTION, cone_ratios=CONE_RATIOS, progress=None,
-          units: str | None = None, bandwidth: float | None = None) -> Scorecard:
+          metrics="all", signal_spectra=None, grid=None, weber_fraction: float = WEBER_FRACTION,
+          cone_ratios=CONE_RATIOS, discrimination_threshold: float = DISCRIMINATION_THRESHOLD,
+          distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
+          deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
+          progress=None, units: str | None = None, bandwidth: float | None = None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -608,7 +770,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     observers : sequence of str or Observer
         Observer specs; default :data:`DEFAULT_OBSERVERS`.
     surfaces : str or SurfaceSet
-        ``ces99`` (default), ``colorchecker``, ``tcs14``, ``vs15`` or a reflectance file.
+        ``ces99`` (default), ``chart24``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
         ``full`` (default: von Kries adaptation to the filtered light),
         ``none`` (adapted to the unfiltered light) or a degree 0-1.
@@ -622,12 +784,24 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         They replace the modelled lights of their colours.
     grid : Grid, optional
         Default: the FilterSet's grid, else 380-780 nm at 1 nm.
-    confusion_tolerance : float
-        Natural-log units (:mod:`cvdfilter.metrics.confusion`).
     weber_fraction : float
         L-cone Weber fraction of the receptor-noise model.
     cone_ratios : sequence of 3 floats
         L:M:S cone numbers of the receptor-noise model.
+    discrimination_threshold : float
+        Delta S (JND) at or above which a pair is discriminable (headline counts).
+    distribution_thresholds : sequence of float
+        Delta S (JND) of the reported distribution (default 1, 2, 4).
+    normal_threshold, deficient_threshold : float
+        Delta S (JND) of the confused-pair definition (:mod:`cvdfilter.metrics.confusion`).
+    signal_limits : None, str or dict
+        Signal-quotient limits: a reading name, ``red=0.8,...`` or a dict
+        (:func:`cvdfilter.metrics.road_use.parse_signal_limits`); default the
+        ``guidance`` reading.
+    sensitivity : bool
+        Also score every filter under the documented variations of
+        :data:`SENSITIVITY_RANGES` and report how the verdicts move
+        (``Scorecard.sensitivity``, JSON key ``sensitivity``).
     progress : callable, optional
         ``progress(stage, done, total)``; stages ``filters`` and ``rendition``.
     units, bandwidth : optional
@@ -652,12 +826,13 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     >>> f["luminous_transmittance"], f["iso12312_category"], f["observers"][0]["red_green_gain"]
     (0.5, 1, 1.0)
     """
-    from .metrics.confusion import confusion_axes, confusion_from_planes, confusion_reference
+    from .metrics.confusion import confusion_from_points, confusion_reference, normally_discriminable
     from .metrics.contrast import gains_from_planes, opponent_channels, rms_without
-    from .metrics.discrimination import discriminable_from_logs, log_catches, receptor_noise, rnl_reference
+    from .metrics.discrimination import (close_changes, discriminable_from_points, log_catches, receptor_noise,
+                                         rnl_points, rnl_reference)
     from .metrics.photometry import luminous_transmittance, xyz_to_uv_prime, xyz_to_xy
-    from .metrics.road_use import (SIGNAL_COLOURS, iso12312_category, min_ratio_in_band, road_use_flags,
-                                   signal_quotients)
+    from .metrics.road_use import (SIGNAL_COLOURS, iso12312_category, min_ratio_in_band, parse_signal_limits,
+                                   road_use_flags, signal_quotients)
     from .observers.fundamentals import cie1931_cmfs
     from .observers.observer import observer as make_observer
     from .observers.spaces import parse_adaptation
@@ -676,11 +851,23 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     observers = list(observers)
     if not observers:
         raise InputError("no observers given", hint=f"e.g. {', '.join(DEFAULT_OBSERVERS)}")
-    if not confusion_tolerance > 0:
-        raise InputError(f"confusion tolerance must be positive, got {confusion_tolerance}")
+    thresholds = {"discrimination threshold": discrimination_threshold, "normal threshold": normal_threshold,
+                  "deficient threshold": deficient_threshold}
+    try:
+        distribution_thresholds = tuple(float(t) for t in distribution_thresholds)
+    except (TypeError, ValueError):
+        raise InputError(f"distribution thresholds must be numbers, got {distribution_thresholds!r}") from None
+    for name, t in [*thresholds.items(), *(("distribution threshold", t) for t in distribution_thresholds)]:
+        try:
+            ok = math.isfinite(float(t)) and float(t) > 0
+        except (TypeError, ValueError):
+            ok = False
+        if not ok:
+            raise InputError(f"{name} must be a positive number of JND, got {t!r}")
     try:
         noise_check = receptor_noise(None, weber=weber_fraction, cone_ratios=cone_ratios)
-    except ValueError as exc:
+        limits, reading = parse_signal_limits(signal_limits)
+    except (ValueError, TypeError) as exc:
         raise InputError(str(exc)) from None
     del noise_check
     fs = load_filters(filters, grid=grid, units=units, bandwidth=bandwidth)
@@ -712,7 +899,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         cat = iso12312_category(tau_v)
         ratio, at_nm = min_ratio_in_band(T, tau_v, wl)
         by_colour, by_light = signal_quotients(T, tau_v, lights, ybar)
-        suitable, night = road_use_flags(cat, ratio, by_colour, tau_v)
+        suitable, night = road_use_flags(cat, ratio, by_colour, tau_v, limits)
         results.update({"iso12312_category": cat, "min_ratio": ratio, "min_ratio_at_nm": at_nm,
                         "suitable": suitable, "night_suitable": night})
         for c in SIGNAL_COLOURS:
@@ -732,6 +919,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         B = (basis[:, :, None] * stimuli[:, None, :]).reshape(grid.size, k_cols * (n_s + 1))
         Q0 = B.sum(axis=0).reshape(k_cols, n_s + 1)  # without the filter (T = 1)
         whites = np.empty((n_f, k_cols))
+        normal_noise = receptor_noise(None, weber=weber_fraction, cone_ratios=cone_ratios)
         setup = []
         for k, o in enumerate(obs):
             c = cols[k]
@@ -743,16 +931,37 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
                 s["rms0"] = rms_without(q0, w0, s["channels"])
                 for key in ("luminance_contrast_gain", "red_green_gain", "blue_yellow_gain"):
                     store[key] = np.full(n_f, np.nan)
-            if "discrimination" in groups:
-                s["rnl"] = rnl_reference(q0, receptor_noise(o.missing_cone, weber=weber_fraction,
-                                                            cone_ratios=cone_ratios))
-                for key in ("without", "with", "gained", "lost"):
-                    store[f"discriminable_{key}"] = np.zeros(n_f, dtype=np.int64)
-            s["axes"] = confusion_axes(o.kind, o.deficiency, o.luminance_weights)
-            if "confusion" in groups and s["axes"] is not None:
-                s["confusion"] = confusion_reference(q0, s["axes"], tolerance=confusion_tolerance)
-                for key in ("without", "with", "resolved", "created"):
+            noise = receptor_noise(o.missing_cone, weber=weber_fraction, cone_ratios=cone_ratios)
+            if "discrimination" in groups or "confusion" in groups:
+                # The pairs the normal observer (this observer's base, or itself) tells apart without a filter:
+                # the set the median runs over and the confused pairs are drawn from.
+                normal = o.base if o.base is not None else o
+                sets = normally_discriminable(stimuli[:, :n_s].T @ normal.fundamentals, normal_noise,
+                                              normal_threshold)
+                with_confusion = "confusion" in groups and o.kind != "normal" and o.base is not None
+                s["rnl"] = rnl_reference(q0, noise, threshold=discrimination_threshold,
+                                         thresholds=distribution_thresholds if "discrimination" in groups else (),
+                                         median_pairs=sets[0],
+                                         extra_radii=(deficient_threshold,) if with_confusion else ())
+            if "confusion" in groups and o.kind != "normal" and o.base is not None:
+                s["confusion"] = confusion_reference(
+                    q0, noise, None, None, normal_threshold=normal_threshold,
+                    deficient_threshold=deficient_threshold, rnl=s["rnl"], sets=sets)
+                for key in _CONFUSION_KEYS:
                     store[f"confusion_{key}"] = np.zeros(n_f, dtype=np.int64)
+                store["confusion_normally_discriminable"] = s["confusion"]["count"]
+                store["confusion_median_without"] = s["rnl"]["median"]
+                store["confusion_median_with"] = np.full(n_f, np.nan)
+                store["confusion_median_ratio"] = np.full(n_f, np.nan)
+            if "discrimination" in groups:
+                for key in _PAIR_KEYS:
+                    store[f"discriminable_{key}"] = np.zeros(n_f, dtype=np.int64)
+                for t in distribution_thresholds:
+                    for key in _PAIR_KEYS:
+                        store[f"discriminable_at_{t:g}_{key}"] = np.zeros(n_f, dtype=np.int64)
+                store["discriminable_median_without"] = s["rnl"]["median"]
+                store["discriminable_median_with"] = np.full(n_f, np.nan)
+                store["discriminable_median_ratio"] = np.full(n_f, np.nan)
             setup.append(s)
         need_logs = "discrimination" in groups or "confusion" in groups
 
@@ -761,6 +970,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
             S, white = Q[:, :, :n_s], Q[:, :, n_s]
             whites[lo:hi] = white
             logs = log_catches(S) if need_logs else None
+            points = changes = None
             for k, s in enumerate(setup):
                 c = s["cols"]
                 planes = [S[:, i, :] for i in c]
@@ -771,16 +981,25 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
                     store["red_green_gain"][lo:hi] = g[:, 1]
                     store["blue_yellow_gain"][lo:hi] = g[:, 2]
                 if need_logs:
-                    log_cones = logs[:, c, :]  # (filters, 3, surfaces)
-                    log_planes = [log_cones[:, 0], log_cones[:, 1], log_cones[:, 2]]
+                    points = rnl_points(logs[:, c, :], s["rnl"])  # y = P ln q: Delta S is their distance
+                    changes = close_changes(points, s["rnl"])
+                    med = None
                 if "discrimination" in groups:
-                    d = discriminable_from_logs(log_cones, s["rnl"])
-                    for key in ("without", "with", "gained", "lost"):
+                    d = discriminable_from_points(points, s["rnl"], changes)
+                    med = d
+                    for key in _PAIR_KEYS:
                         store[f"discriminable_{key}"][lo:hi] = d[key]
+                    for t, counts in d["at"].items():
+                        for key in _PAIR_KEYS:
+                            store[f"discriminable_at_{t:g}_{key}"][lo:hi] = counts[key]
+                    store["discriminable_median_with"][lo:hi] = d["median_with"]
+                    store["discriminable_median_ratio"][lo:hi] = d["median_ratio"]
                 if "confusion" in s:
-                    d = confusion_from_planes(planes, log_planes, s["axes"], s["confusion"])
-                    for key in ("without", "with", "resolved", "created"):
+                    d = confusion_from_points(points, s["confusion"], changes, median=med)
+                    for key in _CONFUSION_KEYS:
                         store[f"confusion_{key}"][lo:hi] = d[key]
+                    store["confusion_median_with"][lo:hi] = d["median_with"]
+                    store["confusion_median_ratio"][lo:hi] = d["median_ratio"]
             return hi
 
         bounds = [(lo, min(n_f, lo + _CHUNK_FILTERS)) for lo in range(0, n_f, _CHUNK_FILTERS)]
@@ -821,9 +1040,119 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
               "surfaces": surf.name, "adaptation": _adaptation_text(a), "metrics": list(groups),
               "signal_spectra": None if signal_spectra is None else (
                   str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
-    settings = {"weber_fraction": weber_fraction, "cone_ratios": [float(x) for x in cone_ratios],
-                "confusion_tolerance": confusion_tolerance}
-    return Scorecard(fs, ill, surf, obs, a, groups, lights, results, per_obs, settings, inputs)
+    settings = {"weber_fraction": float(weber_fraction), "cone_ratios": [float(x) for x in cone_ratios],
+                "discrimination_threshold": float(discrimination_threshold),
+                "distribution_thresholds": [float(t) for t in distribution_thresholds],
+                "normal_threshold": float(normal_threshold), "deficient_threshold": float(deficient_threshold),
+                "signal_limits": limits, "signal_limits_reading": reading}
+    card = Scorecard(fs, ill, surf, obs, a, groups, lights, results, per_obs, settings, inputs)
+    if sensitivity:
+        card.sensitivity = _sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid)
+    return card
+
+
+#: The documented range over which ``score --sensitivity`` varies each model constant and threshold (one at
+#: a time, the others at their values of the run). Choices of this project, to show whether a verdict is robust:
+#: Weber fraction half and 1.5 times the default 0.02; L:M cone ratio 1:1 and 4:1 at the same S share (the
+#: default is 2:1; individual ratios vary at least this much, Hofer et al. 2005, from memory); every JND
+#: threshold together x0.8 and x1.25; the other reading of the signal-quotient limits.
+SENSITIVITY_RANGES = {
+    "weber_fraction": (0.5, 1.5),
+    "cone_ratios_lm": ((1.0, 1.0), (4.0, 1.0)),
+    "threshold_factor": (0.8, 1.25),
+    "signal_limits": ("guidance", "blue-0.4"),
+}
+
+
+def _sensitivity_variants(settings: dict) -> list:
+    """(name, score keyword arguments) of every variation, from the run's own settings."""
+    w = settings["weber_fraction"]
+    cr = settings["cone_ratios"]
+    lm = cr[0] + cr[1]
+    out = [(f"weber_fraction={w * f:g}", {"weber_fraction": w * f}) for f in SENSITIVITY_RANGES["weber_fraction"]]
+    for a, b in SENSITIVITY_RANGES["cone_ratios_lm"]:
+        ratios = (lm * a / (a + b), lm * b / (a + b), cr[2])
+        out.append((f"cone_ratios={':'.join(f'{x:g}' for x in ratios)}", {"cone_ratios": ratios}))
+    for f in SENSITIVITY_RANGES["threshold_factor"]:
+        out.append((f"thresholds x{f:g}", {
+            "discrimination_threshold": settings["discrimination_threshold"] * f,
+            "normal_threshold": settings["normal_threshold"] * f,
+            "deficient_threshold": settings["deficient_threshold"] * f}))
+    return out
+
+
+def _sign(x) -> int:
+    return 0 if x is None or x == 0 else (1 if x > 0 else -1)
+
+
+def _sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
+    """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section)."""
+    st = card.settings
+    pair_groups = [g for g in ("discrimination", "confusion") if g in card.metrics]
+    base = {"illuminant": ill, "observers": obs, "surfaces": surf, "adaptation": a, "grid": grid,
+            "weber_fraction": st["weber_fraction"], "cone_ratios": st["cone_ratios"],
+            "discrimination_threshold": st["discrimination_threshold"],
+            "distribution_thresholds": st["distribution_thresholds"],
+            "normal_threshold": st["normal_threshold"], "deficient_threshold": st["deficient_threshold"],
+            "signal_limits": st["signal_limits"]}
+    variants = []
+    if pair_groups:
+        for name, kw in _sensitivity_variants(st):
+            variants.append((name, kw, score(fs, metrics=pair_groups, **{**base, **kw}).to_dict()))
+    road = []
+    if "road_use" in card.metrics:
+        for reading in SENSITIVITY_RANGES["signal_limits"]:
+            if reading != st["signal_limits_reading"]:
+                road.append((f"signal_limits={reading}", score(fs, metrics="road_use", signal_spectra=signal_spectra,
+                                                              **{**base, "signal_limits": reading}).to_dict()))
+    doc = card.to_dict() if card.sensitivity is None else None
+    own = doc["filters"] if doc else []
+
+    def measures(o: dict) -> dict:
+        out = {}
+        p = o.get("discriminable_pairs")
+        if p is not None:
+            out["discriminable_net"] = p["gained"] - p["lost"]
+        c = o.get("confusion_pairs")
+        if c is not None:
+            out["confused_net_resolved"] = c["resolved"] - c["created"]
+        if p is not None or c is not None:
+            out["median_delta_s_ratio"] = _median_ratio(o)
+        return out
+
+    filters = []
+    for i, f in enumerate(own):
+        entry = {"name": f["name"], "observers": []}
+        if road:
+            values = {"default": f["road_use"]["suitable"],
+                      **{name: d["filters"][i]["road_use"]["suitable"] for name, d in road}}
+            entry["road_use_suitable"] = {"values": values, "robust": len(set(values.values())) == 1}
+        for k, o in enumerate(f["observers"]):
+            m0 = measures(o)
+            rows = {}
+            for key, v0 in m0.items():
+                values = {"default": v0}
+                for name, _, d in variants:
+                    values[name] = measures(d["filters"][i]["observers"][k]).get(key)
+                nums = [v for v in values.values() if v is not None]
+                ref = 1.0 if key.startswith("median") else 0
+                signs = {_sign(v - ref) for v in nums}
+                rows[key] = {"values": values, "min": min(nums) if nums else None, "max": max(nums) if nums else None,
+                             "robust": len(signs) <= 1}
+            entry["observers"].append({"observer": o["observer"], **rows})
+        filters.append(entry)
+    return {
+        "what": "each verdict recomputed with one constant or threshold moved at a time over a documented range; "
+                "'robust' means the sign of the change (net pairs, median ratio - 1, or the road-use verdict) is "
+                "the same in every variation",
+        "ranges": {"weber_fraction_factors": list(SENSITIVITY_RANGES["weber_fraction"]),
+                   "cone_ratios_lm": [list(x) for x in SENSITIVITY_RANGES["cone_ratios_lm"]],
+                   "threshold_factors": list(SENSITIVITY_RANGES["threshold_factor"]),
+                   "signal_limit_readings": list(SENSITIVITY_RANGES["signal_limits"])},
+        "variations": [{"name": name, "settings": {k: (list(v) if isinstance(v, tuple) else v) for k, v in kw.items()}}
+                       for name, kw, _ in variants] + [{"name": name, "settings": {}} for name, _ in road],
+        "filters": filters,
+    }
 
 
 def _describe_inputs(filters) -> list:

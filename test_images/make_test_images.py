@@ -3,7 +3,7 @@
     python test_images/make_test_images.py [OUT_DIR]
 
 Everything here is synthetic: a tabletop of coloured objects built from the
-reflectance spectra of the ColorChecker surface set (colour-science's N. Ohta
+reflectance spectra of the 24-patch chart surface set chart24 (colour-science's N. Ohta
 measurements) with Lambertian shading, its hyperspectral cube, dot stimuli
 whose figure and ground lie on one deuteranope confusion line, and smooth
 gradients. See README.md beside this script.
@@ -28,7 +28,7 @@ SIZE = 192          # tabletop image, pixels (square)
 CUBE_SIZE = 96      # tabletop cube, pixels (square)
 SUPERSAMPLE = 4     # per axis, for smooth edges
 
-# Scene: (label, reflectance recipe) -- recipes are weights over ColorChecker patches.
+# Scene: (label, reflectance recipe) -- recipes are weights over chart24 patches.
 WALL = {"neutral 8 (.23 D)": 0.85, "light skin": 0.15}
 TABLE = {"dark skin": 0.55, "light skin": 0.25, "orange": 0.2}
 # Spheres: (centre u, centre v, radius) in scene units (0-1, v down), and the patch.
@@ -51,7 +51,7 @@ LIGHT = np.array([-0.5, -0.6, 0.62])
 def _patches(grid):
     from cvdfilter.spectra.surfaces import surface_set
 
-    s = surface_set("colorchecker", grid)
+    s = surface_set("chart24", grid)
     return dict(zip(s.labels, s.reflectance.T))
 
 
@@ -140,7 +140,7 @@ def _encode(linear, bits):
 def deutan_direction():
     """Linear-sRGB direction along which the model deuteranope's L and S stay fixed (M changes)."""
     from cvdfilter.observers.observer import observer
-    from cvdfilter.render import display_matrix
+    from cvdfilter.rendering import display_matrix
 
     d = display_matrix(observer("normal"))  # rgb @ d = adapted L, M, S of the normal base observer
     direction = np.linalg.solve(d.T, np.array([0.0, 1.0, 0.0]))  # changes M only

@@ -1,7 +1,9 @@
 """Shared test fixtures.
 
 The on-disk reference-data cache goes to a per-session temporary folder so that
-tests never depend on (or pollute) a developer's own cache.
+tests never depend on (or pollute) a developer's own cache, nor write into the
+home directory: CVDFILTER_CACHE_DIR is set here for this process and every
+command the tests start (a value in the caller's environment is overridden).
 """
 
 from __future__ import annotations
@@ -12,7 +14,8 @@ import tempfile
 import pytest
 
 _CACHE = tempfile.mkdtemp(prefix="cvdfilter-test-cache-")
-os.environ.setdefault("CVDFILTER_CACHE_DIR", _CACHE)
+os.environ["CVDFILTER_CACHE_DIR"] = _CACHE
+os.environ.pop("CVDFILTER_CACHE", None)
 
 
 @pytest.fixture
@@ -25,3 +28,10 @@ def write(tmp_path):
         return p
 
     return _write
+
+
+def pytest_sessionfinish(session, exitstatus):
+    """Remove the session's cache folder (tests that need a cache of their own make one in tmp_path)."""
+    import shutil
+
+    shutil.rmtree(_CACHE, ignore_errors=True)

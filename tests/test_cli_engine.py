@@ -13,7 +13,7 @@ def run(*args, cwd=None):
     return subprocess.run([sys.executable, "-m", "cvdfilter", *args], capture_output=True, text=True, cwd=cwd)
 
 
-@pytest.mark.parametrize("kind", ["illuminants", "observers", "surfaces", "filters"])
+@pytest.mark.parametrize("kind", ["illuminants", "observers", "surfaces", "filters", "methods"])
 def test_list(kind):
     r = run("list", kind)
     assert r.returncode == 0, r.stderr

@@ -10,7 +10,7 @@ import pytest
 
 from cvdfilter.errors import InputError
 from cvdfilter.io.cubes import Cube, parse_wavelengths, read_cube, tiff_has_wavelengths
-from cvdfilter.render import Renderer, encode_srgb, render, render_spectra, render_views
+from cvdfilter.rendering import Renderer, encode_srgb, render, render_spectra, render_views
 
 TEST_IMAGES = pathlib.Path(__file__).resolve().parent.parent / "test_images"
 WL = np.arange(400.0, 701.0, 10.0)  # 31 bands, a common camera sampling
@@ -181,3 +181,99 @@ def test_tiff_cube_detection(tmp_path):
     assert not tiff_is_cube(tmp_path / "bands.tif")
     assert tiff_is_cube(tmp_path / "named.tif")
     assert render(tmp_path / "rgb.tif", filter=None, wavelengths="400:700:10").shape == (4, 4, 3)
+
+
+# --- hostile cubes: sizes from headers, every value, regular files only --------------------------------
+
+def _npz_bomb(path, shape, dtype=np.uint8):
+    """An .npz whose 'cube' member declares ``shape`` and holds zeros, written in blocks (never whole in
+    memory), plus its wavelengths: a few hundred kB on disk for hundreds of MB declared."""
+    import zipfile
+
+    header = {"descr": np.lib.format.dtype_to_descr(np.dtype(dtype)), "fortran_order": False, "shape": shape}
+    with zipfile.ZipFile(path, "w", compression=zipfile.ZIP_DEFLATED) as zf:
+        with zf.open("cube.npy", "w", force_zip64=True) as fh:
+            np.lib.format.write_array_header_1_0(fh, header)
+            block = bytes(1 << 22)
+            left = int(np.prod(shape)) * np.dtype(dtype).itemsize
+            while left > 0:
+                fh.write(block[:min(left, len(block))])
+                left -= len(block)
+        with zf.open("wavelengths.npy", "w") as fh:
+            np.lib.format.write_array(fh, np.linspace(400.0, 700.0, shape[-1]))
+
+
+def test_npz_member_shape_checked_before_decompression(tmp_path):
+    """A compressed cube declaring 3000 x 3000 pixels x 31 bands (279 MB) is refused from the member's npy
+    header inside the zip: the refusal allocates almost nothing."""
+    import tracemalloc
+
+    bomb = tmp_path / "bomb.npz"
+    _npz_bomb(bomb, (3000, 3000, 31))
+    assert bomb.stat().st_size < 2_000_000
+    tracemalloc.start()
+    try:
+        with pytest.raises(InputError, match="9.0 megapixels, above the limit of 1 megapixels"):
+            read_cube(bomb, kind="radiance", max_megapixels=1)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    assert peak < 5_000_000  # bytes; decompressing would take 279 MB
+
+
+def test_npz_wavelengths_member_size_checked(tmp_path):
+    import zipfile
+
+    with zipfile.ZipFile(tmp_path / "w.npz", "w") as zf:
+        with zf.open("cube.npy", "w") as fh:
+            np.lib.format.write_array(fh, np.zeros((2, 2, 3)))
+        with zf.open("wavelengths.npy", "w") as fh:  # a header claiming 10**9 wavelengths
+            np.lib.format.write_array_header_1_0(fh, {"descr": "<f8", "fortran_order": False, "shape": (10**9,)})
+    with pytest.raises(InputError, match="'wavelengths' declares 1000000000 entries"):
+        read_cube(tmp_path / "w.npz")
+
+
+def test_tiff_cube_size_checked_from_tags(tmp_path):
+    """A TIFF cube declaring 31 pages of 4000 x 4000 (an empty, sparse file) is refused from its tags."""
+    import tifffile
+
+    big = tmp_path / "big.tif"
+    tifffile.imwrite(big, shape=(31, 4000, 4000), dtype=np.uint8, photometric="minisblack",
+                     metadata={"wavelengths": WL.tolist(), "kind": "radiance"})
+    with pytest.raises(InputError, match="16.0 megapixels, above the limit of 2 megapixels"):
+        read_cube(big, max_megapixels=2)
+
+
+@pytest.mark.parametrize("value", [np.nan, np.inf, -np.inf])
+def test_one_bad_value_anywhere_is_caught(tmp_path, value):
+    """One NaN or infinite value in a 200 x 300 x 31 cube, placed where a strided sample would miss it."""
+    cube = np.full((200, 300, len(WL)), 0.5, np.float32)
+    cube[101, 151, 17] = value
+    np.save(tmp_path / "c.npy", cube)
+    with pytest.raises(InputError, match="1 NaN or infinite value"):
+        read_cube(tmp_path / "c.npy", wavelengths=WL)
+    np.savez_compressed(tmp_path / "c.npz", cube=cube, wavelengths=WL)
+    with pytest.raises(InputError, match="NaN or infinite"):
+        read_cube(tmp_path / "c.npz")
+    with pytest.raises(InputError, match="1 NaN or infinite value"):  # a cube built in memory too
+        Cube(cube, WL, "reflectance")
+
+
+def test_percent_reflectance_seen_anywhere(tmp_path):
+    cube = np.full((200, 300, len(WL)), 0.5, np.float32)
+    cube[199, 299, 30] = 80.0  # one value in percent, in the last pixel
+    c = Cube(cube, WL, "reflectance", "p.npy")
+    from cvdfilter.io.cubes import _value_warnings
+
+    assert any("reach 80" in w for w in _value_warnings(c))
+
+
+def test_named_pipe_is_refused_without_waiting(tmp_path):
+    import os
+
+    fifo = tmp_path / "cube.npy"
+    os.mkfifo(fifo)
+    with pytest.raises(InputError, match="not a regular file"):
+        read_cube(fifo, wavelengths=WL)
+    with pytest.raises(InputError, match="is a folder"):
+        read_cube(tmp_path, wavelengths=WL)

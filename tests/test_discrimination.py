@@ -128,6 +128,44 @@ def test_counts_on_ces99_equal_all_pairs_by_the_published_formula(ces_catches, s
         assert res["lost"][f] == np.count_nonzero(d0 & ~d1)
 
 
+@pytest.mark.parametrize("spec", ["normal", "deuteranope"])
+def test_distribution_on_ces99_equals_all_pairs_by_the_published_formula(ces_catches, spec):
+    # Source: Vorobyev & Osorio 1998 Delta S for all 4,851 pairs one by one; counts at 1, 2 and 4 JND
+    # (and at 0.8 and 1.25 JND) and the median ratio (numpy's median over all pairs).
+    o, q0, q1 = ces_catches[spec]
+    e = receptor_noise(o.missing_cone)
+    iu = np.triu_indices(99, k=1)
+    ds0 = rnl_distance(q0[iu[0]], q0[iu[1]], e)
+    res = discriminable_pairs(q1, q0, e, threshold=1.25, thresholds=(0.8, 1.0, 2.0, 4.0))
+    for f in range(q1.shape[0]):
+        ds1 = rnl_distance(q1[f][iu[0]], q1[f][iu[1]], e)
+        for t, counts in res["at"].items():
+            a0, a1 = ds0 >= t, ds1 >= t
+            assert (counts["without"], counts["with"][f], counts["gained"][f], counts["lost"][f]) == (
+                a0.sum(), a1.sum(), (a1 & ~a0).sum(), (a0 & ~a1).sum()), t
+        assert res["with"][f] == np.count_nonzero(ds1 >= 1.25)
+        assert res["median_ratio"][f] == pytest.approx(np.median(ds1) / np.median(ds0), rel=1e-6)
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.integers(2, 40), st.integers(1, 3), st.integers(0, 2**31 - 1))
+def test_dense_pair_distances_and_median_equal_brute_force(n, k, seed):
+    # Invariant: the offset layout holds every pair once; the median of a subset equals numpy's.
+    from cvdfilter.metrics.pairs import all_pair_sq_distances, median_rows, offset_order
+
+    rng = np.random.default_rng(seed)
+    pts = rng.normal(size=(3, n, k)) * 5
+    d2 = all_pair_sq_distances([pts[..., c] for c in range(k)], dtype=float)
+    i, j = np.triu_indices(n, 1)
+    brute = np.sum((pts[:, i] - pts[:, j]) ** 2, axis=-1)
+    assert np.allclose(d2[:, offset_order(i, j, n)], brute, rtol=1e-12, atol=0)
+    drop = rng.random(i.size) < 0.3
+    if (~drop).any():
+        d2x = all_pair_sq_distances([pts[..., c] for c in range(k)], exclude=offset_order(i[drop], j[drop], n))
+        med = median_rows(d2x, count=int((~drop).sum()))
+        assert np.allclose(med, np.median(brute[:, ~drop], axis=1), rtol=1e-6)
+
+
 def test_neutral_density_gains_and_loses_nothing(ces_catches):
     # Invariant: a neutral filter scales every catch alike.
     o, q0, q1 = ces_catches["normal"]

@@ -68,13 +68,13 @@ def test_every_kind_through_the_command(tmp_path, small_png):
         ("chromaticity", ["larkhill-notch-575", "--observer", "protanope", "--space", "xy",
                           "--surfaces", "tcs14"], "svg"),
         ("gains", ["larkhill-notch-575", "--observer", "normal", "--observer", "deuteranope",
-                   "--surfaces", "colorchecker", "--width", "120"], "png"),
+                   "--surfaces", "chart24", "--width", "120"], "png"),
         ("hues", ["larkhill-rose-tint", "--chart", "radial", "--illuminant", "FL2"], "svg"),
-        ("swatches", ["larkhill-double-notch", "--observer", "tritanope", "--surfaces", "colorchecker",
+        ("swatches", ["larkhill-double-notch", "--observer", "tritanope", "--surfaces", "chart24",
                       "--adaptation", "0.5"], "pdf"),
         ("images", ["larkhill-notch-575", "--image", str(small_png), "--observer", "deuteranope"], "png"),
         ("sweep", ["notch:center=540..600/30,fwhm=30,depth=0.8", "--observer", "deuteranope",
-                   "--surfaces", "colorchecker", "--metric", "blue_yellow_gain",
+                   "--surfaces", "chart24", "--metric", "blue_yellow_gain",
                    "--metric", "discriminable_pairs.gained"], "svg"),
     ]
     for kind, args, fmt in cases:
@@ -93,14 +93,14 @@ def test_caveat_title_and_style_options(tmp_path):
     style = tmp_path / "journal.style"
     style.write_text("font_size: 8.5\ncaveat_size: 6\n")
     with_caveat = tmp_path / "a.svg"
-    r = invoke("figure", "gains", "larkhill-notch-575", "--observer", "deuteranope", "--surfaces", "colorchecker",
+    r = invoke("figure", "gains", "larkhill-notch-575", "--observer", "deuteranope", "--surfaces", "chart24",
                "--style", style, "--title", "Figure 3", "-o", with_caveat)
     assert r.exit_code == 0, r.output
     text = with_caveat.read_text()
     assert "Figure 3" in text and "font: 8.5px" in text.replace("8.5pt", "8.5px") or "8.5" in text
     assert "not clinical evidence" in text
     without = tmp_path / "b.svg"
-    r = invoke("figure", "gains", "larkhill-notch-575", "--observer", "deuteranope", "--surfaces", "colorchecker",
+    r = invoke("figure", "gains", "larkhill-notch-575", "--observer", "deuteranope", "--surfaces", "chart24",
                "--no-caveat", "--title", "", "-o", without)
     assert r.exit_code == 0, r.output
     text = without.read_text()

@@ -304,7 +304,7 @@ def test_chromaticity_mb_copunctal_points_and_tritan_lines():
 
 def test_chromaticity_surfaces_match_colour_science_cie2015_xy():
     # Source: colour-science sd_to_XYZ with the "CIE 2015 2 Degree Standard Observer" CMFs and CIE D65
-    # for the ColorChecker (N. Ohta) reflectances; the figure maps the CIE 2006 cone excitations through
+    # for the 24-patch chart (chart24, N. Ohta) reflectances; the figure maps the CIE 2006 cone excitations through
     # CIE 170-2's exact LMS-to-XYZ relation; xy agree within 5e-4 (measured 1.0e-4: the CIE 2006
     # model at 32 years matches the tabulated Stockman & Sharpe data to 1e-3 of the peak).
     import colour
@@ -312,10 +312,10 @@ def test_chromaticity_surfaces_match_colour_science_cie2015_xy():
     from cvdfilter.spectra.grid import DEFAULT_GRID
     from cvdfilter.spectra.surfaces import surface_set
 
-    r = figure("chromaticity", "nd:t=0.5", observers="deuteranope", space="xy2015", surfaces="colorchecker",
+    r = figure("chromaticity", "nd:t=0.5", observers="deuteranope", space="xy2015", surfaces="chart24",
                caveat=False)
     plotted = np.asarray(_artist(r.figure, "surfaces-without-0").get_xydata())
-    surf = surface_set("colorchecker", DEFAULT_GRID)
+    surf = surface_set("chart24", DEFAULT_GRID)
     cmfs = colour.MSDS_CMFS["CIE 2015 2 Degree Standard Observer"]
     shape = colour.SpectralShape(380, 780, 1)
     d65 = colour.SDS_ILLUMINANTS["D65"].copy().align(shape)
@@ -341,14 +341,14 @@ def test_chromaticity_mb_surfaces_follow_the_published_formula():
     from cvdfilter.spectra.illuminants import illuminant
     from cvdfilter.spectra.surfaces import surface_set
 
-    r = figure("chromaticity", "larkhill-notch-575", observers="protanope", surfaces="colorchecker", caveat=False)
+    r = figure("chromaticity", "larkhill-notch-575", observers="protanope", surfaces="chart24", caveat=False)
     plotted = np.asarray(_artist(r.figure, "surfaces-without-0").get_xydata())
     g = Grid(390, 780, 1)
     lms = colour.MSDS_CMFS["Stockman & Sharpe 2 Degree Cone Fundamentals"].copy().align(
         colour.SpectralShape(390, 780, 1)).values
     lms = np.asarray(lms) / np.asarray(lms).max(axis=0)
     spd = illuminant("D65", g).spd
-    refl = surface_set("colorchecker", g).reflectance
+    refl = surface_set("chart24", g).reflectance
     e = (spd[:, None] * refl).T @ lms
     v = 0.68990272 * e[:, 0] + 0.34832189 * e[:, 1]
     vl = 0.68990272 * lms[:, 0] + 0.34832189 * lms[:, 1]
@@ -391,13 +391,13 @@ def _small_image():
 
 _KIND_ARGS = {
     "spectrum": (["larkhill-notch-575"], {"observers": ["normal", "protanomalous"]}),
-    "chromaticity": (["larkhill-notch-575"], {"surfaces": "colorchecker"}),
-    "gains": (["larkhill-notch-575", "larkhill-rose-tint"], {"surfaces": "colorchecker",
+    "chromaticity": (["larkhill-notch-575"], {"surfaces": "chart24"}),
+    "gains": (["larkhill-notch-575", "larkhill-rose-tint"], {"surfaces": "chart24",
                                                              "observers": ["normal", "deuteranope"]}),
     "hues": (["larkhill-notch-575"], {}),
-    "swatches": (["larkhill-notch-575"], {"surfaces": "colorchecker"}),
+    "swatches": (["larkhill-notch-575"], {"surfaces": "chart24"}),
     "images": (["larkhill-notch-575"], {"image": None}),
-    "sweep": (["notch:center=550..590/20,fwhm=30,depth=0.8"], {"surfaces": "colorchecker",
+    "sweep": (["notch:center=550..590/20,fwhm=30,depth=0.8"], {"surfaces": "chart24",
                                                               "observers": ["normal", "deuteranope"]}),
 }
 
@@ -432,7 +432,7 @@ def test_gains_plot_the_scorecard(every_kind):
     from cvdfilter.scorecard import score
 
     r = every_kind["gains"]
-    card = score(["larkhill-notch-575", "larkhill-rose-tint"], surfaces="colorchecker",
+    card = score(["larkhill-notch-575", "larkhill-rose-tint"], surfaces="chart24",
                  observers=["normal", "deuteranope"], metrics="core").to_dict()
     for i, f in enumerate(card["filters"]):
         for key in ("blue_yellow_gain", "luminance_contrast_gain"):
@@ -482,7 +482,7 @@ def test_sweep_plots_scorecard_values(every_kind):
     from cvdfilter.scorecard import score
 
     r = every_kind["sweep"]
-    card = score("notch:center=550..590/20,fwhm=30,depth=0.8", surfaces="colorchecker",
+    card = score("notch:center=550..590/20,fwhm=30,depth=0.8", surfaces="chart24",
                  observers=["normal", "deuteranope"], metrics="core").to_dict()
     line = _artist(r.figure, "sweep-luminous_transmittance-0")
     assert np.allclose(line.get_xdata(), [550, 570, 590])
@@ -492,11 +492,11 @@ def test_sweep_plots_scorecard_values(every_kind):
 
 
 def test_swatches_are_the_renderers_colours(every_kind):
-    from cvdfilter.render import encode_srgb, render_spectra
+    from cvdfilter.rendering import encode_srgb, render_spectra
     from cvdfilter.spectra.surfaces import surface_set
 
     r = every_kind["swatches"]
-    refl = surface_set("colorchecker").reflectance.T
+    refl = surface_set("chart24").reflectance.T
     for view in ("original", "observer-filtered"):
         expected = encode_srgb(render_spectra(refl, filter="larkhill-notch-575", observer="deuteranope",
                                               view=view), np.uint8)
@@ -507,7 +507,7 @@ def test_swatches_are_the_renderers_colours(every_kind):
 
 def test_swatches_normal_view_matches_colour_science_srgb():
     # Reference library: colour-science sd_to_XYZ (CIE 1931 2 deg, D65) then XYZ_to_sRGB for the
-    # ColorChecker (N. Ohta) reflectances. The swatches go through the CIE 2006 observer and the
+    # 24-patch chart (chart24, N. Ohta) reflectances. The swatches go through the CIE 2006 observer and the
     # renderer's display model instead, so agreement is close, not exact: mean CIEDE2000 below 0.6
     # and every patch below 1.5 (measured 0.35 and 1.16, the largest on the out-of-gamut yellow).
     import colour
@@ -515,8 +515,8 @@ def test_swatches_normal_view_matches_colour_science_srgb():
     from cvdfilter.figures.swatches import swatch_colours
     from cvdfilter.spectra.surfaces import surface_set
 
-    mine = swatch_colours("nd:t=1", observer="deuteranope", surfaces="colorchecker")["srgb8"]["original"]
-    s = surface_set("colorchecker")
+    mine = swatch_colours("nd:t=1", observer="deuteranope", surfaces="chart24")["srgb8"]["original"]
+    s = surface_set("chart24")
     shape = colour.SpectralShape(380, 780, 1)
     cmfs = colour.MSDS_CMFS["CIE 1931 2 Degree Standard Observer"].copy().align(shape)
     d65 = colour.SDS_ILLUMINANTS["D65"].copy().align(shape)
@@ -532,7 +532,7 @@ def test_swatches_normal_view_matches_colour_science_srgb():
 
 
 def test_images_show_the_renderers_views(every_kind):
-    from cvdfilter.render import render_views
+    from cvdfilter.rendering import render_views
 
     r = every_kind["images"]
     views = render_views(_small_image(), filter="larkhill-notch-575", observer="deuteranope")

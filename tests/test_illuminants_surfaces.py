@@ -54,17 +54,17 @@ def test_bad_illuminants(spec):
         illuminant(spec)
 
 
-@pytest.mark.parametrize("name,n", [("ces99", 99), ("colorchecker", 24), ("tcs14", 14), ("vs15", 15)])
+@pytest.mark.parametrize("name,n", [("ces99", 99), ("chart24", 24), ("tcs14", 14), ("vs15", 15)])
 def test_surface_sets(name, n):
     s = surface_set(name)
     assert s.reflectance.shape == (401, n) and len(s.labels) == n
     assert s.reflectance.min() >= 0 and s.reflectance.max() <= 1
 
 
-def test_colorchecker_white_patch_luminance():
-    # Source: colour-science's ColorChecker (N. Ohta) data under D65 give the 'white 9.5 (.05 D)' patch
+def test_chart24_white_patch_luminance():
+    # Source: colour-science's 24-patch chart data (N. Ohta) under D65 give the 'white 9.5 (.05 D)' patch
     # Y of about 0.9 (from memory: ~90 % reflectance); computed here the same way as colour.sd_to_XYZ.
-    s = surface_set("colorchecker")
+    s = surface_set("chart24")
     d65 = illuminant("D65").spd
     y = cie1931_cmfs()[:, 1]
     i = s.labels.index("white 9.5 (.05 D)")

@@ -191,3 +191,70 @@ def test_written_files_get_umask_permissions(tmp_path):
     assert (p.stat().st_mode & 0o777) == (0o666 & ~umask)
     assert not list(tmp_path.glob(".*tmp*"))  # no temporary file left behind
 
+
+
+# --- no process-wide side effects; regular files only; the tool's own errors only ----------------------
+
+def test_reading_leaves_pillows_global_limit_alone(tmp_path):
+    from PIL import Image
+
+    before = Image.MAX_IMAGE_PIXELS
+    write_image(tmp_path / "a.jpg", np.zeros((20, 30, 3), np.uint8))
+    write_image(tmp_path / "a.png", np.zeros((20, 30, 3), np.uint8))
+    for name in ("a.jpg", "a.png"):
+        read_image(tmp_path / name, max_megapixels=500)
+        read_image(tmp_path / name, max_megapixels=0.01)
+    assert Image.MAX_IMAGE_PIXELS == before
+
+
+def test_jpeg_header_parsed_without_decoding(tmp_path):
+    """Frame size from the SOF segment (ITU-T T.81, B.2.2); a CMYK JPEG is refused with one line."""
+    from PIL import Image
+
+    Image.new("RGB", (37, 21), (10, 200, 30)).save(tmp_path / "rgb.jpg", quality=90)
+    h = image_header(tmp_path / "rgb.jpg")
+    assert (h.width, h.height) == (37, 21)
+    Image.new("CMYK", (8, 8)).save(tmp_path / "cmyk.jpg")
+    with pytest.raises(InputError, match="4 colour components"):
+        read_image(tmp_path / "cmyk.jpg")
+    # a progressive JPEG (SOF2) reads too
+    Image.new("L", (16, 9), 128).save(tmp_path / "prog.jpg", progressive=True)
+    assert read_image(tmp_path / "prog.jpg").pixels.shape == (9, 16)
+
+
+def test_settings_record_read_back_from_every_format(tmp_path):
+    from cvdfilter.io.images import read_metadata
+
+    record = {"fingerprint": "ab" * 32, "view": "observer", "filter": "nd:t=0.5"}
+    for suffix, px in ((".png", np.zeros((4, 4, 3), np.uint16)), (".tif", np.zeros((4, 4, 3), np.float32)),
+                       (".jpg", np.zeros((4, 4, 3), np.uint8))):
+        p = tmp_path / f"x{suffix}"
+        write_image(p, px, metadata={"cvdfilter": record}, encoding="linear" if px.dtype.kind == "f" else "srgb")
+        assert read_metadata(p) == record, suffix
+    plain = tmp_path / "plain.png"
+    plain.write_bytes(encode_png(np.zeros((2, 2, 3), np.uint8)))
+    assert read_metadata(plain) is None and read_metadata(tmp_path / "missing.png") is None
+
+
+def test_named_pipe_is_refused_without_waiting(tmp_path):
+    import os
+
+    fifo = tmp_path / "pipe.png"
+    os.mkfifo(fifo)
+    with pytest.raises(InputError, match="not a regular file"):
+        read_image(fifo)
+
+
+def test_programming_errors_are_not_turned_into_bad_input(tmp_path, monkeypatch):
+    """Only the decoders' own failures become InputError; a bug in the tool stays a bug."""
+    import imagecodecs
+
+    p = tmp_path / "ok.png"
+    write_image(p, np.zeros((2, 2, 3), np.uint8))
+
+    def broken(*args, **kwargs):
+        raise TypeError("a programming error")
+
+    monkeypatch.setattr(imagecodecs, "png_decode", broken)
+    with pytest.raises(TypeError, match="programming error"):
+        read_image(p)

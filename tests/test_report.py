@@ -15,7 +15,7 @@ import pytest
 
 from cvdfilter.cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from cvdfilter.errors import InputError
-from cvdfilter.report import REFERENCES, SECTIONS, report, transmittance_sha256
+from cvdfilter.reporting import REFERENCES, SECTIONS, report, transmittance_sha256
 
 CHROMIUM_FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
                   "--disable-background-networking", "--disable-component-update", "--disable-sync",
@@ -36,7 +36,7 @@ def lens_file(tmp_path_factory):
 def built(lens_file, tmp_path_factory):
     out = tmp_path_factory.mktemp("report")
     r = report([str(lens_file), "larkhill-notch-575", "notch:center=530,fwhm=20,depth=0.6"],
-               observers=["normal", "deuteranomalous:shift=8", "deuteranope"], surfaces="colorchecker")
+               observers=["normal", "deuteranomalous:shift=8", "deuteranope"], surfaces="chart24")
     html_path = out / "report.html"
     md_path = out / "sub" / "report.md"
     r.save(html_path)
@@ -78,11 +78,11 @@ def test_inputs_and_versions_are_recorded(built, lens_file):
     env = r.environment
     assert env["libraries"]["colour-science"] == colour.__version__
     assert env["libraries"]["matplotlib"] == matplotlib.__version__
-    for needle in ("D65", "deuteranomalous:shift=8", "colorchecker", "von Kries", "380-780 nm",
+    for needle in ("D65", "deuteranomalous:shift=8", "chart24", "von Kries", "380-780 nm",
                    f"cvdfilter {env['version']}", "Weber fraction"):
         assert needle in text
     assert "cvdfilter report" in r.command and "--observer deuteranope" in r.command
-    assert "--surfaces colorchecker" in r.command
+    assert "--surfaces chart24" in r.command
 
 
 def test_html_is_self_contained_and_well_formed(built):
@@ -207,7 +207,7 @@ def test_html_renders_in_headless_chromium(built, chromium, tmp_path):
 
 def test_report_of_a_sweep_adds_the_sweep_figure_and_says_what_it_leaves_out():
     r = report("notch:center=530..620/10,fwhm=30,depth=0.8", observers=["normal", "deuteranope"],
-               surfaces="colorchecker", metrics="core")
+               surfaces="chart24", metrics="core")
     kinds = {f.kind: f for f in r.figures}
     assert kinds["sweep"].svg and kinds["spectrum"].svg
     assert not kinds["chromaticity"].svg and "at most 4 filters" in kinds["chromaticity"].note

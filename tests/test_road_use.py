@@ -11,7 +11,8 @@ import numpy as np
 import pytest
 
 from cvdfilter.errors import InputError
-from cvdfilter.metrics.road_use import (MODEL_NOTE, SIGNAL_LIMITS, iso12312_category, modelled_signal_lights,
+from cvdfilter.metrics.road_use import (DEFAULT_SIGNAL_READING, MODEL_NOTE, SIGNAL_LIMIT_READINGS, SIGNAL_LIMITS,
+                                        iso12312_category, modelled_signal_lights, parse_signal_limits,
                                         road_use_reasons, signal_colour)
 from cvdfilter.scorecard import score
 from cvdfilter.spectra.grid import DEFAULT_GRID
@@ -85,8 +86,40 @@ def test_signal_quotients_of_a_neutral_filter_are_one():
 
 
 def test_signal_limits_are_the_published_ones():
-    # College of Optometrists summary of ISO 12312-1: 0.8 red and yellow, 0.6 green and blue.
+    # College of Optometrists' guidance "Tints and driving" (summary of ISO 12312-1:2013): 0.8 red and
+    # yellow, 0.6 green and blue (its sentence lists yellow twice; plain reading). The other reading,
+    # blue 0.4, is from memory. Both are named tables; the default is the guidance reading.
     assert SIGNAL_LIMITS == {"red": 0.8, "yellow": 0.8, "green": 0.6, "blue": 0.6}
+    assert SIGNAL_LIMIT_READINGS["guidance"] == SIGNAL_LIMITS and DEFAULT_SIGNAL_READING == "guidance"
+    assert SIGNAL_LIMIT_READINGS["blue-0.4"] == {"red": 0.8, "yellow": 0.8, "green": 0.6, "blue": 0.4}
+
+
+def test_signal_limits_parse_and_refuse():
+    assert parse_signal_limits("red=0.8,yellow=0.8,green=0.6,blue=0.4") == (SIGNAL_LIMIT_READINGS["blue-0.4"],
+                                                                           "blue-0.4")
+    assert parse_signal_limits("blue-0.4")[1] == "blue-0.4"
+    assert parse_signal_limits({"amber": 0.7})[0]["yellow"] == 0.7 and parse_signal_limits({"amber": 0.7})[1] == "user"
+    for bad in ("purple=0.5", "red=abc", "red", "red=5"):
+        with pytest.raises(ValueError):
+            parse_signal_limits(bad)
+    with pytest.raises(InputError):
+        score("nd:t=0.5", metrics="road_use", signal_limits="red=-1")
+
+
+def test_blue_limit_reading_decides_a_blue_absorbing_filter():
+    # A long-pass tint that leaves the blue quotient between 0.4 and 0.6 passes under one reading and fails
+    # under the other; the limits used are named in the output and the reasons.
+    spec = "longpass:edge=480,width=40,min=0.2"
+    strict = _card(spec)["filters"][0]
+    q = strict["signal_quotients"]["blue"]
+    assert 0.4 < q < 0.6, q
+    lax = score(spec, metrics="photometry,road_use", signal_limits="blue-0.4").to_dict()
+    assert lax["models"]["road_use"]["signal_limits"]["blue"] == 0.4
+    assert lax["signal_lights"]["blue"]["limit"] == 0.4
+    assert any("blue signal quotient" in r and "limit of 0.6" in r for r in strict["road_use"]["reasons"])
+    assert not any("blue signal quotient" in r for r in lax["filters"][0]["road_use"]["reasons"])
+    assert strict["road_use"]["suitable"] is False
+    assert lax["filters"][0]["road_use"]["suitable"] is True
 
 
 def test_red_absorbing_filter_fails_the_red_signal_quotient():

@@ -53,7 +53,7 @@ def test_csv_markdown_and_output_file(tmp_path):
     assert r.stdout == "" and "wrote" in r.stderr
     rows = list(csv.DictReader(io.StringIO(out.read_text())))
     assert len(rows) == 4 * 5  # 4 swept filters x 5 default observers
-    assert {row["observer"] for row in rows} == {"normal", "protanomalous:shift=16", "deuteranomalous:shift=16",
+    assert {row["observer"] for row in rows} == {"normal", "protanomalous:separation=10", "deuteranomalous:separation=6",
                                                  "protanope", "deuteranope"}
     assert rows[0]["caveat"] == CAVEAT
     md = run("larkhill-notch-575", "--metrics", "core", "--format", "markdown")
@@ -104,3 +104,59 @@ def test_output_never_overwrites_an_input(two_column_file):
     r = run(str(two_column_file), "--metrics", "photometry", "--output", str(two_column_file))
     assert r.returncode == 2 and "overwrite" in r.stderr
     assert two_column_file.read_text() == before
+
+
+def test_signal_limits_are_printed_in_every_format(tmp_path):
+    # Issue 9: every output that judges road use names the limits it used.
+    for fmt, needle in (("table", "Signal-quotient limits: red 0.8, yellow 0.8, green 0.6, blue 0.4"),
+                        ("markdown", "Signal-quotient limits: red 0.8, yellow 0.8, green 0.6, blue 0.4"),
+                        ("csv", "red=0.8,yellow=0.8,green=0.6,blue=0.4"),
+                        ("json", '"blue": 0.4')):
+        r = run("nd:t=0.5", "--observer", "normal", "--metrics", "photometry,road_use", "--format", fmt,
+                "--signal-limits", "red=0.8,yellow=0.8,green=0.6,blue=0.4")
+        assert r.returncode == 0, r.stderr
+        assert needle in " ".join(r.stdout.split()) or needle in r.stdout, fmt
+    r = run("nd:t=0.5", "--observer", "normal", "--metrics", "road_use", "--format", "json")
+    assert json.loads(r.stdout)["models"]["road_use"]["signal_limits"]["blue"] == 0.6
+
+
+def test_model_constants_are_cli_options():
+    args = ["larkhill-notch-575", "--observer", "deuteranope", "--metrics", "discrimination,confusion",
+            "--format", "json"]
+    r = run(*args, "--weber-fraction", "0.03", "--cone-ratios", "12:3:1", "--jnd-threshold", "1.25")
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    m = d["models"]
+    assert m["discrimination"]["weber_fraction_l"] == 0.03 and m["discrimination"]["cone_ratios_lms"] == [12, 3, 1]
+    assert m["confusion"]["normal_threshold_jnd"] == 1.25 and m["confusion"]["deficient_threshold_jnd"] == 1.25
+    api = score("larkhill-notch-575", observers=["deuteranope"], metrics="discrimination,confusion",
+                weber_fraction=0.03, cone_ratios=(12, 3, 1), discrimination_threshold=1.25, normal_threshold=1.25,
+                deficient_threshold=1.25).to_dict()
+    assert d["filters"] == api["filters"]
+
+
+def test_sensitivity_section(tmp_path):
+    out = tmp_path / "s.json"
+    r = run("larkhill-notch-575", "nd:t=0.5", "--observer", "normal", "--observer", "deuteranope", "--metrics",
+            "core", "--sensitivity", "--format", "json", "-o", str(out))
+    assert r.returncode == 0, r.stderr
+    sens = json.loads(out.read_text())["sensitivity"]
+    names = [v["name"] for v in sens["variations"]]
+    assert "weber_fraction=0.01" in names and "thresholds x1.25" in names and "signal_limits=blue-0.4" in names
+    nd = sens["filters"][1]
+    # A neutral filter changes nothing under any variation: every verdict is robust, every ratio 1.
+    for o in nd["observers"]:
+        assert o["median_delta_s_ratio"]["min"] == o["median_delta_s_ratio"]["max"] == 1.0
+        assert o["discriminable_net"]["robust"]
+    assert nd["road_use_suitable"]["robust"]
+    table = run("larkhill-notch-575", "--observer", "deuteranope", "--metrics", "core", "--sensitivity")
+    assert table.returncode == 0 and "Sensitivity: larkhill-notch-575" in table.stdout
+
+
+@pytest.mark.parametrize("bad", [["--cone-ratios", "10:5"], ["--cone-ratios", "10:5:-1"], ["--weber-fraction", "0"],
+                                 ["--jnd-threshold", "-1"], ["--signal-limits", "violet=0.5"]])
+def test_bad_model_options_exit_2(bad, tmp_path):
+    out = tmp_path / "x.json"
+    r = run("nd:t=0.5", "--observer", "normal", *bad, "-o", str(out))
+    assert r.returncode == 2, (bad, r.stderr)
+    assert len(r.stderr.strip().splitlines()) == 1 and not out.exists()

@@ -22,7 +22,7 @@ def register(app: typer.Typer) -> None:
         observer: Optional[List[str]] = typer.Option(None, "--observer",
                                                      help="Observer spec; repeat for several (default per kind)."),
         surfaces: Optional[str] = typer.Option(None, "--surfaces",
-                                               help="ces99, colorchecker, tcs14, vs15 or a file (default per kind)."),
+                                               help="ces99, chart24, tcs14, vs15 or a file (default per kind)."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a fraction 0-1 (von Kries)."),
         width: str = typer.Option("single", "--width", help="single (89 mm), double (183 mm) or a width in mm."),
         height: Optional[float] = typer.Option(None, "--height", help="Height in mm (default per kind)."),

@@ -1,4 +1,4 @@
-"""``cvdfilter list``: what illuminants, observers, surface sets and filters are available."""
+"""``cvdfilter list``: what illuminants, observers, surface sets, filters and simulation methods are available."""
 
 from __future__ import annotations
 
@@ -10,7 +10,7 @@ from .common import emit, fail, table_text, to_json
 def register(app: typer.Typer) -> None:
     @app.command("list")
     def list_(
-        kind: str = typer.Argument(..., help="illuminants, observers, surfaces or filters"),
+        kind: str = typer.Argument(..., help="illuminants, observers, surfaces, filters or methods"),
         format: str = typer.Option("table", "--format", "-f", help="table or json"),
     ) -> None:
         """List what is available (``filters`` also shows how to select one column of a file:
@@ -36,7 +36,7 @@ def register(app: typer.Typer) -> None:
             text = table_text(["group", "names"], rows)
         elif kind == "observers":
             text = table_text(["form", "parameters", "model"], [(i["form"], i["parameters"], i["model"]) for i in items])
-        elif kind == "surfaces":
+        elif kind in ("surfaces", "methods"):
             text = table_text(["name", "description"], [(i["name"], i["description"]) for i in items])
         else:
             text = table_text(["example", "description"], [(i["name"], i["description"]) for i in items["examples"]],

@@ -57,8 +57,9 @@ def register(app: typer.Typer) -> None:
             ]
             if d["shift_nm"] is not None:
                 sep = d["separation_nm"]
-                rows.append(("pigment shift", f"{d['shift_nm']:g} nm ({d['affected_cone']} cone)"
-                             + (f", of {sep:.1f} nm separation" if sep else "")))
+                rows.append(("shift", f"{d['shift_nm']:.2f} nm ({d['affected_cone']} cone, "
+                             f"{d['shift_measure'] or 'Machado 2009'})"
+                             + (f", {sep:.2f} of {d['normal_separation_nm']:.2f} nm left" if sep is not None else "")))
             if d["copunctal_point"] is not None:
                 rows.append(("copunctal point", f"{_fmt_xy(d['copunctal_point'])} in {d['xy_system']} xy"))
             if d["kind"] == "dichromat":

@@ -20,7 +20,7 @@ def register(app: typer.Typer) -> None:
         observer: Optional[List[str]] = typer.Option(
             None, "--observer", help="Observer spec; repeat for several (default: normal, protanomalous, "
                                      "deuteranomalous, protanope, deuteranope)."),
-        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, colorchecker, tcs14, vs15 or a file."),
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15 or a file."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a fraction 0-1 (von Kries)."),
         metrics: str = typer.Option("all", "--metrics", help="all, core or a comma-separated list of groups."),
         style: Optional[List[str]] = typer.Option(None, "--style",
@@ -36,7 +36,7 @@ def register(app: typer.Typer) -> None:
 
         Example: cvdfilter report larkhill-notch-575 larkhill-double-notch -o report.html
 
-        Example: cvdfilter report lens.csv --observer deuteranomalous --surfaces colorchecker -o report.md
+        Example: cvdfilter report lens.csv --observer deuteranomalous --surfaces chart24 -o report.md
         """
         import pathlib
 
@@ -46,7 +46,7 @@ def register(app: typer.Typer) -> None:
             fail(InputError(f"cannot tell the report format from '{pathlib.Path(output).name}'", source=output,
                             hint="end the file name in .html or .md"))
         try:
-            from ..report import report as make_report
+            from ..reporting import report as make_report
 
             filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
             result = make_report(filter_specs, illuminant=illuminant, observers=observer or None, surfaces=surfaces,

@@ -51,7 +51,7 @@ def register(app: typer.Typer) -> None:
         observer: Optional[List[str]] = typer.Option(None, "--observer", help=(
             "Observer spec; repeat for several. Default: normal, protanomalous, deuteranomalous, "
             "protanope, deuteranope.")),
-        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, colorchecker, tcs14, vs15 or a "
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15 or a "
                                                                  "reflectance file."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a degree 0-1 of von Kries "
                                                                     "adaptation to the filtered light."),
@@ -68,11 +68,27 @@ def register(app: typer.Typer) -> None:
         signal_spectra: Optional[str] = typer.Option(None, "--signal-spectra", help=(
             "Measured signal-light spectra: first column nm, value columns named red, yellow (or amber), "
             "green, blue. They replace the modelled lights of those colours.")),
+        # -- model constants, thresholds and sensitivity (kept together in one block) --
+        weber_fraction: float = typer.Option(0.02, "--weber-fraction", help=(
+            "Weber fraction of the normal L-cone channel in the receptor-noise model.")),
+        cone_ratios: str = typer.Option("10:5:1", "--cone-ratios", help=(
+            "Relative L:M:S cone numbers of the receptor-noise model.")),
+        jnd_threshold: float = typer.Option(1.0, "--jnd-threshold", help=(
+            "Delta S (JND) used for the pair counts: discriminable at or above it; confused when the normal "
+            "observer is at or above it and the deficient observer below it.")),
+        signal_limits: Optional[str] = typer.Option(None, "--signal-limits", help=(
+            "Signal-quotient limits: a reading (guidance: red/yellow 0.8, green/blue 0.6, the default; "
+            "blue-0.4) or colour=value pairs, e.g. red=0.8,yellow=0.8,green=0.6,blue=0.4.")),
+        sensitivity: bool = typer.Option(False, "--sensitivity", help=(
+            "Also show how each verdict changes when the Weber fraction, cone ratios, JND thresholds and "
+            "signal-quotient limits vary over a documented range (docs/metrics.md).")),
     ) -> None:
         """Score filters: photometry and road use, colour rendition, and for each observer the contrast
         gains and the surface pairs gained, lost, resolved or created.
 
         Example: cvdfilter score larkhill-notch-575 "notch:center=540..600/10,fwhm=30,depth=0.8" --metrics core
+
+        Example: cvdfilter score larkhill-notch-575 larkhill-rose-tint --metrics core --sensitivity
         """
         from ..errors import InputError
         from ..scorecard import DEFAULT_OBSERVERS, score
@@ -84,11 +100,19 @@ def register(app: typer.Typer) -> None:
         except InputError as exc:
             fail(exc)
         # -- end of file reading and output format --
+        try:
+            ratios = tuple(float(x) for x in cone_ratios.replace(",", ":").split(":"))
+        except ValueError:
+            ratios = ()
+        if len(ratios) != 3:
+            fail(f"--cone-ratios {cone_ratios}: give three positive numbers L:M:S, e.g. 10:5:1")
         progress = _LazyProgress()
         try:
             card = score(filter_specs, illuminant=illuminant, observers=observer or list(DEFAULT_OBSERVERS),
                          surfaces=surfaces, adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
-                         progress=progress)
+                         weber_fraction=weber_fraction, cone_ratios=ratios, discrimination_threshold=jnd_threshold,
+                         normal_threshold=jnd_threshold, deficient_threshold=jnd_threshold,
+                         signal_limits=signal_limits, sensitivity=sensitivity, progress=progress)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)

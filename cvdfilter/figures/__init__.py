@@ -79,7 +79,7 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
     observers : str or sequence of str, optional
         Observer specs; each kind has its own default.
     surfaces : str, optional
-        Surface set name or file (``ces99``, ``colorchecker``, ``tcs14``, ``vs15``, PATH).
+        Surface set name or file (``ces99``, ``chart24``, ``tcs14``, ``vs15``, PATH).
     adaptation : str or float
         ``full``, ``none`` or a fraction 0-1 (von Kries, to the filtered illuminant).
     width : str or float

@@ -47,6 +47,11 @@ SPACES = {
     "xy2015": "CIE 170-2:2015 xy for the observer's field",
 }
 _FAN_NM = np.arange(420, 681, 20)
+#: A cone whose excitation by the filtered white is at most this fraction of its excitation by the unfiltered
+#: white gets no light from the filter: the filtered light then has no chromaticity and no von Kries gain for
+#: that cone. 1e-12 is an optical density of 12, far beyond what spectrophotometers measure (OD 6-8 at best,
+#: common practice), so only a filter that is black for that cone meets it.
+NO_LIGHT_FRACTION = 1e-12
 _LOCUS_NM = (400, 700)
 
 
@@ -59,7 +64,38 @@ def _project(space: str, obs, lms, matrix=None) -> np.ndarray:
         return xyz[..., :2] / xyz.sum(axis=-1, keepdims=True)
 
 
-def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surfaces="colorchecker",
+def unlit_cones(filters, *, illuminant="D65", observer="deuteranope") -> dict[str, tuple[str, ...]]:
+    """Filters that pass no light to a cone of the diagram's observer: ``{name: ("L", ...)}``.
+
+    The diagram uses the base (normal) observer's three cones; a cone is unlit
+    when the filtered white excites it at most :data:`NO_LIGHT_FRACTION` of the
+    unfiltered white (e.g. ``nd:t=0``, or a file of zeros over the cone's range).
+    Such a filter has no chromaticity and cannot be drawn.
+    """
+    got = load_inputs(filters, illuminant=illuminant, observers=[observer])
+    fs, ill, obs = got["filters"], got["illuminant"], got["observers"][0]
+    fundamentals = (obs.base or obs).fundamentals
+    white0 = ill.spd @ fundamentals
+    white1 = (ill.spd * fs.transmittance) @ fundamentals                       # (n_filters, 3)
+    dark = white1 <= NO_LIGHT_FRACTION * white0
+    return {name: tuple(c for c, d in zip("LMS", row) if d) for name, row in zip(fs.names, dark) if row.any()}
+
+
+def check_adaptable(fs, *, illuminant, observer, adaptation) -> None:
+    """Raise InputError when adaptation (> 0) to a filter is undefined because it leaves a cone unlit."""
+    from ..observers.spaces import parse_adaptation
+
+    if parse_adaptation(adaptation) == 0:
+        return
+    for name, dark in unlit_cones(fs, illuminant=illuminant, observer=observer).items():
+        j = fs.names.index(name)
+        path = fs.info[j].get("path") if j < len(fs.info) else None
+        raise InputError(f"filter '{name}'{f' ({path})' if path and path != name else ''} passes no light to "
+                         f"the {', '.join(dark)} cone{'s' if len(dark) > 1 else ''}: there is nothing to adapt to",
+                         hint="use --adaptation none to see it unadapted")
+
+
+def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surfaces="chart24",
                       adaptation="full", space: str = "mb") -> dict:
     """The numbers the chromaticity figure plots.
 
@@ -96,8 +132,14 @@ def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surf
     stimuli0 = (ill.spd[:, None] * surf.reflectance).T                       # (n_samples, n_wl)
     lms0 = stimuli0 @ fundamentals
     out_filters = []
-    for name, t in zip(fs.names, fs.transmittance):
+    for i, (name, t) in enumerate(zip(fs.names, fs.transmittance)):
         white1 = (ill.spd * t) @ fundamentals
+        dark = [c for c, w1, w0 in zip("LMS", white1, white0) if w1 <= NO_LIGHT_FRACTION * w0]
+        if dark:
+            path = fs.info[i].get("path") if i < len(fs.info) else None
+            raise InputError(f"filter '{name}'{f' ({path})' if path and path != name else ''} passes no light to the {', '.join(dark)} cone"
+                             f"{'s' if len(dark) > 1 else ''} under {ill.name}, so it has no chromaticity",
+                             hint="leave it out of the chromaticity figure")
         lms1 = (stimuli0 * t) @ fundamentals
         adapted = lms1 * von_kries_gains(white1, white0, adaptation=a) * white0
         out_filters.append({
@@ -169,7 +211,7 @@ def _draw_fan(ax, copunctal, directions, length, gid):
                 linestyle=(0, (3, 2)), zorder=1, gid=f"{gid}-{k}")
 
 
-def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="colorchecker",
+def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="chart24",
                         adaptation="full", space: str = "mb", style: Style | None = None, width_mm: float = 89.0,
                         height_mm: float | None = None, title: str | None = None,
                         caveat: str | None = None) -> FigureResult:
@@ -183,7 +225,7 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         Exactly one observer (default deuteranope); its fundamentals define the
         space and its deficiency the confusion lines.
     surfaces : str
-        Surface set (default the 24-patch ColorChecker, readable as arrows).
+        Surface set (default the 24-patch chart set chart24, readable as arrows).
     space : str
         ``mb``, ``xy`` or ``xy2015`` (:data:`SPACES`).
 

@@ -52,7 +52,7 @@ def observer_label(obs) -> str:
         if p.get("model") == "machado2009":
             extra.append(f"Machado severity {p['severity']:g}")
         else:
-            extra.append(f"{p['shift']:g} nm")
+            extra.append(f"{p['shift']:.4g} nm")  # the default shifts are not whole numbers (17.35, 21.35)
     if p.get("age", 32.0) != 32.0:
         extra.append(f"{p['age']:g} y")
     if p.get("field", 2.0) != 2.0:

@@ -7,7 +7,10 @@ drawn the same size, with a reference line at 1 (no change); and the
 discriminable pairs (receptor-noise model, Vorobyev & Osorio 1998) gained
 (right) and lost (left). Filters are told apart by colour, marker and, for
 the pair bars, hatching of the "lost" side. An observer without the axis
-(a protanope or deuteranope has no red-green signal) gets "n/a".
+(a protanope or deuteranope has no red-green signal) gets "n/a". A gain is
+never shown alone: each filter's legend entry carries its costs (luminous
+transmittance, white shift, Rf for the normal observer), and the fourth
+panel the pairs it loses.
 
 Public: :func:`gains_figure`.
 """
@@ -16,13 +19,13 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import filter_labels, legend_axes, legend_columns, observer_label, short_name
+from .common import filter_labels, legend_axes, legend_columns, observer_label
 from .metrics import scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
 
-__all__ = ["gains_figure", "GAIN_PANELS"]
+__all__ = ["gains_figure", "GAIN_PANELS", "COST_TITLE", "cost_label"]
 
 GAIN_PANELS = (("red_green_gain", "Red-green gain"), ("blue_yellow_gain", "Blue-yellow gain"),
                ("luminance_contrast_gain", "Luminance gain"))
@@ -62,8 +65,9 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
 
     style = style or Style()
     if card is None:
+        # "all": the costs beside the gains include Rf for the normal observer (rendition group).
         card = scorecard_dict(filters, illuminant=illuminant, observers=observers, surfaces=surfaces,
-                              adaptation=adaptation, metrics="core")
+                              adaptation=adaptation, metrics="all")
     fl = card["filters"]
     if len(fl) > 8:
         raise InputError(f"{len(fl)} filters: the gains figure compares at most 8", hint="use the sweep figure")
@@ -103,7 +107,7 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         axes = [fig.add_subplot(gs[p // ncols, p % ncols]) for p in range(4)]
         for ax in axes[1:]:
             ax.sharey(axes[0])
-        legend_names = filter_labels([f["name"] for f in fl])
+        legend_names = [f"{n}\n{cost_label(f)}" for n, f in zip(filter_labels([f["name"] for f in fl]), fl)]
         limits = _gain_limits(np.concatenate([g.ravel() for g in gains.values()]))
         handles = []
         for p, (key, label) in enumerate(GAIN_PANELS):
@@ -138,7 +142,8 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         span = np.nanmax(np.abs(np.concatenate([gained.ravel(), lost.ravel(), [1.0]])))
         ax.set_xlim(-1.1 * span, 1.1 * span)
         ax.xaxis.set_major_formatter(_abs_formatter())
-        ax.set_xlabel("Pairs lost (hatched)\n| gained")
+        t = (card.get("models", {}).get("discrimination") or {}).get("threshold_jnd", 1.0)
+        ax.set_xlabel(f"Pairs lost (hatched)\n| gained, \u2265 {t:g} JND")
         axes[0].set_yticks(rows, obs_labels)
         axes[0].set_ylim(-0.6, n_o - 0.4)
         for p, ax in enumerate(axes):
@@ -147,12 +152,12 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
             ax.tick_params(axis="y", length=0)
             for r in rows[:-1]:
                 ax.axhline(r - 0.5, color=NEUTRAL["light"], lw=0.4, zorder=0)
-        if n_f > 1:
-            texts = [h.get_label() for h in handles]
-            legend_axes(fig, gs[-1, :], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size),
-                        handlelength=1.2, columnspacing=1.0)
-        elif title:
-            title = f"{title}: {short_name(fl[0]['name'], 40)}"
+        # Every filter's costs sit in its legend entry, beside its gains: a gain is never shown alone.
+        texts = [h.get_label() for h in handles]
+        widest = [max(t.split("\n"), key=len) for t in texts]
+        legend_axes(fig, gs[-1, :], handles, texts, ncols=legend_columns(widest, width_mm, style.font_size),
+                    handlelength=1.2, columnspacing=1.0, title=COST_TITLE,
+                    title_fontsize=style.font_size)
         finish(fig, style, title=title, caveat=caveat)
 
     data = {"observers": obs_specs, "filters": [f["name"] for f in fl], "gains": gains, "gained": gained,
@@ -160,6 +165,21 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
     inputs = {"filters": data["filters"], "illuminant": card.get("illuminant"), "surfaces": card.get("surfaces"),
               "adaptation": card.get("adaptation"), "observers": obs_specs}
     return FigureResult("gains", fig, data, style, inputs)
+
+
+#: Legend title: what the second line of each entry is.
+COST_TITLE = "Costs beside each filter:\n\u03c4v (D65), white shift \u0394u\u2032v\u2032, Rf (normal)"
+
+
+def cost_label(f: dict) -> str:
+    """One filter's costs as a legend line: luminous transmittance, white shift, Rf (normal observer)."""
+    tv = f.get("luminous_transmittance")
+    ws = f.get("white_shift")
+    rf = (f.get("rendition") or {}).get("rf")
+    parts = ["\u03c4v " + ("-" if tv is None else f"{100 * tv:.0f} %"),
+             "\u0394u\u2032v\u2032 " + ("-" if ws is None else f"{ws:.3f}"),
+             "Rf " + ("-" if rf is None else f"{rf:.0f}")]
+    return ", ".join(parts)
 
 
 def _ticks(limits) -> list[float]:

@@ -1,8 +1,8 @@
 """``images``: the renderer's four views of an image as a labelled 2x2 panel.
 
-Views (:data:`cvdfilter.render.VIEWS`): the original, the normal observer
+Views (:data:`cvdfilter.rendering.VIEWS`): the original, the normal observer
 through the filter, the chosen observer without the filter and through it,
-each rendered by :func:`cvdfilter.render.render_views` (reflectance estimate,
+each rendered by :func:`cvdfilter.rendering.render_views` (reflectance estimate,
 illuminant x filter, the observer's cones, von Kries adaptation, the
 simulation for a normal viewer). Large images are reduced for the figure by
 averaging blocks of pixels in linear light (the renderer works at full size);
@@ -41,7 +41,7 @@ def default_image() -> pathlib.Path:
 
 def _reduce(img: np.ndarray, max_pixels: int) -> np.ndarray:
     """Block-average an sRGB image (in linear light) so its long side is at most ``max_pixels``."""
-    from ..render import decode_srgb, encode_srgb
+    from ..rendering import decode_srgb, encode_srgb
 
     h, w = img.shape[:2]
     f = int(np.ceil(max(h, w) / max_pixels))
@@ -56,7 +56,7 @@ def _reduce(img: np.ndarray, max_pixels: int) -> np.ndarray:
 
 
 def _to8(img: np.ndarray) -> np.ndarray:
-    from ..render import encode_srgb
+    from ..rendering import encode_srgb
 
     a = np.asarray(img)[..., :3]
     if a.dtype == np.uint8:
@@ -89,7 +89,7 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
         ``image`` (the source), ``reduced_by`` (block size, 1 = full size).
         Artists: ``image-<view>`` (AxesImage).
     """
-    from ..render import VIEW_TITLES, VIEWS, render_views
+    from ..rendering import VIEW_TITLES, VIEWS, render_views
 
     style = style or Style()
     observers = list(observers or ["deuteranope"])
@@ -98,6 +98,9 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
     fs = load_filters_checked(filters)
     if len(fs) != 1:
         raise InputError(f"{len(fs)} filters: the images figure shows one filter", hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
+    from .chromaticity import check_adaptable
+
+    check_adaptable(fs, illuminant=illuminant, observer=observers[0], adaptation=adaptation)
     source = default_image() if image is None else image
     rendered = render_views(source if not isinstance(source, pathlib.Path) else str(source), filter=fs,
                             observer=observers[0], illuminant=illuminant, adaptation=adaptation, views=VIEWS)

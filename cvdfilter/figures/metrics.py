@@ -33,13 +33,16 @@ METRIC_LABELS = {
     "discriminable_pairs.lost": ("Discriminable\npairs lost", 1.0),
     "discriminable_pairs.with": ("Discriminable pairs\nwith filter", 1.0),
     "discriminable_pairs.without": ("Discriminable pairs\nwithout filter", 1.0),
-    "confusion_pairs.resolved": ("Confusion pairs\nresolved", 1.0),
-    "confusion_pairs.created": ("Confusion pairs\ncreated", 1.0),
+    "confusion_pairs.resolved": ("Confused pairs\nresolved", 1.0),
+    "confusion_pairs.created": ("Confused pairs\ncreated", 1.0),
+    "confusion_pairs.median_delta_s_ratio": ("Median \u0394S ratio\n(with / without)", 1.0),
+    "delta_s_distribution.median_ratio": ("Median \u0394S ratio\n(with / without)", 1.0),
     "road_use.min_ratio_475_650": ("Min. T(\u03bb) / \u03c4v\n475-650 nm", 1.0),
 }
 
 #: Ratios drawn with a reference line at 1 (no change).
-RATIO_METRICS = ("red_green_gain", "blue_yellow_gain", "luminance_contrast_gain")
+RATIO_METRICS = ("red_green_gain", "blue_yellow_gain", "luminance_contrast_gain",
+                 "confusion_pairs.median_delta_s_ratio", "delta_s_distribution.median_ratio")
 
 
 def metric_label(metric: str) -> tuple[str, float]:

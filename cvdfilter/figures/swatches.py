@@ -2,7 +2,7 @@
 
 Rows: the normal observer without and with the filter, then the chosen
 observer without and with the filter, each surface's colour computed by the
-renderer's single-spectrum path (:func:`cvdfilter.render.render_spectra`:
+renderer's single-spectrum path (:func:`cvdfilter.rendering.render_spectra`:
 illuminant x reflectance x filter, the observer's cone excitations, von Kries
 adaptation, the simulation for a normal viewer, the display model) and
 encoded as sRGB. Colours outside the sRGB gamut are clipped channel by
@@ -31,7 +31,7 @@ _MAX_PER_LINE = 30
 _OUT_TOL = 0.5 / 255  # out of gamut: more than half an 8-bit code value outside 0-1
 
 
-def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surfaces="colorchecker",
+def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surfaces="chart24",
                    adaptation="full") -> dict:
     """Linear and 8-bit sRGB of every surface in the four swatch rows.
 
@@ -43,12 +43,15 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
         view -> number of surfaces outside the gamut, ``labels``, ``filter``,
         ``observer``, ``illuminant``, ``surfaces``.
     """
-    from ..render import encode_srgb, render_spectra
+    from ..rendering import encode_srgb, render_spectra
 
     got = load_inputs(filters, illuminant=illuminant, observers=[observer], surfaces=surfaces)
     fs, obs, surf, ill = got["filters"], got["observers"][0], got["surfaces"], got["illuminant"]
     if len(fs) != 1:
         raise InputError(f"{len(fs)} filters: the swatches figure shows one filter", hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
+    from .chromaticity import check_adaptable
+
+    check_adaptable(fs, illuminant=ill, observer=obs, adaptation=adaptation)
     views = [v for v, _ in SWATCH_ROWS]
     linear, srgb8, clipped = {}, {}, {}
     for v in views:
@@ -74,7 +77,7 @@ def _row_image(rgb8: np.ndarray, per_line: int, gap: int = 1, cell: int = 10) ->
     return img
 
 
-def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="colorchecker",
+def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="chart24",
                     adaptation="full", style: Style | None = None, width_mm: float = 89.0,
                     height_mm: float | None = None, title: str | None = None,
                     caveat: str | None = None) -> FigureResult:
@@ -87,7 +90,7 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
     observers : sequence of str
         One observer (default deuteranope).
     surfaces : str
-        Surface set (default the 24-patch ColorChecker).
+        Surface set (default chart24, the 24-patch chart).
 
     Returns
     -------

@@ -69,6 +69,13 @@ class Cube:
     kind_source : str
         ``argument``, ``file``, ``sidecar`` or ``assumed``.
     warnings : list of str
+    max_value : float
+        The largest value (set on creation, when every value is checked; ``-inf`` for integers).
+
+    Raises
+    ------
+    InputError
+        Bad shape or wavelengths, or any NaN or infinite value.
     """
 
     data: np.ndarray
@@ -98,6 +105,13 @@ class Cube:
             raise InputError(f"unsupported cube sample type {data.dtype}", source=src)
         self.data = data
         self.wavelengths = wl
+        # Every value, not a sample: one NaN would otherwise render as a black pixel.
+        self.max_value = -np.inf
+        if np.issubdtype(data.dtype, np.floating):
+            bad, self.max_value = _scan_values(data)
+            if bad:
+                raise InputError(f"cube holds {bad} NaN or infinite value(s)", source=src,
+                                 hint="replace them (e.g. with 0 for no signal) before rendering")
 
     @property
     def height(self) -> int:
@@ -167,28 +181,30 @@ def tiff_is_cube(path, *, wavelengths_given: bool = False) -> bool:
         return True
     if not wavelengths_given:
         return False
-    try:
-        import tifffile
+    import tifffile
 
+    try:
         with tifffile.TiffFile(path) as tif:
             series = tif.series[0]
             return any(ax not in "YX" and n > 4 for ax, n in zip(series.axes, series.shape))
-    except Exception:  # not a readable TIFF: the image reader will say why
-        return False
+    except (tifffile.TiffFileError, OSError, ValueError, EOFError, KeyError, IndexError):
+        return False  # not a readable TIFF: the image reader will say why
 
 
 def tiff_has_wavelengths(path) -> bool:
     """True if a TIFF carries a ``wavelengths`` list in its JSON metadata (a cube), read from the header only."""
-    try:
-        import tifffile
+    import tifffile
 
+    if not pathlib.Path(path).is_file():  # never open a pipe or device
+        return False
+    try:
         with tifffile.TiffFile(path) as tif:
             if tif.shaped_metadata:
                 return "wavelengths" in tif.shaped_metadata[0]
             desc = tif.pages[0].description
             return desc.lstrip().startswith("{") and "wavelengths" in json.loads(desc)
-    except Exception:  # not a readable TIFF: the image reader will say why
-        return False
+    except (tifffile.TiffFileError, OSError, ValueError, EOFError, KeyError, IndexError, TypeError):
+        return False  # not a readable TIFF (or its description is not our JSON): the image reader will say why
 
 
 def _sidecar(p: pathlib.Path) -> tuple[np.ndarray | None, str | None, str | None]:
@@ -225,13 +241,98 @@ def _kind(value, src: str) -> str:
     return k
 
 
+def _npy_header(fh, src: str, name: str) -> tuple[tuple, np.dtype]:
+    """Shape and dtype from the header of an ``.npy`` stream (no data read)."""
+    fmt = np.lib.format
+    try:
+        version = fmt.read_magic(fh)
+        if version == (1, 0):
+            shape, _, dtype = fmt.read_array_header_1_0(fh)
+        else:
+            shape, _, dtype = fmt.read_array_header_2_0(fh)
+    except (ValueError, OSError, EOFError, SyntaxError) as exc:
+        raise InputError(f"member '{name}' has no readable array header ({' '.join(str(exc).split())[:120]})",
+                         source=src) from None
+    if dtype.hasobject:
+        raise InputError("holds Python objects; cubes are read with pickling disabled", source=src,
+                         hint="save a plain numeric array")
+    return tuple(int(n) for n in shape), dtype
+
+
+#: Largest ``wavelengths`` or ``kind`` member read from an ``.npz`` (entries), checked from its header.
+_MAX_SMALL_MEMBER = 100_000
+
+
+def _npz_plan(p: pathlib.Path, src: str):
+    """Read the member headers of an ``.npz`` (a zip of ``.npy`` files) without decompressing the data.
+
+    Returns (cube member name, shape, dtype, file wavelengths or None, file kind or None).
+    """
+    import zipfile
+
+    try:
+        zf = zipfile.ZipFile(p)
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
+        raise InputError(f"not a readable .npz file ({' '.join(str(exc).split())[:120]})", source=src) from None
+    with zf:
+        members = {i.filename[:-4]: i for i in zf.infolist() if i.filename.endswith(".npy")}
+        headers = {}
+        for name, info in members.items():
+            try:
+                with zf.open(info) as fh:
+                    headers[name] = _npy_header(fh, src, name)
+            except (zipfile.BadZipFile, OSError, EOFError, NotImplementedError) as exc:
+                raise InputError(f"member '{name}' cannot be read ({' '.join(str(exc).split())[:120]})",
+                                 source=src) from None
+        cube_names = [n for n in _ARRAY_NAMES if n in headers] or [n for n in headers if len(headers[n][0]) == 3]
+        if not cube_names:
+            raise InputError("holds no 3-D array (name it 'cube')", source=src)
+        small = {}
+        for name in ("wavelengths", "kind"):
+            if name in headers:
+                shape, dtype = headers[name]
+                if int(np.prod(shape)) > _MAX_SMALL_MEMBER:
+                    raise InputError(f"member '{name}' declares {int(np.prod(shape))} entries", source=src)
+                try:
+                    with zf.open(members[name]) as fh:
+                        small[name] = np.lib.format.read_array(fh, allow_pickle=False)
+                except (zipfile.BadZipFile, OSError, EOFError, ValueError) as exc:
+                    raise InputError(f"member '{name}' cannot be read ({' '.join(str(exc).split())[:120]})",
+                                     source=src) from None
+    name = cube_names[0]
+    file_wl = np.asarray(small["wavelengths"], dtype=float) if "wavelengths" in small else None
+    file_kind = str(small["kind"]) if "kind" in small else None
+    return name, headers[name][0], headers[name][1], file_wl, file_kind
+
+
+def _check_declared(shape: tuple, wl: np.ndarray, max_megapixels: float | None, src: str) -> None:
+    """Check a cube's declared shape (from its header) against the wavelengths and the size limit."""
+    if len(shape) != 3:
+        raise InputError(f"a cube must be 3-D (height, width, bands), got shape {shape}", source=src)
+    if shape[-1] == len(wl):
+        h, w = shape[0], shape[1]
+    elif shape[0] == len(wl):
+        h, w = shape[1], shape[2]
+    else:
+        raise InputError(f"{len(wl)} wavelengths do not match the cube's shape {shape}", source=src,
+                         hint="the band axis must come last (or first)")
+    if max_megapixels is not None:
+        from .images import check_size
+
+        check_size(w, h, max_megapixels, src)
+
+
 def read_cube(path, *, wavelengths=None, kind: str | None = None, max_megapixels: float | None = None) -> Cube:
     """Read a hyperspectral cube (see the module docstring for where wavelengths and kind come from).
+
+    The declared shape (the ``.npy`` header, the ``.npz`` member's header inside the zip, the TIFF's
+    tags) is checked against the wavelengths and ``max_megapixels`` before any data is decompressed or
+    allocated; then every value is checked (NaN or infinite values are refused).
 
     Parameters
     ----------
     path : str or path-like
-        ``.npy``, ``.npz`` or ``.tif``/``.tiff``.
+        ``.npy``, ``.npz`` or ``.tif``/``.tiff``; a regular file (a pipe or device is refused).
     wavelengths : str or array_like, optional
         Band wavelengths, nm (overrides the file's).
     kind : str, optional
@@ -243,66 +344,36 @@ def read_cube(path, *, wavelengths=None, kind: str | None = None, max_megapixels
     -------
     Cube
     """
+    import zipfile
+
+    from .images import regular_file
+
     p = pathlib.Path(path)
     src = str(p)
-    if not p.is_file():
-        raise InputError("no such file", source=src)
+    regular_file(p)
     suffix = p.suffix.lower()
     file_wl = None
     file_kind = None
-    try:
-        if suffix == ".npy":
-            data = np.load(p, mmap_mode="r", allow_pickle=False)
-        elif suffix == ".npz":
-            with np.load(p, allow_pickle=False) as z:
-                names = list(z.files)
-                arrays = [n for n in _ARRAY_NAMES if n in names] or [n for n in names if z[n].ndim == 3]
-                if not arrays:
-                    raise InputError("holds no 3-D array (name it 'cube')", source=src)
-                data = z[arrays[0]]
-                if "wavelengths" in names:
-                    file_wl = np.asarray(z["wavelengths"], dtype=float)
-                if "kind" in names:
-                    file_kind = str(z["kind"])
-        elif suffix in (".tif", ".tiff"):
-            import tifffile
-
-            with tifffile.TiffFile(p) as tif:
-                meta = {}
-                if tif.shaped_metadata:
-                    meta = dict(tif.shaped_metadata[0])
-                else:
-                    desc = tif.pages[0].description
-                    if desc.strip().startswith("{"):
-                        try:
-                            meta = json.loads(desc)
-                        except ValueError:
-                            meta = {}
-                data = tif.asarray()
-                if "wavelengths" in meta:
-                    file_wl = np.asarray(meta["wavelengths"], dtype=float)
-                if "kind" in meta:
-                    file_kind = str(meta["kind"])
-        else:
-            raise InputError(f"unsupported cube type '{p.suffix}'", source=src, hint="use .npy, .npz or TIFF")
-    except InputError:
-        raise
-    except ValueError as exc:
-        text = " ".join(str(exc).split())
-        if "pickle" in text.lower() or "python objects" in text.lower():
-            raise InputError("holds Python objects; cubes are read with pickling disabled", source=src,
-                             hint="save a plain numeric array") from None
-        raise InputError(f"cannot read the cube ({text[:160]})", source=src) from None
-    except Exception as exc:
-        raise InputError(f"cannot read the cube ({' '.join(str(exc).split())[:160]})", source=src) from None
+    if suffix == ".npy":
+        try:
+            with open(p, "rb") as fh:
+                shape, _ = _npy_header(fh, src, "array")
+        except OSError as exc:
+            raise InputError(f"cannot read the cube ({exc.strerror})", source=src) from None
+    elif suffix == ".npz":
+        member, shape, _, file_wl, file_kind = _npz_plan(p, src)
+    elif suffix in (".tif", ".tiff"):
+        shape, file_wl, file_kind = _tiff_plan(p, src)
+    else:
+        raise InputError(f"unsupported cube type '{p.suffix}'", source=src, hint="use .npy, .npz or TIFF")
 
     side_wl, side_kind, side_src = _sidecar(p)
     if wavelengths is not None:
         wl, wl_src = parse_wavelengths(wavelengths), "argument"
     elif file_wl is not None:
-        wl, wl_src = file_wl, "file"
+        wl, wl_src = file_wl.ravel(), "file"
     elif side_wl is not None:
-        wl, wl_src = side_wl, side_src
+        wl, wl_src = side_wl.ravel(), side_src
     else:
         raise InputError("no wavelengths for the cube's bands", source=src,
                          hint="give --wavelengths START:STOP:STEP, a 'wavelengths' array in the .npz, "
@@ -315,15 +386,60 @@ def read_cube(path, *, wavelengths=None, kind: str | None = None, max_megapixels
         k, k_src = _kind(side_kind, src), "sidecar"
     else:
         k, k_src = "reflectance", "assumed"
-    if data.ndim == 3 and max_megapixels is not None:
-        from .images import check_size
+    _check_declared(shape, wl, max_megapixels, src)
 
-        bands_first = data.shape[0] == len(wl) and data.shape[-1] != len(wl)
-        h, w = (data.shape[1], data.shape[2]) if bands_first else (data.shape[0], data.shape[1])
-        check_size(w, h, max_megapixels, src)
+    try:
+        if suffix == ".npy":
+            data = np.load(p, mmap_mode="r", allow_pickle=False)
+        elif suffix == ".npz":
+            with np.load(p, allow_pickle=False) as z:
+                data = z[member]
+        else:
+            import tifffile
+
+            with tifffile.TiffFile(p) as tif:
+                data = tif.asarray()
+            if data.size == int(np.prod(shape)):
+                data = data.reshape(shape)  # the length-1 axes dropped from the declared shape
+    except MemoryError:
+        raise InputError("not enough memory to read the cube", source=src) from None
+    except (ValueError, OSError, EOFError, zipfile.BadZipFile, KeyError, IndexError) as exc:
+        raise InputError(f"cannot read the cube ({' '.join(str(exc).split())[:160]})", source=src) from None
+    if tuple(data.shape) != tuple(shape):
+        raise InputError(f"data shape {data.shape} differs from the declared {shape}", source=src)
     cube = Cube(data, wl, k, src, wl_src, k_src)
     cube.warnings.extend(_value_warnings(cube))
     return cube
+
+
+def _tiff_plan(p: pathlib.Path, src: str):
+    """Shape (from the tags), wavelengths and kind (from the JSON metadata) of a TIFF cube; no pixel data read."""
+    import tifffile
+
+    try:
+        with tifffile.TiffFile(p) as tif:
+            meta = {}
+            if tif.shaped_metadata:
+                meta = dict(tif.shaped_metadata[0])
+            else:
+                desc = tif.pages[0].description
+                if desc.strip().startswith("{"):
+                    try:
+                        meta = json.loads(desc)
+                    except ValueError:
+                        meta = {}
+            series = tif.series[0]
+            shape = tuple(int(n) for n in series.shape)
+            axes = series.axes
+    except (tifffile.TiffFileError, ValueError, OSError, EOFError, KeyError, IndexError) as exc:
+        raise InputError(f"cannot read the TIFF header ({' '.join(str(exc).split())[:160]})", source=src) from None
+    # Drop axes of length 1 (tifffile may add them) so that a cube is (Y, X, bands) or (bands, Y, X).
+    if len(shape) > 3:
+        kept = [(a, n) for a, n in zip(axes, shape) if n != 1]
+        shape = tuple(n for _, n in kept)
+    file_wl = np.asarray(meta["wavelengths"], dtype=float) if "wavelengths" in meta else None
+    file_kind = str(meta["kind"]) if "kind" in meta else None
+    return shape, file_wl, file_kind
 
 
 def _value_warnings(cube: Cube) -> list:
@@ -340,11 +456,32 @@ def _value_warnings(cube: Cube) -> list:
         raise InputError(f"integer values ({cube.data.dtype}) cannot be reflectance fractions", source=src,
                          hint="store reflectance as floats 0-1, or read the cube as --cube-kind radiance")
     if np.issubdtype(cube.data.dtype, np.floating):
-        # A strided sample is enough to catch NaN layers or percent units without reading everything twice.
-        sample = np.asarray(cube.data[::max(1, cube.height // 64), ::max(1, cube.width // 64)])
-        if not np.all(np.isfinite(sample)):
-            raise InputError("cube holds NaN or infinite values", source=src)
-        if cube.kind == "reflectance" and sample.size and float(sample.max()) > 1.5:
-            out.append(f"{src}: reflectance values reach {float(sample.max()):.3g}; expected 0-1 "
+        top = cube.max_value  # found while checking every value (Cube.__post_init__)
+        if cube.kind == "reflectance" and top > 1.5:
+            out.append(f"{src}: reflectance values reach {top:.3g}; expected 0-1 "
                        "(percent? radiance? use --cube-kind radiance)")
     return out
+
+
+#: Values checked per block by :func:`_scan_values` (bounded extra memory for memory-mapped cubes).
+_SCAN_BLOCK = 1 << 22
+
+
+def _scan_values(data: np.ndarray) -> tuple[int, float]:
+    """Count NaN/infinite values and find the largest finite value, over every value, block by block.
+
+    Returns
+    -------
+    (int, float)
+        Non-finite count, maximum (``-inf`` for an empty cube).
+    """
+    rows = max(1, _SCAN_BLOCK // max(1, data.shape[1] * data.shape[2]))
+    bad, top = 0, -np.inf
+    for r0 in range(0, data.shape[0], rows):  # blocks of rows, vectorised inside
+        block = np.asarray(data[r0:r0 + rows])
+        finite = np.isfinite(block)
+        n_bad = block.size - int(np.count_nonzero(finite))
+        bad += n_bad
+        if block.size:
+            top = max(top, float(block.max() if n_bad == 0 else np.max(block, where=finite, initial=-np.inf)))
+    return bad, top

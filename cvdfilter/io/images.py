@@ -16,10 +16,13 @@ What a pixel means
 Readers
 -------
 PNG through imagecodecs (libpng: 8- and 16-bit, every colour type), JPEG
-through Pillow, TIFF through tifffile. Before any pixel is decoded the header
-is checked against ``max_megapixels`` (default :data:`DEFAULT_MAX_MEGAPIXELS`)
-so that a decompression bomb is refused with a clear message; Pillow's own
-limit (``PIL.Image.MAX_IMAGE_PIXELS``) is set to the same number.
+through imagecodecs (libjpeg; the header, the ICC profile and comments are
+parsed here), TIFF through tifffile. Only regular files are read (a named pipe
+or a device is refused, never waited on). Before any pixel is decoded the
+header is checked against ``max_megapixels`` (default
+:data:`DEFAULT_MAX_MEGAPIXELS`) so that a decompression bomb is refused with a
+clear message. Reading changes no process-wide setting (Pillow's global
+``MAX_IMAGE_PIXELS`` is left alone; Pillow does not decode here).
 
 Writers
 -------
@@ -28,7 +31,8 @@ caveat), TIFF (8/16-bit or float32, settings in ImageDescription as JSON),
 JPEG (8-bit, quality 95). Every write is atomic and refuses to overwrite an input.
 
 Public: :class:`ImageData`, :func:`read_image`, :func:`write_image`, :func:`image_header`,
-:func:`set_pixel_limit`, :data:`IMAGE_SUFFIXES`, :data:`DEFAULT_MAX_MEGAPIXELS`.
+:func:`read_metadata`, :func:`regular_file`, :func:`set_pixel_limit`, :data:`IMAGE_SUFFIXES`,
+:data:`DEFAULT_MAX_MEGAPIXELS`.
 """
 
 from __future__ import annotations
@@ -46,8 +50,8 @@ import numpy as np
 from ..errors import InputError
 from .atomic import atomic_path
 
-__all__ = ["ImageData", "ImageHeader", "read_image", "write_image", "encode_png", "image_header", "set_pixel_limit",
-           "check_size", "IMAGE_SUFFIXES", "DEFAULT_MAX_MEGAPIXELS"]
+__all__ = ["ImageData", "ImageHeader", "read_image", "write_image", "encode_png", "image_header", "read_metadata",
+           "regular_file", "set_pixel_limit", "check_size", "IMAGE_SUFFIXES", "DEFAULT_MAX_MEGAPIXELS"]
 
 #: File suffixes read as images, by format.
 IMAGE_SUFFIXES = {".png": "png", ".jpg": "jpeg", ".jpeg": "jpeg", ".tif": "tiff", ".tiff": "tiff"}
@@ -130,7 +134,11 @@ class ImageData:
 
 
 def set_pixel_limit(max_megapixels: float = DEFAULT_MAX_MEGAPIXELS) -> None:
-    """Set Pillow's decompression-bomb limit to ``max_megapixels`` (megapixels)."""
+    """Set Pillow's process-wide decompression-bomb limit to ``max_megapixels`` (megapixels).
+
+    Not needed by this package (its readers check sizes themselves and never
+    change this setting); kept for callers who decode with Pillow directly.
+    """
     from PIL import Image
 
     Image.MAX_IMAGE_PIXELS = int(max_megapixels * 1e6)
@@ -145,6 +153,24 @@ def check_size(width: int, height: int, max_megapixels: float, source: str) -> N
         raise InputError(f"image is {width} x {height} = {mp:.1f} megapixels, above the limit of "
                          f"{max_megapixels:g} megapixels (a possible decompression bomb)", source=source,
                          hint="raise --max-megapixels if the file is trusted")
+
+
+def regular_file(path, source: str | None = None) -> pathlib.Path:
+    """``path`` as a Path if it is a regular file; InputError otherwise (never opens a pipe or device).
+
+    A named pipe would block a reader forever and a device such as ``/dev/zero`` never ends, so only
+    regular files (or links to them) are read.
+    """
+    p = pathlib.Path(path)
+    src = str(p) if source is None else source
+    if p.is_file():
+        return p
+    if not p.exists():
+        raise InputError("no such file", source=src)
+    if p.is_dir():
+        raise InputError("is a folder, not a file", source=src)
+    raise InputError("is not a regular file (a named pipe, socket or device); only regular files are read",
+                     source=src, hint="copy the data to a file first")
 
 
 def _format_of(path: pathlib.Path) -> str:
@@ -184,37 +210,157 @@ def image_header(path, *, max_megapixels: float | None = None) -> ImageHeader:
     """
     p = pathlib.Path(path)
     fmt = _format_of(p)
-    if not p.is_file():
-        raise InputError("no such file", source=str(p))
-    try:
-        if fmt == "png":
-            with open(p, "rb") as fh:
-                head = fh.read(33)
-            if head[:8] != _PNG_SIGNATURE or head[12:16] != b"IHDR":
-                raise InputError("not a PNG file (bad signature or missing IHDR)", source=str(p))
-            width, height = struct.unpack(">II", head[16:24])
-            header = ImageHeader(str(p), fmt, width, height)
-        elif fmt == "jpeg":
-            from PIL import Image
+    regular_file(p)
+    if fmt == "png":
+        with open(p, "rb") as fh:
+            head = fh.read(33)
+        if head[:8] != _PNG_SIGNATURE or head[12:16] != b"IHDR":
+            raise InputError("not a PNG file (bad signature or missing IHDR)", source=str(p))
+        width, height = struct.unpack(">II", head[16:24])
+        header = ImageHeader(str(p), fmt, width, height)
+    elif fmt == "jpeg":
+        with open(p, "rb") as fh:
+            info = _jpeg_info(fh, str(p))
+        header = ImageHeader(str(p), fmt, info["width"], info["height"])
+    else:
+        import tifffile
 
-            with Image.open(p) as im:
-                if im.format != "JPEG":
-                    raise InputError(f"not a JPEG file (Pillow reads it as {im.format})", source=str(p))
-                header = ImageHeader(str(p), fmt, im.size[0], im.size[1])
-        else:
-            import tifffile
-
+        try:
             with tifffile.TiffFile(p) as tif:
                 page = tif.pages[0]
                 shape = dict(zip(page.axes, page.shape))
                 header = ImageHeader(str(p), fmt, int(shape.get("X", 0)), int(shape.get("Y", 0)), len(tif.pages))
-    except InputError:
-        raise
-    except Exception as exc:  # the libraries raise many types for damaged files
-        raise InputError(f"cannot read the {fmt.upper()} header ({_short(exc)})", source=str(p)) from None
+        except _decode_errors() as exc:  # damaged or truncated files
+            raise InputError(f"cannot read the TIFF header ({_short(exc)})", source=str(p)) from None
     if max_megapixels is not None:
         check_size(header.width, header.height, max_megapixels, str(p))
     return header
+
+
+def read_metadata(path, key: str = "cvdfilter") -> dict | None:
+    """The JSON settings record ``key`` that :func:`write_image` stored in an image, read from the header only.
+
+    PNG: the iTXt/tEXt chunk ``key`` before the image data; TIFF: ``key`` inside the JSON
+    ImageDescription; JPEG: ``key`` inside the JSON comment. None when the file is not a regular
+    image file, is unreadable, or holds no such record (a file this tool did not write).
+    """
+    p = pathlib.Path(path)
+    if not p.is_file() or p.suffix.lower() not in IMAGE_SUFFIXES:
+        return None
+    fmt = IMAGE_SUFFIXES[p.suffix.lower()]
+    text = None
+    try:
+        with open(p, "rb") as fh:
+            if fmt == "png":
+                if fh.read(8) != _PNG_SIGNATURE:
+                    return None
+                while text is None:
+                    head = fh.read(8)
+                    if len(head) < 8:
+                        break
+                    length, ctype = struct.unpack(">I4s", head)
+                    if ctype in (b"IDAT", b"IEND"):
+                        break
+                    if ctype in (b"iTXt", b"tEXt") and length < (64 << 20):
+                        payload = fh.read(length)
+                        name, _, rest = payload.partition(b"\x00")
+                        if name == key.encode("latin-1"):
+                            if ctype == b"iTXt":  # compression flag, method, language\0, translated keyword\0
+                                rest = rest[2:].split(b"\x00", 2)[-1]
+                            text = rest.decode("utf-8")
+                        fh.seek(4, 1)
+                    else:
+                        fh.seek(length + 4, 1)
+                record = text
+            elif fmt == "jpeg":
+                comment = _jpeg_info(fh, str(p))["comment"]
+                record = _json_key(comment.decode("utf-8"), key) if comment else None
+            else:
+                import tifffile
+
+                with tifffile.TiffFile(fh) as tif:
+                    desc = tif.pages[0].description
+                record = _json_key(desc, key)
+    except (InputError, UnicodeDecodeError) + _decode_errors():
+        return None
+    if isinstance(record, str):
+        try:
+            record = json.loads(record)
+        except ValueError:
+            return None
+    return record if isinstance(record, dict) else None
+
+
+def _json_key(text: str, key: str):
+    """``key`` of the JSON object in ``text``; None when ``text`` is not a JSON object."""
+    if not text.lstrip().startswith("{"):
+        return None
+    obj = json.loads(text)
+    return obj.get(key) if isinstance(obj, dict) else None
+
+
+def _decode_errors() -> tuple:
+    """What the decoding libraries raise for a damaged file (caught only around their calls)."""
+    import imagecodecs
+    import tifffile
+
+    return (OSError, ValueError, EOFError, struct.error, zlib.error, IndexError, KeyError,
+            tifffile.TiffFileError, imagecodecs.PngError, imagecodecs.Jpeg8Error)
+
+
+# JPEG markers: SOF0-SOF15 except DHT (C4), JPG (C8) and DAC (CC) carry the frame size.
+_SOF_MARKERS = set(range(0xC0, 0xD0)) - {0xC4, 0xC8, 0xCC}
+
+
+def _jpeg_info(fh, source: str) -> dict:
+    """Frame size, components, ICC profile and comment of a JPEG, read from the segments before the scan.
+
+    ``fh`` is a binary file positioned at the start. Returns ``width``, ``height``, ``components``,
+    ``icc`` (bytes or None) and ``comment`` (bytes or None).
+    """
+    if fh.read(2) != b"\xff\xd8":
+        raise InputError("not a JPEG file (no start-of-image marker)", source=source)
+    info: dict = {"icc": None, "comment": None}
+    icc_parts: dict = {}
+    while True:
+        b = fh.read(1)
+        while b == b"\xff":  # fill bytes
+            b = fh.read(1)
+            if b != b"\xff":
+                break
+        else:
+            if not b:
+                break
+            continue
+        if not b:
+            break
+        marker = b[0]
+        if marker == 0xD9 or marker == 0xDA:  # end of image, start of scan
+            break
+        if marker == 0x01 or 0xD0 <= marker <= 0xD7:
+            continue
+        raw = fh.read(2)
+        if len(raw) < 2:
+            break
+        length = struct.unpack(">H", raw)[0] - 2
+        if length < 0:
+            break
+        if marker in _SOF_MARKERS or marker in (0xE2, 0xFE):
+            payload = fh.read(length)
+            if marker in _SOF_MARKERS and len(payload) >= 6:
+                info["height"], info["width"] = struct.unpack(">HH", payload[1:5])
+                info["components"] = payload[5]
+            elif marker == 0xE2 and payload.startswith(b"ICC_PROFILE\x00") and len(payload) > 14:
+                icc_parts[payload[12]] = payload[14:]
+            elif marker == 0xFE:
+                info["comment"] = (info["comment"] or b"") + payload
+        else:
+            fh.seek(length, 1)
+    if "width" not in info:
+        raise InputError("not a JPEG file, or damaged (no frame header before the image data)", source=source)
+    if icc_parts:
+        info["icc"] = b"".join(icc_parts[k] for k in sorted(icc_parts))
+    return info
 
 
 def _short(exc: BaseException) -> str:
@@ -225,13 +371,13 @@ def _short(exc: BaseException) -> str:
 def _icc_description(icc: bytes | None) -> str | None:
     if not icc:
         return None
+    import io
+
+    from PIL import ImageCms
+
     try:
-        import io
-
-        from PIL import ImageCms
-
         return ImageCms.getProfileDescription(ImageCms.ImageCmsProfile(io.BytesIO(icc))).strip() or "unnamed"
-    except Exception:  # an unreadable profile is still worth a warning
+    except (ImageCms.PyCMSError, OSError, ValueError, TypeError):  # an unreadable profile is still worth a warning
         return "unreadable profile"
 
 
@@ -261,7 +407,6 @@ def read_image(path, *, max_megapixels: float = DEFAULT_MAX_MEGAPIXELS) -> Image
         Unsupported type, damaged file, too large, unsupported pixel layout.
     """
     header = image_header(path, max_megapixels=max_megapixels)
-    set_pixel_limit(max(max_megapixels, DEFAULT_MAX_MEGAPIXELS))
     p = pathlib.Path(path)
     src = str(p)
     try:
@@ -271,12 +416,8 @@ def read_image(path, *, max_megapixels: float = DEFAULT_MAX_MEGAPIXELS) -> Image
             img = _read_jpeg(p)
         else:
             img = _read_tiff(p)
-    except InputError:
-        raise
     except MemoryError:
         raise InputError("not enough memory to decode the image", source=src) from None
-    except Exception as exc:
-        raise InputError(f"cannot decode the {header.format.upper()} image ({_short(exc)})", source=src) from None
     px = img.pixels
     if px.ndim not in (2, 3) or (px.ndim == 3 and px.shape[2] not in (1, 2, 3, 4)):
         raise InputError(f"unsupported pixel layout {px.shape}", source=src,
@@ -304,7 +445,10 @@ def _read_png(p: pathlib.Path) -> ImageData:
                 icc = b""
         elif ctype == b"sRGB":
             srgb_chunk = True
-    px = np.asarray(imagecodecs.png_decode(data))
+    try:
+        px = np.asarray(imagecodecs.png_decode(data))
+    except _decode_errors() as exc:
+        raise InputError(f"cannot decode the PNG image ({_short(exc)})", source=str(p)) from None
     desc = None if srgb_chunk else _icc_description(icc)
     if icc == b"":
         desc = "unreadable profile"
@@ -312,22 +456,33 @@ def _read_png(p: pathlib.Path) -> ImageData:
 
 
 def _read_jpeg(p: pathlib.Path) -> ImageData:
-    from PIL import Image
+    import io
 
-    with Image.open(p) as im:
-        mode = im.mode
-        icc = im.info.get("icc_profile")
-        if mode not in ("L", "RGB"):
-            raise InputError(f"unsupported JPEG colour mode {mode}", source=str(p),
-                             hint="convert CMYK or YCCK JPEGs to sRGB first")
-        px = np.asarray(im)
-    desc = _icc_description(icc)
+    import imagecodecs
+
+    data = p.read_bytes()
+    info = _jpeg_info(io.BytesIO(data), str(p))
+    if info["components"] not in (1, 3):
+        raise InputError(f"unsupported JPEG with {info['components']} colour components", source=str(p),
+                         hint="convert CMYK or YCCK JPEGs to sRGB first")
+    try:
+        px = np.asarray(imagecodecs.jpeg8_decode(data))
+    except _decode_errors() as exc:
+        raise InputError(f"cannot decode the JPEG image ({_short(exc)})", source=str(p)) from None
+    desc = _icc_description(info["icc"])
     return ImageData(px, "srgb", str(p), "jpeg", desc, _icc_warning(desc, str(p)))
 
 
 def _read_tiff(p: pathlib.Path) -> ImageData:
     import tifffile
 
+    try:
+        return _read_tiff_pages(p, tifffile)
+    except _decode_errors() as exc:
+        raise InputError(f"cannot decode the TIFF image ({_short(exc)})", source=str(p)) from None
+
+
+def _read_tiff_pages(p: pathlib.Path, tifffile) -> ImageData:
     warnings = []
     with tifffile.TiffFile(p) as tif:
         page = tif.pages[0]

@@ -1,35 +1,41 @@
-"""Confusion pairs: surfaces on one confusion line of the observer's deficient axis.
+"""Confused surface pairs: what a normal observer tells apart and a deficient observer does not.
 
-A confusion line of a protan, deutan or tritan observer is the set of
-chromaticities that differ only in the excitation of the affected cone: along a
-deutan line only M changes, so the ratio S / L is the same all along it (the
-lines meet at the deutan copunctal point in a chromaticity diagram). The
-position *across* the lines is therefore a ratio of the two unaffected cones,
-measured here in the observer's own cone space, after von Kries adaptation, as
-a natural logarithm:
+Both judgements use the one noise model of the tool, the receptor-noise-limited
+model of Vorobyev & Osorio (1998) (:mod:`cvdfilter.metrics.discrimination`),
+with Delta S in units of one just-noticeable difference (JND). For an observer
+with a colour-vision deficiency, a pair of surfaces is *confused* when
 
-    protan: v = ln(S / M)      deutan: v = ln(S / L)      tritan: v = ln(L / M)
+* the normal observer it derives from (same age and field; its ``base``)
+  discriminates the pair without a filter: Delta S_normal >= :data:`NORMAL_THRESHOLD`, and
+* the deficient observer does not: Delta S_deficient < :data:`DEFICIENT_THRESHOLD`.
 
-Log ratios are unchanged by von Kries adaptation and by neutral density (both
-scale each cone signal by a constant that cancels in a difference of v).
+The pairs of the first condition (the *normally discriminable* pairs) are a
+fixed set, judged once without the filter: the filter is worn by the deficient
+observer. Over that set, with the deficient observer's Delta S without and
+with the filter,
 
-Dichromats. Two surfaces are a confusion pair when |v_1 - v_2| is below the
-tolerance :data:`CONFUSION_TOLERANCE` (0.02, a 2 % difference in the cone
-ratio; a modelling choice of this project, of the order of chromatic
-discrimination thresholds; users can change it).
+* ``resolved``: confused without the filter, not with it;
+* ``created``: confused only with the filter;
+* ``median_ratio``: the median over the set of Delta S_deficient with the
+  filter, divided by the same median without it. This needs no threshold
+  other than the one that defines the set (above 1 the filter spreads these
+  surfaces apart for the deficient observer).
 
-Anomalous trichromats keep a weakened version of the lost axis: for
-protanomalous u = ln(L' / M), deuteranomalous u = ln(L / M'), tritanomalous
-u = ln(S' / (a L + b M)), computed with their shifted pigment. Two surfaces
-are a confusion pair for them when they lie on one confusion line *and* the
-weakened axis does not separate them either, i.e. when the point
-(v / tol, u / tol) of the two surfaces lies less than 1 apart (an ellipse
-of semi-axes tol in v and u).
+Both thresholds are 1 JND, the model's own unit (a choice of this project;
+users can change them, and ``score --sensitivity`` shows what moves).
+Dichromats use the two remaining cone classes, anomalous trichromats their
+shifted pigment with normal noise (see the discrimination module for the
+noise values). A normal observer has no confused pairs (``None``).
 
-Normal observers have no deficient axis; their confusion counts are null.
+Because Delta S is chromatic and depends only on log cone ratios, neutral
+density and von Kries adaptation change no count and leave ``median_ratio`` at 1.
 
-Public: :data:`CONFUSION_TOLERANCE`, :func:`confusion_axes`, :func:`confusion_features`,
-:func:`confusion_coordinates`, :func:`confusion_reference`, :func:`confusion_from_planes`,
+Counts are exact: the deficient observer's close pairs come from the sort and
+sweep of :mod:`cvdfilter.metrics.pairs` (shared with the discrimination
+counts), minus the few close pairs the normal observer does not discriminate either.
+
+Public: :data:`NORMAL_THRESHOLD`, :data:`DEFICIENT_THRESHOLD`, :func:`normally_discriminable`,
+:func:`confusion_reference`, :func:`confusion_from_points`, :func:`confusion_from_logs`,
 :func:`confusion_pairs`.
 """
 
@@ -37,157 +43,176 @@ from __future__ import annotations
 
 import numpy as np
 
-from .pairs import pair_changes, pair_reference
+from .discrimination import (close_changes, log_catches, median_changes, rnl_points, rnl_reference,
+                             rnl_transform)
+from .pairs import count_close_among, pair_indices, pair_sq_distances
 
-__all__ = ["CONFUSION_TOLERANCE", "confusion_axes", "confusion_features", "confusion_coordinates",
-           "confusion_reference", "confusion_from_planes", "confusion_pairs"]
+__all__ = ["NORMAL_THRESHOLD", "DEFICIENT_THRESHOLD", "normally_discriminable", "confusion_reference",
+           "confusion_from_points", "confusion_from_logs", "confusion_pairs"]
 
-#: Tolerance on the log cone ratios, natural-log units (a modelling choice; see the module docstring).
-CONFUSION_TOLERANCE = 0.02
-#: Catches are floored here before taking logs (only a black surface or filter reaches it).
-_TINY = 1e-300
-
-_L, _M, _S = np.eye(3)
-
-
-def confusion_axes(kind: str, deficiency: str | None, luminance_weights=(0.68990272, 0.34832189)):
-    """Cone weights of the log-ratio axes an observer's confusion pairs are judged on.
-
-    Parameters
-    ----------
-    kind : str
-        ``normal``, ``anomalous`` or ``dichromat``.
-    deficiency : str or None
-        ``protan``, ``deutan``, ``tritan``.
-    luminance_weights : tuple of float
-        (a, b), the weights of L and M in the observer's luminance (tritan weakened axis).
-
-    Returns
-    -------
-    list of (numpy.ndarray, numpy.ndarray) or None
-        One (numerator, denominator) pair of cone-weight vectors per axis:
-        the across-line axis v, then (anomalous only) the weakened axis u;
-        None for a normal observer.
-
-    Examples
-    --------
-    >>> [(n.tolist(), d.tolist()) for n, d in confusion_axes("dichromat", "deutan")]
-    [([0.0, 0.0, 1.0], [1.0, 0.0, 0.0])]
-    """
-    if kind == "normal" or deficiency is None:
-        return None
-    a, b = luminance_weights
-    across = {"protan": (_S, _M), "deutan": (_S, _L), "tritan": (_L, _M)}[deficiency]
-    axes = [across]
-    if kind == "anomalous":
-        weak = {"protan": (_L, _M), "deutan": (_L, _M), "tritan": (_S, a * _L + b * _M)}[deficiency]
-        axes.append(weak)
-    return axes
+#: Delta S (JND) at or above which the normal observer discriminates a pair (the model's unit).
+NORMAL_THRESHOLD = 1.0
+#: Delta S (JND) below which the deficient observer does not discriminate a pair (the model's unit).
+DEFICIENT_THRESHOLD = 1.0
 
 
-def _is_unit(w) -> int | None:
-    nz = np.nonzero(w)[0]
-    return int(nz[0]) if len(nz) == 1 and w[nz[0]] == 1.0 else None
-
-
-def confusion_features(catch_planes, log_planes, axes) -> list:
-    """The log ratios of :func:`confusion_axes`, as planes.
+def normally_discriminable(normal_catches_without, normal_noise, normal_threshold: float = NORMAL_THRESHOLD):
+    """The pairs the normal observer discriminates without a filter, and the others.
 
     Parameters
     ----------
-    catch_planes : sequence of 3 array_like
-        L, M, S catches, each (..., N).
-    log_planes : sequence of 3 array_like
-        Their natural logs (:func:`cvdfilter.metrics.discrimination.log_catches`).
-    axes : list
-        From :func:`confusion_axes`.
+    normal_catches_without : array_like
+        The normal observer's cone catches of N surfaces, shape (N, 3).
+    normal_noise : array_like
+        Its e_L, e_M, e_S.
+    normal_threshold : float
+        JND, > 0.
 
     Returns
     -------
-    list of numpy.ndarray
-        One plane per axis, shape (..., N), natural-log units.
+    seen : (numpy.ndarray, numpy.ndarray)
+        (i, j) of the pairs with Delta S_normal >= ``normal_threshold``.
+    unseen : (numpy.ndarray, numpy.ndarray)
+        (i, j) of the others.
     """
-    def log_of(w):
-        k = _is_unit(w)
-        if k is not None:
-            return log_planes[k]
-        combo = sum(float(wi) * catch_planes[i] for i, wi in enumerate(w) if wi != 0.0)
-        return np.log(np.maximum(combo, _TINY))
+    if not normal_threshold > 0:
+        raise ValueError(f"the normal threshold must be positive, got {normal_threshold}")
+    logs = log_catches(normal_catches_without)
+    y = logs @ rnl_transform(normal_noise).T
+    i, j = pair_indices(logs.shape[0])
+    d2 = pair_sq_distances([y[None, :, r] for r in range(y.shape[1])], i, j)[0]
+    keep = d2 >= float(normal_threshold) ** 2
+    return (i[keep], j[keep]), (i[~keep], j[~keep])
 
-    return [log_of(num) - log_of(den) for num, den in axes]
 
-
-def confusion_coordinates(catches, axes, tolerance: float = CONFUSION_TOLERANCE) -> np.ndarray:
-    """Points whose Euclidean distance below 1 marks a confusion pair.
+def confusion_reference(catches_without, noise, normal_catches_without, normal_noise, *,
+                        normal_threshold: float = NORMAL_THRESHOLD,
+                        deficient_threshold: float = DEFICIENT_THRESHOLD, rnl: dict | None = None,
+                        sets=None) -> dict:
+    """The state without the filter, prepared once for :func:`confusion_from_points`.
 
     Parameters
     ----------
-    catches : array_like
-        Cone catches (adapted or not: the result is the same), shape (..., N, 3).
-    axes : list
-        From :func:`confusion_axes`.
-    tolerance : float
-        In natural-log units of the cone ratios, > 0.
+    catches_without : array_like
+        The deficient observer's cone catches of the N surfaces, shape (N, 3).
+    noise : array_like
+        Its e_L, e_M, e_S (NaN for a missing cone).
+    normal_catches_without : array_like
+        The normal observer's cone catches of the same surfaces, shape (N, 3).
+    normal_noise : array_like
+        The normal observer's noise.
+    normal_threshold, deficient_threshold : float
+        JND, > 0.
+    rnl : dict, optional
+        The deficient observer's :func:`~cvdfilter.metrics.discrimination.rnl_reference`,
+        made with ``median_pairs`` = the normally discriminable pairs and
+        ``deficient_threshold`` among its radii (the scorecard shares it).
+    sets : tuple, optional
+        :func:`normally_discriminable` of the normal observer, if already made.
 
     Returns
     -------
-    numpy.ndarray
-        Shape (..., N, len(axes)): each log ratio divided by ``tolerance``.
+    dict
+        ``rnl``, ``count`` (normally discriminable pairs), ``unseen`` (i, j),
+        ``unseen_close`` (i, j: those also closer than the deficient threshold
+        for the deficient observer without the filter) and the two thresholds.
     """
-    if not tolerance > 0:
-        raise ValueError(f"tolerance must be positive, got {tolerance}")
-    q = np.asarray(catches, dtype=float)
-    planes = [q[..., c] for c in range(3)]
-    logs = [np.log(np.maximum(p, _TINY)) for p in planes]
-    return np.stack(confusion_features(planes, logs, axes), axis=-1) / tolerance
+    if not normal_threshold > 0 or not deficient_threshold > 0:
+        raise ValueError(f"JND thresholds must be positive, got {normal_threshold} and {deficient_threshold}")
+    td = float(deficient_threshold)
+    seen, unseen = sets if sets is not None else normally_discriminable(normal_catches_without, normal_noise,
+                                                                        normal_threshold)
+    if rnl is None:
+        rnl = rnl_reference(catches_without, noise, median_pairs=seen, extra_radii=(td,))
+    if td not in rnl["close"]:
+        raise ValueError("the discrimination reference lacks the deficient threshold among its radii")
+    y0 = log_catches(catches_without) @ rnl["transform"].T
+    ui, uj = unseen
+    d2 = pair_sq_distances([y0[None, :, r] for r in range(y0.shape[1])], ui, uj)[0]
+    near = d2 < td * td
+    return {"rnl": rnl, "count": int(len(seen[0])), "unseen": (ui, uj), "unseen_close": (ui[near], uj[near]),
+            "normal_threshold": float(normal_threshold), "deficient_threshold": td}
 
 
-def confusion_reference(catches_without, axes, *, tolerance: float = CONFUSION_TOLERANCE) -> dict:
-    """The state without the filter, prepared once for :func:`confusion_from_planes`."""
-    if not tolerance > 0:
-        raise ValueError(f"tolerance must be positive, got {tolerance}")
-    q0 = np.asarray(catches_without, dtype=float)
-    features = np.stack(confusion_features([q0[:, c] for c in range(3)],
-                                           [np.log(np.maximum(q0[:, c], _TINY)) for c in range(3)], axes), axis=-1)
-    return pair_reference(features, np.eye(len(axes)) / tolerance, 1.0)
+def confusion_from_points(points, reference: dict, changes: dict | None = None, median: dict | None = None) -> dict:
+    """Confused-pair statistics from the deficient observer's points with the filter.
+
+    Parameters
+    ----------
+    points : list of numpy.ndarray
+        From :func:`cvdfilter.metrics.discrimination.rnl_points`.
+    reference : dict
+        From :func:`confusion_reference`.
+    changes : dict, optional
+        :func:`cvdfilter.metrics.discrimination.close_changes` of these points, if already made.
+    median : dict, optional
+        :func:`cvdfilter.metrics.discrimination.median_changes` of these points, if already made.
+
+    Returns
+    -------
+    dict
+        ``without`` (int), ``with``, ``resolved``, ``created`` (int64 (F,));
+        ``normally_discriminable`` (int); ``median_without`` (float),
+        ``median_with`` and ``median_ratio`` (F,).
+    """
+    rnl = reference["rnl"]
+    td = reference["deficient_threshold"]
+    if changes is None or td not in changes:
+        changes = close_changes(points, {"close": {td: rnl["close"][td]}})
+    close0, close1, both = changes[td]
+    # Confused = close for the deficient observer, minus the close pairs the normal observer does not see either.
+    ui, uj = reference["unseen"]
+    ci, cj = reference["unseen_close"]
+    without = close0 - len(ci)
+    with_ = close1 - count_close_among(points, ui, uj, td)
+    both_set = both - count_close_among(points, ci, cj, td)
+    out = {"without": np.int64(without), "with": with_, "resolved": without - both_set,
+           "created": with_ - both_set, "normally_discriminable": reference["count"]}
+    m = median_changes(points, rnl) if median is None else median
+    out.update({k: m[k] for k in ("median_without", "median_with", "median_ratio")})
+    return out
 
 
-def confusion_from_planes(catch_planes, log_planes, axes, reference: dict) -> dict:
-    """Confusion-pair counts from catch and log-catch planes (the fast path); see :func:`confusion_pairs`."""
-    close0, close1, both = pair_changes(confusion_features(catch_planes, log_planes, axes), reference)
-    return {"without": np.int64(close0), "with": close1, "resolved": close0 - both, "created": close1 - both}
+def confusion_from_logs(log_planes, reference: dict) -> dict:
+    """:func:`confusion_from_points` from log cone catches, shape (F, 3, N) or three planes (F, N)."""
+    return confusion_from_points(rnl_points(log_planes, reference["rnl"]), reference)
 
 
-def confusion_pairs(catches_with, catches_without, axes, *, tolerance: float = CONFUSION_TOLERANCE) -> dict:
-    """Confusion pairs without and with a filter, and the pairs it resolves or creates.
+def confusion_pairs(catches_with, catches_without, noise, normal_catches_without, normal_noise, *,
+                    normal_threshold: float = NORMAL_THRESHOLD,
+                    deficient_threshold: float = DEFICIENT_THRESHOLD) -> dict:
+    """Confused pairs without and with a filter, the pairs it resolves or creates, and the median ratio.
 
     Parameters
     ----------
     catches_with : array_like
-        Cone catches through each filter, shape (F, N, 3).
+        The deficient observer's cone catches through each filter, shape (F, N, 3).
     catches_without : array_like
         Without the filter, shape (N, 3).
-    axes : list
-        From :func:`confusion_axes` (not None).
-    tolerance : float
-        Natural-log units.
+    noise : array_like
+        The deficient observer's e_L, e_M, e_S (NaN for a missing cone).
+    normal_catches_without : array_like
+        The normal observer's catches without the filter, shape (N, 3).
+    normal_noise : array_like
+        The normal observer's noise.
+    normal_threshold, deficient_threshold : float
+        JND.
 
     Returns
     -------
-    dict of numpy.ndarray
-        ``without`` (scalar), ``with``, ``resolved`` (confused without the
-        filter, not with it), ``created`` (confused only with it); int64, shape (F,).
+    dict
+        As :func:`confusion_from_points`.
 
     Examples
     --------
-    >>> q0 = np.array([[1.0, 0.5, 0.2], [1.0, 0.9, 0.2], [1.0, 0.5, 0.6]])  # rows 0, 1: same S/L
+    >>> from cvdfilter.metrics.discrimination import receptor_noise
+    >>> q0 = np.array([[1.0, 0.5, 0.2], [1.0, 0.6, 0.2], [1.0, 0.5, 0.6]])  # rows 0, 1 differ in M only
     >>> q1 = q0 * [[1.0, 1, 1], [1.3, 1, 1], [1.0, 1, 1]]                   # the filter raises L of row 1
-    >>> r = confusion_pairs(q1[None], q0, confusion_axes("dichromat", "deutan"))
-    >>> {k: int(np.ravel(v)[0]) for k, v in r.items()}
+    >>> r = confusion_pairs(q1[None], q0, receptor_noise(1), q0, receptor_noise())
+    >>> {k: int(np.ravel(r[k])[0]) for k in ("without", "with", "resolved", "created")}
     {'without': 1, 'with': 0, 'resolved': 1, 'created': 0}
     """
-    reference = confusion_reference(catches_without, axes, tolerance=tolerance)
-    q = np.asarray(catches_with, dtype=float)
-    planes = [q[..., c] for c in range(3)]
-    logs = [np.log(np.maximum(p, _TINY)) for p in planes]
-    return confusion_from_planes(planes, logs, axes, reference)
+    reference = confusion_reference(catches_without, noise, normal_catches_without, normal_noise,
+                                    normal_threshold=normal_threshold, deficient_threshold=deficient_threshold)
+    logs = log_catches(catches_with)
+    return confusion_from_logs([logs[..., 0], logs[..., 1], logs[..., 2]], reference)

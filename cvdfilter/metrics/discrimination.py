@@ -45,24 +45,46 @@ Anomalous trichromats keep the normal cone numbers and noise.
 Reference: Vorobyev, M., & Osorio, D. (1998). Receptor noise as a determinant
 of colour thresholds. Proceedings of the Royal Society B, 265, 351-358.
 
-Public: :data:`WEBER_FRACTION`, :data:`CONE_RATIOS`, :func:`receptor_noise`,
-:func:`rnl_transform`, :func:`rnl_distance`, :func:`log_catches`, :func:`rnl_coordinates`,
-:func:`rnl_reference`, :func:`discriminable_from_logs`, :func:`discriminable_pairs`.
+Counts and distribution. On 99 natural surfaces almost every pair is over
+1 JND for a normal observer, so counts at one threshold saturate. Besides the
+counts at :data:`DISCRIMINATION_THRESHOLD` the module reports them at each of
+:data:`DISTRIBUTION_THRESHOLDS` (1, 2 and 4 JND) and a threshold-free
+measure: the median Delta S over all pairs with the filter divided by the
+same median without it (``median_ratio``; above 1 the filter spreads the
+surfaces apart in the model). The scorecard takes this median over the pairs
+the normal observer discriminates without the filter (the set of
+:mod:`cvdfilter.metrics.confusion`), so that one number serves both blocks.
+Counts are exact (sort and sweep, :mod:`cvdfilter.metrics.pairs`); the median
+is selected in float32 from the dense pair distances.
+
+Public: :data:`WEBER_FRACTION`, :data:`CONE_RATIOS`, :data:`DISCRIMINATION_THRESHOLD`,
+:data:`DISTRIBUTION_THRESHOLDS`, :func:`receptor_noise`, :func:`rnl_transform`, :func:`rnl_distance`,
+:func:`log_catches`, :func:`rnl_coordinates`, :func:`rnl_reference`, :func:`rnl_points`,
+:func:`close_changes`, :func:`median_changes`, :func:`discriminable_from_points`,
+:func:`discriminable_from_logs`, :func:`discriminable_pairs`.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .pairs import pair_changes, pair_count, pair_reference
+from .pairs import (all_pair_sq_distances, close_pairs, count_close_among, count_close_pairs, median_rows,
+                    offset_order, pair_count, pair_indices, pair_reference)
 
-__all__ = ["WEBER_FRACTION", "CONE_RATIOS", "receptor_noise", "rnl_transform", "rnl_distance", "log_catches",
-           "rnl_coordinates", "rnl_reference", "discriminable_from_logs", "discriminable_pairs"]
+__all__ = ["WEBER_FRACTION", "CONE_RATIOS", "DISCRIMINATION_THRESHOLD", "DISTRIBUTION_THRESHOLDS", "receptor_noise",
+           "rnl_transform", "rnl_distance", "log_catches", "rnl_coordinates", "rnl_reference", "rnl_points",
+           "close_changes", "median_changes", "discriminable_from_points", "discriminable_from_logs",
+           "discriminable_pairs"]
 
 #: Weber fraction of the L-cone channel of the normal trichromat (from memory; see the module docstring).
 WEBER_FRACTION = 0.02
 #: Relative numbers of L, M and S cones of the normal trichromat, L:M:S = 10:5:1 (from memory; see above).
 CONE_RATIOS = (10.0, 5.0, 1.0)
+#: Delta S (JND) at or above which a pair counts as discriminable: 1 JND, the model's own unit (V&O 1998).
+DISCRIMINATION_THRESHOLD = 1.0
+#: Delta S thresholds (JND) of the reported distribution of pair differences (a choice of this project:
+#: the model's unit, and two and four times it, so that a reader sees more than one cut).
+DISTRIBUTION_THRESHOLDS = (1.0, 2.0, 4.0)
 #: Catches are floored here before taking logs (only a black surface or filter reaches it).
 _TINY = 1e-300
 
@@ -209,7 +231,8 @@ def rnl_coordinates(catches, transform) -> np.ndarray:
     return log_catches(catches) @ np.asarray(transform, dtype=float).T
 
 
-def rnl_reference(catches_without, noise, *, threshold: float = 1.0) -> dict:
+def rnl_reference(catches_without, noise, *, threshold: float = DISCRIMINATION_THRESHOLD,
+                  thresholds=DISTRIBUTION_THRESHOLDS, median_pairs=None, extra_radii=()) -> dict:
     """The state without the filter, prepared once for :func:`discriminable_from_logs`.
 
     Parameters
@@ -219,13 +242,114 @@ def rnl_reference(catches_without, noise, *, threshold: float = 1.0) -> dict:
     noise : array_like
         e_L, e_M, e_S (NaN for a missing cone).
     threshold : float
-        JND count at which a pair counts as discriminable.
+        JND count at or above which a pair counts as discriminable (the headline counts).
+    thresholds : sequence of float
+        JND counts of the distribution (:data:`DISTRIBUTION_THRESHOLDS`).
+    median_pairs : (array_like, array_like), optional
+        Index arrays (i, j) of the pairs the median runs over; default all pairs.
+    extra_radii : sequence of float
+        Further radii whose close pairs are prepared (e.g. the confused-pair threshold).
+
+    Returns
+    -------
+    dict
+        ``transform`` (P of :func:`rnl_transform`, rotated so that its first
+        coordinate has the largest spread), ``close`` -> {radius: (i, j) of the
+        pairs closer than it without the filter}, ``n``, ``threshold``,
+        ``thresholds``, ``median_count`` and ``median_exclude`` (the median's pairs:
+        their number, and the columns of :func:`~cvdfilter.metrics.pairs.all_pair_sq_distances`
+        left out), ``median`` (median Delta S over those pairs without the filter, JND).
     """
-    return pair_reference(log_catches(catches_without), rnl_transform(noise), threshold)
+    if not threshold > 0 or not all(t > 0 for t in (*thresholds, *extra_radii)):
+        raise ValueError(f"JND thresholds must be positive, got {threshold} and {tuple(thresholds)}")
+    logs = log_catches(catches_without)
+    ref = pair_reference(logs, rnl_transform(noise), float(threshold))
+    y0 = logs @ ref["transform"].T
+    radii = sorted({float(threshold), *(float(t) for t in thresholds), *(float(t) for t in extra_radii)})
+    close = {r: (ref["i"], ref["j"]) if r == float(threshold) else close_pairs(y0, r) for r in radii}
+    if median_pairs is None:
+        median_pairs = pair_indices(logs.shape[0])
+    n = logs.shape[0]
+    mi, mj = (np.asarray(a, dtype=np.intp) for a in median_pairs)
+    keep = np.zeros(pair_count(n), dtype=bool)
+    keep[offset_order(mi, mj, n)] = True
+    exclude = np.nonzero(~keep)[0]
+    d2 = all_pair_sq_distances([y0[None, :, r] for r in range(y0.shape[1])], exclude=exclude)
+    median = float(np.sqrt(median_rows(d2, count=int(keep.sum()))[0])) if keep.any() else float("nan")
+    return {"transform": ref["transform"], "close": close, "n": n, "threshold": float(threshold),
+            "thresholds": tuple(float(t) for t in thresholds), "median_count": int(keep.sum()),
+            "median_exclude": exclude, "median": median}
+
+
+def rnl_points(log_planes, reference: dict) -> list:
+    """The surfaces through each filter as points in JND units: k planes (F, N), y = P ln q.
+
+    Parameters
+    ----------
+    log_planes : array_like or sequence of 3 array_like
+        ln L, ln M, ln S of the surfaces through each filter: shape (F, 3, N),
+        or three planes of shape (F, N).
+    reference : dict
+        From :func:`rnl_reference` (its transform).
+    """
+    t = reference["transform"]
+    if isinstance(log_planes, (list, tuple)):
+        log_planes = np.stack(log_planes, axis=1)
+    y = np.matmul(t, np.asarray(log_planes, dtype=float))  # (F, k, N): one small product per filter
+    return [np.ascontiguousarray(y[:, r, :]) for r in range(t.shape[0])]
+
+
+def close_changes(points, reference: dict) -> dict:
+    """Per radius of the reference: (close without, close with (F,), close in both (F,)).
+
+    Counted exactly by :mod:`cvdfilter.metrics.pairs` (sort and sweep).
+    """
+    out = {}
+    for r, (i, j) in reference["close"].items():
+        out[r] = (len(i), count_close_pairs(points, r), count_close_among(points, i, j, r))
+    return out
+
+
+def _at(total: int, close0: int, close1, both) -> dict:
+    return {"without": np.int64(total - close0), "with": total - close1, "gained": close0 - both,
+            "lost": close1 - both}
+
+
+def discriminable_from_points(points, reference: dict, changes: dict | None = None) -> dict:
+    """Discriminable-pair statistics from the points of :func:`rnl_points`.
+
+    Returns
+    -------
+    dict
+        ``without`` (int), ``with``, ``gained``, ``lost`` (int64 (F,)) at the
+        reference's threshold; ``at`` -> {threshold: the same four}; ``median_without``
+        (float), ``median_with`` and ``median_ratio`` (F,): the median Delta S
+        (JND) over the reference's median pairs, and with / without.
+    """
+    changes = close_changes(points, reference) if changes is None else changes
+    total = pair_count(reference["n"])
+    out = _at(total, *changes[reference["threshold"]])
+    out["at"] = {t: _at(total, *changes[t]) for t in reference["thresholds"]}
+    out.update(median_changes(points, reference))
+    return out
+
+
+def median_changes(points, reference: dict) -> dict:
+    """``median_without``, ``median_with`` (F,), ``median_ratio`` (F,) over the reference's median pairs."""
+    n_f = points[0].shape[0]
+    if reference["median_count"] == 0:
+        med = np.full(n_f, np.nan)
+    else:
+        d2 = all_pair_sq_distances(points, exclude=reference["median_exclude"])
+        med = np.sqrt(median_rows(d2, count=reference["median_count"]))
+    m0 = reference["median"]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        ratio = med / m0 if m0 > 0 else np.full(n_f, np.nan)
+    return {"median_without": m0, "median_with": med, "median_ratio": ratio}
 
 
 def discriminable_from_logs(log_planes, reference: dict) -> dict:
-    """Discriminable-pair counts from log cone catches laid out by cone (the fast path).
+    """Discriminable-pair statistics from log cone catches laid out by cone (the fast path).
 
     Parameters
     ----------
@@ -237,17 +361,15 @@ def discriminable_from_logs(log_planes, reference: dict) -> dict:
 
     Returns
     -------
-    dict of numpy.ndarray
-        As :func:`discriminable_pairs`.
+    dict
+        As :func:`discriminable_from_points`.
     """
-    total = pair_count(reference["n"])
-    close0, close1, both = pair_changes(log_planes, reference)
-    return {"without": np.int64(total - close0), "with": total - close1,
-            "gained": close0 - both, "lost": close1 - both}
+    return discriminable_from_points(rnl_points(log_planes, reference), reference)
 
 
-def discriminable_pairs(catches_with, catches_without, noise, *, threshold: float = 1.0) -> dict:
-    """Surface pairs at or above ``threshold`` JND, with and without a filter.
+def discriminable_pairs(catches_with, catches_without, noise, *, threshold: float = DISCRIMINATION_THRESHOLD,
+                        thresholds=DISTRIBUTION_THRESHOLDS) -> dict:
+    """Surface pairs at or above ``threshold`` JND, with and without a filter, and their distribution.
 
     Parameters
     ----------
@@ -258,21 +380,28 @@ def discriminable_pairs(catches_with, catches_without, noise, *, threshold: floa
     noise : array_like
         e_L, e_M, e_S (:func:`receptor_noise`); NaN for a missing cone.
     threshold : float
-        JND count at which a pair counts as discriminable (1 in V&O 1998).
+        JND count at or above which a pair counts as discriminable (1 in V&O 1998).
+    thresholds : sequence of float
+        The distribution's thresholds.
 
     Returns
     -------
-    dict of numpy.ndarray
+    dict
         ``without`` (scalar), ``with``, ``gained`` (discriminable only with the
-        filter), ``lost`` (discriminable only without it); int64 arrays of shape (F,).
+        filter), ``lost`` (discriminable only without it): int64 arrays of shape
+        (F,); ``at``, ``median_without``, ``median_with``, ``median_ratio`` as in
+        :func:`discriminable_from_points` (the median over all pairs).
 
     Examples
     --------
     >>> q0 = np.array([[1.0, 1.0, 1.0], [1.001, 1.0, 1.0], [1.5, 1.0, 1.0]])
     >>> q1 = q0 * np.array([1.1, 1.0, 1.0])            # a filter scaling L alone
-    >>> {k: int(np.ravel(v)[0]) for k, v in discriminable_pairs(q1[None], q0, receptor_noise()).items()}
+    >>> r = discriminable_pairs(q1[None], q0, receptor_noise())
+    >>> {k: int(np.ravel(r[k])[0]) for k in ("without", "with", "gained", "lost")}
     {'without': 2, 'with': 2, 'gained': 0, 'lost': 0}
+    >>> round(float(r["median_ratio"][0]), 6)
+    1.0
     """
-    reference = rnl_reference(catches_without, noise, threshold=threshold)
+    reference = rnl_reference(catches_without, noise, threshold=threshold, thresholds=thresholds)
     logs = log_catches(catches_with)
     return discriminable_from_logs([logs[..., 0], logs[..., 1], logs[..., 2]], reference)

@@ -13,8 +13,9 @@ Everything is computed by colour-science's own implementations:
 * the test light's correlated colour temperature (K) and D_uv, as TM-30 reports them.
 
 This costs about 0.1 s per filter, so it belongs to ``metrics="all"`` and not
-to large sweeps. Results are kept in the on-disk cache by the light's
-spectrum, so scoring the same filter again does not import colour-science.
+to large sweeps. Results are remembered in memory by the light's spectrum for
+the life of the process (never written to disk: they are results on a user's
+filter), so scoring the same filter again in one session costs nothing.
 
 References: CIE 224:2017, CIE 2017 Colour Fidelity Index for accurate
 scientific use; ANSI/IES TM-30-18, IES Method for Evaluating Light Source
@@ -31,13 +32,13 @@ import warnings
 
 import numpy as np
 
-from ..spectra.cache import cached_arrays
+from ..spectra.cache import memo_arrays
 
 __all__ = ["RENDITION_KEYS", "rendition", "rendition_many"]
 
 #: Keys of the rendition block, in order.
 RENDITION_KEYS = ("rf", "rg", "ra", "chroma_shifts", "cct_k", "duv")
-#: Runs with more filters than this are not written to the on-disk cache (it would fill with entries).
+#: Runs with more filters than this are not remembered in memory (the memo would only churn).
 _CACHE_MAX_FILTERS = 64
 
 
@@ -71,7 +72,7 @@ def rendition(spd, wavelengths, *, cache: bool = True) -> dict:
     wavelengths : array_like
         nm, shape (n_wl,).
     cache : bool
-        Look the result up in (and store it to) the on-disk cache.
+        Look the result up in (and store it to) the in-process memo (never on disk).
 
     Returns
     -------
@@ -100,7 +101,7 @@ def rendition(spd, wavelengths, *, cache: bool = True) -> dict:
         r = _compute(spd, wl)
         return {k: np.asarray(v, dtype=float) for k, v in r.items()}
 
-    arrays = cached_arrays(f"rendition-{key}", build)
+    arrays = memo_arrays(f"rendition-{key}", build)
     return {k: (arrays[k].copy() if k == "chroma_shifts" else float(arrays[k])) for k in RENDITION_KEYS}
 
 

@@ -11,8 +11,8 @@ govern; local traffic rules and a licensed eye-care practitioner decide):
 * Spectral transmittance not below 0.2 x tau_v anywhere from 475 to 650 nm.
 * Signal quotients Q = tau_signal / tau_v, where tau_signal is the filter's
   luminous transmittance for the light of a signal lamp (the lamp's spectrum
-  weighted by V(lambda)), at or above 0.8 for red and yellow and 0.6 for
-  green and blue.
+  weighted by V(lambda)), at or above 0.8 for red and yellow, 0.6 for green
+  and 0.6 (or 0.4, another reading) for blue.
 * Twilight and night driving: tau_v at least 75 % (here also requiring the
   daytime checks to pass).
 
@@ -23,7 +23,15 @@ wavelengths. These models are an approximation, from memory; users can pass
 measured signal spectra instead, and every output says which were used. For
 each colour the quotient reported is the lowest over that colour's lights.
 
-Public: :data:`CATEGORY_BANDS`, :data:`SIGNAL_LIMITS`, :data:`SIGNAL_COLOURS`,
+Signal-quotient limits are a named table (:data:`SIGNAL_LIMIT_READINGS`): two
+readings of the standard circulate and disagree on blue (0.6 or 0.4). The
+default is :data:`DEFAULT_SIGNAL_READING`; :func:`parse_signal_limits` takes
+another reading or explicit limits, and every function that judges road use
+takes ``limits=``.
+
+Public: :data:`CATEGORY_BANDS`, :data:`SIGNAL_LIMITS`, :data:`SIGNAL_LIMIT_READINGS`,
+:data:`SIGNAL_LIMIT_SOURCES`, :data:`DEFAULT_SIGNAL_READING`, :func:`parse_signal_limits`,
+:func:`describe_signal_limits`, :data:`SIGNAL_COLOURS`,
 :data:`RATIO_BAND_NM`, :data:`RATIO_LIMIT`, :data:`NIGHT_MIN`, :class:`SignalLight`,
 :func:`iso12312_category`, :func:`category_text`, :func:`min_ratio_in_band`,
 :func:`modelled_signal_lights`, :func:`signal_colour`, :func:`signal_quotients`,
@@ -37,15 +45,35 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["CATEGORY_BANDS", "SIGNAL_LIMITS", "SIGNAL_COLOURS", "RATIO_BAND_NM", "RATIO_LIMIT", "NIGHT_MIN",
+__all__ = ["CATEGORY_BANDS", "SIGNAL_LIMITS", "SIGNAL_LIMIT_READINGS", "SIGNAL_LIMIT_SOURCES",
+           "DEFAULT_SIGNAL_READING", "parse_signal_limits", "describe_signal_limits", "SIGNAL_COLOURS", "RATIO_BAND_NM", "RATIO_LIMIT", "NIGHT_MIN",
            "MODEL_NOTE", "SignalLight", "iso12312_category", "category_text", "min_ratio_in_band",
            "modelled_signal_lights", "signal_colour", "signal_quotients", "road_use_flags", "road_use_reasons"]
 
 #: ISO 12312-1:2013 luminous transmittance categories as (category, lower, upper) fractions:
 #: lower exclusive, upper inclusive (College of Optometrists, "Tints and driving").
 CATEGORY_BANDS = ((0, 0.80, 1.00), (1, 0.43, 0.80), (2, 0.18, 0.43), (3, 0.08, 0.18), (4, 0.03, 0.08))
-#: Minimum signal quotients by colour (same source; the standard's tables govern).
-SIGNAL_LIMITS = {"red": 0.8, "yellow": 0.8, "green": 0.6, "blue": 0.6}
+#: Two readings of ISO 12312-1:2013's minimum signal quotients (the standard's own table was not at hand;
+#: docs/metrics.md, "Signal-quotient limits", records both and why the default is the default).
+#: ``guidance``: the College of Optometrists' guidance "Tints and driving", which reads "not less than 0.8
+#: for red and yellow signal lights, not less than 0.6 for yellow, green and blue signal lights" (yellow
+#: appears twice, so the sentence is garbled; red and yellow 0.8 and green and blue 0.6 is its plain reading).
+#: ``blue-0.4``: red 0.8, yellow 0.8, green 0.6, blue 0.4 (from memory; not checked against the standard).
+SIGNAL_LIMIT_READINGS = {
+    "guidance": {"red": 0.8, "yellow": 0.8, "green": 0.6, "blue": 0.6},
+    "blue-0.4": {"red": 0.8, "yellow": 0.8, "green": 0.6, "blue": 0.4},
+}
+#: Where each reading comes from (printed with the limits).
+SIGNAL_LIMIT_SOURCES = {
+    "guidance": "ISO 12312-1:2013 as summarised by the College of Optometrists' guidance 'Tints and driving' "
+                "(that sentence is garbled on yellow; plain reading)",
+    "blue-0.4": "ISO 12312-1:2013, another reading, from memory (not checked against the standard)",
+}
+#: The reading used unless the user gives other limits: the only one with a public source at hand, and the
+#: stricter (it never passes a filter the other reading fails).
+DEFAULT_SIGNAL_READING = "guidance"
+#: Minimum signal quotients by colour: the default reading (the standard's tables govern).
+SIGNAL_LIMITS = dict(SIGNAL_LIMIT_READINGS[DEFAULT_SIGNAL_READING])
 SIGNAL_COLOURS = tuple(SIGNAL_LIMITS)
 #: Band (nm) where spectral transmittance must stay at or above RATIO_LIMIT x tau_v (same source).
 RATIO_BAND_NM = (475.0, 650.0)
@@ -261,24 +289,97 @@ def signal_quotients(transmittance, tau_v, lights, v_lambda):
     return by_colour, by_light
 
 
-def road_use_flags(category, min_ratio, quotients: dict, tau_v):
+def parse_signal_limits(limits=None) -> tuple[dict, str]:
+    """Signal-quotient limits from a reading name, a ``colour=value,...`` text or a dict.
+
+    Parameters
+    ----------
+    limits : None, str or dict
+        None: the default reading; a key of :data:`SIGNAL_LIMIT_READINGS`;
+        ``red=0.8,yellow=0.8,green=0.6,blue=0.4`` (colours left out keep the
+        default reading's limit); or a dict colour -> limit.
+
+    Returns
+    -------
+    limits : dict
+        colour -> limit, for every colour of :data:`SIGNAL_COLOURS`.
+    reading : str
+        The reading's name, or ``user`` for limits that match no reading.
+
+    Raises
+    ------
+    ValueError
+        For an unknown colour or reading, or a limit outside 0-2.
+
+    Examples
+    --------
+    >>> parse_signal_limits("blue=0.4")
+    ({'red': 0.8, 'yellow': 0.8, 'green': 0.6, 'blue': 0.4}, 'blue-0.4')
+    >>> parse_signal_limits()[1]
+    'guidance'
+    """
+    base = dict(SIGNAL_LIMIT_READINGS[DEFAULT_SIGNAL_READING])
+    if limits is None:
+        return base, DEFAULT_SIGNAL_READING
+    if isinstance(limits, str):
+        text = limits.strip()
+        if text in SIGNAL_LIMIT_READINGS:
+            return dict(SIGNAL_LIMIT_READINGS[text]), text
+        items = {}
+        for part in (p for p in text.split(",") if p.strip()):
+            if "=" not in part:
+                raise ValueError(f"signal limits '{limits}': expected colour=value pairs or one of "
+                                 f"{', '.join(SIGNAL_LIMIT_READINGS)}")
+            k, v = part.split("=", 1)
+            try:
+                items[k.strip().lower()] = float(v)
+            except ValueError:
+                raise ValueError(f"signal limits '{limits}': '{v.strip()}' is not a number") from None
+        limits = items
+    out = base
+    for k, v in dict(limits).items():
+        colour = _COLOUR_WORDS.get(str(k).strip().lower())
+        if colour is None:
+            raise ValueError(f"signal limits: unknown colour '{k}' (use red, yellow, green, blue)")
+        v = float(v)
+        if not 0.0 <= v <= 2.0:
+            raise ValueError(f"signal limits: {colour}={v:g} is outside 0-2")
+        out[colour] = v
+    reading = next((name for name, table in SIGNAL_LIMIT_READINGS.items() if table == out), "user")
+    return out, reading
+
+
+def describe_signal_limits(limits: dict, reading: str) -> str:
+    """One line naming the limits and where they come from.
+
+    >>> describe_signal_limits(*parse_signal_limits()).split(" (")[0]
+    'Signal-quotient limits: red 0.8, yellow 0.8, green 0.6, blue 0.6'
+    """
+    values = ", ".join(f"{c} {limits[c]:g}" for c in SIGNAL_COLOURS)
+    source = SIGNAL_LIMIT_SOURCES.get(reading, "given by the user")
+    return f"Signal-quotient limits: {values} (reading '{reading}': {source})."
+
+
+def road_use_flags(category, min_ratio, quotients: dict, tau_v, limits: dict | None = None):
     """``suitable`` and ``night_suitable`` for each filter (boolean arrays).
 
     suitable: category 0-3, min ratio >= 0.2 and every signal quotient at or
-    above its limit; night_suitable: suitable and tau_v >= 0.75.
+    above its limit (``limits``, default :data:`SIGNAL_LIMITS`); night_suitable:
+    suitable and tau_v >= 0.75.
     """
+    limits = SIGNAL_LIMITS if limits is None else limits
     category = np.asarray(category)
     ok = (category >= 0) & (category <= 3)
     with np.errstate(invalid="ignore"):
         ok &= np.nan_to_num(np.asarray(min_ratio, dtype=float), nan=-1.0) >= RATIO_LIMIT
         for colour, q in quotients.items():
-            ok &= np.nan_to_num(np.asarray(q, dtype=float), nan=-1.0) >= SIGNAL_LIMITS[colour]
+            ok &= np.nan_to_num(np.asarray(q, dtype=float), nan=-1.0) >= limits[colour]
     night = ok & (np.round(np.asarray(tau_v, dtype=float), 9) >= NIGHT_MIN)
     return ok, night
 
 
 def road_use_reasons(tau_v: float, category: int, min_ratio: float, at_nm: float, quotients: dict,
-                     worst_lights: dict | None = None) -> list[str]:
+                     worst_lights: dict | None = None, limits: dict | None = None) -> list[str]:
     """Plain sentences explaining the road-use verdict for one filter.
 
     Parameters
@@ -293,6 +394,8 @@ def road_use_reasons(tau_v: float, category: int, min_ratio: float, at_nm: float
         colour -> quotient.
     worst_lights : dict, optional
         colour -> the light giving the lowest quotient.
+    limits : dict, optional
+        Signal-quotient limits (default :data:`SIGNAL_LIMITS`).
 
     Examples
     --------
@@ -304,6 +407,7 @@ def road_use_reasons(tau_v: float, category: int, min_ratio: float, at_nm: float
     Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.
     """
     worst_lights = worst_lights or {}
+    limits = SIGNAL_LIMITS if limits is None else limits
 
     def ratio(x):  # two significant digits for small ratios, two decimals otherwise
         return f"{x:.2g}" if x < 0.095 else f"{x:.2f}"
@@ -327,10 +431,10 @@ def road_use_reasons(tau_v: float, category: int, min_ratio: float, at_nm: float
     else:
         out.append(f"Spectral transmittance falls to {ratio(min_ratio)} x the luminous transmittance at {at_nm:g} nm; "
                    f"road use needs at least {RATIO_LIMIT:g} x everywhere from {lo:g} to {hi:g} nm.")
-    failing = [c for c, q in quotients.items() if not q >= SIGNAL_LIMITS[c]]
+    failing = [c for c, q in quotients.items() if not q >= limits[c]]
     for c in failing:
         which = f" (lowest with the {worst_lights[c]} light)" if c in worst_lights else ""
-        out.append(f"The {c} signal quotient is {quotients[c]:.2f}, below the limit of {SIGNAL_LIMITS[c]:g}{which}.")
+        out.append(f"The {c} signal quotient is {quotients[c]:.2f}, below the limit of {limits[c]:g}{which}.")
     if not failing:
         out.append("Signal quotients meet their limits: "
                    + ", ".join(f"{c} {q:.2f}" for c, q in quotients.items()) + ".")

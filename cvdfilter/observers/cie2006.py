@@ -27,8 +27,15 @@ References: CIE 170-1:2006, Fundamental chromaticity diagram with
 physiological axes - Part 1; Stockman & Sharpe (2000), Vision Research 40,
 1711-1737.
 
+Anomalous pigments (:func:`anomalous_pigment`) and the meaning of an L/M
+``shift``: :func:`peak_shift_table` relates a pigment shift to the move of the
+fundamental's peak (:func:`fundamental_peaks`) in the reference observer (32
+years, 2 deg); :func:`pigment_shift_for` inverts it.
+
 Public: :func:`table_wavelengths`, :func:`photopigment_absorbance`,
-:func:`pigment_peaks`, :func:`shifted_absorbance`, :func:`ocular_media_density`,
+:func:`pigment_peaks`, :func:`shifted_absorbance`, :func:`anomalous_pigment`,
+:func:`fundamental_peaks`, :func:`peak_shift_table`, :func:`pigment_shift_for`,
+:func:`fundamental_separation`, :func:`ocular_media_density`,
 :func:`macular_density`, :func:`peak_optical_density`,
 :func:`fundamentals_from_absorbance`, :func:`cone_fundamentals`, :func:`to_grid`.
 """
@@ -43,6 +50,8 @@ import numpy as np
 from ..spectra.grid import DEFAULT_GRID, Grid
 
 __all__ = ["table_wavelengths", "photopigment_absorbance", "pigment_peaks", "shifted_absorbance",
+           "anomalous_pigment", "fundamental_peaks", "peak_shift_table", "pigment_shift_for",
+           "fundamental_separation", "REFERENCE_AGE", "REFERENCE_FIELD",
            "ocular_media_density", "macular_density", "peak_optical_density",
            "fundamentals_from_absorbance", "cone_fundamentals", "to_grid", "AGE_RANGE", "FIELD_RANGE"]
 
@@ -98,10 +107,36 @@ def _tables_digest() -> str:
 
 def _disk_cached(key: str, build) -> np.ndarray:
     # The splines below need scipy.interpolate, which takes most of a second to
-    # import; their results go to the on-disk reference cache instead.
+    # import. Results on the bundled tables alone (reference data) go to the
+    # on-disk reference cache; results that depend on a user's parameter do not.
     from ..spectra.cache import cached_arrays
 
     return cached_arrays(f"cie2006-{key}-{_tables_digest()}", lambda: {"v": build()})["v"]
+
+
+def _spline_pieces() -> dict[str, np.ndarray]:
+    """Breakpoints ``x{i}`` and coefficients ``c{i}`` (4, n) of the log-absorbance splines (reference data)."""
+    from ..spectra.cache import cached_arrays
+
+    def build():
+        out = {}
+        for i, s in enumerate(_log_abs_splines()):
+            out[f"x{i}"], out[f"c{i}"] = np.asarray(s.x, dtype=float), np.asarray(s.c, dtype=float)
+        return out
+
+    return cached_arrays(f"cie2006-log-abs-splines-{_tables_digest()}", build)
+
+
+def _spline_eval(cone: int, xq: np.ndarray, nu: int = 0) -> np.ndarray:
+    """Evaluate the cubic spline of :func:`_log_abs_splines` (or its first derivative) with numpy alone."""
+    pieces = _spline_pieces()
+    x, c = pieces[f"x{cone}"], pieces[f"c{cone}"]
+    xq = np.asarray(xq, dtype=float)
+    i = np.clip(np.searchsorted(x, xq, side="right") - 1, 0, len(x) - 2)
+    dx = xq - x[i]
+    if nu == 1:
+        return (3.0 * c[0, i] * dx + 2.0 * c[1, i]) * dx + c[2, i]
+    return ((c[0, i] * dx + c[1, i]) * dx + c[2, i]) * dx + c[3, i]
 
 
 @functools.lru_cache(maxsize=1)
@@ -155,21 +190,165 @@ def shifted_absorbance(cone: int, shift_nm: float) -> np.ndarray:
     """
     if shift_nm == 0:
         return photopigment_absorbance()[:, cone]
-    return _disk_cached(f"shifted-{int(cone)}-{float(shift_nm)!r}",
-                        lambda: _shifted_absorbance(cone, shift_nm)).copy()
+    from ..spectra.cache import memo_arrays
+
+    return memo_arrays(f"cie2006-shifted-{int(cone)}-{float(shift_nm)!r}",
+                       lambda: {"v": _shifted_absorbance(cone, shift_nm)})["v"].copy()
 
 
 def _shifted_absorbance(cone: int, shift_nm: float) -> np.ndarray:
     wl = _tables()["wl"]
-    spline = _log_abs_splines()[cone]
+    pieces = _spline_pieces()
     peak = pigment_peaks()[cone]
     x = wl * peak / (peak + shift_nm)
-    lo, hi = spline.x[0], spline.x[-1]
-    y = spline(np.clip(x, lo, hi))
-    d_lo, d_hi = spline(lo, 1), spline(hi, 1)
-    y = np.where(x < lo, spline(lo) + d_lo * (x - lo), y)
-    y = np.where(x > hi, spline(hi) + d_hi * (x - hi), y)
+    lo, hi = pieces[f"x{cone}"][0], pieces[f"x{cone}"][-1]
+    y = _spline_eval(cone, np.clip(x, lo, hi))
+    ends = _spline_eval(cone, np.array([lo, hi]))
+    d_lo, d_hi = _spline_eval(cone, np.array([lo, hi]), nu=1)
+    y = np.where(x < lo, ends[0] + d_lo * (x - lo), y)
+    y = np.where(x > hi, ends[1] + d_hi * (x - hi), y)
     return 10.0 ** y
+
+
+def anomalous_pigment(cone: int, other: int, pigment_shift: float) -> np.ndarray:
+    """Absorbance of an anomalous pigment whose peak moved ``pigment_shift`` nm toward ``other``.
+
+    The affected pigment's template is moved along log wavenumber
+    (:func:`shifted_absorbance`) and blended toward the other pigment's
+    template, moved back to the same peak, in proportion
+    w = pigment_shift / pigment separation:
+    A' = (1 - w) A_own(shifted) + w A_other(moved back). Shift 0 gives the
+    normal pigment exactly, shift = separation the other pigment exactly (the
+    dichromatic limit); both parts share one peak, so the pigment's peak moves
+    by ``pigment_shift``.
+
+    Parameters
+    ----------
+    cone, other : int
+        Affected and target pigment (0 = L, 1 = M, 2 = S).
+    pigment_shift : float
+        nm, 0 to the pigment separation (values outside are clamped).
+
+    Returns
+    -------
+    numpy.ndarray
+        Linear absorbance, peak 1, shape (441,) on :func:`table_wavelengths`.
+    """
+    return _anomalous_pigments(cone, other, np.array([float(pigment_shift)]), cached=True)[0]
+
+
+def _anomalous_pigments(cone: int, other: int, pigment_shifts: np.ndarray, *, cached: bool) -> np.ndarray:
+    """:func:`anomalous_pigment` for an array of shifts, shape (n, 441); uncached rows need scipy."""
+    peaks = pigment_peaks()
+    signed = peaks[other] - peaks[cone]
+    separation, direction = abs(signed), np.sign(signed)
+    shifts = np.clip(np.asarray(pigment_shifts, dtype=float), 0.0, separation)
+    out = np.empty((len(shifts), len(table_wavelengths())))
+    for i, s in enumerate(shifts):  # a handful of rows (the table builder passes a few hundred)
+        own = (shifted_absorbance(cone, direction * s) if cached
+               else _shifted_absorbance_or_table(cone, direction * s))
+        w = s / separation
+        if w == 0.0:
+            out[i] = own
+            continue
+        back = -direction * (separation - s)
+        toward = shifted_absorbance(other, back) if cached else _shifted_absorbance_or_table(other, back)
+        out[i] = (1.0 - w) * own + w * toward
+    return out
+
+
+def _shifted_absorbance_or_table(cone: int, shift_nm: float) -> np.ndarray:
+    return photopigment_absorbance()[:, cone] if shift_nm == 0 else _shifted_absorbance(cone, shift_nm)
+
+
+#: The reference observer on which ``shift`` is defined: CIE 170-1, 32 years, 2 deg.
+REFERENCE_AGE, REFERENCE_FIELD = 32.0, 2.0
+#: Rows of the pigment-shift -> fundamental-peak table per pigment pair.
+_PEAK_TABLE_ROWS = 601
+
+
+def fundamental_peaks(fundamentals: np.ndarray, *, lo: float = 390.0, hi: float = 700.0) -> np.ndarray:
+    """Peak wavelengths (lambda max) of sensitivities on the CIE 2006 table grid, nm.
+
+    The maximum of a not-a-knot cubic spline through the 1 nm values, found on a
+    0.01 nm sampling between ``lo`` and ``hi`` and refined by a parabola through
+    the highest sample and its neighbours (so the result varies smoothly with
+    the curve). ``fundamentals`` is (441,) or (441, k); returns a float or (k,).
+    """
+    from scipy.interpolate import CubicSpline
+
+    values = np.asarray(fundamentals, dtype=float)
+    flat = values.reshape(len(table_wavelengths()), -1)
+    fine = np.arange(lo, hi + 1e-9, 0.01)
+    y = CubicSpline(table_wavelengths(), flat, axis=0)(fine)  # (n_fine, k)
+    i = np.clip(np.argmax(y, axis=0), 1, len(fine) - 2)
+    k = np.arange(flat.shape[1])
+    y0, y1, y2 = y[i - 1, k], y[i, k], y[i + 1, k]
+    den = y0 - 2 * y1 + y2
+    offset = np.where(den < 0, 0.5 * (y0 - y2) / np.where(den < 0, den, -1.0), 0.0)
+    peaks = fine[i] + offset * 0.01
+    return peaks.reshape(values.shape[1:]) if values.ndim > 1 else float(peaks[0])
+
+
+def _peak_shift_table(cone: int, other: int) -> np.ndarray:
+    """Rows (pigment shift nm, move of the affected fundamental's peak nm), shape (n, 2).
+
+    Pigment shifts from 0 to the pigment separation in equal steps; for each,
+    the affected cone's energy-based fundamental of the reference observer
+    (:data:`REFERENCE_AGE`, :data:`REFERENCE_FIELD`) is rebuilt and its peak
+    (:func:`fundamental_peaks`) compared with the normal one. The move grows
+    strictly with the pigment shift (checked here), so the table inverts.
+    """
+    peaks = pigment_peaks()
+    separation = abs(peaks[other] - peaks[cone])
+    shifts = np.linspace(0.0, separation, _PEAK_TABLE_ROWS)
+    pigments = np.repeat(photopigment_absorbance()[None], len(shifts), axis=0)  # (n, 441, 3)
+    pigments[:, :, cone] = _anomalous_pigments(cone, other, shifts, cached=False)
+    d = peak_optical_density(REFERENCE_FIELD)[cone]
+    pre = 10.0 ** (-(macular_density(REFERENCE_FIELD) + ocular_media_density(REFERENCE_AGE)))
+    sens = (1.0 - 10.0 ** (-d * pigments[:, :, cone])) * pre * _tables()["wl"]  # (n, 441), energy
+    lo = min(peaks[cone], peaks[other]) - 60.0
+    hi = max(peaks[cone], peaks[other]) + 60.0
+    fpeaks = fundamental_peaks(sens.T, lo=max(lo, 390.0), hi=min(hi, 760.0))
+    moves = np.abs(fpeaks - fpeaks[0])
+    if not np.all(np.diff(moves) > 0):
+        raise RuntimeError("fundamental peak does not move monotonically with the pigment shift")
+    return np.column_stack([shifts, moves])
+
+
+@functools.lru_cache(maxsize=8)
+def peak_shift_table(cone: int, other: int) -> np.ndarray:
+    """Pigment shift (column 0) against the move of the fundamental's peak (column 1), nm; read-only.
+
+    See :func:`_peak_shift_table`; cached on disk, so the hot path needs no scipy.
+    """
+    # the key names the rule's version: change it when the peak rule or the template blend changes
+    table = _disk_cached(f"peak-shift-v1-{int(cone)}-{int(other)}-{_PEAK_TABLE_ROWS}",
+                         lambda: _peak_shift_table(cone, other))
+    table = np.array(table)
+    table.flags.writeable = False
+    return table
+
+
+def pigment_shift_for(cone: int, other: int, shift: float) -> float:
+    """The pigment shift, nm, that moves the reference fundamental's peak by ``shift`` nm toward ``other``.
+
+    Linear interpolation in :func:`peak_shift_table` (continuous and strictly
+    increasing); 0 gives 0 and the fundamental separation gives the pigment
+    separation exactly.
+    """
+    table = peak_shift_table(cone, other)
+    return float(np.interp(shift, table[:, 1], table[:, 0]))
+
+
+def fundamental_separation(cone: int, other: int) -> float:
+    """Distance, nm, between the two cones' fundamental peaks in the reference observer.
+
+    The largest ``shift`` (the dichromatic limit): L-M 27.35 nm. Defined for L
+    and M only: the S fundamental's peak is shaped by macular pigment and lens
+    and jumps (about 448 -> 472 nm) as the S pigment moves toward M.
+    """
+    return float(peak_shift_table(cone, other)[-1, 1])
 
 
 def ocular_media_density(age: float = 32.0) -> np.ndarray:

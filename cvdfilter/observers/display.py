@@ -117,7 +117,7 @@ def _adapted(fundamentals, primaries, white_lms) -> np.ndarray:
 
 
 def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, method: str | None = None,
-                       normalisation: str = "auto", reference_white="display") -> DisplaySimulation:
+                       normalisation: str = "cone", reference_white="display") -> DisplaySimulation:
     """The simulation of ``observer`` as linear-RGB matrices for a display.
 
     Parameters
@@ -129,8 +129,12 @@ def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, metho
         As for :func:`cvdfilter.observers.simulate.simulation`.
     reference_white : "display", None, str or array_like
         ``"display"`` (default) uses the display's white (the sum of its
-        primaries), as Machado et al. and Vienot et al. did; otherwise as for
-        :func:`~cvdfilter.observers.simulate.simulation`.
+        primaries: the observer is adapted to it), as Machado et al. and
+        Vienot et al. did; otherwise as for
+        :func:`~cvdfilter.observers.simulate.simulation`. ``brettel1997``
+        keeps the equal-energy stimulus as its neutral axis whatever the
+        reference, so the display's white is not exactly preserved; use
+        ``vienot1999`` or ``brettel-adapted`` for that.
 
     Returns
     -------
@@ -138,7 +142,7 @@ def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, metho
 
     Examples
     --------
-    >>> d = display_simulation("deuteranope")
+    >>> d = display_simulation("deuteranope", method="vienot1999")
     >>> bool(np.allclose(d.apply([1.0, 1.0, 1.0]), 1.0))
     True
     """
@@ -147,7 +151,7 @@ def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, metho
     obs: Observer = _make_observer(observer)
     p = display_primaries(primaries, obs.grid)
     ref = p.sum(axis=1) if isinstance(reference_white, str) and reference_white == "display" else reference_white
-    sim = simulation(obs, method=method, normalisation=normalisation, reference_white=ref)
+    sim = simulation(obs, method=method, normalisation=normalisation, reference_white=ref, primaries=p)
     a_in = _adapted(raw_fundamentals(obs), p, sim.white_lms)
     base = obs.base if obs.base is not None else obs
     a_out = _adapted(base.fundamentals, p, sim.white_lms)

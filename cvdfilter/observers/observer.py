@@ -5,15 +5,24 @@ Spec strings (shared/CONVENTIONS.md, section 4)::
     normal                               CIE 2006 LMS, 2 deg, 32 years (= Stockman & Sharpe 2000 2 deg)
     normal:age=70,field=10               the CIE 170-1 observer for that age (20-80) and field (1-10 deg)
     normal:data=ss2|ss10|sp1975          tabulated fundamentals from colour-science
-    protanomalous[:shift=NM|severity=mild|moderate|severe]    L pigment shifted toward M
-    deuteranomalous[:shift=NM|...]                            M pigment shifted toward L
-    tritanomalous[:shift=NM|...]                              S pigment shifted toward M
+    protanomalous[:shift=NM|separation=NM|severity=mild|moderate|severe]   L pigment shifted toward M
+    deuteranomalous[:shift=NM|separation=NM|...]                          M pigment shifted toward L
+    tritanomalous[:shift=NM|separation=NM|...]                            S pigment shifted toward M
     deuteranomalous:severity=0.6,model=machado2009            Machado et al. 2009 (severity 0-1)
     protanope, deuteranope, tritanope    reduction dichromats (the missing cone carries no signal)
 
 ``age`` and ``field`` apply to every form (the base normal observer carries over).
 
-Public: :class:`Observer`, :func:`observer`, :func:`observer_forms`, :data:`DEFAULT_SHIFTS`.
+``shift`` (protan, deutan) is how far the anomalous cone's fundamental peak
+moves toward the other cone's in the CIE 2006 reference observer (32 years,
+2 deg); ``separation`` is what remains between the two peaks (27.35 - shift nm
+for both). The pigment moves by whatever does that (:func:`pigment_shift`), and
+that pigment is used at every age and field. Tritan: the S pigment's peak. See
+:data:`SHIFT_MEASURE` and docs/models.md section 2.
+
+Public: :class:`Observer`, :func:`observer`, :func:`observer_forms`, :func:`anomalous_absorbance`,
+:func:`pigment_shift`, :func:`normal_separation`, :func:`severity_shift`, :data:`SHIFT_MEASURE`,
+:data:`SEVERITY_SEPARATIONS`, :data:`SEVERITY_SHIFTS`, :data:`DEFAULT_SHIFTS`.
 """
 
 from __future__ import annotations
@@ -28,24 +37,92 @@ from ..spectra.grid import DEFAULT_GRID, Grid
 from . import cie2006
 from .fundamentals import V_WEIGHTS_2DEG, V_WEIGHTS_10DEG
 
-__all__ = ["Observer", "observer", "observer_forms", "anomalous_absorbance", "DEFAULT_SHIFTS", "SEVERITY_SHIFTS"]
+__all__ = ["Observer", "observer", "observer_forms", "anomalous_absorbance", "pigment_shift", "normal_separation",
+           "severity_shift", "DEFAULT_SHIFTS", "SEVERITY_SHIFTS", "SEVERITY_SEPARATIONS", "SHIFT_MEASURE"]
 
-#: Pigment shifts in nm for the severity words. L and M: hybrid pigments found in
-#: anomalous trichromats lie roughly 2-12 nm from the pigment they are confused
-#: with (from memory: Neitz & Neitz 2011, Vision Research 51, 633-651; Merbs &
-#: Nathans 1992), i.e. shifts of about 11-21 nm on the CIE 2006 scale, whose L-M
-#: separation is 23.1 nm (cie2006.pigment_peaks). The words leave about 12, 7 and
-#: 3 nm between the pigments. S: no comparable data at hand; points spanning the
-#: lower part of the 112 nm S-M separation (from memory).
-SEVERITY_SHIFTS = {
-    "protan": {"mild": 11.0, "moderate": 16.0, "severe": 20.0},
-    "deutan": {"mild": 11.0, "moderate": 16.0, "severe": 20.0},
-    "tritan": {"mild": 8.0, "moderate": 15.0, "severe": 30.0},
+#: What ``shift`` measures, per deficiency. Protan and deutan: the move of the
+#: affected cone's *fundamental* peak (lambda max of the corneal, energy-based
+#: sensitivity of the CIE 2006 reference observer, 32 years, 2 deg) toward the
+#: other cone's peak, so that a shift s leaves the same residual separation,
+#: 27.35 - s nm, for protans and deutans. Tritan: the move of the S *pigment*'s
+#: peak (the S fundamental's peak jumps as the pigment moves; see docs/models.md).
+SHIFT_MEASURE = {"protan": "fundamental peak", "deutan": "fundamental peak", "tritan": "pigment peak"}
+
+#: Residual separations in nm for the severity words, on the measure above.
+#: ``moderate`` (the default) is the average anomalous trichromat of DeMarco,
+#: Pokorny & Smith (1992), JOSA A 9, 1465-1476: corneal energy-based peaks
+#: normal 543/566, protanomalous 543/553, deuteranomalous 560/566 nm, i.e. 10 nm
+#: between M and L' and 6 nm between M' and L (abstract, verified). ``mild`` and
+#: ``severe`` are ours: 1.5 and 0.5 times that average (no published spread at
+#: hand). Tritan: no comparable data; S-pigment shifts of 8, 15 and 30 nm from the
+#: 112.4 nm S-M pigment separation (ours), i.e. the separations below.
+SEVERITY_SEPARATIONS = {
+    "protan": {"mild": 15.0, "moderate": 10.0, "severe": 5.0},
+    "deutan": {"mild": 9.0, "moderate": 6.0, "severe": 3.0},
 }
-#: Default shift when a spec gives none: ``moderate``.
-DEFAULT_SHIFTS = {k: v["moderate"] for k, v in SEVERITY_SHIFTS.items()}
-#: Machado severity for the words: the same L/M shifts on Machado's 20 nm scale.
-SEVERITY_MACHADO = {"mild": 0.55, "moderate": 0.8, "severe": 1.0}
+#: Tritan severity words as S-pigment shifts, nm (ours, see above).
+_TRITAN_SHIFTS = {"mild": 8.0, "moderate": 15.0, "severe": 30.0}
+
+
+def normal_separation(deficiency: str) -> float:
+    """The largest ``shift`` (the dichromatic limit), nm, on :data:`SHIFT_MEASURE`.
+
+    L-M: 27.35 nm between the reference observer's fundamental peaks (570.17
+    and 542.82 nm); S-M: 112.4 nm between the S and M pigment peaks.
+
+    Examples
+    --------
+    >>> round(normal_separation("protan"), 2), round(normal_separation("deutan"), 2)
+    (27.35, 27.35)
+    """
+    cone, other = _CONE[deficiency], _TOWARD[deficiency]
+    if SHIFT_MEASURE[deficiency] == "fundamental peak":
+        return cie2006.fundamental_separation(cone, other)
+    peaks = cie2006.pigment_peaks()
+    return float(abs(peaks[other] - peaks[cone]))
+
+
+def pigment_shift(deficiency: str, shift: float) -> float:
+    """The pigment's own peak shift, nm, for a ``shift`` on :data:`SHIFT_MEASURE`.
+
+    Protan and deutan: the inverse of :func:`cie2006.peak_shift_table` (continuous,
+    strictly increasing; 0 -> 0, the fundamental separation -> the pigment
+    separation, 23.14 nm). Tritan: the shift itself.
+
+    Examples
+    --------
+    >>> round(pigment_shift("protan", 16.0), 2), round(pigment_shift("deutan", 16.0), 2)
+    (11.99, 15.44)
+    """
+    if SHIFT_MEASURE[deficiency] == "pigment peak":
+        return float(shift)
+    return cie2006.pigment_shift_for(_CONE[deficiency], _TOWARD[deficiency], shift)
+
+
+def severity_shift(deficiency: str, word: str) -> float:
+    """The ``shift`` a severity word stands for, nm (:data:`SEVERITY_SEPARATIONS`)."""
+    if deficiency == "tritan":
+        return _TRITAN_SHIFTS[word]
+    return normal_separation(deficiency) - SEVERITY_SEPARATIONS[deficiency][word]
+
+
+def __getattr__(name: str):
+    # DEFAULT_SHIFTS and SEVERITY_SHIFTS depend on the CIE 2006 tables, so they are computed on first use.
+    if name == "SEVERITY_SHIFTS":
+        return {d: {w: severity_shift(d, w) for w in _TRITAN_SHIFTS} for d in _CONE}
+    if name == "DEFAULT_SHIFTS":
+        return {d: severity_shift(d, "moderate") for d in _CONE}
+    raise AttributeError(name)
+
+
+#: Machado severity (0-1) for the words: the same fraction of the way to the dichromat as the
+#: shifted pigment's fundamental-peak shift (protan 0.45/0.63/0.82, deutan 0.67/0.78/0.89);
+#: tritan as before (ours).
+SEVERITY_MACHADO = {
+    "protan": {"mild": 0.45, "moderate": 0.63, "severe": 0.82},
+    "deutan": {"mild": 0.67, "moderate": 0.78, "severe": 0.89},
+    "tritan": {"mild": 0.55, "moderate": 0.8, "severe": 1.0},
+}
 
 _NAMES = {
     "normal": ("normal", None),
@@ -59,6 +136,19 @@ _NAMES = {
 _CONE = {"protan": 0, "deutan": 1, "tritan": 2}
 # The pigment each anomalous pigment moves toward.
 _TOWARD = {"protan": 1, "deutan": 0, "tritan": 1}
+
+
+class ReadOnlyDict(dict):
+    """A dict that cannot be changed after construction (it still pickles and serialises to JSON)."""
+
+    def _refuse(self, *args, **kwargs):
+        raise TypeError("an observer's parameters are read-only; build a new observer instead")
+
+    __setitem__ = __delitem__ = clear = pop = popitem = setdefault = update = _refuse  # type: ignore[assignment]
+    __ior__ = _refuse  # type: ignore[assignment]
+
+    def __reduce__(self):
+        return (type(self), (dict(self),))
 
 
 @dataclass(frozen=True, eq=False)
@@ -83,8 +173,8 @@ class Observer:
         The observer's luminous efficiency, a L + b M, shape (n_wl,).
     luminance_weights : tuple of float
         (a, b); (0, 1) for protanopes and (1, 0) for deuteranopes (no missing-cone input).
-    params : dict
-        age, field, data, shift (nm), severity, model.
+    params : Mapping
+        age, field, data, shift (nm), severity, model (read-only; the arrays are read-only too).
     base : Observer or None
         The normal observer this one derives from (same age and field).
     """
@@ -98,6 +188,15 @@ class Observer:
     params: dict = field(default_factory=dict)
     base: Observer | None = None
     grid: Grid = DEFAULT_GRID
+
+    def __post_init__(self) -> None:
+        # Observers are shared (spec strings are memoised), so nothing in one may change:
+        # own read-only copies of the arrays and a read-only view of the parameters.
+        for name in ("wavelengths", "fundamentals"):
+            a = np.array(getattr(self, name), dtype=float)
+            a.setflags(write=False)
+            object.__setattr__(self, name, a)
+        object.__setattr__(self, "params", ReadOnlyDict(self.params))
 
     @property
     def luminance(self) -> np.ndarray:
@@ -157,12 +256,19 @@ def observer_forms() -> list[dict]:
     return [
         {"form": "normal", "parameters": common + ", data=cie2006|ss2|ss10|sp1975",
          "model": "CIE 170-1:2006 physiological observer (Stockman & Sharpe 2000)"},
-        {"form": "protanomalous", "parameters": common + ", shift=NM or severity=mild|moderate|severe",
-         "model": "L pigment shifted toward M on a log-wavenumber axis"},
-        {"form": "deuteranomalous", "parameters": common + ", shift=NM or severity=mild|moderate|severe",
-         "model": "M pigment shifted toward L on a log-wavenumber axis"},
-        {"form": "tritanomalous", "parameters": common + ", shift=NM or severity=mild|moderate|severe",
-         "model": "S pigment shifted toward M on a log-wavenumber axis"},
+        *({"form": NAME,
+           "parameters": common + f", shift=0-{normal_separation(d):.2f} or separation=0-{normal_separation(d):.2f} "
+                                  f"(nm, {MINE}' to {OTHER} fundamental peaks) or severity=mild|moderate|severe "
+                                  f"(separation {'|'.join(f'{v:g}' for v in SEVERITY_SEPARATIONS[d].values())}; "
+                                  f"default {SEVERITY_SEPARATIONS[d]['moderate']:g})",
+           "model": f"{MINE} pigment shifted toward {OTHER} on a log-wavenumber axis so that the {MINE} "
+                    "fundamental's peak moves by shift (CIE 2006 observer, 32 years, 2 deg)"}
+          for NAME, d, MINE, OTHER in (("protanomalous", "protan", "L", "M"), ("deuteranomalous", "deutan", "M", "L"))),
+        {"form": "tritanomalous",
+         "parameters": common + f", shift=0-{normal_separation('tritan'):.1f} or separation (nm, S pigment peak) "
+                                f"or severity=mild|moderate|severe (shift "
+                                f"{'|'.join(f'{v:g}' for v in _TRITAN_SHIFTS.values())}; default 15)",
+         "model": "S pigment's peak shifted toward M on a log-wavenumber axis"},
         {"form": "DEFICIENCY:model=machado2009,severity=0-1", "parameters": common,
          "model": "Machado et al. (2009), via colour-science"},
         {"form": "protanope", "parameters": common, "model": "reduction dichromat: no L cone"},
@@ -217,6 +323,8 @@ def observer(spec: str | Observer = "normal", grid: Grid = DEFAULT_GRID) -> Obse
     8.0
     >>> observer("protanope").missing_cone
     0
+    >>> observer("deuteranomalous").spec, observer("deuteranomalous").params["separation"]
+    ('deuteranomalous:separation=6', 6.0)
     """
     if isinstance(spec, Observer):
         return spec
@@ -231,7 +339,7 @@ def _observer(spec: str, grid: Grid) -> Observer:
     if kind == "normal" or kind == "dichromat":
         allowed |= {"data"}
     if kind == "anomalous":
-        allowed |= {"shift", "severity", "model"}
+        allowed |= {"shift", "separation", "severity", "model"}
     unknown = set(params) - allowed
     if unknown:
         raise InputError(f"unknown parameter '{sorted(unknown)[0]}' for {name}", source=spec,
@@ -273,71 +381,75 @@ def _observer(spec: str, grid: Grid) -> Observer:
         raise InputError(f"model={model} is not shift or machado2009", source=spec)
     if data != "cie2006":
         raise InputError("anomalous observers are built on the CIE 2006 model (data=cie2006)", source=spec)
-    if "shift" in params and "severity" in params:
-        raise InputError("give shift or severity, not both", source=spec)
+    if sum(k in params for k in ("shift", "separation", "severity")) > 1:
+        raise InputError("give one of shift, separation or severity", source=spec)
     cone = _CONE[deficiency]
     if model == "machado2009":
-        from .machado2009 import MAX_SHIFT_NM, machado_fundamentals
+        from .machado2009 import machado_fundamentals, machado_severity, machado_shift_nm, max_shift_nm
 
         sev_text = params.get("severity", "moderate")
+        if "separation" in params:
+            raise InputError("separation goes with the shifted-pigment model; give severity=0-1 for "
+                             "model=machado2009", source=spec)
         if "shift" in params:
-            severity = _number(params["shift"], "shift", spec, 0, MAX_SHIFT_NM) / MAX_SHIFT_NM
-        elif sev_text.lower() in SEVERITY_MACHADO:
-            severity = SEVERITY_MACHADO[sev_text.lower()]
+            severity = machado_severity(deficiency, _number(params["shift"], "shift", spec, 0,
+                                                            max_shift_nm(deficiency)))
+        elif sev_text.lower() in SEVERITY_MACHADO[deficiency]:
+            severity = SEVERITY_MACHADO[deficiency][sev_text.lower()]
         else:
             severity = _number(sev_text, "severity", spec, 0.0, 1.0)
         table = machado_fundamentals(deficiency, severity, age=age, field=fld)
         p = {"age": age, "field": fld, "model": "machado2009", "severity": severity,
-             "shift": severity * MAX_SHIFT_NM}
+             "shift": machado_shift_nm(deficiency, severity)}
         return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
                         weights, p, base, grid)
 
-    peaks = cie2006.pigment_peaks()
-    separation = abs(peaks[cone] - peaks[_TOWARD[deficiency]])
+    full = normal_separation(deficiency)
+    key = "shift"
     if "severity" in params:
         word = params["severity"].lower()
-        if word not in SEVERITY_SHIFTS[deficiency]:
+        if word not in _TRITAN_SHIFTS:
             raise InputError(f"severity={word} is not mild, moderate or severe (numbers go with model=machado2009)",
                              source=spec)
-        shift = SEVERITY_SHIFTS[deficiency][word]
+        shift = severity_shift(deficiency, word)
+        key = "separation" if deficiency != "tritan" else "shift"
     elif "shift" in params:
-        shift = _number(params["shift"], "shift", spec, 0.0, round(separation, 2))
+        shift = _number(params["shift"], "shift", spec, 0.0, full)
+    elif "separation" in params:
+        shift = full - _number(params["separation"], "separation", spec, 0.0, full)
+        key = "separation"
     else:
-        shift = DEFAULT_SHIFTS[deficiency]
+        shift = severity_shift(deficiency, "moderate")
+        key = "separation" if deficiency != "tritan" else "shift"
+    shift = min(max(shift, 0.0), full)
+    residual = round(full - shift, 9)  # exactly the number given for separation= and the severity words
+    p_shift = pigment_shift(deficiency, shift)
     absorbance = cie2006.photopigment_absorbance().copy()
-    absorbance[:, cone] = anomalous_absorbance(deficiency, shift)
+    absorbance[:, cone] = cie2006.anomalous_pigment(cone, _TOWARD[deficiency], p_shift)
     table = cie2006.fundamentals_from_absorbance(absorbance, age=age, field=fld)
-    p = {"age": age, "field": fld, "model": "shift", "shift": shift, "separation": float(separation)}
-    return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
+    p = {"age": age, "field": fld, "model": "shift", "shift": shift, "separation": residual,
+         "normal_separation": full, "shift_measure": SHIFT_MEASURE[deficiency], "pigment_shift": p_shift}
+    return Observer(_canonical(name, p, key), kind, deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
                     weights, p, base, grid)
 
 
 def anomalous_absorbance(deficiency: str, shift: float) -> np.ndarray:
-    """Absorbance of the anomalous pigment, on the CIE 2006 table grid (441,).
+    """Absorbance of the anomalous pigment for a ``shift`` in nm, on the CIE 2006 table grid (441,).
 
-    The affected pigment's template is moved by ``shift`` nm toward the other
-    pigment along a log-wavenumber axis. The tabulated L, M and S templates are
-    not exactly the same shape, so the anomalous template is also blended
-    toward the other pigment's template (moved to the same peak) in proportion
-    w = shift / separation: A' = (1 - w) A_own(shifted) + w A_other(moved back).
-    Shift 0 gives the normal pigment exactly; shift = separation gives the
-    other pigment exactly (the dichromatic limit); both parts share the same
-    peak, so the peak moves by ``shift``.
+    ``shift`` is measured as :data:`SHIFT_MEASURE` says (protan/deutan: the
+    move of the reference observer's fundamental peak; tritan: the S pigment's
+    peak); :func:`pigment_shift` converts it to the pigment's own shift, and
+    :func:`cie2006.anomalous_pigment` moves the template by that much along log
+    wavenumber, blended toward the other pigment's template in proportion to the
+    pigment shift over the pigment separation. Shift 0 gives the normal pigment
+    exactly; the largest shift (:func:`normal_separation`) gives the other
+    pigment exactly (the dichromatic limit).
     """
     cone, other = _CONE[deficiency], _TOWARD[deficiency]
-    peaks = cie2006.pigment_peaks()
-    signed_sep = peaks[other] - peaks[cone]
-    separation = abs(signed_sep)
-    direction = np.sign(signed_sep)
-    w = min(max(shift / separation, 0.0), 1.0)
-    own = cie2006.shifted_absorbance(cone, direction * shift)
-    if w == 0.0:
-        return own
-    toward = cie2006.shifted_absorbance(other, -direction * (separation - shift))
-    return (1.0 - w) * own + w * toward
+    return cie2006.anomalous_pigment(cone, other, pigment_shift(deficiency, shift))
 
 
-def _canonical(name: str, p: dict) -> str:
+def _canonical(name: str, p: dict, key: str = "shift") -> str:
     parts = []
     if p.get("data", "cie2006") != "cie2006":
         parts.append(f"data={p['data']}")
@@ -348,6 +460,6 @@ def _canonical(name: str, p: dict) -> str:
             parts.append(f"field={p['field']:g}")
     if p.get("model") == "machado2009":
         parts += [f"severity={p['severity']:g}", "model=machado2009"]
-    elif "shift" in p:
-        parts.insert(0, f"shift={p['shift']:g}")
+    elif key in p:
+        parts.insert(0, f"{key}={round(p[key], 9):g}")
     return name + (":" + ",".join(parts) if parts else "")

@@ -1,54 +1,63 @@
 """What a colour-deficient observer sees, shown to a normal viewer.
 
-A simulation maps an observer's own *adapted* cone excitations (the adapting
-white has excitations ``white_lms``, (1, 1, 1) after full von Kries
-adaptation) to the adapted cone excitations, for the observer's normal base
-observer (same age and field), of a colour that a normal viewer sees as the
-observer sees the input. Every operator is linear per pixel (one 3x3 matrix,
-or two with a half-space test for Brettel 1997), computed here from the
-observer's own fundamentals and a reference white, never copied from a
-paper, so it stays right for any fundamentals, age, field, white and
-illuminant.
+A simulation maps an observer's own *adapted* cone excitations to the
+adapted cone excitations, for the observer's normal base observer (same age
+and field), of a colour that a normal viewer sees as the observer sees the
+input. Inputs are von Kries-adapted: the *reference white* (``reference_white``)
+has adapted excitations ``white_lms`` ((1, 1, 1) after full adaptation), so
+the unadapted excitations are ``raw = lms * raw_reference / white_lms`` and
+every construction below is made on those, exactly as published, then
+carried back with the same gains. Every operator is linear per pixel (one
+3x3 matrix, or two with a half-space test for Brettel 1997), computed here
+from the observer's own fundamentals, never copied from a paper, so it stays
+right for any fundamentals, age, field, white and illuminant.
 
-Methods
--------
+Methods (:data:`METHODS`; :data:`METHOD_DESCRIPTIONS` says what each is)
+-------------------------------------------------------------------------
 ``identity``
     Normal observers.
 ``brettel1997`` (default for dichromats)
-    Brettel, Vienot & Mollon (1997). The dichromat's colours lie on two
-    half-planes through the neutral axis (the white) and an anchor
-    each: monochromatic 475 and 575 nm for protanopes and deuteranopes, 485
-    and 660 nm for tritanopes (lights a unilateral dichromat names alike with
-    both eyes). A colour is moved along the missing cone's axis onto the
-    half-plane on its side of the plane through the neutral axis and that
-    axis, so the two remaining cone signals are unchanged (the result is a
-    metamer for the dichromat) and a whole confusion line collapses onto one
-    colour.
-``vienot1999`` (protan, deutan)
-    Vienot, Brettel & Mollon (1999): one plane through the neutral axis
-    instead of two half-planes. Vienot et al. chose the plane through the
-    display's white and blue (which lies near both anchors); without a display
-    in view, this module takes the plane through the neutral axis that fits
-    both anchors best (least squares on unit vectors).
+    Brettel, Vienot & Mollon (1997), as published. The dichromat's colours
+    lie on two half-planes through the neutral axis, the **equal-energy
+    stimulus**, and an anchor each: monochromatic 475 and 575 nm for
+    protanopes and deuteranopes, 485 and 660 nm for tritanopes. A colour is
+    moved along the missing cone's axis onto the half-plane on its side of
+    the plane through the neutral axis and that axis, so the two remaining
+    cone signals are unchanged (a metamer for the dichromat) and a whole
+    confusion line collapses onto one colour. With ``reference_white=None``
+    (the inputs are read as adapted to the equal-energy white) the adapted
+    white is the neutral axis; with another reference white it is not, and
+    that white is changed by the projection as in the paper.
+``brettel-adapted``
+    Brettel's half-planes and anchors with the neutral axis at the reference
+    white instead of the equal-energy stimulus, so the adapted white always
+    maps to itself. Not a published construction; equal to ``brettel1997``
+    when the reference white is equal energy.
+``vienot1999`` (protan, deutan; needs a display)
+    Vienot, Brettel & Mollon (1999), as published: one plane through black,
+    the display's white and the display's blue primary, in the display's own
+    cone excitations (:func:`vienot_plane_matrix`). Vienot et al. give
+    protanopes and deuteranopes only; tritanopes are refused.
+``brettel-plane`` (protan, deutan)
+    One plane through the reference white that fits Brettel's two anchors
+    best (least squares on unit vectors): a single-plane stand-in for
+    Brettel's half-planes where no display is in view. Not a published
+    construction.
 ``machado2009`` (anomalous trichromats, both models)
     Machado, Oliveira & Fernandes (2009): the anomalous cone signals go
     through the normal observer's opponent stage (the Ingling & Tsou matrix
-    ``T``: WS, YB, RG) and back through the normal observer's inverse, so
-    the normal viewer is shown the colour whose opponent signals equal the
-    anomalous observer's: ``lms_n = T^-1 N T lms_a``, where ``N`` makes the
-    white map to itself. Where that normalisation happens is a modelling
-    choice (``normalisation``):
+    ``T``: WS, YB, RG) and back through the normal observer's inverse:
+    ``lms_n = T^-1 N T lms_a``, where ``N`` makes the white map to itself.
+    Where that normalisation happens is a modelling choice
+    (``normalisation``, :data:`NORMALISATIONS`):
 
-    * ``"auto"`` (default): ``"opponent"`` where its channel gains lie
-      within 0.2-5 (the standard observers under ordinary whites), else
-      ``"cone"``; ``Simulation.info["normalisation"]`` says which was used.
-    * ``"cone"``: von Kries gains at the cones, as everywhere else
-      in the tool. The inputs are already adapted, both observers' whites
-      are ``white_lms``, ``N`` is the identity and so is the operator: the
-      anomalous observer's adapted cone signals are shown as the normal
-      observer's. The anomalous view lives entirely in the observer's
-      fundamentals, which produce the input. The result does not depend on
-      how the fundamentals are scaled, nor on the opponent matrix.
+    * ``"cone"`` (default): von Kries gains at the cones, as everywhere else
+      in the tool. Both observers' whites are ``white_lms``, ``N`` is the
+      identity and so is the operator: the anomalous observer's adapted cone
+      signals are shown as the normal observer's, and the anomalous view
+      lives entirely in the observer's fundamentals, which produce the input.
+      Continuous in every parameter (age, field, shift, severity, white,
+      filter); independent of how the fundamentals are scaled and of ``T``.
     * ``"opponent"``: Machado's own scaling, one gain per opponent channel,
       ``N = diag(T w_n / T w_a)`` with w_n and w_a the reference white's
       unadapted normal and anomalous excitations (:func:`raw_fundamentals`
@@ -56,24 +65,18 @@ Methods
       normal cone's area for shifted pigments). With a display's white as
       the reference this is exactly colour-science's
       ``matrix_anomalous_trichromacy_Machado2009`` in cone space. The YB and
-      RG responses of a white are close to 0, so these gains are
-      ill-conditioned for many whites, ages and fields; a gain outside 0.2-5
-      raises an error rather than return a meaningless operator.
+      RG responses of a white are close to 0, so these gains have poles as
+      age, field, shift or white change; a gain outside 0.2-5 raises an
+      error rather than return a meaningless operator. Never a default.
 
 The reference white
 -------------------
-Each model is defined at a white: the neutral axis and the anchors of
-Brettel and Vienot, and the opponent-channel scaling of Machado. Inputs are
-adapted cone excitations (gains ``white_lms / raw_white`` applied at the
-cones, von Kries), so they are read as corresponding colours under the
-``reference_white``: ``raw = lms * raw_reference / white_lms``, the model
-acts, and the result is scaled back the same way with the normal observer's
-excitations of the reference. The reference white is an illuminant spec
-(``"D65"``), a spectrum on the observer's grid (e.g. a display's white, the
-sum of its primaries), or None for the equal-energy white (the neutral
-stimulus of Brettel et al. 1997). Only its spectral shape matters. The
-adapting white of a scene (an illuminant seen through a filter) belongs in
-the caller's von Kries gains, not here.
+The white the inputs are adapted to: an illuminant spec (``"D65"``), a
+spectrum on the observer's grid (e.g. a display's white, the sum of its
+primaries), or None for the equal-energy white. Only its spectral shape
+matters. The adapting white of a scene (an illuminant seen through a
+filter) is usually given here, or folded into the caller's von Kries gains
+with ``reference_white`` left at the white those gains normalise.
 
 References
 ----------
@@ -89,7 +92,8 @@ Ingling, C. R., & Tsou, B. H.-P. (1977). Orthogonal combination of the three
 visual channels. Vision Research, 17, 1075-1082.
 
 Public: :class:`Simulation`, :func:`simulation`, :func:`simulate`, :func:`raw_fundamentals`,
-:func:`reference_white_spectrum`, :data:`METHODS`, :data:`NORMALISATIONS`, :data:`ANCHORS_NM`,
+:func:`reference_white_spectrum`, :func:`vienot_plane_matrix`, :func:`methods_for`, :data:`METHODS`,
+:data:`METHOD_DESCRIPTIONS`, :data:`NORMALISATIONS`, :data:`DEFAULT_NORMALISATION`, :data:`ANCHORS_NM`,
 :data:`MATRIX_LMS_TO_OPPONENT`.
 """
 
@@ -102,13 +106,29 @@ import numpy as np
 from ..errors import InputError
 from .observer import Observer, observer as _make_observer
 
-__all__ = ["Simulation", "simulation", "simulate", "METHODS", "NORMALISATIONS", "ANCHORS_NM", "MATRIX_LMS_TO_OPPONENT",
-           "reference_white_spectrum", "raw_fundamentals"]
+__all__ = ["Simulation", "simulation", "simulate", "METHODS", "METHOD_DESCRIPTIONS", "NORMALISATIONS",
+           "DEFAULT_NORMALISATION", "ANCHORS_NM", "MATRIX_LMS_TO_OPPONENT", "reference_white_spectrum",
+           "raw_fundamentals", "vienot_plane_matrix", "methods_for"]
 
+#: What each method is; the one registry the spec parser, ``list``, the CLI help and the docs read.
+METHOD_DESCRIPTIONS = {
+    "identity": "normal observers: no change",
+    "brettel1997": "Brettel, Vienot & Mollon 1997 as published: two half-planes through the equal-energy "
+                   "stimulus and monochromatic anchors (475/575 nm; tritan 485/660 nm)",
+    "brettel-adapted": "Brettel's half-planes and anchors with the neutral axis at the reference (adapting) "
+                       "white, so the adapted white stays neutral (not a published construction)",
+    "vienot1999": "Vienot, Brettel & Mollon 1999 as published: one plane through black, the display's white "
+                  "and its blue primary (protan, deutan; needs a display)",
+    "brettel-plane": "one plane through the reference white fitting Brettel's two anchors best, least squares "
+                     "(protan, deutan; not a published construction)",
+    "machado2009": "Machado, Oliveira & Fernandes 2009 opponent-stage mapping (anomalous trichromats)",
+}
 #: Method names.
-METHODS = ("identity", "brettel1997", "vienot1999", "machado2009")
+METHODS = tuple(METHOD_DESCRIPTIONS)
 #: Where the Machado (2009) mapping makes the white map to itself.
-NORMALISATIONS = ("auto", "cone", "opponent")
+NORMALISATIONS = ("cone", "opponent")
+#: The default normalisation: the only one continuous in every parameter.
+DEFAULT_NORMALISATION = "cone"
 
 #: Anchor wavelengths, nm (Brettel, Vienot & Mollon 1997): the stimuli dichromats
 #: see as normal trichromats do.
@@ -131,7 +151,7 @@ class Simulation:
     observer : Observer
         The simulated observer.
     method : str
-        ``identity``, ``brettel1997``, ``vienot1999`` or ``machado2009``.
+        One of :data:`METHODS` (see :data:`METHOD_DESCRIPTIONS`).
     matrices : numpy.ndarray
         Shape (k, 3, 3), k = 1 or 2, float64; act on column vectors
         (``out = M @ lms``).
@@ -257,25 +277,91 @@ def _plane_matrix(normal: np.ndarray, cone: int) -> np.ndarray:
     return m
 
 
-def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray) -> Simulation:
+_MISSING = {"protan": 0, "deutan": 1, "tritan": 2}
+
+
+def vienot_plane_matrix(rgb_to_lms, deficiency: str) -> np.ndarray:
+    """Vienot, Brettel & Mollon (1999): the dichromat projection for a display, in its cone space.
+
+    The dichromat's colours lie on one plane through black, the display's
+    white (R = G = B = 1) and its blue primary (R = G = 0, B = 1); a colour
+    keeps its two remaining cone signals and the missing one is read off
+    the plane.
+
+    Parameters
+    ----------
+    rgb_to_lms : array_like
+        (3, 3): the display's cone excitations of unit R, G, B (columns), in
+        any cone scaling (the construction does not depend on it).
+    deficiency : str
+        ``protan`` or ``deutan`` (Vienot et al. give no tritan plane).
+
+    Returns
+    -------
+    numpy.ndarray
+        (3, 3), acting on column vectors of L, M, S.
+
+    Examples
+    --------
+    Vienot et al.'s own RGB-to-LMS matrix (their Smith & Pokorny-based one)
+    gives their published protanope plane L = 2.02344 M - 2.52581 S:
+
+    >>> m = [[17.8824, 43.5161, 4.11935], [3.45565, 27.1554, 3.86714], [0.0299566, 0.184309, 1.46709]]
+    >>> np.round(vienot_plane_matrix(m, "protan")[0], 5)
+    array([ 0.     ,  2.02344, -2.52581])
+    """
+    if deficiency not in ("protan", "deutan"):
+        raise InputError(f"Vienot et al. (1999) give planes for protan and deutan dichromats, not {deficiency}",
+                         source="vienot1999", hint="use brettel1997 for tritanopes")
+    m = np.asarray(rgb_to_lms, dtype=float)
+    if m.shape != (3, 3) or not np.all(np.isfinite(m)):
+        raise ValueError(f"expected a finite (3, 3) RGB-to-LMS matrix, got shape {m.shape}")
+    white, blue = m.sum(axis=1), m[:, 2]
+    return _plane_matrix(np.cross(white, blue), _MISSING[deficiency])
+
+
+def methods_for(obs: Observer) -> tuple:
+    """The simulation methods that apply to an observer, the default first."""
+    if obs.kind == "normal":
+        return ("identity",)
+    if obs.kind == "anomalous":
+        return ("machado2009",)
+    if obs.deficiency == "tritan":
+        return ("brettel1997", "brettel-adapted")
+    return ("brettel1997", "brettel-adapted", "vienot1999", "brettel-plane")
+
+
+def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray, primaries) -> Simulation:
     k = obs.missing_cone
-    raw_white = spd @ obs.fundamentals
-    gains = white / raw_white
+    f = obs.fundamentals
+    raw_white = spd @ f
+    gains = white / raw_white  # raw excitations -> adapted, as for the inputs
     anchors_nm = ANCHORS_NM[obs.deficiency]
     anchors = _anchor_lms(obs, anchors_nm) * gains
     axis = np.eye(3)[k]
     info = {"missing_cone": k, "anchors_nm": anchors_nm, "anchors_lms": anchors,
             "raw_white_lms": raw_white}
+    if method == "vienot1999":
+        p = np.asarray(primaries, dtype=float)
+        m = vienot_plane_matrix((f.T @ p) * gains[:, None], obs.deficiency)
+        info["neutral_lms"] = (p.sum(axis=1) @ f) * gains
+        info["blue_lms"] = (p[:, 2] @ f) * gains
+        return Simulation(obs, method, m[None], None, white, info)
     if method == "brettel1997":
-        separator = np.cross(white, axis)
+        neutral = f.sum(axis=0) * gains  # the equal-energy stimulus (Brettel et al. 1997)
+    else:
+        neutral = white  # the reference white itself
+    info["neutral_lms"] = neutral
+    if method in ("brettel1997", "brettel-adapted"):
+        separator = np.cross(neutral, axis)
         if anchors[0] @ separator < 0:
             separator = -separator
         if not anchors[1] @ separator < 0:  # pragma: no cover - would need absurd fundamentals
             raise InputError("the two anchors lie on the same side of the neutral axis", source=obs.spec)
-        matrices = np.stack([_plane_matrix(np.cross(white, a), k) for a in anchors])
+        matrices = np.stack([_plane_matrix(np.cross(neutral, a), k) for a in anchors])
         return Simulation(obs, method, matrices, separator, white, info)
-    # vienot1999: one plane through the neutral axis fitting both anchors best
-    e = white / np.linalg.norm(white)
+    # brettel-plane: one plane through the neutral axis fitting both anchors best
+    e = neutral / np.linalg.norm(neutral)
     u = np.cross(e, axis)
     u /= np.linalg.norm(u)
     v = np.cross(e, u)
@@ -289,6 +375,8 @@ def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray) -
 
 def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: str) -> Simulation:
     info = {"affected_cone": obs.affected_cone, "normalisation": normalisation}
+    if normalisation == "cone":
+        return Simulation(obs, "machado2009", np.eye(3)[None], None, white, info)
     t = MATRIX_LMS_TO_OPPONENT
     raw_a = spd @ raw_fundamentals(obs)
     raw_n = spd @ obs.base.fundamentals
@@ -296,22 +384,10 @@ def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: s
     # Machado's per-channel scaling divides by the white's opponent responses;
     # YB and RG are near 0 for many whites, and then the scaling is meaningless
     # (no white balancing needs a gain beyond 5 or below 1/5, let alone a negative one).
-    ill_conditioned = not np.all(np.isfinite(scale)) or np.any(scale < 0.2) or np.any(scale > 5.0)
-    if normalisation == "auto":
-        # Machado's own scaling where it is meaningful (it keeps renderings comparable with the
-        # published method and tends to the dichromat simulations at severity 1); otherwise the
-        # cone-level normalisation, saying so in ``info``.
-        normalisation = "cone" if ill_conditioned else "opponent"
-        info["normalisation"] = normalisation
-        if ill_conditioned:
-            info["note"] = ("Machado's opponent-channel normalisation is ill-conditioned here (channel gains "
-                            f"{np.round(scale, 3).tolist()}); the white is normalised at the cones instead")
-    if normalisation == "cone":
-        return Simulation(obs, "machado2009", np.eye(3)[None], None, white, info)
-    if ill_conditioned:
+    if not np.all(np.isfinite(scale)) or np.any(scale < 0.2) or np.any(scale > 5.0):
         raise InputError("Machado's opponent-channel normalisation is ill-conditioned for this observer and "
                          f"reference white (channel gains {np.round(scale, 3).tolist()})", source=obs.spec,
-                         hint="use normalisation='cone', or another reference white")
+                         hint="use normalisation='cone' (the default), or another reference white")
     operator = np.linalg.solve(t, scale[:, None] * t)  # T^-1 diag(scale) T on unadapted signals
     m = (white / raw_n)[:, None] * operator * (raw_a / white)[None, :]
     info.update({"raw_white_lms": raw_a, "base_raw_white_lms": raw_n, "opponent_scale": scale,
@@ -319,8 +395,18 @@ def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: s
     return Simulation(obs, "machado2009", m[None], None, white, info)
 
 
+def _primaries(obs: Observer, primaries) -> np.ndarray:
+    p = np.asarray(primaries, dtype=float)
+    if p.shape != (len(obs.wavelengths), 3) or not np.all(np.isfinite(p)) or np.any(p < 0) \
+            or not np.all(p.sum(axis=0) > 0):
+        raise InputError(f"display primaries must be finite, non-negative spectra shaped "
+                         f"({len(obs.wavelengths)}, 3) on the observer's grid, got {p.shape}", source="primaries")
+    return p
+
+
 def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None,
-               reference_white=None, normalisation: str = "auto") -> Simulation:
+               reference_white=None, normalisation: str = DEFAULT_NORMALISATION,
+               primaries=None) -> Simulation:
     """Build the simulation operator for an observer.
 
     Parameters
@@ -328,21 +414,25 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
     observer : Observer or str
         An observer or its spec string.
     white_lms : array_like
-        Adapted L, M, S of the adapting white (3,), default (1, 1, 1) (full von
-        Kries adaptation); input and output share this scaling.
+        Adapted L, M, S of the reference white (3,), default (1, 1, 1) (full
+        von Kries adaptation); input and output share this scaling.
     method : str, optional
-        ``identity`` (normal), ``brettel1997`` (dichromats, default),
-        ``vienot1999`` (protan and deutan dichromats), ``machado2009``
-        (anomalous trichromats, default). None picks the default.
+        One of :func:`methods_for` the observer (see :data:`METHOD_DESCRIPTIONS`);
+        None picks the default: ``identity`` (normal), ``brettel1997``
+        (dichromats), ``machado2009`` (anomalous trichromats).
     reference_white : str or array_like, optional
-        The white at which the model is defined (see the module docstring),
-        as an illuminant spec or a spectrum (n_wl,) on the observer's grid;
-        None = equal-energy white. Only its spectral shape matters.
+        The white the inputs are adapted to (its adapted excitations are
+        ``white_lms``), as an illuminant spec or a spectrum (n_wl,) on the
+        observer's grid; None = equal-energy white, except for
+        ``vienot1999``, where None = the display's white (the sum of
+        ``primaries``). Only its spectral shape matters.
     normalisation : str
-        ``machado2009`` only: ``"auto"`` (default: ``"opponent"`` where its
-        channel gains lie within 0.2-5, else ``"cone"``, recorded in ``info``),
-        ``"cone"`` (von Kries at the cones) or ``"opponent"`` (Machado's
-        per-channel gains, an error where ill-conditioned); see the module docstring.
+        ``machado2009`` only: ``"cone"`` (default: von Kries at the cones,
+        continuous everywhere) or ``"opponent"`` (Machado's per-channel
+        gains, an error where ill-conditioned); see the module docstring.
+    primaries : array_like, optional
+        (n_wl, 3) spectral radiance of a display's R, G, B at full drive on the
+        observer's grid: required by ``vienot1999``, ignored otherwise.
 
     Returns
     -------
@@ -358,28 +448,36 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
     """
     obs = _make_observer(observer)
     white = _white_lms(white_lms)
-    default = {"normal": "identity", "dichromat": "brettel1997", "anomalous": "machado2009"}[obs.kind]
-    method = default if method is None else str(method).strip().lower()
+    allowed = methods_for(obs)
+    method = allowed[0] if method is None else str(method).strip().lower()
     if method not in METHODS:
         raise InputError(f"unknown simulation method '{method}'", source=obs.spec,
-                         hint="use " + ", ".join(METHODS))
-    allowed = {"normal": ("identity",), "anomalous": ("machado2009",),
-               "dichromat": ("brettel1997", "vienot1999") if obs.deficiency != "tritan" else ("brettel1997",)}
-    if method not in allowed[obs.kind]:
+                         hint="use " + ", ".join(METHODS[1:]))
+    if method not in allowed:
         raise InputError(f"method {method} does not apply to this observer", source=obs.spec,
-                         hint="use " + " or ".join(allowed[obs.kind]))
+                         hint="use " + " or ".join(allowed))
     if normalisation not in NORMALISATIONS:
-        raise InputError(f"normalisation '{normalisation}' is not auto, cone or opponent", source=obs.spec)
+        raise InputError(f"normalisation '{normalisation}' is not cone or opponent", source=obs.spec,
+                         hint="'auto' was removed: it switched between the two at a hidden boundary"
+                         if normalisation == "auto" else None)
     if method == "identity":
         return Simulation(obs, method, np.eye(3)[None], None, white, {})
+    p = None
+    if method == "vienot1999":
+        if primaries is None:
+            raise InputError("vienot1999 is defined for a display and needs its primaries", source=obs.spec,
+                             hint="give primaries (or render with a scene), or use brettel1997 or brettel-plane")
+        p = _primaries(obs, primaries)
+        if reference_white is None:
+            reference_white = p.sum(axis=1)
     spd = reference_white_spectrum(obs, reference_white)
     if method == "machado2009":
         return _machado(obs, white, spd, normalisation)
-    return _dichromat(obs, method, white, spd)
+    return _dichromat(obs, method, white, spd, p)
 
 
 def simulate(lms, observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None,
-             reference_white=None, normalisation: str = "auto") -> np.ndarray:
+             reference_white=None, normalisation: str = DEFAULT_NORMALISATION, primaries=None) -> np.ndarray:
     """Simulate adapted cone excitations ``lms`` (..., 3) for ``observer``; see :func:`simulation`.
 
     Examples
@@ -389,4 +487,4 @@ def simulate(lms, observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = N
     True
     """
     return simulation(observer, white_lms=white_lms, method=method, reference_white=reference_white,
-                      normalisation=normalisation).apply(lms)
+                      normalisation=normalisation, primaries=primaries).apply(lms)

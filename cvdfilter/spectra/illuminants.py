@@ -22,7 +22,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from .cache import cached_arrays
+from .cache import cached_arrays, memo_arrays
 from .grid import DEFAULT_GRID, Grid
 
 __all__ = ["Illuminant", "illuminant", "illuminant_names", "CIE_ILLUMINANTS", "LAMPS"]
@@ -101,7 +101,7 @@ def _daylight(cct: float, grid: Grid) -> np.ndarray:
         sd = colour.sd_CIE_illuminant_D_series(xy)
         return {"spd": resample(sd.wavelengths, sd.values, grid, method="linear", outside="zero")}
 
-    return cached_arrays(f"daylight-{cct:g}-{grid.key()}", build)["spd"]
+    return memo_arrays(f"daylight-{cct:g}-{grid.key()}", build)["spd"]  # a user's parameter: not on disk
 
 
 def _planck(t: float, grid: Grid) -> np.ndarray:
@@ -114,7 +114,7 @@ def _planck(t: float, grid: Grid) -> np.ndarray:
         sd = colour.sd_blackbody(t, grid.shape())
         return {"spd": np.asarray(sd.values, dtype=float)}
 
-    return cached_arrays(f"planck-{t:g}-{grid.key()}", build)["spd"]
+    return memo_arrays(f"planck-{t:g}-{grid.key()}", build)["spd"]  # a user's parameter: not on disk
 
 
 def _luminance_Y(spd: np.ndarray, grid: Grid) -> float:

@@ -3,7 +3,7 @@
 Names::
 
     ces99          the 99 colour evaluation samples of CIE 224:2017 / IES TM-30 (colour-science)
-    colorchecker   ColorChecker, 24 patches, N. Ohta's measurements (colour-science)
+    chart24        a 24-patch colour rendition chart, N. Ohta's spectral measurements (colour-science)
     tcs14          CIE 13.3 test colour samples 1-14 (colour-science)
     vs15           NIST Colour Quality Scale VS1-VS15, v9.0 (colour-science)
     PATH           a reflectance file (same reader as filters; fraction or percent)
@@ -26,7 +26,7 @@ __all__ = ["SurfaceSet", "surface_set", "SURFACE_SETS"]
 
 SURFACE_SETS = {
     "ces99": "CIE 224:2017 / ANSI/IES TM-30 colour evaluation samples (99)",
-    "colorchecker": "ColorChecker, N. Ohta measurements (24)",
+    "chart24": "24-patch colour rendition chart, N. Ohta's measurements (24)",
     "tcs14": "CIE 13.3 test colour samples 1-14",
     "vs15": "NIST CQS 9.0 samples VS1-VS15",
 }
@@ -68,7 +68,7 @@ def _build(name: str, grid: Grid) -> dict:
         msds = load_TCS_CIE2017(colour.SpectralShape(380, 780, 1))
         wl, vals, labels = msds.wavelengths, msds.values, list(msds.labels)
     else:
-        if name == "colorchecker":
+        if name == "chart24":
             sds = colour.SDS_COLOURCHECKERS["ColorChecker N Ohta"]
         elif name == "tcs14":
             sds = dict(list(colour.quality.datasets.SDS_TCS["CIE 1995"].items())[:14])

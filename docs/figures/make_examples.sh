@@ -7,9 +7,9 @@ CVD=${CVD:-.venv/bin/cvdfilter}
 mkdir -p "$OUT"
 $CVD figure spectrum larkhill-notch-575 larkhill-double-notch --observer normal \
     --observer deuteranomalous:shift=8 -o "$OUT/spectrum.png" --dpi 150
-$CVD figure chromaticity larkhill-notch-575 --observer deuteranope --surfaces colorchecker \
+$CVD figure chromaticity larkhill-notch-575 --observer deuteranope --surfaces chart24 \
     -o "$OUT/chromaticity.png" --dpi 150
-$CVD figure chromaticity larkhill-notch-575 --observer protanope --surfaces colorchecker --space xy2015 \
+$CVD figure chromaticity larkhill-notch-575 --observer protanope --surfaces chart24 --space xy2015 \
     -o "$OUT/chromaticity-xy.png" --dpi 150
 $CVD figure gains larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
     -o "$OUT/gains.png" --dpi 150

@@ -22,9 +22,13 @@ The pipeline, per pixel
    geometrically).
 6. **Simulation for a normal viewer**
    (:func:`cvdfilter.observers.simulate.simulation`): identity for normal
-   observers, Brettel 1997 (default) or Vienot 1999 for dichromats, the
-   Machado 2009 mapping for anomalous trichromats. Its reference white is the
-   illuminant. Output: the normal base observer's adapted L, M, S.
+   observers; for dichromats Brettel's half-planes with the neutral axis at
+   the scene's white (``brettel-adapted``, default) or any other method by
+   name (``brettel1997`` as published, ``vienot1999``, ``brettel-plane``); the
+   Machado 2009 mapping for anomalous trichromats with the cone-level
+   normalisation (default) or Machado's opponent one. Its reference white is
+   the scene's white (the illuminant). Output: the normal base observer's
+   adapted L, M, S.
 7. **Display**: adapted L, M, S to linear sRGB through the *display model*
    below, then out-of-gamut handling and sRGB encoding.
 
@@ -79,8 +83,10 @@ from .spectra.cache import cached_arrays
 from .spectra.grid import DEFAULT_GRID, Grid
 
 __all__ = ["render", "render_views", "render_spectra", "render_file", "Renderer", "ViewTransform", "mallett_basis",
+           "render_method", "RENDER_METHODS",
            "display_matrix", "decode_srgb", "encode_srgb", "panel", "panel_titles", "output_suffix", "output_dtype",
-           "VIEWS", "VIEW_TITLES", "GAMUT_MODES", "OUTPUT_FORMATS", "TILE_PIXELS"]
+           "VIEWS", "VIEW_TITLES", "GAMUT_MODES", "OUTPUT_FORMATS", "TILE_PIXELS", "file_checksum",
+           "settings_fingerprint", "output_fingerprint"]
 
 #: The views, in panel order.
 VIEWS = ("original", "filtered", "observer", "observer-filtered")
@@ -270,6 +276,19 @@ def display_matrix(normal, grid: Grid = DEFAULT_GRID) -> np.ndarray:
 
 # --- views -----------------------------------------------------------------------------
 
+#: The simulation each kind of observer gets when rendering, unless ``method`` says otherwise.
+#: Dichromats: Brettel's half-planes with the neutral axis at the scene's (adapting) white, so that
+#: after von Kries adaptation a white stays white for the dichromat as for the normal observer;
+#: the paper's own neutral axis (``brettel1997``, the equal-energy stimulus) tints an adapted D65
+#: white by 0.5-5 CIEDE2000 and an illuminant-A white by about 20 (docs/models.md, section 5).
+RENDER_METHODS = {"normal": "identity", "dichromat": "brettel-adapted", "anomalous": "machado2009"}
+
+
+def render_method(obs, method: str | None = None) -> str:
+    """The simulation method a rendering uses for ``obs``: ``method`` if given, else :data:`RENDER_METHODS`."""
+    return RENDER_METHODS[obs.kind] if method is None else method
+
+
 @dataclass(frozen=True, eq=False)
 class ViewTransform:
     """Everything one view needs, folded.
@@ -350,7 +369,12 @@ class Renderer:
     adaptation : str or float
         ``full``, ``none`` or a fraction 0-1: how far the observer adapts to the filter.
     method : str, optional
-        Simulation method for the observer (``brettel1997``, ``vienot1999``, ``machado2009``).
+        Simulation method for the observer (see
+        :data:`cvdfilter.observers.simulate.METHOD_DESCRIPTIONS`); None: :data:`RENDER_METHODS`
+        (``brettel-adapted`` for dichromats). ``vienot1999`` takes the scene's stimuli for
+        R, G and B (the display, or the reflectance basis under the illuminant) as its primaries.
+    normalisation : str
+        Anomalous observers: ``cone`` (default, continuous in every parameter) or ``opponent``.
     gamut : str
         ``clip`` (default) or ``none`` (float output only keeps out-of-gamut values).
     grid : Grid
@@ -359,7 +383,7 @@ class Renderer:
     """
 
     def __init__(self, filter=None, *, observer="normal", illuminant="D65", adaptation="full",
-                 method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
+                 method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
                  gamut: str = "clip", grid: Grid = DEFAULT_GRID, units: str | None = None,
                  bandwidth: float | None = None) -> None:
         from .observers.observer import observer as make_observer
@@ -403,9 +427,9 @@ class Renderer:
         key = obs.spec
         if key not in self._sims:
             mine = obs is self.observer
-            self._sims[key] = simulation(obs, method=self.method if mine else None,
-                                         normalisation=self.normalisation if mine else "auto",
-                                         reference_white=self.scene_white)
+            self._sims[key] = simulation(obs, method=render_method(obs, self.method if mine else None),
+                                         normalisation=self.normalisation if mine else "cone",
+                                         reference_white=self.scene_white, primaries=self.stimuli)
         return self._sims[key]
 
     def transform(self, view: str) -> ViewTransform:
@@ -787,7 +811,7 @@ def _as_input(image, *, cube_kind, wavelengths, max_megapixels):
 
 
 def render(image, *, filter, observer="normal", illuminant="D65", adaptation="full", view: str = "observer-filtered",
-           method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
+           method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
            gamut: str = "clip", encoding: str = "auto", dtype=None,
            grid: Grid = DEFAULT_GRID, cube_kind: str | None = None, wavelengths=None,
            max_megapixels: float | None = None) -> np.ndarray:
@@ -810,7 +834,7 @@ def render(image, *, filter, observer="normal", illuminant="D65", adaptation="fu
     view : str
         ``original``, ``filtered``, ``observer`` or ``observer-filtered``.
     method : str, optional
-        Simulation method for dichromats (``brettel1997``, ``vienot1999``).
+        Simulation method (see :class:`Renderer`; default ``brettel-adapted`` for dichromats).
     normalisation : str
         Machado 2009 observers: ``cone`` (von Kries at the cones, default) or
         ``opponent`` (Machado's per-opponent-channel gains); see
@@ -865,7 +889,7 @@ def _render_one(r: Renderer, image, view, *, encoding, dtype, cube_kind, wavelen
 
 
 def render_views(image, *, filter, observer="normal", illuminant="D65", adaptation="full", views=VIEWS,
-                 method: str | None = None, normalisation: str = "auto", scene: str = "reflectance",
+                 method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
                  gamut: str = "clip", encoding: str = "auto", dtype=None,
                  grid: Grid = DEFAULT_GRID, cube_kind: str | None = None, wavelengths=None,
                  max_megapixels: float | None = None) -> dict:
@@ -901,7 +925,7 @@ def render_views(image, *, filter, observer="normal", illuminant="D65", adaptati
 
 def render_spectra(spectra, *, filter, observer="normal", illuminant="D65", adaptation="full",
                    view: str = "observer-filtered", kind: str = "reflectance", method: str | None = None,
-                   normalisation: str = "auto", grid: Grid = DEFAULT_GRID) -> np.ndarray:
+                   normalisation: str = "cone", grid: Grid = DEFAULT_GRID) -> np.ndarray:
     """Linear sRGB of spectra on the grid, step by step (no folding, no clipping).
 
     The single-spectrum path, computed from the observer's cone excitations,
@@ -943,8 +967,9 @@ def render_spectra(spectra, *, filter, observer="normal", illuminant="D65", adap
     lms = who.cone_excitations(radiance)
     gains = von_kries_gains(who.cone_excitations(e * t), who.cone_excitations(e),
                             adaptation=parse_adaptation(adaptation))
-    seen = simulate(lms * gains, who, method=method if who is obs else None,
-                    normalisation=normalisation if who is obs else "auto", reference_white=e)
+    seen = simulate(lms * gains, who, method=render_method(who, method if who is obs else None),
+                    normalisation=normalisation if who is obs else "cone", reference_white=e,
+                    primaries=mallett_basis(grid) * e[:, None])
     return np.linalg.solve(display_matrix(normal, grid).T, seen.reshape(-1, 3).T).T.reshape(seen.shape)
 
 
@@ -964,7 +989,7 @@ def _for_display(px: np.ndarray) -> np.ndarray:
 
 
 def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_mm: float = 183.0,
-          dpi: int = 300, max_pixels: int = 1200) -> bytes:
+          dpi: int = 300, max_pixels: int = 1200, metadata: dict | None = None) -> bytes:
     """A labelled 2x2 panel of views, as PNG bytes (matplotlib, Agg).
 
     Parameters
@@ -980,6 +1005,8 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     dpi : int
     max_pixels : int
         Each view is shown downsampled (stride) to at most this many pixels on its long side.
+    metadata : dict, optional
+        More PNG text chunks (key -> text or JSON-able value).
 
     Returns
     -------
@@ -1028,7 +1055,7 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     canvas = FigureCanvasAgg(fig)
     canvas.draw()
     rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])
-    return encode_png(rgb, {"Software": f"cvdfilter {__version__}", "Description": footer})
+    return encode_png(rgb, {"Software": f"cvdfilter {__version__}", "Description": footer, **(metadata or {})})
 
 
 # --- files ---------------------------------------------------------------------------
@@ -1078,9 +1105,62 @@ def _small(px: np.ndarray, max_pixels: int = 1200) -> np.ndarray:
     return px[::step, ::step].copy()  # a copy: the full-size buffer is reused for the next view
 
 
+def file_checksum(path) -> str:
+    """SHA-256 of a file's bytes, hex (read in blocks; a pipe or device is refused)."""
+    import hashlib
+
+    from .io.images import regular_file
+
+    p = regular_file(path)
+    h = hashlib.sha256()
+    try:
+        with open(p, "rb") as fh:
+            for block in iter(lambda: fh.read(1 << 20), b""):
+                h.update(block)
+    except OSError as exc:
+        raise InputError(f"cannot read ({exc.strerror or exc})", source=str(p)) from None
+    return h.hexdigest()
+
+
+def _digest(obj) -> str:
+    import hashlib
+    import json
+
+    return hashlib.sha256(json.dumps(obj, sort_keys=True, separators=(",", ":")).encode("utf-8")).hexdigest()
+
+
+def settings_fingerprint(renderer: Renderer, *, fmt: str = "auto", cube_kind: str | None = None,
+                         wavelengths=None) -> str:
+    """A SHA-256 over everything that decides a rendered file, except the input and the view.
+
+    It covers the renderer's settings (:meth:`Renderer.describe`, which includes the tool's version),
+    the numbers behind them (the filter's transmittance, the illuminant, both observers' fundamentals,
+    the scene's stimuli and display matrix, so that an edited filter file with the same name changes
+    it), the output format, the cube kind and the cube wavelengths. ``--max-megapixels`` and ``--jobs``
+    do not change a file and are left out.
+    """
+    import hashlib
+
+    arrays = hashlib.sha256()
+    for a in (renderer.transmittance, renderer.illuminant.spd, renderer.observer.fundamentals,
+              renderer.normal.fundamentals, renderer.stimuli, renderer.display, renderer.grid.wavelengths):
+        a = np.ascontiguousarray(np.asarray(a, dtype=np.float64))
+        arrays.update(str(a.shape).encode())
+        arrays.update(a.tobytes())
+    wl = None if wavelengths is None else [float(w) for w in np.asarray(wavelengths, dtype=float).ravel()]
+    settings = {k: v for k, v in renderer.describe().items()}
+    return _digest({"settings": settings, "arrays": arrays.hexdigest(), "format": fmt, "cube_kind": cube_kind,
+                    "wavelengths": wl})
+
+
+def output_fingerprint(settings_fp: str, input_sha256: str, view: str) -> str:
+    """The fingerprint of one output file: settings, the input's checksum and the view (or ``panel``)."""
+    return _digest({"settings": settings_fp, "input": input_sha256, "view": view})
+
+
 def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt: str = "auto",
                 cube_kind: str | None = None, wavelengths=None, max_megapixels: float | None = None,
-                inputs=()) -> dict:
+                inputs=(), fingerprints: dict | None = None, input_sha256: str | None = None) -> dict:
     """Render one image or cube file to the requested views (and a panel), writing each atomically.
 
     Parameters
@@ -1100,13 +1180,19 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         Refuse larger inputs.
     inputs : iterable of paths
         Paths no output may overwrite (all inputs of a batch).
+    fingerprints : dict, optional
+        View (or ``panel``) -> fingerprint (:func:`output_fingerprint`), stored in each file's
+        metadata (``cvdfilter`` record, key ``fingerprint``) so that a later batch can tell whether
+        the file was made with the same settings and input.
+    input_sha256 : str, optional
+        The input's checksum, stored in the metadata too.
 
     Returns
     -------
     dict
         ``input``, ``kind`` (image or cube), ``width``, ``height``, ``outputs``
         (view -> path), ``panel``, ``clipped_pixels`` (view -> count),
-        ``warnings``.
+        ``fingerprints`` (view or ``panel`` -> fingerprint, those given), ``warnings``.
     """
     from ._version import __version__
     from .io.cubes import Cube, is_cube_path, read_cube, tiff_is_cube
@@ -1122,8 +1208,17 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
     cube = isinstance(data, Cube)
     guard = [str(x) for x in inputs] + [str(p)]
     settings = renderer.describe()
+    fps = dict(fingerprints or {})
     record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
-              "clipped_pixels": {}, "warnings": list(data.warnings)}
+              "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
+    if input_sha256 is not None:
+        record["input_sha256"] = input_sha256
+
+    def stamp(key: str) -> dict:
+        extra = {"fingerprint": fps[key]} if key in fps else {}
+        if input_sha256 is not None:
+            extra["input_sha256"] = input_sha256
+        return extra
     if cube:
         record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
                       wavelengths=f"{data.wavelengths[0]:g}-{data.wavelengths[-1]:g} nm, {data.bands} bands")
@@ -1153,9 +1248,12 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         record["clipped_pixels"][v] = clipped
         meta = {"Software": f"cvdfilter {__version__}",
                 "cvdfilter": {**settings, "view": v, "input": str(p), "clipped_pixels": clipped,
-                              "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)"}}
+                              "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)",
+                              "format": fmt, **stamp(v)}}
         write_image(outputs[v], arr, encoding=encoding, metadata=meta, inputs=guard)
         record["outputs"][v] = str(outputs[v])
+        if v in fps:
+            record["fingerprints"][v] = fps[v]
         if panel_path is not None:
             small[v] = _small(arr)
     if panel_path is not None:
@@ -1171,6 +1269,10 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
                 buffer = None if cube else arr
                 small[v] = _small(arr)
         ordered = {v: small[v] for v in VIEWS}
-        write_bytes(panel_path, panel(ordered, titles=titles, footer=panel_footer(renderer)), inputs=guard)
+        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png", **stamp("panel")}}
+        write_bytes(panel_path, panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=meta),
+                    inputs=guard)
         record["panel"] = str(panel_path)
+        if "panel" in fps:
+            record["fingerprints"]["panel"] = fps["panel"]
     return record

@@ -173,9 +173,19 @@ class Report:
         if disc:
             rows.append(("Receptor noise", f"Weber fraction {disc.get('weber_fraction_l')} (L cone), cone ratios "
                                            f"L:M:S {':'.join(f'{v:g}' for v in disc.get('cone_ratios_lms', []))}"))
+            rows.append(("Discrimination thresholds",
+                         f"discriminable at Delta S >= {disc.get('threshold_jnd', 1.0):g} JND; distribution at "
+                         + ", ".join(f"{t:g}" for t in disc.get("distribution_thresholds_jnd", [])) + " JND"))
         conf = models.get("confusion")
         if conf:
-            rows.append(("Confusion tolerance", f"{conf.get('tolerance_ln')} (natural-log units; {conf.get('space')})"))
+            rows.append(("Confused pairs", f"Delta S >= {conf.get('normal_threshold_jnd', 1.0):g} JND for the normal "
+                                           f"observer and < {conf.get('deficient_threshold_jnd', 1.0):g} JND for the "
+                                           "deficient observer (receptor-noise model)"))
+        road = models.get("road_use")
+        if road:
+            limits = ", ".join(f"{k} {v:g}" for k, v in road["signal_limits"].items())
+            rows.append(("Signal-quotient limits", f"{limits} (reading '{road['signal_limits_reading']}': "
+                                                   f"{road['signal_limits_source']})"))
         for colour_name, v in c.get("signal_lights", {}).items():
             rows.append((f"Signal lights, {colour_name}",
                          f"limit {v['limit']:g}; " + ", ".join(f"{l['name']} ({l['kind']}: {l['source']})"
@@ -221,18 +231,27 @@ class Report:
         return header, rows
 
     def _observer_table(self) -> tuple[list, list]:
+        # Costs (luminous transmittance, white shift, Rf for the normal observer; pairs lost) sit in the same
+        # row as every gain: a gain is never shown alone.
         header = ["filter", "observer", "red-green gain", "blue-yellow gain", "luminance gain",
                   "discriminable pairs without", "with", "gained", "lost",
-                  "confusion pairs without", "with", "resolved", "created"]
+                  "confused pairs without", "with", "resolved", "created", "median Delta S ratio",
+                  "cost: luminous transmittance (%)", "cost: white shift du'v'", "cost: Rf (normal observer)"]
         rows = []
         for f in self.card["filters"]:
+            tv = f.get("luminous_transmittance")
+            costs = [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
+                     _fmt((f.get("rendition") or {}).get("rf"), 1)]
             for o in f["observers"]:
                 p = o.get("discriminable_pairs")
                 cp = o.get("confusion_pairs")
+                dist = o.get("delta_s_distribution")
+                ratio = cp["median_delta_s_ratio"] if cp else (dist or {}).get("median_ratio")
                 rows.append([f["name"], o["observer"], _fmt(o.get("red_green_gain"), 3),
                              _fmt(o.get("blue_yellow_gain"), 3), _fmt(o.get("luminance_contrast_gain"), 3),
                              *(["-"] * 4 if not p else [p["without"], p["with"], p["gained"], p["lost"]]),
-                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]])])
+                             *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]]),
+                             _fmt(ratio, 3), *costs])
         return header, rows
 
     def _reasons(self) -> list[tuple[str, list]]:
@@ -353,7 +372,7 @@ class Report:
         Everything is built in memory first and each file is written atomically,
         so bad input leaves nothing behind. Returns the paths written.
         """
-        from .io.atomic import check_outputs, write_bytes, write_text
+        from .io.atomic import check_outputs, check_writable, write_bytes, write_text
 
         path = pathlib.Path(path)
         suffix = path.suffix.lower()
@@ -365,6 +384,8 @@ class Report:
             text, files = self.to_markdown(folder)
             targets = {path.parent / rel: data for rel, data in files.items()}
             check_outputs([path, *targets], inputs)
+            for p in (path, *targets):  # refuse before the first file is written
+                check_writable(p)
             written = [write_bytes(p, data, inputs=inputs) for p, data in targets.items()]
             written.append(write_text(path, text, inputs=inputs))
             return written
@@ -375,10 +396,13 @@ class Report:
 # --- helpers ----------------------------------------------------------------------------------
 
 _OBSERVER_NOTE = ("Gains are the RMS contrast of the surfaces with the filter divided by that without it (1 = no "
-                  "change). Pairs are surface pairs: discriminable at 1 JND or more (receptor-noise model) and "
-                  "confused (on one confusion line of the observer's deficient axis), without and with the "
-                  "filter. '-' where a metric does not apply (no red-green axis for a dichromat, no confusion "
-                  "axis for a normal observer).")
+                  "change). Pairs are surface pairs in the receptor-noise model (Vorobyev & Osorio 1998): "
+                  "discriminable at the threshold named under Inputs (1 JND by default), and confused when the "
+                  "normal observer discriminates them and the deficient observer does not; the median Delta S "
+                  "ratio (over the pairs the normal observer discriminates, with / without the filter) needs no "
+                  "threshold. '-' where a metric does not apply (no red-green axis for a dichromat, no confused "
+                  "pairs for a normal observer). A gain is not a recommendation: a smooth tint can raise the "
+                  "red-green gain as much as a notch; every gain is printed beside its costs.")
 
 _CSS = """
 body{font-family:"DejaVu Sans",Arial,Helvetica,sans-serif;font-size:15px;line-height:1.45;color:#222;margin:0;
@@ -527,19 +551,42 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
         lambda: figure("spectrum", fs, observers=["normal", *anomalous], **{k: v for k, v in common.items()
                                                                             if k != "adaptation"}), limit=16)
     if deficient:
-        add("chromaticity", f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} "
-                            f"without and with each filter (adaptation {adaptation}), with the {deficient} "
-                            "observer's copunctal point and confusion lines.",
-            lambda: figure("chromaticity", fs, observers=deficient, surfaces=surfaces, **common), limit=4)
+        # A filter that passes no light to a cone has no chromaticity: it is left out of this figure, and
+        # said so in the caption (or in a note when no filter is left).
+        from .figures.chromaticity import unlit_cones
+
+        unlit = unlit_cones(fs, illuminant=illuminant, observer=deficient)
+        keep = [i for i, name in enumerate(fs.names) if name not in unlit]
+        left_out = "; ".join(f"{name} (no light for the {', '.join(cones)} cone{'s' if len(cones) > 1 else ''})"
+                             for name, cones in unlit.items())
+        caption = (f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} without and "
+                   f"with each filter (adaptation {adaptation}), with the {deficient} observer's copunctal point "
+                   "and confusion lines." + (f" Left out, having no chromaticity: {left_out}." if unlit else ""))
+        if keep:
+            add("chromaticity", caption, lambda: figure("chromaticity", _subset(fs, keep), observers=deficient,
+                                                        surfaces=surfaces, **common), limit=4)
+        else:
+            figs.append(ReportFigure("chromaticity", caption, note=f"The chromaticity figure is left out: no "
+                                                                   f"filter has a chromaticity ({left_out})."))
     add("gains", "Red-green, blue-yellow and luminance contrast gains (with / without the filter, log scale) "
                  "and discriminable surface pairs gained and lost, per observer.",
         lambda: figure("gains", fs, observers=observers, surfaces=surfaces, card=card, **common), limit=8)
     if deficient:
-        first = fs.names[0]
-        add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
-                        f"{deficient} observer (simulated for a normal viewer), without and with {first}"
-                        + (" (the first filter)" if n > 1 else "") + ".",
-            lambda: figure("swatches", _one(fs, 0), observers=deficient, surfaces=surfaces, **common))
+        # the first filter that lets every cone see some light (adapting to a black filter is undefined)
+        from .observers.spaces import parse_adaptation
+
+        lit = keep if parse_adaptation(adaptation) > 0 else list(range(n))
+        if lit:
+            first = fs.names[lit[0]]
+            add("swatches", f"The {surfaces} surfaces under {illuminant} for the normal observer and the "
+                            f"{deficient} observer (simulated for a normal viewer), without and with {first}"
+                            + (" (the first filter)" if n > 1 and lit[0] == 0 else "")
+                            + (" (the first filter with light for every cone)" if lit[0] > 0 else "") + ".",
+                lambda: figure("swatches", _one(fs, lit[0]), observers=deficient, surfaces=surfaces, **common))
+        else:
+            figs.append(ReportFigure("swatches", "Surface colours without and with the filter.",
+                                     note=f"The swatches figure is left out: no filter passes light to every cone "
+                                          f"({left_out}), so there is nothing to adapt to."))
     from .figures.sweep import swept_parameters
 
     varying, _ = swept_parameters(fs.names) if n >= 3 else ([], {})
@@ -554,9 +601,15 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
 
 
 def _one(fs, i):
+    return _subset(fs, [i])
+
+
+def _subset(fs, keep):
     from .spectra.filters import FilterSet
 
-    return FilterSet((fs.names[i],), fs.transmittance[i:i + 1], fs.grid, fs.sources[i:i + 1], fs.info[i:i + 1])
+    return FilterSet(tuple(fs.names[i] for i in keep), fs.transmittance[keep], fs.grid,
+                     tuple(fs.sources[i] for i in keep) if fs.sources else (),
+                     tuple(fs.info[i] for i in keep) if fs.info else ())
 
 
 def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = "ces99", adaptation="full",
