@@ -378,11 +378,14 @@ class Renderer:
     gamut : str
         ``clip`` (default) or ``none`` (float output only keeps out-of-gamut values).
     grid : Grid
+    units, bandwidth : optional
+        Units and instrument bandwidth (nm) of a filter file that does not set its own (``FILE@units=od``).
     """
 
     def __init__(self, filter=None, *, observer="normal", illuminant="D65", adaptation="full",
                  method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
-                 gamut: str = "clip", grid: Grid = DEFAULT_GRID) -> None:
+                 gamut: str = "clip", grid: Grid = DEFAULT_GRID, units: str | None = None,
+                 bandwidth: float | None = None) -> None:
         from .observers.observer import observer as make_observer
         from .observers.spaces import parse_adaptation
         from .spectra.filters import load_filters
@@ -402,10 +405,10 @@ class Renderer:
             self.filter_name = None
             self.transmittance = np.ones(grid.size)
         else:
-            fs = load_filters(filter, grid=grid)
+            fs = load_filters(filter, grid=grid, units=units, bandwidth=bandwidth)
             if len(fs) != 1:
                 raise InputError(f"describes {len(fs)} filters; rendering takes one", source=str(filter),
-                                 hint="give a single filter (no sweep, no list)")
+                                 hint="give a single filter (no sweep, no list); pick one column of a file with FILE:COLUMN or FILE:N, e.g. lenses.csv:2")
             self.filter_name = fs.names[0]
             self.transmittance = np.asarray(fs.transmittance[0], dtype=float)
         self.scene, self.stimuli, self.display = _scene(scene, self.illuminant.spd, self.normal, grid)

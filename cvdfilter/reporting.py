@@ -690,7 +690,8 @@ def _subset(fs, keep):
 
 
 def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = "ces99", adaptation="full",
-           metrics: str = "all", style=None, output: str | os.PathLike | None = None) -> Report:
+           metrics: str = "all", style=None, output: str | os.PathLike | None = None,
+           units: str | None = None, bandwidth: float | None = None) -> Report:
     """Score filters and build a report with tables, figures, models, cautions and a reproduction record.
 
     Parameters
@@ -728,6 +729,9 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
     else:
         style_items = [style] if isinstance(style, (str, os.PathLike)) else list(style)
         parsed_style = parse_style([str(x) for x in style_items])
+    from .spectra.filters import spec_paths, with_file_options
+
+    filters = with_file_options(filters, units=units, bandwidth=bandwidth)  # units/bandwidth of filter files
     fs = load_filters_checked(filters)
     card = score(fs, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
                  metrics=metrics).to_dict()
@@ -740,7 +744,7 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
                        style_items if all(isinstance(s, str) for s in style_items) else (), output)
     result = Report(card=card, filters=_describe_filters(fs), figures=figs, command=command)
     if output is not None:
-        inputs = [f for f in raw_filters if isinstance(f, (str, os.PathLike)) and pathlib.Path(f).exists()]
+        inputs = [p for f in raw_filters for p in spec_paths(f)]  # files inside specs (FILE:COL@units=...)
         inputs += [s for s in style_items if isinstance(s, str) and pathlib.Path(s).exists()]
         result.written = result.save(output, inputs=inputs)
     return result

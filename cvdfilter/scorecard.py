@@ -189,6 +189,14 @@ class Scorecard:
         where = info.get("path") or info.get("spec")
         if where:
             d["input"] = where
+        if info.get("column_number") is not None:  # files: the path and column each filter came from
+            d["source"] = {"kind": d["source"], "path": info["path"], "column": info.get("column"),
+                           "column_number": info["column_number"], "units": info.get("units"),
+                           "units_reason": info.get("units_reason")}
+        extrapolated = list(info.get("extrapolated", []))
+        for part in info.get("parts") or []:
+            extrapolated += part.get("extrapolated", [])
+        d["extrapolated"] = extrapolated
         if info.get("sha256"):
             d["sha256"] = info["sha256"]
         warnings = list(info.get("warnings", []))
@@ -955,7 +963,8 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
           cone_ratios=CONE_RATIOS, discrimination_threshold: float = DISCRIMINATION_THRESHOLD,
           distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
           deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
-          members: bool = False, progress=None) -> Scorecard:
+          members: bool = False, progress=None, units: str | None = None,
+          bandwidth: float | None = None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -1010,6 +1019,10 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         With populations: also carry every member's values in the JSON (``members``).
     progress : callable, optional
         ``progress(stage, done, total)``; stages ``filters``, ``members`` (populations) and ``rendition``.
+    units, bandwidth : optional
+        Units (``fraction``, ``percent``, ``od``) and instrument bandwidth (nm) of
+        filter files that do not set their own (``FILE@units=od``); see
+        :func:`cvdfilter.load_filters`.
 
     Returns
     -------
@@ -1072,7 +1085,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     except (ValueError, TypeError) as exc:
         raise InputError(str(exc)) from None
     del noise_check
-    fs = load_filters(filters, grid=grid)
+    fs = load_filters(filters, grid=grid, units=units, bandwidth=bandwidth)
     ill = make_illuminant(illuminant, grid)
     surf = surface_set(surfaces, grid)
     from .observers.population import Population, is_population_spec

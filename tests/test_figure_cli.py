@@ -132,7 +132,7 @@ def test_bad_input_is_one_line_exit_2_and_writes_nothing(tmp_path, args, needle)
 
 def test_figure_never_overwrites_an_input(tmp_path):
     lens = tmp_path / "lens.csv"
-    lens.write_text("nm,T\n380,0.9\n575,0.1\n780,0.9\n")
+    lens.write_text("nm,T (fraction)\n380,0.9\n575,0.1\n780,0.9\n")
     before = lens.read_bytes()
     r = invoke("figure", "spectrum", lens, "-o", tmp_path / "lens.csv.svg")
     assert r.exit_code == 0, r.output

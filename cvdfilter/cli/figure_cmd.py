@@ -6,7 +6,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import fail
+from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options, input_files
 
 _KINDS_HELP = "spectrum, chromaticity, gains, hues, swatches, images or sweep"
 
@@ -49,6 +49,9 @@ def register(app: typer.Typer) -> None:
         data: Optional[str] = typer.Option(None, "--data",
                                            help="Also write the numbers the figure plots as CSV (tidy table, "
                                                 "'#' comment lines for provenance), to re-plot in your own style."),
+        # -- file reading: units and bandwidth of filter files --
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
     ) -> None:
         """Make one figure for a paper and write it as PDF, SVG or PNG.
 
@@ -88,10 +91,11 @@ def register(app: typer.Typer) -> None:
                     raise InputError(f"--data {data}: the data file is CSV", hint="end its name in .csv")
                 if pathlib.Path(data).resolve() == pathlib.Path(output).resolve():
                     raise InputError(f"--data {data} is the figure's own output file", hint="give another name")
-            result = make_figure(kind, filters, illuminant=illuminant, observers=observer or None,
+            filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
+            result = make_figure(kind, filter_specs, illuminant=illuminant, observers=observer or None,
                                  surfaces=surfaces, adaptation=adaptation, width=width, height=height,
                                  style=style or None, title=title, caveat=not no_caveat, **options)
-            inputs = [f for f in filters if pathlib.Path(f).exists()]
+            inputs = input_files(filters)
             inputs += [p for p in (style or []) if pathlib.Path(p).exists()]
             if image:
                 inputs.append(image)

@@ -6,7 +6,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import emit, fail, table_text, to_json
+from .common import emit, fail, resolve_format, table_text, to_json
 
 
 def _fmt_xy(xy) -> str:
@@ -44,7 +44,8 @@ def register(app: typer.Typer) -> None:
         white: str = typer.Option("D65", "--white", help="White for the neutral points: an illuminant spec, "
                                                           "or E for equal energy."),
         step: float = typer.Option(1.0, "--step", help="Grid step, nm (grid 380-780 nm)."),
-        format: str = typer.Option("table", "--format", "-f", help="table or json"),
+        format: Optional[str] = typer.Option(None, "--format", "-f",
+                                             help="table or json (default: from the -o extension, else table)."),
         output: Optional[str] = typer.Option(None, "--output", "-o", help="Write to this file instead of stdout."),
     ) -> None:
         """Describe observers: cone and pigment peaks, pigment shift, copunctal point, neutral points.
@@ -58,8 +59,10 @@ def register(app: typer.Typer) -> None:
         from ..observers.describe import describe_observers
         from ..spectra.grid import Grid
 
-        if format not in ("table", "json"):
-            fail(f"--format {format} is not table or json")
+        try:
+            format = resolve_format(format, output, ("table", "json"))
+        except InputError as exc:
+            fail(exc)
         try:
             data = describe_observers(specs, white=white, grid=Grid(step=step))
         except (InputError, ValueError) as exc:

@@ -96,7 +96,7 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
         ``filters`` (names), ``notches`` (per filter: dicts with centre, FWHM in nm and depth),
         ``illuminant_relative`` (peak 1), ``cones`` (label -> (n_wl,) sensitivity, peak 1).
     """
-    from ..spectra.filters import find_notches
+    from ..spectra.filters import filter_notches
 
     style = style or Style()
     got = load_inputs(filters, illuminant=illuminant, observers=list(observers) or ["normal"])
@@ -105,7 +105,7 @@ def spectrum_figure(filters, *, illuminant="D65", observers=("normal",), style: 
     styles = series(len(fs))
     base = obs[0].base or obs[0]
     rel_spd = ill.spd / ill.spd.max()
-    notches = [find_notches(wl, t) for t in fs.transmittance]
+    notches = filter_notches(fs)  # files: found on the measured samples; specs: on the grid
     cones = {f"{_CONE_NAMES[c]} (normal)": base.fundamentals[:, c] for c in range(3)}
     shifted = []
     for o in obs:

@@ -306,7 +306,10 @@ def _parse(spec: str) -> tuple[str, dict]:
     name, _, rest = spec.strip().partition(":")
     name = name.strip().lower()
     if name not in _NAMES:
-        raise InputError(f"unknown observer '{name}'", source=spec,
+        from ..errors import clip_text, did_you_mean
+
+        close = did_you_mean(name, _NAMES)
+        raise InputError(f"unknown observer '{clip_text(name)}'" + (f"; {close}" if close else ""), source=spec,
                          hint="use normal, protanomalous, deuteranomalous, tritanomalous, protanope, "
                               "deuteranope or tritanope (cvdfilter list observers)")
     params = {}
