@@ -5,12 +5,14 @@ line starts fast; ``from cvdfilter import score`` works as usual.
 
 Spectra
     Grid, DEFAULT_GRID, FilterSet, load_filters, parse_filter_spec, find_notches,
-    illuminant, Illuminant, surface_set, SurfaceSet, read_spectra, inspect_filters, catalog
+    illuminant, Illuminant, surface_set, SurfaceSet, read_spectra, inspect_filters, catalog,
+    synthetic_scene (seeded synthetic reflectance cubes: natural-scene stand-ins)
 Observers
     observer, Observer, cone_fundamentals (CIE 2006 by age and field), simulate, simulation,
     population, Population (individual observers, Asano et al. 2016: any observer spec plus n=N)
 Main jobs
-    score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report
+    score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report,
+    discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008)
 
 Every number is a model prediction from published cone fundamentals and
 simulation models, not clinical evidence (see ``cvdfilter.cautions.CAVEAT``).
@@ -38,6 +40,9 @@ _LAZY = {
     "Illuminant": "cvdfilter.spectra.illuminants",
     "surface_set": "cvdfilter.spectra.surfaces",
     "SurfaceSet": "cvdfilter.spectra.surfaces",
+    "synthetic_scene": "cvdfilter.spectra.scenes",
+    "discernible_colours": "cvdfilter.discernibility",
+    "DiscernibleColours": "cvdfilter.discernibility",
     "read_spectra": "cvdfilter.io.spectra_files",
     "inspect_filters": "cvdfilter.inspection",
     "catalog": "cvdfilter.inspection",

@@ -19,6 +19,8 @@ from .spectra.filters import (
 )
 from .spectra.illuminants import illuminant as illuminant, Illuminant as Illuminant
 from .spectra.surfaces import surface_set as surface_set, SurfaceSet as SurfaceSet
+from .spectra.scenes import synthetic_scene as synthetic_scene
+from .discernibility import discernible_colours as discernible_colours, DiscernibleColours as DiscernibleColours
 from .io.spectra_files import read_spectra as read_spectra
 from .inspection import inspect_filters as inspect_filters, catalog as catalog
 from .observers.observer import observer as observer, Observer as Observer
@@ -40,7 +42,7 @@ from .cautions import CAVEAT as CAVEAT
 __all__ = [
     "__version__", "Grid", "DEFAULT_GRID", "FilterSet", "load_filters", "parse_filter_spec", "find_notches",
     "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density", "illuminant", "Illuminant",
-    "surface_set", "SurfaceSet", "read_spectra", "inspect_filters", "catalog", "observer", "Observer",
+    "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra", "inspect_filters", "catalog", "observer", "Observer",
     "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render", "render_views",
     "render_spectra", "Renderer", "figure", "report", "InputError", "CAVEAT"
 ]

@@ -6,6 +6,8 @@ Names::
     chart24        a 24-patch colour rendition chart, N. Ohta's spectral measurements (colour-science)
     tcs14          CIE 13.3 test colour samples 1-14 (colour-science)
     vs15           NIST Colour Quality Scale VS1-VS15, v9.0 (colour-science)
+    munsell        Munsell renotation colours, smooth reflectances recovered by Jakob & Hanika 2019
+                   (:mod:`cvdfilter.spectra.munsell`; metamers of the published colours, not measured chips)
     PATH           a reflectance file (same reader as filters; fraction or percent)
 
 Public: :class:`SurfaceSet`, :func:`surface_set`, :data:`SURFACE_SETS`.
@@ -29,6 +31,7 @@ SURFACE_SETS = {
     "chart24": "24-patch colour rendition chart, N. Ohta's measurements (24)",
     "tcs14": "CIE 13.3 test colour samples 1-14",
     "vs15": "NIST CQS 9.0 samples VS1-VS15",
+    "munsell": "Munsell renotation colours (2734), smooth metamers recovered by Jakob & Hanika 2019",
 }
 
 
@@ -91,6 +94,11 @@ def surface_set(spec: str | SurfaceSet = "ces99", grid: Grid = DEFAULT_GRID) -> 
     key = str(spec).strip()
     if key.lower() in SURFACE_SETS:
         key = key.lower()
+        if key == "munsell":  # three coefficients per colour, evaluated exactly on the grid (no cache needed)
+            from .munsell import munsell_reflectance, munsell_table
+
+            return SurfaceSet(key, munsell_table()["labels"], munsell_reflectance(grid), grid,
+                              f"cvdfilter data: {SURFACE_SETS[key]}")
         data = cached_arrays(f"surfaces-{key}-{grid.key()}", lambda: _build(key, grid))
         return SurfaceSet(key, tuple(str(x) for x in data["labels"]), data["reflectance"], grid,
                           f"colour-science: {SURFACE_SETS[key]}")

@@ -1,0 +1,73 @@
+"""Number of discernible colours: speed against a floor measured in the same run (issue 15).
+
+    .venv/bin/python benchmarks/discernible_bench.py [--repeat 5] [--size 1000]
+
+A 1-megapixel (1000 x 1000), 31-band synthetic scene (``cvdfilter.synthetic_scene``), five
+observers (normal, protanomalous, deuteranomalous, protanope, deuteranope), with and without
+one notch filter: ``cvdfilter.discernible_colours`` against a floor made of
+
+* the cube-to-cone products (one float32 (pixels x 31) @ (31 x 3 x conditions) matmul),
+* per condition: one 3x3 product to XYZ, CIELAB, integer cube indices, packed keys and a
+  sorted unique count.
+
+Target (issue 15): at most 2 s. Times are medians; the machine is shared, so read the ratio.
+No test asserts any of this.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import time
+
+import numpy as np
+
+
+def _floor(samples: np.ndarray, weights: np.ndarray, m: np.ndarray) -> int:
+    from cvdfilter.metrics.discernible import count_discernible, lab_from_xyz
+
+    lms = samples @ weights
+    total = 0
+    for c in range(weights.shape[1] // 3):
+        xyz = lms[:, 3 * c:3 * c + 3].astype(float) @ m.T
+        total += int(count_discernible(lab_from_xyz(xyz, m @ np.ones(3))))
+    return total
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser()
+    ap.add_argument("--repeat", type=int, default=5)
+    ap.add_argument("--size", type=int, default=1000, help="scene edge, pixels (default 1000: 1 MP)")
+    args = ap.parse_args()
+
+    import cvdfilter
+    from cvdfilter.observers.fundamentals import LMS_TO_XYZ_2DEG
+
+    t0 = time.perf_counter()
+    scene = cvdfilter.synthetic_scene(seed=1, shape=(args.size, args.size), bands=31)
+    print(f"scene {args.size}x{args.size}x31 made in {time.perf_counter() - t0:.2f} s")
+    observers = ["normal", "protanomalous", "deuteranomalous", "protanope", "deuteranope"]
+    flt = "notch:center=575,fwhm=35,depth=0.8"
+    r = cvdfilter.discernible_colours(scene, filter=flt, observers=observers)  # warm-up (caches)
+    samples = scene.data.reshape(-1, 31)
+    rng = np.random.default_rng(0)
+    n_cond = len(observers) * 2 + 1  # + the normal reference (shared base)
+    weights = rng.uniform(0, 1, (31, 3 * n_cond)).astype(np.float32)
+    api, floor = [], []
+    for _ in range(args.repeat):
+        t = time.perf_counter()
+        cvdfilter.discernible_colours(scene, filter=flt, observers=observers)
+        api.append(time.perf_counter() - t)
+        t = time.perf_counter()
+        _floor(samples, weights, LMS_TO_XYZ_2DEG)
+        floor.append(time.perf_counter() - t)
+    a, f = statistics.median(api), statistics.median(floor)
+    print(f"discernible_colours: median {a:.3f} s (best {min(api):.3f} s) over {args.repeat} runs; target <= 2 s")
+    print(f"floor (products + CIELAB + unique count, {n_cond} conditions): median {f:.3f} s; ratio {a / f:.2f}x")
+    for j, o in enumerate(r.observers):
+        print(f"  {o:32s} without {r.without[j]:7d}  with {r.with_filter[0, j]:7d}  "
+              f"ratio {r.ratio[0, j]:.3f}  to normal {r.ratio_to_normal[j]:.3f}")
+
+
+if __name__ == "__main__":
+    main()
