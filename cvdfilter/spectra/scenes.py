@@ -20,9 +20,10 @@ Construction (:func:`synthetic_scene`):
 2. **Objects.** Regions are the cells of a Voronoi partition of
    ``n_objects`` random centres, with the pixel coordinates warped by 1/f
    noise so that boundaries are irregular.
-3. **Texture and shading.** Inside each object, a 1/f (amplitude spectrum
-   proportional to 1/f, as in natural images: Field 1987) noise field varies
-   the first chromatic score and multiplies the reflectance by a shading
+3. **Texture and shading.** Across the scene, 1/f noise fields (amplitude
+   spectrum proportional to 1/f, as in natural images: Field 1987), one per
+   component, add :data:`TEXTURE` standard deviations of variation to each
+   object's scores, and one more multiplies the reflectance by a shading
    factor between :data:`SHADING` bounds.
 
 Reflectances are clipped to 0-1. The scene is float32, shape (height, width,
@@ -47,12 +48,15 @@ import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["synthetic_scene", "write_scene", "reflectance_basis", "N_COMPONENTS", "SCORE_JITTER", "SHADING"]
+__all__ = ["synthetic_scene", "write_scene", "reflectance_basis", "N_COMPONENTS", "SCORE_JITTER", "TEXTURE", "SHADING"]
 
 #: Principal components kept (common practice: 6-8 components describe Munsell reflectances well).
 N_COMPONENTS = 6
 #: Jitter of each object's scores, in standard deviations of each component (a choice of this model).
 SCORE_JITTER = 0.15
+#: Within-object texture: SD of each score's 1/f field, in standard deviations of that component
+#: (a choice of this model: surfaces in natural scenes vary in colour within an object, e.g. foliage).
+TEXTURE = 0.25
 #: Shading factor range inside an object (a choice of this model: soft shadows, no specular highlights).
 SHADING = (0.45, 1.0)
 #: Largest scene this generator makes, in pixels (memory: 4 bytes x bands per pixel).
@@ -165,13 +169,11 @@ def synthetic_scene(seed: int = 0, shape: tuple = (256, 256), bands=31, *, n_obj
     # each object's scores: a training sample's scores plus jitter
     pick = rng_s.integers(0, len(basis["scores"]), n_objects)
     obj = basis["scores"][pick] + rng_j.standard_normal((n_objects, k)) * SCORE_JITTER * sd
-    # texture: 1/f fields varying the first chromatic score (component 2) and the shading
-    tex = _pink_noise(rng_t, (h, w), 2).reshape(2, -1)
-    scores = obj[label]
-    if k > 1:
-        scores[:, 1] += 0.1 * sd[1] * tex[0]
+    # texture: one 1/f field per score (TEXTURE standard deviations of that component) and one for shading
+    tex = _pink_noise(rng_t, (h, w), k + 1).reshape(k + 1, -1)
+    scores = obj[label] + (TEXTURE * sd)[None, :] * tex[:k].T
     lo, hi = SHADING
-    shade = lo + (hi - lo) / (1.0 + np.exp(-1.5 * tex[1]))
+    shade = lo + (hi - lo) / (1.0 + np.exp(-1.5 * tex[k]))
     refl = (basis["mean"] + scores @ basis["components"]).clip(0.0, 1.0) * shade[:, None]
     return Cube(refl.reshape(h, w, len(wl)).astype(np.float32), wl, kind="reflectance", path=None,
                 wavelength_source="argument", kind_source="argument")
