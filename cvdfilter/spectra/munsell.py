@@ -12,7 +12,7 @@ the reflectance on any grid is
 
 so it is evaluated exactly here, without colour-science. These are smooth
 **metamers** of the published colours (the same CIE 1931 colour under
-illuminant C, within the fit error in the file: ΔE*ab at most 0.023 for 2,655
+illuminant C, within the fit error in the file: Delta E*ab at most 0.023 for 2,655
 colours; 79 of the most saturated are beyond the sigmoid's reach, up to 6.7),
 not measurements of painted chips: under other lights or for other observers
 they may differ from chips.
