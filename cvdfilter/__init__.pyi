@@ -33,6 +33,7 @@ from .rendering import (
 )
 from .figures import figure as figure
 from .reporting import report as report
+from .vision_tasks import tasks as tasks, TaskResult as TaskResult
 from .errors import InputError as InputError
 from .cautions import CAVEAT as CAVEAT
 
@@ -41,5 +42,5 @@ __all__ = [
     "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density", "illuminant", "Illuminant",
     "surface_set", "SurfaceSet", "read_spectra", "inspect_filters", "catalog", "observer", "Observer",
     "cone_fundamentals", "simulate", "simulation", "score", "Scorecard", "render", "render_views",
-    "render_spectra", "Renderer", "figure", "report", "InputError", "CAVEAT"
+    "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult", "InputError", "CAVEAT"
 ]
