@@ -246,8 +246,11 @@ class TaskResult:
     def to_table(self, width: int = 100) -> str:
         from ..tables import text_table
 
+        import textwrap
+
         head, rows = self.rows()
-        return text_table(head, rows, width=width) + "\n" + "\n".join(self._footer()) + "\n"
+        footer = [textwrap.fill(x, width=width, subsequent_indent="  ") if x else x for x in self._footer()]
+        return text_table(head, rows, width=width) + "\n" + "\n".join(footer) + "\n"
 
     def to_markdown(self) -> str:
         from ..tables import markdown_table
