@@ -106,7 +106,8 @@ class TaskResult:
     observers : tuple of str
     tasks : tuple of str
     scores : dict
-        ``scores[(task, observer)]``: for arrangement tasks a dict score name -> array (F + 1, members, trials);
+        ``scores[(task, observer)]``: for arrangement tasks a dict score name -> array (F + 1, members, trials)
+        and ``order`` -> (F + 1, members, trials, caps);
         for ``rayleigh`` a dict -> array (F + 1, members); for ``plates`` ``legibility`` -> (F + 1, members, plates).
         Index 0 of the first axis is without a filter.
     settings : dict
@@ -205,6 +206,10 @@ class TaskResult:
                            "trials": self.settings["trials"], "seed": self.settings["seed"],
                            "illuminant": self.settings["illuminant"]},
                 "models": self.settings["models"], "results": self.results(), "summary": self.summaries()}
+
+    def cap_uv(self, task: str) -> np.ndarray:
+        """CIELUV u*, v* of an arrangement task's caps under the run's light, (N, 2)."""
+        return self.settings["cap_uv"][task]
 
     def to_json(self) -> str:
         return json.dumps(_clean(self.to_dict()), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
@@ -325,7 +330,8 @@ def arrangement_scores(task: str, fundamentals, noise, weights, uv, z, *, trial_
 
     Returns
     -------
-    dict of numpy.ndarray (F, M, T)
+    dict of numpy.ndarray
+        The scores of :data:`moments.SCORE_NAMES`, each (F, M, T), and ``order`` (F, M, T, N), the cap order.
     """
     _, _, refl = caps(task, grid)
     e = np.asarray(noise, dtype=float)
@@ -335,7 +341,9 @@ def arrangement_scores(task: str, fundamentals, noise, weights, uv, z, *, trial_
     # per-cap sd trial_noise x e_i / sqrt(2): the difference of two caps then has sd trial_noise JND
     noisy = f[:, :, None] + (trial_noise / np.sqrt(2)) * np.nan_to_num(e) * z[None, None]  # (F, M, T, N, 3)
     order = arrange(noisy @ p.T)
-    return _moments.moment_scores(uv, order)
+    out = _moments.moment_scores(uv, order)
+    out["order"] = order  # (F, M, T, N): the arrangements themselves (figures draw one)
+    return out
 
 
 def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: int = 500, seed: int = 0,
@@ -419,7 +427,7 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
                 scores[(t, m.name)] = r
     info = tuple({"source": s, **{k: v for k, v in i.items() if k in ("spec", "path", "units", "sha256")}}
                  for s, i in zip(fs.sources or ("",) * len(fs), fs.info or ({},) * len(fs)))
-    settings = {"trials": int(trials), "seed": int(seed), "illuminant": ill.name,
+    settings = {"trials": int(trials), "seed": int(seed), "illuminant": ill.name, "cap_uv": uv_by_task,
                 "models": {"weber_fraction": weber_fraction, "cone_ratios": list(cone_ratios),
                            "trial_noise": trial_noise, "arrangement_margin": ARRANGEMENT_MARGIN,
                            "plate_read_threshold": READ_THRESHOLD, "plate_margin": PLATE_MARGIN,
