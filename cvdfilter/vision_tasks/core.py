@@ -62,6 +62,11 @@ TASKS_CAUTION = ("Tasks of our own design, performed by model observers: not a c
                  "standard tests.")
 
 _SCORES = _moments.SCORE_NAMES
+#: Caps x trials x filters x members handled at once by the arranger (memory bound, about 100 MB per chunk).
+_CHUNK_CAPS = 2_000_000
+#: Factors applied to each verdict margin to test the verdict's robustness (ours): a verdict is "robust" when
+#: it is the same at half and at twice the margin.
+ROBUSTNESS_FACTORS = (0.5, 2.0)
 
 
 @dataclass(frozen=True)
@@ -123,14 +128,23 @@ class TaskResult:
 
     # -- verdicts ----------------------------------------------------------------------------------------------
     def _verdict(self, task: str, obs: str, f: int) -> tuple[str, dict]:
+        verdict, basis = self._verdict_at(task, obs, f, 1.0)
+        others = [self._verdict_at(task, obs, f, k)[0] for k in ROBUSTNESS_FACTORS]
+        basis["robust"] = all(v == verdict for v in others)
+        basis["robustness"] = ("the same verdict at " + " and ".join(f"{k:g}x" for k in ROBUSTNESS_FACTORS)
+                               + " the margin" if basis["robust"] else
+                               "the verdict changes when the margin is halved or doubled: a borderline case")
+        return verdict, basis
+
+    def _verdict_at(self, task: str, obs: str, f: int, factor: float) -> tuple[str, dict]:
         s = self.scores[(task, obs)]
         if task in ARRANGEMENT_DESIGNS:
             t0, t1 = s["tes"][0], s["tes"][f + 1]
             better = float(np.mean(t1 < t0 - 1e-9))
             worse = float(np.mean(t1 > t0 + 1e-9))
             effect = better - worse
-            verdict = "easier" if effect >= ARRANGEMENT_MARGIN else "harder" if effect <= -ARRANGEMENT_MARGIN \
-                else "no change"
+            margin = ARRANGEMENT_MARGIN * factor
+            verdict = "easier" if effect >= margin else "harder" if effect <= -margin else "no change"
             return verdict, {"share_trials_lower_tes": better, "share_trials_higher_tes": worse,
                              "effect": effect, "margin": ARRANGEMENT_MARGIN,
                              "criterion": "share of trials (x members) with a lower TES with the filter minus the "
@@ -138,18 +152,21 @@ class TaskResult:
         if task == "plates":
             leg = np.median(s["legibility"], axis=1)  # (F + 1, plates), median over members
             change = leg[f + 1] - leg[0]
-            gains = int((change >= PLATE_MARGIN).sum())
-            losses = int((change <= -PLATE_MARGIN).sum())
+            margin = PLATE_MARGIN * factor
+            gains = int((change >= margin).sum())
+            losses = int((change <= -margin).sum())
             verdict = "easier" if gains > losses else "harder" if losses > gains else "no change"
-            return verdict, {"plates_gaining": [PLATE_NAMES[i] for i in np.nonzero(change >= PLATE_MARGIN)[0]],
-                             "plates_losing": [PLATE_NAMES[i] for i in np.nonzero(change <= -PLATE_MARGIN)[0]],
+            return verdict, {"plates_gaining": [PLATE_NAMES[i] for i in np.nonzero(change >= margin)[0]],
+                             "plates_losing": [PLATE_NAMES[i] for i in np.nonzero(change <= -margin)[0]],
+                             "legibility_change": {p: float(c) for p, c in zip(PLATE_NAMES, change)},
                              "margin": PLATE_MARGIN,
                              "criterion": "a plate gains (loses) when its legibility rises (falls) by >= margin; "
                                           "easier when more plates gain than lose, harder when more lose"}
         w0 = float(np.median(s["range_log_odds"][0]))
         w1 = float(np.median(s["range_log_odds"][f + 1]))
         rel = (w1 - w0) / w0 if np.isfinite(w0) and np.isfinite(w1) and w0 > 0 else 0.0
-        verdict = "easier" if rel <= -RAYLEIGH_MARGIN else "harder" if rel >= RAYLEIGH_MARGIN else "no change"
+        margin = RAYLEIGH_MARGIN * factor
+        verdict = "easier" if rel <= -margin else "harder" if rel >= margin else "no change"
         m0, m1 = float(np.median(s["red_fraction"][0])), float(np.median(s["red_fraction"][f + 1]))
         return verdict, {"range_log_odds_change": rel, "margin": RAYLEIGH_MARGIN,
                          "mid_point_shift": m1 - m0,
@@ -186,16 +203,22 @@ class TaskResult:
         return out
 
     def summaries(self) -> dict[str, str]:
-        """One line per filter: where it helps and where it hurts."""
+        """One line per filter: for which tasks (and observers) it makes the task easier and harder."""
         lines = {}
         res = self.results()
+        n_obs = len(self.observers)
         for name in self.filters:
             parts = []
             for word in ("easier", "harder"):
-                hits = [f"{r['task']} ({r['observer']})" for r in res if r["filter"] == name and r["verdict"] == word]
-                if hits:
-                    parts.append(f"{word}: " + ", ".join(hits))
-            lines[name] = "; ".join(parts) if parts else "no change on any task for any observer"
+                per_task = []
+                for task in self.tasks:
+                    who = [r["observer"] for r in res if r["filter"] == name and r["task"] == task
+                           and r["verdict"] == word]
+                    if who:
+                        per_task.append(f"{task} ({'all observers' if len(who) == n_obs > 1 else ', '.join(who)})")
+                if per_task:
+                    parts.append(f"{word}: " + "; ".join(per_task))
+            lines[name] = " | ".join(parts) if parts else "no change on any task for any observer"
         return lines
 
     def to_dict(self) -> dict:
@@ -229,7 +252,8 @@ class TaskResult:
                                  + " ".join(f"{x:.1f}" for x in v["legibility"].values()))
                 else:
                     cells.append(f"r {v['red_fraction']:.3f}, range {v['range']:.3f}")
-            rows.append([r["filter"], r["observer"], r["task"], *cells, r["verdict"]])
+            mark = "" if r["basis"]["robust"] else " *"
+            rows.append([r["filter"], r["observer"], r["task"], *cells, r["verdict"] + mark])
         return head, rows
 
     def _footer(self) -> list[str]:
@@ -241,7 +265,8 @@ class TaskResult:
                  f"noise; plate read threshold {READ_THRESHOLD:g}; Rayleigh match threshold "
                  f"{MATCH_THRESHOLD:g} JND, primaries {PRIMARY_FWHM_NM:g} nm FWHM.",
                  f"Verdicts: arrangement {ARRANGEMENT_MARGIN:g} (share of trials), plates {PLATE_MARGIN:g} "
-                 f"(legibility), Rayleigh {RAYLEIGH_MARGIN:g} (relative range); see docs/tasks.md.",
+                 f"(legibility), Rayleigh {RAYLEIGH_MARGIN:g} (relative range); see docs/tasks.md. * borderline: "
+                 "the verdict changes when its margin is halved or doubled.",
                  "Arrangement: medians over trials of the total error score (TES), confusion index (C) and "
                  "path crossings (moment method, Vingrys & King-Smith 1988). Plates: number read and the "
                  "legibility of " + ", ".join(PLATE_NAMES) + ". Rayleigh: red fraction r (mid-point) and "
@@ -339,8 +364,14 @@ def arrangement_scores(task: str, fundamentals, noise, weights, uv, z, *, trial_
     catches = np.einsum("nw,fw,mwc->fmnc", refl, np.asarray(weights), np.asarray(fundamentals))
     f = np.log(np.maximum(catches, 1e-300))  # (F, M, N, 3)
     # per-cap sd trial_noise x e_i / sqrt(2): the difference of two caps then has sd trial_noise JND
-    noisy = f[:, :, None] + (trial_noise / np.sqrt(2)) * np.nan_to_num(e) * z[None, None]  # (F, M, T, N, 3)
-    order = arrange(noisy @ p.T)
+    jitter = (trial_noise / np.sqrt(2)) * np.nan_to_num(e) * np.asarray(z)  # (T, N, 3)
+    n_f, n_m = f.shape[:2]
+    t, n = jitter.shape[:2]
+    order = np.empty((n_f, n_m, t, n), dtype=np.intp)
+    step = max(1, _CHUNK_CAPS // (n_f * t * n))  # members per chunk: bounded memory for large populations
+    for m0 in range(0, n_m, step):
+        noisy = f[:, m0:m0 + step, None] + jitter[None, None]  # (F, m, T, N, 3)
+        order[:, m0:m0 + step] = arrange(noisy @ p.T)
     out = _moments.moment_scores(uv, order)
     out["order"] = order  # (F, M, T, N): the arrangements themselves (figures draw one)
     return out
@@ -432,6 +463,7 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
                            "trial_noise": trial_noise, "arrangement_margin": ARRANGEMENT_MARGIN,
                            "plate_read_threshold": READ_THRESHOLD, "plate_margin": PLATE_MARGIN,
                            "rayleigh_margin": RAYLEIGH_MARGIN, "rayleigh_match_threshold_jnd": MATCH_THRESHOLD,
+                           "robustness_factors": list(ROBUSTNESS_FACTORS),
                            "rayleigh_primaries_nm": dict(PRIMARIES_NM), "rayleigh_primary_fwhm_nm": PRIMARY_FWHM_NM,
                            "rayleigh_calibration": calibration,
                            "arrangement_scoring": "moment method, Vingrys & King-Smith 1988, CIELUV u*v* under "
