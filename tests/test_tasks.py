@@ -328,3 +328,20 @@ def test_bad_input_is_one_input_error():
         tasks(["nd:t=0.5"], tasks=["sorting"])
     with pytest.raises(cvdfilter.InputError):
         tasks(["nd:t=0.5"], trials=0)
+
+
+def test_arranger_chunks_give_the_same_result(monkeypatch):
+    # Large populations run in chunks of members; the chunking must not change a single arrangement.
+    from cvdfilter.vision_tasks import core
+
+    o = observer("protanomalous")
+    members = ObserverMembers("three", np.stack([o.fundamentals] * 3), None)
+    whole = tasks(["larkhill-notch-575"], observers=[members], tasks=["arrangement"], trials=25).scores
+    monkeypatch.setattr(core, "_CHUNK_CAPS", 1)
+    chunked = tasks(["larkhill-notch-575"], observers=[members], tasks=["arrangement"], trials=25).scores
+    np.testing.assert_array_equal(whole[("arrangement", "three")]["order"], chunked[("arrangement", "three")]["order"])
+
+
+def test_every_verdict_says_whether_it_is_robust():
+    res = tasks(["larkhill-notch-575"], observers=["deuteranomalous"], trials=50).results()
+    assert all(isinstance(r["basis"]["robust"], bool) and r["basis"]["criterion"] for r in res)
