@@ -10,7 +10,8 @@ Observers
     observer, Observer, cone_fundamentals (CIE 2006 by age and field), simulate, simulation,
     population, Population (individual observers, Asano et al. 2016: any observer spec plus n=N)
 Main jobs
-    score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report
+    score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report,
+    tasks, TaskResult (colour-vision tasks of our own design for model observers)
 
 Every number is a model prediction from published cone fundamentals and
 simulation models, not clinical evidence (see ``cvdfilter.cautions.CAVEAT``).
@@ -56,6 +57,8 @@ _LAZY = {
     "Renderer": "cvdfilter.rendering",
     "figure": "cvdfilter.figures",
     "report": "cvdfilter.reporting",
+    "tasks": "cvdfilter.vision_tasks",
+    "TaskResult": "cvdfilter.vision_tasks",
     "InputError": "cvdfilter.errors",
     "CAVEAT": "cvdfilter.cautions",
 }

@@ -399,6 +399,7 @@ _KIND_ARGS = {
     "images": (["larkhill-notch-575"], {"image": None}),
     "sweep": (["notch:center=550..590/20,fwhm=30,depth=0.8"], {"surfaces": "chart24",
                                                               "observers": ["normal", "deuteranope"]}),
+    "tasks": (["larkhill-notch-575"], {"observers": ["normal", "deuteranope"], "trials": 30}),
 }
 
 
