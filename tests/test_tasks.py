@@ -202,6 +202,19 @@ def test_population_members_as_a_stack_of_fundamentals():
     np.testing.assert_array_equal(stack[:, 0], single[:, 0])
 
 
+def test_population_spec_strings_run_as_members():
+    # A population spec (n=N) runs its members as one stack; with variation=none every member is the centre
+    # observer, so each member scores exactly as the single observer does (invariant of the population model).
+    res = tasks(["larkhill-notch-575"], observers=["deuteranomalous:n=3,variation=none,seed=1", "deuteranomalous"],
+                tasks=["arrangement"], trials=20)
+    pop_name = next(name for (task, name) in res.scores if "n=3" in name)
+    stack = res.scores[("arrangement", pop_name)]["tes"]
+    assert stack.shape[1] == 3
+    single = res.scores[("arrangement", observer("deuteranomalous").spec)]["tes"]
+    for m in range(3):
+        np.testing.assert_array_equal(stack[:, m], single[:, 0])
+
+
 # -- Rayleigh match ----------------------------------------------------------------------------------------------
 
 def test_rayleigh_normal_match_agrees_with_colour_science_fundamentals():

@@ -95,7 +95,11 @@ def _members(item, grid: Grid) -> ObserverMembers:
             raise InputError(f"fundamentals must be (n, {grid.size}, 3), got {f.shape}", source=item.name)
         return item
     from ..observers.observer import observer
+    from ..observers.population import Population, is_population_spec, population
 
+    if isinstance(item, Population) or is_population_spec(item):
+        pop = item if isinstance(item, Population) else population(item, grid)
+        return ObserverMembers(pop.spec, np.asarray(pop.fundamentals), pop.centre.missing_cone)
     o = observer(item, grid)
     return ObserverMembers(o.spec, np.asarray(o.fundamentals)[None], o.missing_cone)
 
