@@ -79,6 +79,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import InputError
+from .observers.operator import PiecewiseLinear
 from .spectra.cache import cached_arrays
 from .spectra.grid import DEFAULT_GRID, Grid
 
@@ -312,16 +313,11 @@ class ViewTransform:
     spectral_weights : numpy.ndarray
         (n_wl, 3): reflectance on the grid (per 1 nm sample) to the observer's
         adapted L, M, S: ``E T F diag(gains)``.
-    lms_to_rgb : numpy.ndarray
-        (k, 3, 3), k = 1 or 2: adapted L, M, S (row vectors) to linear sRGB,
-        simulation and display folded.
-    separator : numpy.ndarray or None
-        (3,): with k = 2, ``lms_to_rgb[0]`` applies where ``lms @ separator >= 0``.
-    rgb_matrices : numpy.ndarray
-        (k, 3, 3): linear sRGB in to linear sRGB out (row vectors), the whole
-        image pipeline.
-    rgb_separator : numpy.ndarray or None
-        (3,): the separator carried to linear sRGB input.
+    lms_to_rgb : PiecewiseLinear
+        Adapted L, M, S to linear sRGB, simulation and display folded
+        (column vectors, see :mod:`cvdfilter.observers.operator`).
+    rgb : PiecewiseLinear
+        Linear sRGB in to linear sRGB out, the whole image pipeline.
     """
 
     view: str
@@ -332,11 +328,19 @@ class ViewTransform:
     fundamentals: np.ndarray
     gains: np.ndarray
     spectral_weights: np.ndarray
-    lms_to_rgb: np.ndarray
-    separator: np.ndarray | None
-    rgb_matrices: np.ndarray
-    rgb_separator: np.ndarray | None
+    lms_to_rgb: PiecewiseLinear
+    rgb: PiecewiseLinear
     info: dict = field(default_factory=dict)
+
+    @property
+    def rgb_matrices(self) -> np.ndarray:
+        """(k, 3, 3): :attr:`rgb` for row vectors (pixels): ``out = rgb_in @ rgb_matrices[i]``."""
+        return self.rgb.row_matrices
+
+    @property
+    def rgb_separator(self) -> np.ndarray | None:
+        """(3,): ``rgb_matrices[0]`` applies where ``rgb_in @ rgb_separator >= 0``; None for one matrix."""
+        return self.rgb.separator
 
     @property
     def is_identity(self) -> bool:
@@ -449,14 +453,12 @@ class Renderer:
         cube_gains = von_kries_gains((e * t) @ f, e @ f, adaptation=self.adaptation)
         weights = (e * t)[:, None] * f * cube_gains
         sim = self._simulation(obs)
-        # Simulation matrices act on column vectors; here pixels are rows.
-        lms_to_rgb = np.transpose(sim.matrices, (0, 2, 1)) @ self.display_inverse
-        rgb = np.eye(3)[None] if view == "original" else to_lms @ lms_to_rgb
-        sep = None if sim.separator is None else np.asarray(sim.separator, dtype=float)
-        rgb_sep = None if sep is None or view == "original" else to_lms @ sep
+        # The display matrices work on row vectors (``lms = rgb @ display``): their transposes are the
+        # column-vector matrices the operator composes with.
+        lms_to_rgb = sim.operator.then(self.display_inverse.T)
+        rgb = PiecewiseLinear.linear(np.eye(3)) if view == "original" else lms_to_rgb.compose(to_lms.T)
         tr = ViewTransform(view, obs.spec, self.filter_name if filtered else None, sim.method, t, f, cube_gains,
-                           weights, lms_to_rgb, sep, rgb, rgb_sep,
-                           {"white_lms": white_t * gains, "image_gains": gains})
+                           weights, lms_to_rgb, rgb, {"white_lms": white_t * gains, "image_gains": gains})
         self._views[view] = tr
         return tr
 
@@ -549,7 +551,7 @@ class Renderer:
         tr = self.transform(view)
         # The original is copied as it is; every other view goes through the pipeline.
         identity = tr.view == "original" and out_dtype == px.dtype and out_encoding == encoding
-        kernel = _Kernel.build(tr.rgb_matrices, tr.rgb_separator, _SCALE if out_dtype.kind == "u" else 1.0,
+        kernel = _Kernel.build(tr.rgb, _SCALE if out_dtype.kind == "u" else 1.0,
                                *_gamut_tolerance(out_dtype))
         clip = self.gamut == "clip"
         src = px.reshape(h, w, channels_in)
@@ -638,7 +640,6 @@ class Renderer:
         """
         tr = self.transform(view)  # 'original' for a cube: the normal observer without the filter
         weights = self.cube_weights(cube, tr.view, exposure=exposure)
-        lms_to_rgb, sep = tr.lms_to_rgb, tr.separator
         out_dtype = np.dtype(dtype)
         if self.gamut == "none" and out_dtype.kind == "u":
             raise InputError("gamut 'none' needs float output (integer output must be clipped)")
@@ -647,7 +648,7 @@ class Renderer:
         h, w, b = data.shape
         work = np.float64 if data.dtype == np.float64 else np.float32
         wmat = weights.astype(work)
-        kernel = _Kernel.build(lms_to_rgb, sep, _SCALE if out_dtype.kind == "u" else 1.0,
+        kernel = _Kernel.build(tr.lms_to_rgb, _SCALE if out_dtype.kind == "u" else 1.0,
                                *_gamut_tolerance(out_dtype))
         clip = self.gamut == "clip"
         out = np.empty((h, w, 3), dtype=out_dtype)
@@ -673,13 +674,13 @@ def _scene(scene: str, illuminant_spd: np.ndarray, normal, grid: Grid):
     if kind == "reflectance" and not name:
         return "reflectance", mallett_basis(grid) * illuminant_spd[:, None], display_matrix(normal, grid)
     if kind == "display":
-        from .observers.display import DISPLAY_PRIMARIES, display_primaries
+        from .observers.display import DISPLAY_PRIMARIES, adapted_rgb_to_lms, display_primaries
 
         name = name.strip() or DISPLAY_PRIMARIES[0]
         p = display_primaries(name, grid)
         label = [n for n in DISPLAY_PRIMARIES if n.lower() == name.lower()][0]
-        f = normal.fundamentals
-        return f"display:{label}", p, (p.T @ f) / (p.sum(axis=1) @ f)
+        # The display matrix works on row vectors: the transpose of the display module's (column) one.
+        return f"display:{label}", p, adapted_rgb_to_lms(normal.fundamentals, p).T
     raise InputError(f"unknown scene '{scene}'",
                      hint="use reflectance (surfaces under the illuminant) or display[:PRIMARIES] "
                           "(light from a display, e.g. display:Typical CRT Brainard 1997)")
@@ -723,7 +724,9 @@ class _Kernel:
     hi: float = 1.0
 
     @classmethod
-    def build(cls, mats: np.ndarray, sep: np.ndarray | None, scale: float, lo: float, hi: float) -> _Kernel:
+    def build(cls, operator: PiecewiseLinear, scale: float, lo: float, hi: float) -> _Kernel:
+        """The kernel of ``operator`` (tiles are rows: it takes the operator's row matrices)."""
+        mats, sep = operator.row_matrices, operator.separator
         m0 = np.asarray(mats[0], dtype=np.float64) * scale
         if len(mats) == 1:
             return cls(m0.astype(np.float32), lo=lo * scale, hi=hi * scale)
