@@ -413,7 +413,7 @@ def test_scorecard_defaults_are_continuous_in_notch_centre_and_depth(center, dep
 def test_costs_sit_beside_every_gain(card):
     # Issue 9: the scorecard never reads as a recommendation; every gain is printed with its costs.
     from cvdfilter.figures.gains import cost_label, gains_figure
-    from cvdfilter.report import Report
+    from cvdfilter.reporting import Report
 
     md = card.to_markdown()
     header = next(line for line in md.splitlines() if line.startswith("| filter | observer | RG gain"))
