@@ -311,9 +311,9 @@ class ObserverPlan:
     observer: Any
     cols: list
     w0: np.ndarray
-    channels: np.ndarray | None = None
+    channels: Any = None
     rms0: Any = None
-    rnl: dict | None = None
+    rnl: Any = None
     confusion: dict | None = None
     store: dict = field(default_factory=dict)
 
@@ -414,7 +414,7 @@ class ChunkRunner:
         S, white = Q[:, :, :n_s], Q[:, :, n_s]
         self.whites[lo:hi] = white
         need_logs = "discrimination" in self.groups or "confusion" in self.groups
-        logs = log_catches(S) if need_logs else None
+        logs = log_catches(S) if need_logs else np.empty(0)
         for plan in self.plans:
             c = plan.cols
             if "contrast" in self.groups:

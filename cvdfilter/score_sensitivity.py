@@ -8,6 +8,8 @@ Public: :data:`SENSITIVITY_RANGES`, :func:`sensitivity_variants`, :func:`sensiti
 
 from __future__ import annotations
 
+from typing import Any
+
 from .scorecard_views import median_ratio
 
 __all__ = ["SENSITIVITY_RANGES", "sensitivity_variants", "sensitivity"]
@@ -18,7 +20,7 @@ __all__ = ["SENSITIVITY_RANGES", "sensitivity_variants", "sensitivity"]
 #: Weber fraction half and 1.5 times the default 0.02; L:M cone ratio 1:1 and 4:1 at the same S share (the
 #: default is 2:1; individual ratios vary at least this much, Hofer et al. 2005, from memory); every JND
 #: threshold together x0.8 and x1.25; the other reading of the signal-quotient limits.
-SENSITIVITY_RANGES = {
+SENSITIVITY_RANGES: dict[str, Any] = {
     "weber_fraction": (0.5, 1.5),
     "cone_ratios_lm": ((1.0, 1.0), (4.0, 1.0)),
     "threshold_factor": (0.8, 1.25),

@@ -32,6 +32,7 @@ import json
 import math
 import pathlib
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -95,9 +96,9 @@ class Scorecard:
         variation of :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section).
     """
 
-    filters: object
-    illuminant: object
-    surfaces: object
+    filters: Any  # FilterSet
+    illuminant: Any  # Illuminant
+    surfaces: Any  # SurfaceSet
     observers: list
     adaptation: float
     metrics: tuple
