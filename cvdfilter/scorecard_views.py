@@ -256,17 +256,9 @@ def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict
     if "contrast" in metrics:
         row += [_fmt(o["red_green_gain"], 3), _fmt(o["blue_yellow_gain"], 3), _fmt(o["luminance_contrast_gain"], 3)]
     if "discrimination" in metrics:
-        p = o["discriminable_pairs"]
-        if compact:
-            row += ["-", "-"] if p is None else [f"{p['without']}->{p['with']}", f"+{p['gained']}/-{p['lost']}"]
-        else:
-            row += ["-"] * 4 if p is None else [p["without"], p["with"], p["gained"], p["lost"]]
+        row += _pair_cells(o["discriminable_pairs"], PAIR_KEYS, "+-", compact)
     if "confusion" in metrics:
-        c = o["confusion_pairs"]
-        if compact:
-            row += ["-", "-"] if c is None else [f"{c['without']}->{c['with']}", f"-{c['resolved']}/+{c['created']}"]
-        else:
-            row += ["-"] * 4 if c is None else [c["without"], c["with"], c["resolved"], c["created"]]
+        row += _pair_cells(o["confusion_pairs"], CONFUSION_KEYS, "-+", compact)
     if "discrimination" in metrics or "confusion" in metrics:
         row.append(_fmt(median_ratio(o), 3))
     if f is not None:
@@ -274,6 +266,16 @@ def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict
         row += [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
                 _fmt((f.get("rendition") or {}).get("rf"), 1)]
     return row
+
+
+def _pair_cells(block: dict | None, keys: tuple, signs: str, compact: bool) -> list:
+    """Cells of a pair block: without, with and the two changes (``keys``), or ``without->with`` and the
+    changes signed by ``signs`` (compact); dashes where the block does not apply."""
+    if compact:
+        if block is None:
+            return ["-", "-"]
+        return [f"{block[keys[0]]}->{block[keys[1]]}", f"{signs[0]}{block[keys[2]]}/{signs[1]}{block[keys[3]]}"]
+    return ["-"] * 4 if block is None else [block[k] for k in keys]
 
 
 def median_ratio(o: dict):

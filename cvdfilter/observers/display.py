@@ -29,7 +29,7 @@ from ..errors import InputError
 from ..spectra.cache import cached_arrays
 from ..spectra.grid import DEFAULT_GRID, Grid
 from .observer import Observer, observer as _make_observer
-from .operator import PiecewiseLinear
+from .operator import HasOperator, PiecewiseLinear
 
 __all__ = ["DisplaySimulation", "display_primaries", "rgb_to_lms_matrix", "adapted_rgb_to_lms",
            "display_simulation", "DISPLAY_PRIMARIES"]
@@ -98,7 +98,7 @@ def adapted_rgb_to_lms(fundamentals, primaries, white_lms=None) -> np.ndarray:
 
 
 @dataclass(frozen=True, eq=False)
-class DisplaySimulation:
+class DisplaySimulation(HasOperator):
     """A simulation on a display's linear RGB.
 
     Attributes
@@ -115,22 +115,7 @@ class DisplaySimulation:
     simulation: object
     primaries: np.ndarray
 
-    @property
-    def matrices(self) -> np.ndarray:
-        """(k, 3, 3), act on linear RGB column vectors."""
-        return self.operator.matrices
-
-    @property
-    def separator(self) -> np.ndarray | None:
-        """(3,) for two matrices: ``matrices[0]`` where ``rgb @ separator >= 0``; else None."""
-        return self.operator.separator
-
-    def apply(self, rgb) -> np.ndarray:
-        """Simulate linear RGB shaped (..., 3); returns (..., 3) (not clipped)."""
-        rgb = np.asarray(rgb, dtype=float)
-        if rgb.shape[-1:] != (3,):
-            raise ValueError(f"expected linear RGB shaped (..., 3), got {rgb.shape}")
-        return self.operator.apply(rgb)
+    # matrices, separator and apply(rgb) (linear RGB (..., 3) in and out, not clipped) come from HasOperator.
 
 
 def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, method: str | None = None,

@@ -11,7 +11,7 @@ Convention (one for the whole package): **column vectors**. ``apply(x) = matrice
 ``x @ matrices[i].T``. Code that works on row vectors (the renderer's tiles of pixels) takes
 :attr:`PiecewiseLinear.row_matrices`, the transposes.
 
-Public: :class:`PiecewiseLinear`.
+Public: :class:`PiecewiseLinear`, :class:`HasOperator`.
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["PiecewiseLinear"]
+__all__ = ["PiecewiseLinear", "HasOperator"]
 
 
 def _as_matrix(m) -> np.ndarray:
@@ -126,3 +126,27 @@ class PiecewiseLinear:
         b = _as_matrix(outer)
         rows = self.row_matrices @ b.T
         return PiecewiseLinear(np.transpose(rows, (0, 2, 1)), self.separator)
+
+
+class HasOperator:
+    """Mixin for results that carry an ``operator`` (:class:`PiecewiseLinear`): its matrices and separator
+    as attributes, and ``apply``/``__call__`` (used by the simulation and its display form)."""
+
+    operator: PiecewiseLinear
+
+    @property
+    def matrices(self) -> np.ndarray:
+        """(k, 3, 3), k = 1 or 2, float64; act on column vectors (``out = M @ x``)."""
+        return self.operator.matrices
+
+    @property
+    def separator(self) -> np.ndarray | None:
+        """(3,) with two matrices: ``matrices[0]`` applies where ``x @ separator >= 0``; else None."""
+        return self.operator.separator
+
+    def apply(self, x) -> np.ndarray:
+        """Apply the operator to colour vectors shaped (..., 3); returns (..., 3) (not clipped)."""
+        return self.operator.apply(x)
+
+    def __call__(self, x) -> np.ndarray:
+        return self.operator.apply(x)

@@ -105,7 +105,7 @@ import numpy as np
 
 from ..errors import InputError
 from .observer import Observer, observer as _make_observer
-from .operator import PiecewiseLinear
+from .operator import HasOperator, PiecewiseLinear
 
 __all__ = ["Simulation", "simulation", "simulate", "METHODS", "METHOD_DESCRIPTIONS", "NORMALISATIONS",
            "DEFAULT_NORMALISATION", "ANCHORS_NM", "MATRIX_LMS_TO_OPPONENT", "reference_white_spectrum",
@@ -144,7 +144,7 @@ MATRIX_LMS_TO_OPPONENT = np.array([[0.600, 0.400, 0.000],
 
 
 @dataclass(frozen=True, eq=False)
-class Simulation:
+class Simulation(HasOperator):
     """A per-pixel operator from an observer's adapted LMS to the normal observer's, with its provenance.
 
     Attributes
@@ -169,35 +169,8 @@ class Simulation:
     white_lms: np.ndarray = field(default_factory=lambda: np.ones(3))
     info: dict = field(default_factory=dict)
 
-    @property
-    def matrices(self) -> np.ndarray:
-        """(k, 3, 3), k = 1 or 2, float64; act on column vectors (``out = M @ lms``)."""
-        return self.operator.matrices
-
-    @property
-    def separator(self) -> np.ndarray | None:
-        """(3,) with two matrices: ``matrices[0]`` applies where ``lms @ separator >= 0``; else None."""
-        return self.operator.separator
-
-    def apply(self, lms) -> np.ndarray:
-        """Simulate adapted cone excitations.
-
-        Parameters
-        ----------
-        lms : array_like
-            The observer's adapted L, M, S, shape (..., 3).
-
-        Returns
-        -------
-        numpy.ndarray
-            The normal base observer's adapted L, M, S, shape (..., 3).
-        """
-        lms = np.asarray(lms, dtype=float)
-        if lms.shape[-1:] != (3,):
-            raise ValueError(f"expected cone excitations shaped (..., 3), got {lms.shape}")
-        return self.operator.apply(lms)
-
-    __call__ = apply
+    # matrices, separator, apply(lms) and __call__ come from HasOperator: ``apply`` maps the observer's
+    # adapted L, M, S (..., 3) to the normal base observer's adapted L, M, S (..., 3).
 
 
 def reference_white_spectrum(obs: Observer, reference_white=None) -> np.ndarray:
