@@ -157,16 +157,11 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         ``fingerprints`` (view or ``panel`` -> fingerprint, those given), ``warnings``.
     """
     from ._version import __version__
-    from .io.cubes import Cube, is_cube_path, read_cube, tiff_is_cube
-    from .io.images import DEFAULT_MAX_MEGAPIXELS, read_image, write_image
+    from .io.cubes import Cube
+    from .io.images import write_image
 
     p = pathlib.Path(path)
-    mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
-    tif = p.suffix.lower() in (".tif", ".tiff")
-    if is_cube_path(p) or (tif and tiff_is_cube(p, wavelengths_given=wavelengths is not None)):
-        data = read_cube(p, wavelengths=wavelengths, kind=cube_kind, max_megapixels=mp)
-    else:
-        data = read_image(p, max_megapixels=mp)
+    data = _read_input(p, cube_kind=cube_kind, wavelengths=wavelengths, max_megapixels=max_megapixels)
     cube = isinstance(data, Cube)
     guard = [str(x) for x in inputs] + [str(p)]
     settings = renderer.describe()
@@ -219,22 +214,44 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         if panel_path is not None:
             small[v] = _small(arr)
     if panel_path is not None:
-        from .io.atomic import write_bytes
-
-        titles = panel_titles(renderer)
-        if not cube:
-            titles["original"] = "original"
-        for v in VIEWS:
-            if v not in small:
-                arr, _ = (renderer.apply_cube(data, v, dtype=out_dtype) if cube
-                          else renderer.apply(data, v, dtype=out_dtype, out=buffer))
-                buffer = None if cube else arr
-                small[v] = _small(arr)
-        ordered = {v: small[v] for v in VIEWS}
         meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png", **stamp("panel")}}
-        write_bytes(panel_path, _rendering.panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=meta),
-                    inputs=guard)
+        _write_panel(panel_path, renderer, data, small, buffer, out_dtype=out_dtype, metadata=meta, inputs=guard)
         record["panel"] = str(panel_path)
         if "panel" in fps:
             record["fingerprints"]["panel"] = fps["panel"]
     return record
+
+
+def _read_input(p: pathlib.Path, *, cube_kind, wavelengths, max_megapixels):
+    """An input file as a Cube (cube files, TIFF cubes) or ImageData."""
+    from .io.cubes import is_cube_path, read_cube, tiff_is_cube
+    from .io.images import DEFAULT_MAX_MEGAPIXELS, read_image
+
+    mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
+    tif = p.suffix.lower() in (".tif", ".tiff")
+    if is_cube_path(p) or (tif and tiff_is_cube(p, wavelengths_given=wavelengths is not None)):
+        return read_cube(p, wavelengths=wavelengths, kind=cube_kind, max_megapixels=mp)
+    return read_image(p, max_megapixels=mp)
+
+
+def _write_panel(panel_path, renderer: Renderer, data, small: dict, buffer, *, out_dtype, metadata: dict,
+                 inputs) -> None:
+    """The 2x2 panel of every view: ``small`` holds the views already rendered (reduced); the rest are
+    rendered here (into ``buffer`` for images)."""
+    from .io.atomic import write_bytes
+    from .io.cubes import Cube
+
+    cube = isinstance(data, Cube)
+    titles = panel_titles(renderer)
+    if not cube:
+        titles["original"] = "original"
+    for v in VIEWS:
+        if v not in small:
+            arr, _ = (renderer.apply_cube(data, v, dtype=out_dtype) if cube
+                      else renderer.apply(data, v, dtype=out_dtype, out=buffer))
+            buffer = None if cube else arr
+            small[v] = _small(arr)
+    ordered = {v: small[v] for v in VIEWS}
+    # rendering.panel is looked up at call time (the panel lives in rendering.py).
+    write_bytes(panel_path, _rendering.panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=metadata),
+                inputs=inputs)
