@@ -220,10 +220,11 @@ def raw_fundamentals(obs: Observer) -> np.ndarray:
         from .machado2009 import machado_peak_factors
 
         p = obs.params
-        return f * machado_peak_factors(obs.deficiency, p["severity"], age=p["age"], field=p["field"])
+        return f * machado_peak_factors(str(obs.deficiency), p["severity"], age=p["age"], field=p["field"])
     scale = np.ones(3)
     k = obs.affected_cone
-    scale[k] = obs.base.fundamentals[:, k].sum() / f[:, k].sum()
+    base = obs.base if obs.base is not None else obs  # an anomalous observer always has its base
+    scale[k] = base.fundamentals[:, k].sum() / f[:, k].sum()
     return f * scale
 
 
@@ -304,18 +305,19 @@ def methods_for(obs: Observer) -> tuple:
 
 
 def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray, primaries) -> Simulation:
-    k = obs.missing_cone
+    deficiency = str(obs.deficiency)
+    k = _MISSING[deficiency]  # obs.missing_cone, as an int for a dichromat
     f = obs.fundamentals
     raw_white = spd @ f
     gains = white / raw_white  # raw excitations -> adapted, as for the inputs
-    anchors_nm = ANCHORS_NM[obs.deficiency]
+    anchors_nm = ANCHORS_NM[deficiency]
     anchors = _anchor_lms(obs, anchors_nm) * gains
     axis = np.eye(3)[k]
     info = {"missing_cone": k, "anchors_nm": anchors_nm, "anchors_lms": anchors,
             "raw_white_lms": raw_white}
     if method == "vienot1999":
         p = np.asarray(primaries, dtype=float)
-        m = vienot_plane_matrix((f.T @ p) * gains[:, None], obs.deficiency)
+        m = vienot_plane_matrix((f.T @ p) * gains[:, None], deficiency)
         info["neutral_lms"] = (p.sum(axis=1) @ f) * gains
         info["blue_lms"] = (p[:, 2] @ f) * gains
         return Simulation(obs, method, PiecewiseLinear.linear(m), white, info)
@@ -346,12 +348,12 @@ def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray, p
 
 
 def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: str) -> Simulation:
-    info = {"affected_cone": obs.affected_cone, "normalisation": normalisation}
+    info: dict = {"affected_cone": obs.affected_cone, "normalisation": normalisation}
     if normalisation == "cone":
         return Simulation(obs, "machado2009", PiecewiseLinear.linear(np.eye(3)), white, info)
     t = MATRIX_LMS_TO_OPPONENT
     raw_a = spd @ raw_fundamentals(obs)
-    raw_n = spd @ obs.base.fundamentals
+    raw_n = spd @ (obs.base if obs.base is not None else obs).fundamentals
     scale = (t @ raw_n) / (t @ raw_a)
     # Machado's per-channel scaling divides by the white's opponent responses;
     # YB and RG are near 0 for many whites, and then the scaling is meaningless
