@@ -7,7 +7,8 @@ Spectra
     Grid, DEFAULT_GRID, FilterSet, load_filters, parse_filter_spec, find_notches,
     illuminant, Illuminant, surface_set, SurfaceSet, read_spectra, inspect_filters, catalog
 Observers
-    observer, Observer, cone_fundamentals (CIE 2006 by age and field), simulate, simulation
+    observer, Observer, cone_fundamentals (CIE 2006 by age and field), simulate, simulation,
+    population, Population (individual observers, Asano et al. 2016: any observer spec plus n=N)
 Main jobs
     score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report
 
@@ -43,6 +44,8 @@ _LAZY = {
     "observer": "cvdfilter.observers.observer",
     "Observer": "cvdfilter.observers.observer",
     "cone_fundamentals": "cvdfilter.observers.cie2006",
+    "population": "cvdfilter.observers.population",
+    "Population": "cvdfilter.observers.population",
     "simulate": "cvdfilter.observers.simulate",
     "simulation": "cvdfilter.observers.simulate",
     "score": "cvdfilter.scorecard",

@@ -24,6 +24,7 @@ from .inspection import inspect_filters as inspect_filters, catalog as catalog
 from .observers.observer import observer as observer, Observer as Observer
 from .observers.cie2006 import cone_fundamentals as cone_fundamentals
 from .observers.simulate import simulate as simulate, simulation as simulation
+from .observers.population import population as population, Population as Population
 from .scorecard import score as score, Scorecard as Scorecard
 from .rendering import (
     render as render,
@@ -40,6 +41,7 @@ __all__ = [
     "__version__", "Grid", "DEFAULT_GRID", "FilterSet", "load_filters", "parse_filter_spec", "find_notches",
     "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density", "illuminant", "Illuminant",
     "surface_set", "SurfaceSet", "read_spectra", "inspect_filters", "catalog", "observer", "Observer",
-    "cone_fundamentals", "simulate", "simulation", "score", "Scorecard", "render", "render_views",
+    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render",
+    "render_views",
     "render_spectra", "Renderer", "figure", "report", "InputError", "CAVEAT"
 ]

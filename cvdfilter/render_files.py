@@ -46,8 +46,10 @@ def output_dtype(fmt: str, pixels_dtype, *, cube: bool = False) -> np.dtype:
 
 
 def panel_titles(renderer: Renderer) -> dict:
-    """Panel captions for a renderer's settings."""
-    obs = renderer.observer.spec
+    """Panel captions for a renderer's settings (the observer by its readable label)."""
+    from .observers.labels import observer_label
+
+    obs = observer_label(renderer.observer)
     flt = renderer.filter_name or "no filter"
     return {v: t.format(observer=obs, filter=flt) for v, t in VIEW_TITLES.items()}
 

@@ -267,11 +267,14 @@ class Renderer:
     gamut : str
         ``clip`` (default) or ``none`` (float output only keeps out-of-gamut values).
     grid : Grid
+    units, bandwidth : optional
+        Units and instrument bandwidth (nm) of a filter file that does not set its own (``FILE@units=od``).
     """
 
     def __init__(self, filter=None, *, observer="normal", illuminant="D65", adaptation="full",
                  method: str | None = None, normalisation: str = "cone", scene: str = "reflectance",
-                 gamut: str = "clip", grid: Grid = DEFAULT_GRID) -> None:
+                 gamut: str = "clip", grid: Grid = DEFAULT_GRID, units: str | None = None,
+                 bandwidth: float | None = None) -> None:
         from .observers.observer import observer as make_observer
         from .observers.spaces import parse_adaptation
         from .spectra.filters import load_filters
@@ -291,10 +294,11 @@ class Renderer:
             self.filter_name = None
             self.transmittance = np.ones(grid.size)
         else:
-            fs = load_filters(filter, grid=grid)
+            fs = load_filters(filter, grid=grid, units=units, bandwidth=bandwidth)
             if len(fs) != 1:
                 raise InputError(f"describes {len(fs)} filters; rendering takes one", source=str(filter),
-                                 hint="give a single filter (no sweep, no list)")
+                                 hint="give a single filter (no sweep, no list); pick one column of a file with "
+                                      "FILE:COLUMN or FILE:N, e.g. lenses.csv:2")
             self.filter_name = fs.names[0]
             self.transmittance = np.asarray(fs.transmittance[0], dtype=float)
         self.scene, self.stimuli, self.display = _scene(scene, self.illuminant.spd, self.normal, grid)
@@ -774,6 +778,35 @@ def _for_display(px: np.ndarray) -> np.ndarray:
     return rgb
 
 
+#: Text sizes in panels, pt at the panel's final width (nothing under 6 pt in print; common practice).
+PANEL_TITLE_PT = 7.0
+PANEL_FOOTER_PT = 6.5
+
+
+def _panel_wrap(text: str, width_pt: float, size: float) -> list[str]:
+    """Greedy word wrap measured with the Agg renderer (not a character-count estimate)."""
+    from matplotlib.backends.backend_agg import RendererAgg
+    from matplotlib.font_manager import FontProperties
+
+    renderer = RendererAgg(8, 8, 72)
+    prop = FontProperties(family="DejaVu Sans", size=size)
+
+    def width(t):
+        return renderer.get_text_width_height_descent(t, prop, ismath=False)[0]
+
+    lines, line = [], ""
+    for word in " ".join(str(text).split()).split(" "):
+        trial = f"{line} {word}" if line else word
+        if line and width(trial) > width_pt:
+            lines.append(line)
+            line = word
+        else:
+            line = trial
+    if line:
+        lines.append(line)
+    return lines
+
+
 def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_mm: float = 183.0,
           dpi: int = 300, max_pixels: int = 1200, metadata: dict | None = None) -> bytes:
     """A labelled 2x2 panel of views, as PNG bytes (matplotlib, Agg).
@@ -783,14 +816,16 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     images : dict
         View name -> image (uint8/uint16 sRGB or float linear), in panel order (up to 4).
     titles : dict, optional
-        View name -> caption (default: the view name).
+        View name -> caption (default: the view name); wrapped to the view's width, and the titles
+        of a row padded to the same number of lines so the views stay aligned.
     footer : str
-        Small text under the panel (settings and the caveat).
+        Text under the panel (settings and the caveat), :data:`PANEL_FOOTER_PT` pt at ``width_mm``.
     width_mm : float
         Figure width, mm (183 mm: a two-column journal figure).
     dpi : int
     max_pixels : int
-        Each view is shown downsampled (stride) to at most this many pixels on its long side.
+        Each view is shown reduced (stride) to at most this many pixels on its long side, and
+        resampled with antialiasing into the panel.
     metadata : dict, optional
         More PNG text chunks (key -> text or JSON-able value).
 
@@ -799,8 +834,6 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     bytes
         PNG data.
     """
-    import textwrap
-
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
@@ -819,25 +852,34 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     cols = 2 if len(names) > 1 else 1
     rows_n = int(np.ceil(len(names) / cols))
     width_in = width_mm / 25.4
+    margin_in = 0.04
     cell_w = width_in / cols
-    title_in = 0.28
-    footer_lines = textwrap.wrap(footer, 150) if footer else []
-    height_in = rows_n * (cell_w * h / w + title_in) + 0.14 * len(footer_lines) + 0.1
+    image_w = cell_w - 2 * margin_in
+    line_in = PANEL_TITLE_PT * 1.25 / 72
+    captions = [f"({'abcd'[i]}) {(titles or {}).get(n, n)}" for i, n in enumerate(names)]
+    wrapped = [_panel_wrap(c, image_w * 72, PANEL_TITLE_PT) for c in captions]
+    row_lines = [max(len(t) for t in wrapped[r * cols:(r + 1) * cols]) for r in range(rows_n)]
+    footer_lines = _panel_wrap(footer, (width_in - 2 * margin_in) * 72, PANEL_FOOTER_PT) if footer else []
+    footer_in = (len(footer_lines) * PANEL_FOOTER_PT * 1.3 / 72 + 0.08) if footer_lines else 0.04
+    row_in = [image_w * h / w + row_lines[r] * line_in + 0.1 for r in range(rows_n)]
+    height_in = sum(row_in) + footer_in
     fig = Figure(figsize=(width_in, height_in), dpi=dpi)
-    letters = "abcd"
-    footer_h = (0.14 * len(footer_lines) + 0.1) / height_in
-    cell_h = (1.0 - footer_h) / rows_n
-    for i, n in enumerate(names):
-        r, c = divmod(i, cols)
-        ax = fig.add_axes([c / cols + 0.005, 1.0 - (r + 1) * cell_h, 1.0 / cols - 0.01,
-                           cell_h - title_in / height_in])
-        ax.imshow(shown[n], interpolation="antialiased")
-        ax.set_axis_off()
-        caption = (titles or {}).get(n, n)
-        ax.set_title(f"({letters[i]}) {caption}", fontsize=7, loc="left", pad=3)
+    top = height_in
+    for r in range(rows_n):
+        top -= row_in[r]
+        for c in range(cols):
+            i = r * cols + c
+            if i >= len(names):
+                break
+            ax = fig.add_axes([(c * cell_w + margin_in) / width_in, top / height_in, image_w / width_in,
+                               image_w * h / w / height_in])
+            ax.imshow(shown[names[i]], interpolation="antialiased")
+            ax.set_axis_off()
+            lines = [""] * (row_lines[r] - len(wrapped[i])) + wrapped[i]
+            ax.set_title("\n".join(lines), fontsize=PANEL_TITLE_PT, loc="left", pad=3, linespacing=1.1)
     if footer_lines:
-        fig.text(0.005, 0.02 / height_in * 2, "\n".join(footer_lines), fontsize=4.5, va="bottom", ha="left",
-                 color="0.25")
+        fig.text(margin_in / width_in, 0.04 / height_in, "\n".join(footer_lines), fontsize=PANEL_FOOTER_PT,
+                 va="bottom", ha="left", color="0.2", linespacing=1.15)
     canvas = FigureCanvasAgg(fig)
     canvas.draw()
     rgb = np.ascontiguousarray(np.asarray(canvas.buffer_rgba())[..., :3])

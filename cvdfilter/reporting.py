@@ -40,7 +40,7 @@ import numpy as np
 from ._version import __version__
 from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from .errors import InputError
-from .tables import fixed as _fmt, markdown_lines as _md_table, yes_no as _yes
+from .tables import fixed as _fmt, markdown_cell as _md_cell, markdown_lines as _md_table, yes_no as _yes
 
 __all__ = ["report", "Report", "ReportFigure", "REFERENCES", "SECTIONS", "environment", "transmittance_sha256",
            "REPORT_FIGURES"]
@@ -231,29 +231,96 @@ class Report:
                              _fmt(r["duv"], 4), " ".join(_fmt(v, 0) for v in r["chroma_shifts"])])
         return header, rows
 
-    def _observer_table(self) -> tuple[list, list]:
-        # Costs (luminous transmittance, white shift, Rf for the normal observer; pairs lost) sit in the same
-        # row as every gain: a gain is never shown alone.
-        header = ["filter", "observer", "red-green gain", "blue-yellow gain", "luminance gain",
-                  "discriminable pairs without", "with", "gained", "lost",
-                  "confused pairs without", "with", "resolved", "created", "median Delta S ratio",
-                  "cost: luminous transmittance (%)", "cost: white shift du'v'", "cost: Rf (normal observer)"]
-        rows = []
+    #: Per-observer table: column groups (HTML spans them over their columns) and the columns.
+    # Costs (luminous transmittance, white shift, Rf for the normal observer) are the filter's, the same for
+    # every observer: they head each filter's group of rows (and sit in every row of the flat table), so a
+    # gain is never shown alone.
+    _OBSERVER_GROUPS = (("", 1), ("contrast gain (with / without filter)", 3),
+                        ("discriminable surface pairs", 4), ("confused surface pairs", 4), ("", 1))
+    _OBSERVER_COLUMNS = ("observer", "red-green", "blue-yellow", "luminance", "without filter", "with filter",
+                         "gained", "lost", "without filter", "with filter", "resolved", "created",
+                         "median \u0394S ratio")
+    _OBSERVER_FLAT = ("contrast gain: red-green", "contrast gain: blue-yellow", "contrast gain: luminance",
+                      "discriminable pairs: without", "with", "gained", "lost", "confused pairs: without", "with",
+                      "resolved", "created", "median Delta S ratio", "cost: luminous transmittance (%)",
+                      "cost: white shift du'v'", "cost: Rf (normal observer)")
+
+    def _observer_rows(self) -> list[tuple[str, list]]:
+        """Per filter: its name, its costs and one row per observer (readable observer label, the numbers, then
+        the filter's three costs repeated)."""
+        from .observers.labels import observer_label
+
+        out = []
         for f in self.card["filters"]:
             tv = f.get("luminous_transmittance")
             costs = [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
                      _fmt((f.get("rendition") or {}).get("rf"), 1)]
+            rows = []
             for o in f["observers"]:
                 p = o.get("discriminable_pairs")
                 cp = o.get("confusion_pairs")
                 dist = o.get("delta_s_distribution")
                 ratio = cp["median_delta_s_ratio"] if cp else (dist or {}).get("median_ratio")
-                rows.append([f["name"], o["observer"], _fmt(o.get("red_green_gain"), 3),
+                try:
+                    who = observer_label(o["observer"])
+                except Exception:   # a label is cosmetic; the spec is always a valid name
+                    who = str(o["observer"])
+                rows.append([who, _fmt(o.get("red_green_gain"), 3),
                              _fmt(o.get("blue_yellow_gain"), 3), _fmt(o.get("luminance_contrast_gain"), 3),
                              *(["-"] * 4 if not p else [p["without"], p["with"], p["gained"], p["lost"]]),
                              *(["-"] * 4 if not cp else [cp["without"], cp["with"], cp["resolved"], cp["created"]]),
                              _fmt(ratio, 3), *costs])
-        return header, rows
+            out.append((f["name"], costs, rows))
+        return out
+
+    @staticmethod
+    def _costs_text(costs) -> str:
+        tv, ws, rf = costs
+        return (f"costs: luminous transmittance {tv} %, white shift \u0394u\u2032v\u2032 {ws}, "
+                f"Rf (normal observer) {rf}")
+
+    def _observer_table(self) -> tuple[list, list]:
+        """The per-observer numbers as one flat table (filter, observer, ...): for CSV-like uses."""
+        header = ["filter", "observer", *self._OBSERVER_FLAT]
+        return header, [[name, *r] for name, _, rows in self._observer_rows() for r in rows]
+
+    def _observer_html(self) -> str:
+        """Grouped headers, a full-width row naming each filter, then its observers (no filter column:
+        long names never squeeze the numbers, and the table fits a 1,200-pixel window)."""
+        e = html.escape
+        n_cols = len(self._OBSERVER_COLUMNS)
+        out = ['<table class="observers">', "<thead><tr>" + "".join(
+            f'<th colspan="{span}" class="group">{e(g)}</th>' for g, span in self._OBSERVER_GROUPS) + "</tr>",
+               "<tr>" + "".join(f"<th>{e(c)}</th>" for c in self._OBSERVER_COLUMNS) + "</tr></thead>", "<tbody>"]
+        for name, costs, rows in self._observer_rows():
+            out.append(f'<tr class="filter"><th colspan="{n_cols}" scope="rowgroup">{e(name)} '
+                       f'<span class="costs">\u2014 {e(self._costs_text(costs))}</span></th></tr>')
+            for r in rows:
+                r = r[:n_cols]
+                out.append("<tr>" + "".join(f'<td class="num">{e(str(v))}</td>' if _is_number(v) and j else
+                                            f"<td>{e(str(v))}</td>" for j, v in enumerate(r)) + "</tr>")
+        out += ["</tbody>", "</table>"]
+        return "\n".join(out)
+
+    def _observer_markdown(self) -> list[str]:
+        header = ["observer", *self._OBSERVER_FLAT[:len(self._OBSERVER_COLUMNS) - 1]]
+        lines = []
+        for name, costs, rows in self._observer_rows():
+            lines += [f"**{_md_cell(name)}** \u2014 {self._costs_text(costs)}", "",
+                      *_md_table(header, [r[:len(header)] for r in rows]), ""]
+        return lines
+
+    def _numbered(self) -> list[tuple]:
+        """(number or None, figure): figures that are drawn are numbered 1, 2, ... in order; those left out
+        get None (a note, no caption)."""
+        out, k = [], 0
+        for fig in self.figures:
+            if fig.svg:
+                k += 1
+                out.append((k, fig))
+            else:
+                out.append((None, fig))
+        return out
 
     def _reasons(self) -> list[tuple[str, list]]:
         return [(f["name"], f["road_use"]["reasons"]) for f in self.card["filters"] if f.get("road_use")]
@@ -294,18 +361,19 @@ class Report:
         if rows:
             out += ["<h3>Colour rendition of the light through the filter (TM-30 / CIE 224, CIE 13.3)</h3>",
                     _html_table(header, rows)]
-        out += ["<h3>Per observer</h3>", f"<p>{e(_OBSERVER_NOTE)}</p>", _html_table(*self._observer_table()),
+        out += ["<h3>Per observer</h3>", f"<p>{e(_OBSERVER_NOTE)}</p>", self._observer_html(),
                 "<details><summary>Full scorecard (JSON)</summary>",
                 f"<pre><code>{e(json.dumps(self.card, indent=1, ensure_ascii=False))}</code></pre></details>",
                 "</section>"]
         # figures
         out += ['<section id="figures">', f"<h2>{SECTIONS['figures']}</h2>"]
-        for k, fig in enumerate(self.figures, start=1):
+        for k, fig in self._numbered():
+            if k is None:
+                # a figure left out gets a note, never a caption or a number
+                out.append(f'<p class="note" id="left-out-{e(fig.kind)}">{e(fig.note)}</p>')
+                continue
             out.append(f'<figure id="figure-{e(fig.kind)}">')
-            if fig.svg:
-                out.append(_inline_svg(fig.svg, f"f{k}", fig.caption))
-            else:
-                out.append(f'<p class="note">{e(fig.note)}</p>')
+            out.append(_inline_svg(fig.svg, f"f{k}", fig.caption))
             out.append(f"<figcaption><strong>Figure {k}.</strong> {e(fig.caption)}</figcaption></figure>")
         out.append("</section>")
         # models
@@ -350,17 +418,16 @@ class Report:
                       *_md_table(header, rows), ""]
         json_name = f"{figure_dir}/scorecard.json"
         files[json_name] = (json.dumps(self.card, indent=2, ensure_ascii=False) + "\n").encode("utf-8")
-        lines += ["### Per observer", "", _OBSERVER_NOTE, "", *_md_table(*self._observer_table()), "",
+        lines += ["### Per observer", "", _OBSERVER_NOTE, "", *self._observer_markdown(),
                   f"The full scorecard: [{json_name}]({_md_link(json_name)}).", "",
                   f"## {SECTIONS['figures']}", ""]
-        for k, fig in enumerate(self.figures, start=1):
-            if fig.svg:
-                name = f"{figure_dir}/{k:02d}-{fig.kind}.svg"
-                files[name] = fig.svg
-                lines += [f"![Figure {k}: {fig.kind}]({_md_link(name)})", ""]
-            else:
+        for k, fig in self._numbered():
+            if k is None:
                 lines += [f"_{fig.note}_", ""]
-            lines += [f"**Figure {k}.** {fig.caption}", ""]
+                continue
+            name = f"{figure_dir}/{k:02d}-{fig.kind}.svg"
+            files[name] = fig.svg
+            lines += [f"![Figure {k}: {fig.kind}]({_md_link(name)})", "", f"**Figure {k}.** {fig.caption}", ""]
         lines += [f"## {SECTIONS['models']}", ""] + [f"- **{use}**: {ref}" for use, ref in REFERENCES] + [""]
         lines += [f"## {SECTIONS['cautions']}", ""] + [f"- {c}" for c in (CAVEAT, ROAD_CAUTION, EYE_CARE_CAUTION)]
         return "\n".join(lines) + "\n", files
@@ -420,6 +487,9 @@ th,td{border:1px solid #ccc;padding:.2rem .4rem;text-align:left;vertical-align:t
 th{background:#f2f2f2}td.num{text-align:right;font-variant-numeric:tabular-nums}
 td.mono{font-family:"DejaVu Sans Mono",monospace;font-size:.72rem;word-break:break-all}
 table.kv th{width:12rem}
+table.observers{font-size:.76rem}table.observers td.num,table.observers td:first-child{white-space:nowrap}
+table.observers th,table.observers td{padding:.15rem .3rem}table.observers .costs{font-weight:normal}table.observers th.group{text-align:center}
+table.observers tr.filter th{background:#fafafa;font-weight:bold;text-align:left;word-break:break-word}
 pre{background:#f6f6f6;padding:.6rem;overflow-x:auto;font-size:.8rem;white-space:pre-wrap;word-break:break-all}
 figure{margin:1.2rem 0;padding:0}figure svg{width:100%;height:auto;display:block}
 figcaption{font-size:.88rem;color:#333;margin-top:.3rem}
@@ -521,8 +591,9 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
 
     def add(kind, caption, make, limit=None):
         if limit is not None and n > limit:
-            figs.append(ReportFigure(kind, caption, note=f"The {kind} figure is left out: it compares at most "
-                                                         f"{limit} filters and this report has {n}."))
+            figs.append(ReportFigure(kind, caption, note=f"Not drawn: the {kind} figure compares at most {limit} "
+                                                         f"filters and this report has {n}; draw it for fewer "
+                                                         f"filters with 'cvdfilter figure {kind} FILTER ...'."))
             return
         result = make()
         figs.append(ReportFigure(kind, caption, result.to_bytes("svg", salt=f"cvdfilter-report-{kind}")))
@@ -544,7 +615,8 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
                              for name, cones in unlit.items())
         caption = (f"MacLeod-Boynton chromaticities of the {surfaces} surfaces under {illuminant} without and "
                    f"with each filter (adaptation {adaptation}), with the {deficient} observer's copunctal point "
-                   "and confusion lines." + (f" Left out, having no chromaticity: {left_out}." if unlit else ""))
+                   "and confusion lines; above 24 surfaces, arrows are drawn for 24 spread over the diagram and the "
+                   "others are dots." + (f" Left out, having no chromaticity: {left_out}." if unlit else ""))
         if keep:
             add("chromaticity", caption, lambda: figure("chromaticity", _subset(fs, keep), observers=deficient,
                                                         surfaces=surfaces, **common), limit=4)
@@ -570,10 +642,15 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
             figs.append(ReportFigure("swatches", "Surface colours without and with the filter.",
                                      note=f"The swatches figure is left out: no filter passes light to every cone "
                                           f"({left_out}), so there is nothing to adapt to."))
-    from .figures.sweep import swept_parameters
+    from .figures.sweep import filter_parameters
 
-    varying, _ = swept_parameters(fs.names) if n >= 3 else ([], {})
-    if varying:
+    varying, _ = filter_parameters(fs) if n >= 3 else ([], {})
+    if len(varying) == 2:
+        add("sweep", f"Red-green gain per observer and luminous transmittance over the two swept parameters "
+                     f"({varying[0]} across, {varying[1]} up), as heat maps on the cividis colour scale (one "
+                     "colour bar per metric).",
+            lambda: figure("sweep", fs, card=card, **common))
+    elif varying:
         add("sweep", f"Red-green gain per observer and luminous transmittance against the swept parameter "
                      f"({varying[0]}).",
             lambda: figure("sweep", fs, card=card, **common))
@@ -596,7 +673,8 @@ def _subset(fs, keep):
 
 
 def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = "ces99", adaptation="full",
-           metrics: str = "all", style=None, output: str | os.PathLike | None = None) -> Report:
+           metrics: str = "all", style=None, output: str | os.PathLike | None = None,
+           units: str | None = None, bandwidth: float | None = None) -> Report:
     """Score filters and build a report with tables, figures, models, cautions and a reproduction record.
 
     Parameters
@@ -634,6 +712,9 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
     else:
         style_items = [style] if isinstance(style, (str, os.PathLike)) else list(style)
         parsed_style = parse_style([str(x) for x in style_items])
+    from .spectra.filters import spec_paths, with_file_options
+
+    filters = with_file_options(filters, units=units, bandwidth=bandwidth)  # units/bandwidth of filter files
     fs = load_filters_checked(filters)
     card = score(fs, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
                  metrics=metrics).to_dict()
@@ -646,7 +727,7 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
                        style_items if all(isinstance(s, str) for s in style_items) else (), output)
     result = Report(card=card, filters=_describe_filters(fs), figures=figs, command=command)
     if output is not None:
-        inputs = [f for f in raw_filters if isinstance(f, (str, os.PathLike)) and pathlib.Path(f).exists()]
+        inputs = [p for f in raw_filters for p in spec_paths(f)]  # files inside specs (FILE:COL@units=...)
         inputs += [s for s in style_items if isinstance(s, str) and pathlib.Path(s).exists()]
         result.written = result.save(output, inputs=inputs)
     return result

@@ -135,8 +135,13 @@ class ScoreInputs:
                  weber_fraction: float = WEBER_FRACTION, cone_ratios=CONE_RATIOS,
                  discrimination_threshold: float = DISCRIMINATION_THRESHOLD,
                  distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
-                 deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None) -> ScoreInputs:
-        """Check and load every input; raises InputError before any heavy work."""
+                 deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, units: str | None = None,
+                 bandwidth: float | None = None, sensitivity: bool = False) -> ScoreInputs:
+        """Check and load every input; raises InputError before any heavy work.
+
+        An observer spec with ``n=N`` becomes a :class:`~cvdfilter.observers.population.Population`
+        (not with ``sensitivity``).
+        """
         from .metrics.discrimination import receptor_noise
         from .metrics.road_use import parse_signal_limits
         from .observers.fundamentals import cie1931_cmfs
@@ -163,10 +168,17 @@ class ScoreInputs:
             limits, reading = parse_signal_limits(signal_limits)
         except (ValueError, TypeError) as exc:
             raise InputError(str(exc)) from None
-        fs = load_filters(filters, grid=grid)
+        fs = load_filters(filters, grid=grid, units=units, bandwidth=bandwidth)
         ill = make_illuminant(illuminant, grid)
         surf = surface_set(surfaces, grid)
-        obs = [make_observer(o, grid) for o in observers]
+        from .observers.population import Population, is_population_spec
+        from .observers.population import population as make_population
+
+        obs = [o if isinstance(o, Population) else make_population(o, grid) if is_population_spec(o)
+               else make_observer(o, grid) for o in observers]
+        if sensitivity and any(isinstance(o, Population) for o in obs):
+            raise InputError("sensitivity is not available for population observers yet",
+                             hint="score the population without --sensitivity, or its centre observer with it")
         cmfs = cie1931_cmfs(grid)
         d65 = make_illuminant("D65", grid).spd
         lights = signal_lights(signal_spectra, grid, cmfs[:, 1]) if "road_use" in groups else []
@@ -272,17 +284,16 @@ def cone_basis(observers) -> tuple[np.ndarray, list]:
     """Unique cone-sensitivity columns (n_wl, K) and, per observer, the indices of its L, M, S columns."""
     columns: list = []
     index = []
+    seen: dict = {}
     for o in observers:
         idx = []
         for c in range(3):
-            col = o.fundamentals[:, c]
-            for k, u in enumerate(columns):
-                if u is col or np.array_equal(u, col):
-                    idx.append(k)
-                    break
-            else:
+            col = np.ascontiguousarray(o.fundamentals[:, c], dtype=float)
+            key = col.tobytes()  # equal bytes = equal columns (one dictionary look-up, not a scan)
+            if key not in seen:
+                seen[key] = len(columns)
                 columns.append(col)
-                idx.append(len(columns) - 1)
+            idx.append(seen[key])
         index.append(idx)
     return np.stack(columns, axis=1), index
 
@@ -355,12 +366,14 @@ def _pair_plan(plan: ObserverPlan, inp: ScoreInputs, q0: np.ndarray, stimuli: np
         store["discriminable_median_ratio"] = np.full(n_f, np.nan)
 
 
-def plan_observers(inp: ScoreInputs) -> tuple[list[ObserverPlan], ChunkRunner]:
-    """Per observer its :class:`ObserverPlan`, and the :class:`ChunkRunner` that fills them."""
+def plan_observers(inp: ScoreInputs, observers=None) -> tuple[list[ObserverPlan], ChunkRunner]:
+    """Per observer (default: all of ``inp``'s) its :class:`ObserverPlan`, and the :class:`ChunkRunner`
+    that fills them."""
     from .metrics.contrast import opponent_channels, rms_without
 
     grid, n_f, n_s = inp.grid, len(inp.filters), len(inp.surfaces)
-    basis, cols = cone_basis(inp.observers)
+    observers = inp.observers if observers is None else observers
+    basis, cols = cone_basis(observers)
     k_cols = basis.shape[1]
     stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance, np.ones((grid.size, 1))],
                                                            axis=1)
@@ -368,7 +381,7 @@ def plan_observers(inp: ScoreInputs) -> tuple[list[ObserverPlan], ChunkRunner]:
     B = (basis[:, :, None] * stimuli[:, None, :]).reshape(grid.size, k_cols * (n_s + 1))
     Q0 = B.sum(axis=0).reshape(k_cols, n_s + 1)  # without the filter (T = 1)
     plans = []
-    for k, o in enumerate(inp.observers):
+    for k, o in enumerate(observers):
         c = cols[k]
         q0, w0 = Q0[c, :n_s].T, Q0[c, n_s]
         plan = ObserverPlan(o, c, w0)

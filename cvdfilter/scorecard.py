@@ -42,6 +42,7 @@ from .metrics.confusion import DEFICIENT_THRESHOLD, NORMAL_THRESHOLD
 from .metrics.discrimination import CONE_RATIOS, DISCRIMINATION_THRESHOLD, DISTRIBUTION_THRESHOLDS, WEBER_FRACTION
 from .score_plan import (CONFUSION_KEYS as _CONFUSION_KEYS, CORE_METRICS, DEFAULT_OBSERVERS, METRIC_GROUPS,
                          PAIR_KEYS as _PAIR_KEYS, parse_metrics)
+from .score_population import is_population
 from .score_sensitivity import SENSITIVITY_RANGES
 
 __all__ = ["score", "Scorecard", "DEFAULT_OBSERVERS", "METRIC_GROUPS", "CORE_METRICS", "parse_metrics",
@@ -94,6 +95,12 @@ class Scorecard:
     sensitivity : dict or None
         With ``score(..., sensitivity=True)``: the verdicts under each
         variation of :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section).
+    members : bool
+        Population entries carry every member's values (``members``).
+
+    For a population (an entry of ``observers`` that is a :class:`~cvdfilter.observers.population.Population`)
+    ``per_observer`` holds arrays shaped (filters, members) (and (members,) for values that do not depend
+    on the filter); its JSON entry is :func:`cvdfilter.score_population.population_entry`.
     """
 
     filters: Any  # FilterSet
@@ -108,6 +115,7 @@ class Scorecard:
     settings: dict = field(default_factory=dict)
     inputs: dict = field(default_factory=dict)
     sensitivity: dict | None = None
+    members: bool = False
 
     def __len__(self) -> int:
         return len(self.filters)
@@ -133,6 +141,14 @@ class Scorecard:
         where = info.get("path") or info.get("spec")
         if where:
             d["input"] = where
+        if info.get("column_number") is not None:  # files: the path and column each filter came from
+            d["source"] = {"kind": d["source"], "path": info["path"], "column": info.get("column"),
+                           "column_number": info["column_number"], "units": info.get("units"),
+                           "units_reason": info.get("units_reason")}
+        extrapolated = list(info.get("extrapolated", []))
+        for part in info.get("parts") or []:
+            extrapolated += part.get("extrapolated", [])
+        d["extrapolated"] = extrapolated
         if info.get("sha256"):
             d["sha256"] = info["sha256"]
         warnings = list(info.get("warnings", []))
@@ -171,6 +187,10 @@ class Scorecard:
         return d
 
     def _observer_dict(self, i: int, k: int) -> dict:
+        if is_population(self.observers[k]):
+            from .score_population import population_entry
+
+            return population_entry(self, i, k)
         o = self._lists[1][k]
         d = {"observer": self.observers[k].spec}
         if "contrast" in self.metrics:
@@ -207,10 +227,18 @@ class Scorecard:
                 }
         return d
 
+    @functools.cached_property
+    def _population_summaries(self) -> dict:
+        """Per population index: metric -> statistics arrays over filters (computed once, vectorised)."""
+        from .score_population import population_summaries
+
+        return population_summaries(self)
+
     def header(self) -> dict:
         """The top-level keys of :meth:`to_dict` other than ``filters``."""
         from .metrics.discrimination import receptor_noise
         from .metrics.pairs import pair_count
+        from .metrics.population_stats import CONFIDENCE, RATIO_TOLERANCE
         from .metrics.road_use import (CATEGORY_BANDS, DEFAULT_SIGNAL_READING, NIGHT_MIN, RATIO_BAND_NM, RATIO_LIMIT,
                                        SIGNAL_COLOURS, SIGNAL_LIMIT_READINGS, SIGNAL_LIMIT_SOURCES, SIGNAL_LIMITS)
 
@@ -225,7 +253,9 @@ class Scorecard:
                          "pairs": pair_count(len(surf))},
             "adaptation": {"spec": _adaptation_text(self.adaptation), "degree": self.adaptation,
                            "model": "von Kries, to the illuminant seen through the filter"},
-            "observers": [{"observer": o.spec, "kind": o.kind, "deficiency": o.deficiency} for o in self.observers],
+            "observers": [{"observer": o.spec, "kind": o.kind, "deficiency": o.deficiency,
+                           **({"population": {"n": o.n, "variation": o.variation, "seed": o.seed}}
+                              if is_population(o) else {})} for o in self.observers],
             "metrics": list(self.metrics),
             "grid": {"start_nm": self.filters.grid.start, "end_nm": self.filters.grid.end,
                      "step_nm": self.filters.grid.step},
@@ -253,6 +283,17 @@ class Scorecard:
                     "median": "median over the normally discriminable pairs of the deficient observer's "
                               "Delta S, with the filter / without it",
                 },
+                **({"populations": {
+                    "model": "individual observers: Asano, Fairchild & Blonde (2016) variation of lens, macula, "
+                             "photopigment densities and peaks on the CIE 170-1 observer (docs/models.md section 8)",
+                    "statistics": "over members: mean, sd (ddof 1), p2_5, p50, p97_5 (linear interpolation); "
+                                  "members for whom a metric is undefined are left out",
+                    "helped": "share of members with red_green_gain or blue_yellow_gain above 1, net "
+                              "discriminable or confused pairs (gained - lost, resolved - created) above 0, or "
+                              "median_delta_s_ratio above 1 (ratios: above 1 + ratio_tolerance, a numerical "
+                              "tolerance for rounding); Wilson (1927) score interval",
+                    "confidence": CONFIDENCE, "ratio_tolerance": RATIO_TOLERANCE,
+                }} if any(is_population(o) for o in self.observers) else {}),
                 "road_use": {
                     "signal_limits": dict(self.settings.get("signal_limits", SIGNAL_LIMITS)),
                     "signal_limits_reading": self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING),
@@ -321,7 +362,8 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
           cone_ratios=CONE_RATIOS, discrimination_threshold: float = DISCRIMINATION_THRESHOLD,
           distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
           deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
-          progress=None) -> Scorecard:
+          members: bool = False, progress=None, units: str | None = None,
+          bandwidth: float | None = None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -334,8 +376,11 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     illuminant : str or Illuminant
         The light the surfaces are seen in (photometry and road use always use
         CIE D65, as ISO 12312-1 prescribes).
-    observers : sequence of str or Observer
-        Observer specs; default :data:`DEFAULT_OBSERVERS`.
+    observers : sequence of str, Observer or Population
+        Observer specs; default :data:`DEFAULT_OBSERVERS`. A population spec (any spec plus ``n=N``,
+        :func:`cvdfilter.population`) is scored member by member and reported as statistics over its
+        members (``{mean, sd, p2_5, p50, p97_5}`` per metric) and the share ``helped`` with a Wilson 95 %
+        interval (:mod:`cvdfilter.metrics.population_stats`).
     surfaces : str or SurfaceSet
         ``ces99`` (default), ``chart24``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
@@ -369,8 +414,14 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         Also score every filter under the documented variations of
         :data:`SENSITIVITY_RANGES` and report how the verdicts move
         (``Scorecard.sensitivity``, JSON key ``sensitivity``).
+    members : bool
+        With populations: also carry every member's values in the JSON (``members``).
     progress : callable, optional
-        ``progress(stage, done, total)``; stages ``filters`` and ``rendition``.
+        ``progress(stage, done, total)``; stages ``filters``, ``members`` (populations) and ``rendition``.
+    units, bandwidth : optional
+        Units (``fraction``, ``percent``, ``od``) and instrument bandwidth (nm) of
+        filter files that do not set their own (``FILE@units=od``); see
+        :func:`cvdfilter.load_filters`.
 
     Returns
     -------
@@ -396,17 +447,33 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         metrics=metrics, signal_spectra=signal_spectra, grid=grid, weber_fraction=weber_fraction,
         cone_ratios=cone_ratios, discrimination_threshold=discrimination_threshold,
         distribution_thresholds=distribution_thresholds, normal_threshold=normal_threshold,
-        deficient_threshold=deficient_threshold, signal_limits=signal_limits)
+        deficient_threshold=deficient_threshold, signal_limits=signal_limits, units=units, bandwidth=bandwidth,
+        sensitivity=sensitivity)
     groups, n_f = inp.groups, len(inp.filters)
     results = filter_results(inp)
     per_obs: list = [dict() for _ in inp.observers]
-    if any(g in groups for g in ("contrast", "discrimination", "confusion")):
-        plans, runner = plan_observers(inp)
+    per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
+    # populations are scored below, in batches of members; the plans score the fixed observers
+    fixed = [k for k, o in enumerate(inp.observers) if not is_population(o)]
+    if per_observer_groups and fixed:
+        plans, runner = plan_observers(inp, [inp.observers[k] for k in fixed])
         run_chunks(runner, n_f, chunk=_CHUNK_FILTERS, progress=progress)
         runner.mark_undefined()
-        per_obs = [p.store for p in plans]
+        for k, plan in zip(fixed, plans):
+            per_obs[k] = plan.store
     elif progress is not None:
         progress("filters", n_f, n_f)
+    if per_observer_groups and len(fixed) < len(inp.observers):
+        from .score_population import population_scores
+
+        kwargs = dict(illuminant=inp.illuminant, surfaces=inp.surfaces, adaptation=inp.adaptation, grid=inp.grid,
+                      weber_fraction=weber_fraction, cone_ratios=cone_ratios,
+                      discrimination_threshold=discrimination_threshold,
+                      distribution_thresholds=inp.distribution_thresholds, normal_threshold=normal_threshold,
+                      deficient_threshold=deficient_threshold)
+        for k, pop in enumerate(inp.observers):
+            if is_population(pop):
+                per_obs[k] = population_scores(inp.filters, pop, per_observer_groups, kwargs, progress)
     if "rendition" in groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 
@@ -419,7 +486,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
               "signal_spectra": None if signal_spectra is None else (
                   str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
     card = Scorecard(inp.filters, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups,
-                     inp.signal_lights, results, per_obs, inp.settings(), record)
+                     inp.signal_lights, results, per_obs, inp.settings(), record, members=members)
     if sensitivity:
         from .score_sensitivity import sensitivity as _sensitivity
 

@@ -14,6 +14,7 @@ import textwrap
 
 from . import tables as _tables
 from .score_plan import CONFUSION_KEYS, PAIR_KEYS
+from .score_population import STATS as _STATS
 from .tables import fixed as _fmt, yes_no as _yes
 
 __all__ = ["to_csv", "csv_rows", "to_markdown", "to_table", "median_ratio", "GAIN_CAUTION"]
@@ -21,7 +22,9 @@ __all__ = ["to_csv", "csv_rows", "to_markdown", "to_table", "median_ratio", "GAI
 
 
 def csv_rows(card) -> tuple[list, list]:
-    """Header and rows: one row per filter x observer, nested keys joined with dots."""
+    """Header and rows: one row per filter x observer, nested keys joined with dots; a population gives
+    one row per statistic (column ``statistic``: mean, sd, p2_5, p50, p97_5), its ``helped`` shares on
+    every row, and no per-member values."""
     head = card.header()
     run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
            "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
@@ -36,7 +39,7 @@ def csv_rows(card) -> tuple[list, list]:
         f = card.filter_dict(i)
         obs = f.pop("observers")
         flat_f = _flatten(f)
-        for o in obs:
+        for o in [r for o0 in obs for r in _population_csv_entries(o0)]:
             row = {**flat_f, **_flatten(o), **run}
             layout = tuple(row)
             if layout not in layouts:  # rows share a few key layouts: merge each new one once
@@ -90,7 +93,13 @@ def to_markdown(card) -> str:
         lines += _tables.markdown_lines(_RENDITION_HEADER, rend_rows) + [""]
     if obs_rows and len(obs_rows[0]) > 2:
         lines += ["## Per observer", "", _observer_note(doc), ""]
+        if any("population" in o for o in doc["observers"]):
+            lines += [_POPULATION_NOTE, ""]
         lines += _tables.markdown_lines(_observer_header(card.metrics), obs_rows) + [""]
+        helped = _helped_rows(doc)
+        if helped:
+            lines += ["### Share of population members helped (Wilson 95 % interval)", ""]
+            lines += _tables.markdown_lines(helped[0], helped[1]) + [""]
     if card.sensitivity is not None:
         lines += ["## Sensitivity", "", _SENSITIVITY_NOTE, ""]
         for f, rows in _sensitivity_rows(card.sensitivity):
@@ -111,10 +120,16 @@ def to_table(card, width: int = 100) -> str:
                                  "Colour rendition, illuminant x filter", width))
     if obs_rows and len(obs_rows[0]) > 2:
         parts.append(textwrap.fill(_observer_note(doc), width=width) + "\n")
+        if any("population" in o for o in doc["observers"]):
+            parts.append(textwrap.fill(_POPULATION_NOTE, width=width) + "\n")
         for f in doc["filters"]:
             rows = [_observer_row(f["name"], o, card.metrics, compact=True) for o in f["observers"]]
             parts.append(_tables.text_table(_observer_header(card.metrics, compact=True), rows,
                                      f"Per observer: {f['name']} - costs: {_costs_text(f)}", width))
+        helped = _helped_rows(doc)
+        if helped:
+            parts.append(_tables.text_table(helped[0], helped[1],
+                                            "Share of population members helped (Wilson 95 % interval)", width))
     if card.sensitivity is not None:
         parts.append(textwrap.fill(_SENSITIVITY_NOTE, width=width) + "\n")
         for name, rows in _sensitivity_rows(card.sensitivity):
@@ -251,6 +266,8 @@ def _observer_header(metrics, *, compact: bool = False) -> list:
 
 
 def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict | None = None) -> list:
+    if "population" in o:  # tables show the median member (JSON: the spread and the shares helped)
+        o = _population_csv_entries(o, statistics=("p50",))[0]
     row = [] if compact else [name]
     row.append(o["observer"])
     if "contrast" in metrics:
@@ -300,6 +317,55 @@ def _inputs_lines(doc: dict, *, markdown: bool) -> list:
             lines.append(f"- Signal lights, {c} (limit {v['limit']:g}): {names}.")
         lines.append(f"- {_limits_text(doc)}")
     return lines
+
+
+#: Printed with the tables when an observer is a population.
+_POPULATION_NOTE = ("Population rows (a spec with n=N) show the median member; --format json gives each metric's "
+                    "mean, SD and 2.5/50/97.5 percentiles over the members and the share of members helped, with a "
+                    "Wilson 95 % interval (--format csv: one row per statistic).")
+def _pick(v, stat: str):
+    if isinstance(v, dict):
+        if set(v) == set(_STATS):
+            return v[stat]
+        return {k: _pick(x, stat) for k, x in v.items()}
+    return v
+
+
+_HELPED_LABELS = {"red_green_gain": "RG gain > 1", "blue_yellow_gain": "BY gain > 1",
+                  "discriminable_pairs_net": "discr. net > 0", "confusion_pairs_net": "confused net > 0",
+                  "median_delta_s_ratio": "dS ratio > 1"}
+
+
+def _helped_rows(doc: dict):
+    """(header, rows) of the shares helped, one row per filter x population; None without populations."""
+    rows, keys = [], []
+    for f in doc["filters"]:
+        for o in f["observers"]:
+            if "population" not in o:
+                continue
+            for k in o["helped"]:
+                if k not in keys:
+                    keys.append(k)
+            rows.append((f["name"], o))
+    if not rows:
+        return None
+
+    def cell(h):
+        if h is None or h["share"] is None:
+            return "-"
+        return f"{100 * h['share']:.0f} % ({100 * h['ci_low']:.0f}-{100 * h['ci_high']:.0f})"
+
+    header = ["filter", "population", *(_HELPED_LABELS.get(k, k) for k in keys)]
+    return header, [[name, o["observer"], *(cell(o["helped"].get(k)) for k in keys)] for name, o in rows]
+
+
+def _population_csv_entries(o: dict, statistics=_STATS) -> list:
+    """A fixed observer's entry as is; a population's as one entry per statistic (``statistic`` key)."""
+    if "population" not in o:
+        return [o]
+    body = {k: v for k, v in o.items() if k not in ("members", "helped", "population", "observer")}
+    return [{"observer": o["observer"], "statistic": stat, "population": o["population"], **_pick(body, stat),
+             "helped": o["helped"]} for stat in statistics]
 
 
 def _flatten(d: dict, prefix: str = "") -> dict:

@@ -5,8 +5,8 @@ Presentation only: no colour science here.
 The one table writer of the package: the scorecard's views (:mod:`cvdfilter.scorecard_views`), the report
 (:mod:`cvdfilter.reporting`) and the CLI (:mod:`cvdfilter.cli.common`) all lay out tables and cells here.
 
-Public: :func:`text_table`, :func:`markdown_lines`, :func:`markdown_table`, :func:`csv_text`, :func:`fixed`,
-:func:`yes_no`.
+Public: :func:`text_table`, :func:`markdown_cell`, :func:`markdown_lines`, :func:`markdown_table`,
+:func:`csv_text`, :func:`fixed`, :func:`yes_no`.
 """
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ import csv
 import io
 from collections.abc import Iterable, Sequence
 
-__all__ = ["text_table", "markdown_lines", "markdown_table", "csv_text", "fixed", "yes_no"]
+__all__ = ["text_table", "markdown_cell", "markdown_lines", "markdown_table", "csv_text", "fixed", "yes_no"]
 
 
 def text_table(header: Sequence[str], rows: Iterable[Sequence], title: str | None = None,
@@ -53,14 +53,15 @@ def yes_no(b) -> str:
     return "-" if b is None else ("yes" if b else "no")
 
 
-def _md_cell(v) -> str:
+def markdown_cell(v) -> str:
+    """One Markdown table cell: ``|`` escaped, a line break as a space, None empty."""
     return ("" if v is None else str(v)).replace("|", "\\|").replace("\n", " ")
 
 
 def markdown_lines(header: Sequence, rows: Iterable[Sequence]) -> list[str]:
     """A Markdown table as lines; ``|`` in a cell is escaped and a line break becomes a space."""
-    lines = ["| " + " | ".join(_md_cell(h) for h in header) + " |", "|" + "|".join("---" for _ in header) + "|"]
-    lines += ["| " + " | ".join(_md_cell(v) for v in r) + " |" for r in rows]
+    lines = ["| " + " | ".join(markdown_cell(h) for h in header) + " |", "|" + "|".join("---" for _ in header) + "|"]
+    lines += ["| " + " | ".join(markdown_cell(v) for v in r) + " |" for r in rows]
     return lines
 
 

@@ -25,6 +25,7 @@ import numpy as np
 HERE = pathlib.Path(__file__).resolve().parent
 SEED = 20240611
 SIZE = 192          # tabletop image, pixels (square)
+LARGE_SIZE = 1024   # tabletop image for figures: sharp at a double-column width (about 1,080 px per panel at 300 dpi)
 CUBE_SIZE = 96      # tabletop cube, pixels (square)
 SUPERSAMPLE = 4     # per axis, for smooth edges
 
@@ -59,14 +60,19 @@ def _mix(patches, recipe):
     return sum(w * patches[k] for k, w in recipe.items())
 
 
-def scene_weights(size: int):
-    """Per pixel: shading-weighted coverage of each scene material, (size, size, n_materials)."""
+def scene_weights(size: int, rows: tuple | None = None):
+    """Per pixel: shading-weighted coverage of each scene material, (size, size, n_materials).
+
+    ``rows`` = (first, stop) computes only those output rows (a strip), for large sizes.
+    """
+    if rows is None:
+        rows = (0, size)
     n = size * SUPERSAMPLE
     c = (np.arange(n) + 0.5) / n
-    u, v = np.meshgrid(c, c)
+    u, v = np.meshgrid(c, c[rows[0] * SUPERSAMPLE:rows[1] * SUPERSAMPLE])
     light = LIGHT / np.linalg.norm(LIGHT)
     n_mat = 2 + 1 + len(SPHERES)
-    w = np.zeros((n, n, n_mat))
+    w = np.zeros(u.shape + (n_mat,))
     horizon = 0.47
     wall = v < horizon
     w[..., 0] = np.where(wall, 0.92 - 0.25 * u - 0.1 * v, 0.0)
@@ -96,7 +102,7 @@ def scene_weights(size: int):
         w[inside] = 0.0
         w[..., 3 + k] = np.where(inside, shade, w[..., 3 + k])
     # average the supersamples
-    return w.reshape(size, SUPERSAMPLE, size, SUPERSAMPLE, n_mat).mean(axis=(1, 3))
+    return w.reshape(rows[1] - rows[0], SUPERSAMPLE, size, SUPERSAMPLE, n_mat).mean(axis=(1, 3))
 
 
 def materials(grid):
@@ -118,7 +124,8 @@ def tabletop_linear_srgb(size: int) -> np.ndarray:
     weights = cmfs.values * d65.values[:, None]
     xyz = refl @ weights / weights[:, 1].sum()  # Y = 1 for a perfect white
     rgb_mat = colour.XYZ_to_sRGB(xyz, apply_cctf_encoding=False)
-    return scene_weights(size) @ rgb_mat
+    strip = 64
+    return np.concatenate([scene_weights(size, (r, min(size, r + strip))) @ rgb_mat for r in range(0, size, strip)])
 
 
 def tabletop_cube(size: int):
@@ -240,7 +247,8 @@ def main(out: pathlib.Path = HERE) -> list:
     # float16 (about 3 significant digits) keeps the file small; the reader widens it.
     np.savez_compressed(out / "tabletop_cube.npz", cube=cube.astype(np.float16), wavelengths=wl,
                         kind=np.array("reflectance"))
-    written += ["tabletop.png", "tabletop_16bit.png", "tabletop_linear.tif", "tabletop_cube.npz"]
+    _png(out / "tabletop_large.png", _encode(tabletop_linear_srgb(LARGE_SIZE), 8))
+    written += ["tabletop.png", "tabletop_16bit.png", "tabletop_linear.tif", "tabletop_cube.npz", "tabletop_large.png"]
     dots, labels, colours = dot_stimulus()
     _png(out / "dots_deutan.png", dots)
     _png(out / "dots_deutan_labels.png", labels)

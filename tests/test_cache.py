@@ -52,8 +52,8 @@ def test_user_data_and_results_never_reach_the_disk(tmp_path):
     a = tmp_path / "lens_a.csv"
     b = tmp_path / "lens_b.csv"
     wl = np.arange(400, 701, 5)
-    a.write_text("nm,T\n" + "".join(f"{w},{0.9 - 0.5 * np.exp(-((w - 575) / 15) ** 2):.4f}\n" for w in wl))
-    b.write_text("nm,T\n" + "".join(f"{w},{0.8 - 0.4 * np.exp(-((w - 540) / 20) ** 2):.4f}\n" for w in wl))
+    a.write_text("nm,T (fraction)\n" + "".join(f"{w},{0.9 - 0.5 * np.exp(-((w - 575) / 15) ** 2):.4f}\n" for w in wl))
+    b.write_text("nm,T (fraction)\n" + "".join(f"{w},{0.8 - 0.4 * np.exp(-((w - 540) / 20) ** 2):.4f}\n" for w in wl))
     env = _env(tmp_path)
     _run(["score", str(a)], env)
     first = _cache_files(tmp_path)

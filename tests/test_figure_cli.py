@@ -111,7 +111,7 @@ def test_caveat_title_and_style_options(tmp_path):
     (["figure", "pie", "larkhill-notch-575", "-o", "{tmp}/x.svg"], "unknown figure kind"),
     (["figure", "spectrum", "larkhill-notch-575", "-o", "{tmp}/x.jpg"], "end the file name in .pdf, .svg or .png"),
     (["figure", "spectrum", "nope-filter", "-o", "{tmp}/x.svg"], "unknown filter"),
-    (["figure", "spectrum", "larkhill-notch-575", "--style", "font_size=2", "-o", "{tmp}/x.svg"], "below 5 pt"),
+    (["figure", "spectrum", "larkhill-notch-575", "--style", "font_size=2", "-o", "{tmp}/x.svg"], "below 6 pt"),
     (["figure", "spectrum", "larkhill-notch-575", "--width", "huge", "-o", "{tmp}/x.svg"], "--width"),
     (["figure", "spectrum", "larkhill-notch-575", "--chart", "bar", "-o", "{tmp}/x.svg"], "does not apply"),
     (["figure", "chromaticity", "larkhill-notch-575", "--space", "luv", "-o", "{tmp}/x.svg"], "--space luv"),
@@ -132,7 +132,7 @@ def test_bad_input_is_one_line_exit_2_and_writes_nothing(tmp_path, args, needle)
 
 def test_figure_never_overwrites_an_input(tmp_path):
     lens = tmp_path / "lens.csv"
-    lens.write_text("nm,T\n380,0.9\n575,0.1\n780,0.9\n")
+    lens.write_text("nm,T (fraction)\n380,0.9\n575,0.1\n780,0.9\n")
     before = lens.read_bytes()
     r = invoke("figure", "spectrum", lens, "-o", tmp_path / "lens.csv.svg")
     assert r.exit_code == 0, r.output
@@ -148,3 +148,25 @@ def test_report_command_writes_html_with_caveat(tmp_path):
     text = out.read_text()
     assert CAVEAT.replace("'", "&#x27;") in text and "--metrics core" in text
     assert 'id="figure-hues"' not in text            # no rendition block asked for, no hues figure
+
+
+def test_figure_data_option_writes_the_plotted_numbers(tmp_path):
+    out, data = tmp_path / "hues.svg", tmp_path / "hues.csv"
+    r = invoke("figure", "hues", "larkhill-notch-575", "-o", out, "--data", data)
+    assert r.exit_code == 0, r.output
+    lines = data.read_text().splitlines()
+    assert lines[0].startswith("# tool: cvdfilter") and any(line == f"# caveat: {CAVEAT}" for line in lines)
+    rows = [line.split(",") for line in lines if not line.startswith("#")]
+    assert rows[0] == ["series", "bin", "hue_name", "hue_from_deg", "hue_to_deg", "local_chroma_shift_pct"]
+    assert len(rows) == 1 + 2 * 16                         # the illuminant alone and the filter, 16 bins each
+    # a non-CSV data file or the figure's own output is refused in one line, nothing written
+    r = run("figure", "hues", "larkhill-notch-575", "-o", str(tmp_path / "b.svg"), "--data", str(tmp_path / "b.txt"))
+    assert r.returncode == 2 and "CSV" in r.stderr and not (tmp_path / "b.svg").exists()
+
+
+def test_figure_arrows_option(tmp_path):
+    r = invoke("figure", "chromaticity", "larkhill-notch-575", "--surfaces", "ces99", "--arrows", "mean",
+               "-o", tmp_path / "c.svg", "--data", tmp_path / "c.csv")
+    assert r.exit_code == 0, r.output and (tmp_path / "c.svg").exists()
+    r = run("figure", "chromaticity", "larkhill-notch-575", "--arrows", "many", "-o", str(tmp_path / "d.svg"))
+    assert r.returncode == 2 and "--arrows" in r.stderr

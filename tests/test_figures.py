@@ -50,7 +50,7 @@ def test_style_from_options_and_file(tmp_path):
     assert style.rc_params()["pdf.fonttype"] == 42 and style.rc_params()["svg.fonttype"] == "none"
 
 
-@pytest.mark.parametrize("text,word", [("font_size=3", "below 5 pt"), ("colour=red", "unknown style key"),
+@pytest.mark.parametrize("text,word", [("font_size=3", "below 6 pt"), ("colour=red", "unknown style key"),
                                        ("font_size=big", "not a number"), ("font=NoSuchFontXyz", "not installed"),
                                        ("lines.linewidth=thick", "lines.linewidth")])
 def test_style_errors_are_one_line(text, word):
@@ -559,4 +559,114 @@ def test_spectrum_notch_labels_never_overlap():
     many = figure("spectrum", "notch:center=530..620/10,fwhm=30,depth=0.8")
     assert not many.figure.axes[0].texts
     labels = [t.get_text() for t in many.figure.axes[1].get_legend().get_texts()]
-    assert "center=530; 530 nm/FWHM 30" in labels
+    assert "center=530; 530 nm, FWHM 30 nm" in labels and "center=620; 620 nm, FWHM 30 nm" in labels
+
+
+# --- two-parameter sweep, arrows, hue bins, labels, data ------------------------------------------
+
+def _fake_card_2d():
+    # A scorecard-shaped dict over a 3 x 2 sweep (centre x FWHM), in the sweep's filter order; values
+    # invented for plotting tests.
+    out = []
+    for k, c in enumerate((540, 550, 560)):
+        for fwhm in (20, 30):
+            out.append({"name": f"notch:center={c},depth=0.8,fwhm={fwhm}",
+                        "luminous_transmittance": 0.5 + 0.01 * c / 10,
+                        "observers": [{"observer": "normal", "red_green_gain": 1.0 + 0.01 * k + 0.001 * fwhm},
+                                      {"observer": "deuteranope", "red_green_gain": None}]})
+    return {"illuminant": "D65", "surfaces": "ces99", "adaptation": "full", "filters": out}
+
+
+def test_two_parameter_sweep_is_a_heat_map_of_the_card_values():
+    from cvdfilter.figures.sweep import sweep_figure
+
+    card = _fake_card_2d()
+    r = sweep_figure("notch:center=540..560/10,fwhm=20..30/10,depth=0.8", card=card)
+    assert r.data["chart"] == "heatmap" and r.data["x_key"] == "center" and r.data["y_key"] == "fwhm"
+    mesh = _artist(r.figure, "heatmap-red_green_gain-0")
+    z = np.ma.getdata(mesh.get_array()).reshape(2, 3)
+    expected = np.array([[1.0 + 0.01 * k + 0.001 * f for k in range(3)] for f in (20, 30)])
+    assert np.allclose(z, expected)
+    assert mesh.get_cmap().name == "cividis"                   # reads in greyscale and for dichromats
+    lum = np.ma.getdata(_artist(r.figure, "heatmap-luminous_transmittance-0").get_array()).reshape(2, 3)
+    assert np.allclose(lum, 100 * np.array([[0.5 + 0.01 * c / 10 for c in (540, 550, 560)]] * 2))
+    # the dichromat has no red-green axis: its panel says so instead of a blank map
+    assert "not defined" in _artist(r.figure, "na-red_green_gain-1").get_text()
+
+
+def test_cividis_lightness_rises_monotonically():
+    # Reference library: colorspacious CAM02-UCS lightness J' of the cividis colour map (Nunez, Anderton &
+    # Renslow 2018 designed it to rise monotonically, so the map reads in greyscale and for dichromats).
+    import colorspacious as cs
+    import matplotlib
+
+    from cvdfilter.figures.sweep import HEATMAP_CMAP
+
+    rgb = matplotlib.colormaps[HEATMAP_CMAP](np.linspace(0, 1, 64))[:, :3]
+    for cvd in (None, "protanomaly", "deuteranomaly"):
+        seen = rgb if cvd is None else np.clip(cs.cspace_convert(
+            rgb, {"name": "sRGB1+CVD", "cvd_type": cvd, "severity": 100}, "sRGB1"), 0, 1)
+        j = cs.cspace_convert(seen, "sRGB1", "CAM02-UCS")[:, 0]
+        assert np.all(np.diff(j) > 0)
+
+
+def test_chromaticity_arrow_modes():
+    from cvdfilter.figures.chromaticity import AUTO_ARROWS, arrow_subset
+
+    r = figure("chromaticity", "larkhill-notch-575", surfaces="ces99", caveat=False)   # 99 surfaces: auto subset
+    assert len(_artist(r.figure, "surfaces-without-0").get_xdata()) == AUTO_ARROWS
+    assert len(_artist(r.figure, "surfaces-all-0").get_xdata()) == 99
+    assert r.data["arrows"] == {"mode": "subset", "n": AUTO_ARROWS}
+    full = figure("chromaticity", "larkhill-notch-575", surfaces="ces99", arrows="all", caveat=False)
+    assert len(_artist(full.figure, "surfaces-without-0").get_xdata()) == 99
+    mean = figure("chromaticity", "larkhill-notch-575", surfaces="ces99", arrows="mean", caveat=False)
+    assert 1 <= len(_artist(mean.figure, "surfaces-without-0").get_xdata()) <= 16
+    # the subset is deterministic and spreads over the cloud: it keeps the extreme points
+    pts = np.random.default_rng(1).normal(size=(200, 2))
+    keep = arrow_subset(pts, 10)
+    assert np.array_equal(keep, arrow_subset(pts, 10)) and len(set(keep)) == 10
+    assert int(np.argmax(np.linalg.norm(pts - pts.mean(axis=0), axis=1))) in keep
+    with pytest.raises(InputError):
+        figure("chromaticity", "larkhill-notch-575", arrows="some")
+    # the title names the filter and the surface set
+    assert "larkhill-notch-575" in r.figure._suptitle.get_text() and "ces99" in r.figure._suptitle.get_text()
+
+
+def test_hue_bin_colours_lie_in_their_bins():
+    # Reference library: colorspacious CAM02-UCS (CIECAM02 defaults) hue angle of each bin's sRGB colour
+    # lies inside the bin's 22.5 deg range (TM-30-18: bin j spans (j-1) x 22.5 to j x 22.5 deg).
+    import colorspacious as cs
+
+    from cvdfilter.figures.hues import HUE_BIN_NAMES, hue_bin_colours
+
+    jab = cs.cspace_convert(hue_bin_colours(), "sRGB1", "CAM02-UCS")
+    h = np.degrees(np.arctan2(jab[:, 2], jab[:, 1])) % 360
+    lo = np.arange(16) * 22.5
+    assert np.all((h >= lo - 1.0) & (h <= lo + 22.5 + 1.0))     # 1 deg for the 8-bit-free clip and model
+    assert len(set(HUE_BIN_NAMES)) == 16
+
+
+def test_one_observer_label_everywhere():
+    from cvdfilter.figures.common import observer_label as in_figures
+    from cvdfilter.observers.labels import observer_label
+
+    assert in_figures is observer_label
+    r = figure("spectrum", "larkhill-notch-575", observers=["normal", "protanomalous:shift=16"])
+    labels = [t.get_text() for t in r.figure.axes[1].get_legend().get_texts()]
+    assert any("protanomalous (16 nm)" in t for t in labels)
+
+
+def test_figure_data_csv_holds_the_plotted_numbers(every_kind):
+    import csv
+    import io
+
+    for kind, r in every_kind.items():
+        text = r.data_csv()
+        assert "# caveat:" in text and f"# figure: {kind}" in text
+        rows = list(csv.reader(io.StringIO("\n".join(line for line in text.splitlines()
+                                                      if not line.startswith("#")))))
+        assert len(rows) >= 2, kind
+    sp = every_kind["spectrum"]
+    rows = [line.split(",") for line in sp.data_csv().splitlines() if not line.startswith("#")]
+    assert rows[0][0] == "wavelength_nm" and len(rows) - 1 == len(sp.data["wavelengths"])
+    assert float(rows[200][1]) == pytest.approx(100 * sp.data["transmittance"][0][199])

@@ -219,14 +219,14 @@ def test_edited_filter_file_or_input_is_a_mismatch(stimuli, tmp_path):
     """The fingerprint covers file contents, not names: same file name, other numbers -> refused."""
     out = tmp_path / "out"
     lens = tmp_path / "lens.csv"
-    lens.write_text("nm,T\n380,0.9\n780,0.9\n")
+    lens.write_text("nm,T (fraction)\n380,0.9\n780,0.9\n")
     args = [stimuli / "tabletop.png", "--filter", lens, "--view", "filtered", "--out", out]
     assert run(*args).returncode == 0
     assert "skipped 1" in run(*args).stderr
-    lens.write_text("nm,T\n380,0.9\n780,0.5\n")
+    lens.write_text("nm,T (fraction)\n380,0.9\n780,0.5\n")
     r = run_here(*args)
     assert _one_line_error(r) and "other input content or model data" in r.stderr, r.stderr
-    lens.write_text("nm,T\n380,0.9\n780,0.9\n")
+    lens.write_text("nm,T (fraction)\n380,0.9\n780,0.9\n")
     assert "skipped 1" in run(*args).stderr
     shutil.copy(TEST_IMAGES / "dots_deutan.png", stimuli / "tabletop.png")  # same name, other picture
     r = run_here(*args)

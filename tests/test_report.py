@@ -214,4 +214,25 @@ def test_report_of_a_sweep_adds_the_sweep_figure_and_says_what_it_leaves_out():
     assert not kinds["gains"].svg and "at most 8" in kinds["gains"].note
     assert "hues" not in kinds                        # no rendition block: no hue figure
     text = r.to_html()
-    assert "left out" in text and 'id="figure-sweep"' in text
+    assert "Not drawn" in text and 'id="figure-sweep"' in text
+    # a figure left out gets a note but never a caption or a number; the drawn ones are numbered 1, 2, ...
+    drawn = [f for f in r.figures if f.svg]
+    assert text.count("<figcaption>") == len(drawn)
+    numbers = [int(m) for m in re.findall(r"<strong>Figure (\d+)\.</strong>", text)]
+    assert numbers == list(range(1, len(drawn) + 1))
+    md, _ = r.to_markdown()
+    assert [int(m) for m in re.findall(r"\*\*Figure (\d+)\.\*\*", md)] == list(range(1, len(drawn) + 1))
+    # the two-parameter-free sweep caption names its parameter
+    assert "swept parameter (center)" in kinds["sweep"].caption
+
+
+def test_report_per_observer_table_groups_by_filter_with_readable_observers():
+    r = report(["larkhill-notch-575", "larkhill-rose-tint"], observers=["normal", "protanomalous:shift=16"],
+               surfaces="chart24", metrics="core")
+    text = r.to_html()
+    table = text[text.index('<table class="observers">'):]
+    table = table[:table.index("</table>")]
+    # one full-width row names each filter; observers by their one readable label, not the spec
+    assert table.count('scope="rowgroup"') == 2 and "protanomalous (16 nm)" in table
+    assert "protanomalous:shift=16" not in table
+    assert "contrast gain (with / without filter)" in table

@@ -40,7 +40,7 @@ def test_json_is_exactly_the_api_dict(two_column_file):
     api = score([str(two_column_file), "larkhill-rose-tint"], observers=["normal", "deuteranope"], metrics="all",
                 illuminant="A").to_dict()
     assert data == json.loads(json.dumps(api))
-    assert [f["name"] for f in data["filters"]] == ["lens A %", "lens B %", "larkhill-rose-tint"]
+    assert [f["name"] for f in data["filters"]] == ["lenses:lens A %", "lenses:lens B %", "larkhill-rose-tint"]
     assert data["filters"][1]["luminous_transmittance"] == pytest.approx(0.4, abs=1e-6)
     assert data["illuminant"]["name"] == "A"
 

@@ -35,9 +35,13 @@ def _version(value: bool) -> None:
 
 
 @app.callback()
-def _root(version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
+def _root(ctx: typer.Context,
+          version: bool = typer.Option(False, "--version", callback=_version, is_eager=True,
                                        help="Show the version and exit.")) -> None:
     """cvdfilter: what a spectral filter does for each observer, and what it costs."""
+    from .common import flush_warnings
+
+    ctx.call_on_close(flush_warnings)  # input warnings (extrapolation, clipping) once the command ends
 
 
 for _name in COMMAND_MODULES:

@@ -6,7 +6,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import fail
+from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options, input_files
 
 _KINDS_HELP = "spectrum, chromaticity, gains, hues, swatches, images or sweep"
 
@@ -42,6 +42,16 @@ def register(app: typer.Typer) -> None:
         image: Optional[str] = typer.Option(None, "--image", help="images: the image to render "
                                                                   "(default: the bundled synthetic scene)."),
         chart: Optional[str] = typer.Option(None, "--chart", help="hues: bar (default) or radial."),
+        arrows: Optional[str] = typer.Option(None, "--arrows",
+                                             help="chromaticity: auto (default: all up to 24 surfaces, else 24 "
+                                                  "spread over the diagram), all, subset, mean or a number."),
+        # --- the plotted numbers as CSV ------------------------------------------------------------
+        data: Optional[str] = typer.Option(None, "--data",
+                                           help="Also write the numbers the figure plots as CSV (tidy table, "
+                                                "'#' comment lines for provenance), to re-plot in your own style."),
+        # -- file reading: units and bandwidth of filter files --
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
     ) -> None:
         """Make one figure for a paper and write it as PDF, SVG or PNG.
 
@@ -51,6 +61,8 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter figure spectrum larkhill-notch-575 --observer deuteranomalous -o spectrum.pdf
 
         Example: cvdfilter figure sweep "notch:center=540..600/5,fwhm=30,depth=0.8" --width double -o sweep.svg
+
+        Example: cvdfilter figure hues larkhill-notch-575 -o hues.pdf --data hues.csv
         """
         import pathlib
 
@@ -67,19 +79,29 @@ def register(app: typer.Typer) -> None:
             options["image"] = image
         if chart is not None:
             options["chart"] = chart
+        if arrows is not None:
+            options["arrows"] = arrows
         try:
             from ..figures import figure as make_figure
             from ..figures.output import format_of
 
             format_of(pathlib.Path(output), None)
-            result = make_figure(kind, filters, illuminant=illuminant, observers=observer or None,
+            if data is not None:
+                if not data.lower().endswith(".csv"):
+                    raise InputError(f"--data {data}: the data file is CSV", hint="end its name in .csv")
+                if pathlib.Path(data).resolve() == pathlib.Path(output).resolve():
+                    raise InputError(f"--data {data} is the figure's own output file", hint="give another name")
+            filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
+            result = make_figure(kind, filter_specs, illuminant=illuminant, observers=observer or None,
                                  surfaces=surfaces, adaptation=adaptation, width=width, height=height,
                                  style=style or None, title=title, caveat=not no_caveat, **options)
-            inputs = [f for f in filters if pathlib.Path(f).exists()]
+            inputs = input_files(filters)
             inputs += [p for p in (style or []) if pathlib.Path(p).exists()]
             if image:
                 inputs.append(image)
             result.save(output, dpi=dpi, inputs=inputs)
+            if data is not None:
+                result.save_data(data, inputs=inputs)
         except InputError as exc:
             fail(exc)
-        typer.echo(f"wrote {output}", err=True)
+        typer.echo(f"wrote {output}" + (f" and {data}" if data is not None else ""), err=True)

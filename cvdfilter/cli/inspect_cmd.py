@@ -6,52 +6,64 @@ from typing import List, Optional
 
 import typer
 
-from .common import emit, fail, table_text, to_json
+from .common import BANDWIDTH_HELP, UNITS_HELP, emit, fail, input_files, resolve_format, table_text, to_json
 
 
 def register(app: typer.Typer) -> None:
     @app.command("inspect")
     def inspect(
-        filters: List[str] = typer.Argument(..., help="Filter files, example names or specs."),
-        units: Optional[str] = typer.Option(None, "--units", help="fraction, percent or od (default: detect)"),
-        bandwidth: Optional[float] = typer.Option(None, "--bandwidth",
-                                                  help="Instrument bandwidth, nm: apply the Stearns & Stearns correction."),
+        filters: List[str] = typer.Argument(..., help="Filter files (FILE, FILE:COLUMN, FILE@units=od), example "
+                                                      "names or specs."),
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
         step: float = typer.Option(1.0, "--step", help="Grid step, nm (grid 380-780 nm)."),
-        format: str = typer.Option("table", "--format", "-f", help="table or json"),
+        format: Optional[str] = typer.Option(None, "--format", "-f",
+                                             help="table or json (default: from the -o extension, else table)."),
         output: Optional[str] = typer.Option(None, "--output", "-o", help="Write to this file instead of stdout."),
     ) -> None:
-        """Describe filters: range, sampling, detected units, extremes, notches, warnings.
+        """Describe filters: range, sampling, units and which rule decided them, extrapolation, extremes,
+        features (notches, edges, band-passes, ripple), warnings.
 
         Example: cvdfilter inspect larkhill-notch-575 "notch:center=575,fwhm=35,depth=0.8"
         """
         from ..errors import InputError
-        from ..inspection import inspect_filters
+        from ..inspection import feature_text, inspect_filters
+        from ..spectra.filters import extrapolation_text
         from ..spectra.grid import Grid
 
-        if format not in ("table", "json"):
-            fail(f"--format {format} is not table or json")
         try:
-            data = inspect_filters(filters, grid=Grid(step=step), units=units, bandwidth=bandwidth)
-        except InputError as exc:
+            fmt = resolve_format(format, output, ("table", "json"))
+            specs = [*filters]
+            data = inspect_filters(specs, grid=Grid(step=step), units=units, bandwidth=bandwidth)
+        except (InputError, ValueError) as exc:
             fail(exc)
-        except ValueError as exc:
-            fail(exc)
-        if format == "json":
-            emit(to_json(data), output, inputs=filters)
+        inputs = input_files(filters)
+        if fmt == "json":
+            try:
+                emit(to_json(data), output, inputs=inputs)
+            except InputError as exc:
+                fail(exc)
             return
         blocks = []
         for f in data["filters"]:
             rng = f["measured_range_nm"]
+            where = f"{f['source']}" + (f" {f['path']}" if f["path"] else "")
+            if f.get("column_number") and ":" in f["name"]:
+                where += f", column {f['column'] if f['column'] is not None else f['column_number']}"
             rows = [
-                ("source", f"{f['source']}" + (f" {f['path']}" if f["path"] else "")),
-                ("measured range", f"{rng[0]:g}-{rng[1]:g} nm, sampling {f['sampling_nm']:g} nm" if rng else "parametric"),
+                ("source", where),
+                ("measured range",
+                 f"{rng[0]:g}-{rng[1]:g} nm, sampling {f['sampling_nm']:g} nm" if rng else "parametric"),
                 ("units", f"{f['units']} ({f['units_reason']})" if f["units"] else "-"),
+                ("extrapolation", extrapolation_text(f["extrapolated"]) or "none"),
                 ("transmittance", f"min {f['min_transmittance']:.4f} at {f['min_at_nm']:g} nm, "
                                   f"max {f['max_transmittance']:.4f}"),
                 ("luminous transm.", f"{100 * f['luminous_transmittance_d65']:.1f} % (CIE D65, CIE 1931 2 deg)"),
-                ("notches", "; ".join(f"{n['center']:.1f} nm, FWHM {n['fwhm']:.1f} nm, depth {n['depth']:.3f}"
-                                      for n in f["notches"]) or "none"),
+                ("features", "; ".join(feature_text(x) for x in f["features"]) or "none"),
             ]
-            rows += [("warning", w) for w in f["warnings"]]
+            rows += [("warning", w) for w in f["warnings"] if not w.startswith("extrapolated ")]
             blocks.append(table_text(["", ""], rows, title=f["name"]))
-        emit("\n".join(blocks) + f"\n{data['caveat']}\n", output, inputs=filters)
+        try:
+            emit("\n".join(blocks) + f"\n{data['caveat']}\n", output, inputs=inputs)
+        except InputError as exc:
+            fail(exc)

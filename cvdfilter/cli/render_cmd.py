@@ -22,7 +22,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import fail, warn
+from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options, warn
 
 #: Suffixes picked up when a directory is given.
 SCAN_SUFFIXES = (".png", ".jpg", ".jpeg", ".tif", ".tiff", ".npy", ".npz")
@@ -279,7 +279,7 @@ def register(app: typer.Typer) -> None:
         inputs: List[str] = typer.Argument(..., metavar="IMAGE_OR_DIR...",
                                            help="Images (PNG, JPEG, TIFF), cubes (.npy, .npz, TIFF), directories "
                                                 "(searched recursively) or glob patterns."),
-        filter: str = typer.Option(..., "--filter", help="The filter: a spec, a file or an example name."),
+        filter: str = typer.Option(..., "--filter", help="The filter: a spec, a file (FILE:COLUMN for one column of a multi-column file) or an example name."),
         illuminant: str = typer.Option("D65", "--illuminant", help="The light the scene is lit by."),
         observer: str = typer.Option("normal", "--observer",
                                      help="The observer, e.g. deuteranope, protanomalous:shift=8, normal:age=70."),
@@ -312,6 +312,9 @@ def register(app: typer.Typer) -> None:
         wavelengths: Optional[str] = typer.Option(None, "--wavelengths",
                                                   help="Cube band wavelengths, START:STOP:STEP or a list (nm)."),
         quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
+        # -- file reading: units and bandwidth of a --filter file --
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
     ) -> None:
         """Render images or cubes before and after a filter, as the observer would see them.
 
@@ -338,6 +341,7 @@ def register(app: typer.Typer) -> None:
             fail(f"--cube-kind {cube_kind} is not reflectance or radiance")
         try:
             wl = None if wavelengths is None else parse_wavelengths(wavelengths)
+            filter = file_options(filter, units, bandwidth)  # file reading: --units/--bandwidth
             renderer = Renderer(filter, observer=observer, illuminant=illuminant, adaptation=adaptation,
                                 method=method, normalisation=normalisation, scene=scene, gamut=gamut)
             if gamut == "none" and format not in ("tiff", "tiff-float", "auto"):

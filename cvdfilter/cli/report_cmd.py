@@ -6,7 +6,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import fail
+from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options
 
 
 def register(app: typer.Typer) -> None:
@@ -25,6 +25,9 @@ def register(app: typer.Typer) -> None:
         metrics: str = typer.Option("all", "--metrics", help="all, core or a comma-separated list of groups."),
         style: Optional[List[str]] = typer.Option(None, "--style",
                                                   help="Figure style file or KEY=VALUE[,KEY=VALUE]; repeatable."),
+        # -- file reading: units and bandwidth of filter files --
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
     ) -> None:
         """Write a report: scorecard tables, figures, models and references, cautions, and every input and
         version needed to reproduce it (filters with SHA-256 checksums).
@@ -45,7 +48,8 @@ def register(app: typer.Typer) -> None:
         try:
             from ..reporting import report as make_report
 
-            result = make_report(filters, illuminant=illuminant, observers=observer or None, surfaces=surfaces,
+            filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
+            result = make_report(filter_specs, illuminant=illuminant, observers=observer or None, surfaces=surfaces,
                                  adaptation=adaptation, metrics=metrics, style=style or None, output=output)
         except InputError as exc:
             fail(exc)

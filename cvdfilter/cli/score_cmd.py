@@ -7,7 +7,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import FORMATS, emit, fail
+from .common import BANDWIDTH_HELP, FORMATS, UNITS_HELP, emit, fail, file_options, input_files, resolve_format
 
 #: Show a progress bar only once the work has taken this long (seconds).
 _PROGRESS_AFTER_S = 1.0
@@ -32,7 +32,8 @@ class _LazyProgress:
                                 TimeRemainingColumn(), console=Console(stderr=True), transient=True)
             self.bar.start()
         if stage not in self.tasks:
-            label = {"filters": "scoring filters", "rendition": "colour rendition"}.get(stage, stage)
+            label = {"filters": "scoring filters", "rendition": "colour rendition",
+                     "members": "population members"}.get(stage, stage)
             self.tasks[stage] = self.bar.add_task(label, total=total)
         self.bar.update(self.tasks[stage], completed=done)
 
@@ -55,8 +56,13 @@ def register(app: typer.Typer) -> None:
                                                                  "reflectance file."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a degree 0-1 of von Kries "
                                                                     "adaptation to the filtered light."),
-        format: str = typer.Option("table", "--format", "-f", help="table, json, csv or markdown."),
+        # -- file reading and output format (units/bandwidth per file or for all; format from -o) --
+        format: Optional[str] = typer.Option(None, "--format", "-f", help=(
+            "table, json, csv or markdown (default: from the -o extension .json/.csv/.md, else table).")),
         output: Optional[str] = typer.Option(None, "--output", "-o", help="Write to this file instead of stdout."),
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
+        # -- end of file reading and output format --
         metrics: str = typer.Option("all", "--metrics", help="all, core (no colour rendition: fast for sweeps) "
                                                              "or a comma-separated list of photometry, road_use, "
                                                              "rendition, contrast, discrimination, confusion."),
@@ -77,6 +83,8 @@ def register(app: typer.Typer) -> None:
         sensitivity: bool = typer.Option(False, "--sensitivity", help=(
             "Also show how each verdict changes when the Weber fraction, cone ratios, JND thresholds and "
             "signal-quotient limits vary over a documented range (docs/metrics.md).")),
+        members: bool = typer.Option(False, "--members", help=(
+            "With population observers (a spec plus n=N): also write every member's values (JSON only).")),
     ) -> None:
         """Score filters: photometry and road use, colour rendition, and for each observer the contrast
         gains and the surface pairs gained, lost, resolved or created.
@@ -84,12 +92,19 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter score larkhill-notch-575 "notch:center=540..600/10,fwhm=30,depth=0.8" --metrics core
 
         Example: cvdfilter score larkhill-notch-575 larkhill-rose-tint --metrics core --sensitivity
+
+        Example: cvdfilter score larkhill-notch-575 --observer deuteranomalous:n=200,seed=7 --metrics core
         """
         from ..errors import InputError
         from ..scorecard import DEFAULT_OBSERVERS, score
 
-        if format not in FORMATS:
-            fail(f"--format {format} is not one of {', '.join(FORMATS)}")
+        # -- file reading and output format --
+        try:
+            format = resolve_format(format, output, FORMATS)
+            filter_specs = file_options(filters, units, bandwidth)
+        except InputError as exc:
+            fail(exc)
+        # -- end of file reading and output format --
         try:
             ratios = tuple(float(x) for x in cone_ratios.replace(",", ":").split(":"))
         except ValueError:
@@ -98,11 +113,11 @@ def register(app: typer.Typer) -> None:
             fail(f"--cone-ratios {cone_ratios}: give three positive numbers L:M:S, e.g. 10:5:1")
         progress = _LazyProgress()
         try:
-            card = score(filters, illuminant=illuminant, observers=observer or list(DEFAULT_OBSERVERS),
+            card = score(filter_specs, illuminant=illuminant, observers=observer or list(DEFAULT_OBSERVERS),
                          surfaces=surfaces, adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
                          weber_fraction=weber_fraction, cone_ratios=ratios, discrimination_threshold=jnd_threshold,
                          normal_threshold=jnd_threshold, deficient_threshold=jnd_threshold,
-                         signal_limits=signal_limits, sensitivity=sensitivity, progress=progress)
+                         signal_limits=signal_limits, sensitivity=sensitivity, members=members, progress=progress)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)
@@ -116,7 +131,7 @@ def register(app: typer.Typer) -> None:
                 text = render()
         else:
             text = render()
-        inputs = [f for f in filters] + ([signal_spectra] if signal_spectra else []) + [surfaces, illuminant]
+        inputs = input_files(filters) + ([signal_spectra] if signal_spectra else []) + [surfaces, illuminant]
         try:
             emit(text, output, inputs=inputs)
         except InputError as exc:

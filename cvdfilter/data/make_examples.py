@@ -41,7 +41,7 @@ def main() -> None:
     t = t + rng.normal(0, 0.002, wl.size)
     rows = "\n".join(f"{w:.0f}\t{v:.4f}" for w, v in zip(wl, t))
     (HERE / "larkhill-double-notch.csv").write_text(
-        HEADER.format(tag="LB-2 (double notch)") + "wavelength\ttransmittance\n" + rows + "\n")
+        HEADER.format(tag="LB-2 (double notch)") + "wavelength\ttransmittance_fraction\n" + rows + "\n")
 
     # LB-3: a broad rose tint (absorbs the middle of the spectrum), optical density, 5 nm.
     wl = np.arange(380, 781, 5.0)
@@ -55,7 +55,7 @@ def main() -> None:
     t = 0.35 + 0.01 * np.sin(wl / 40.0)
     rows = "\n".join(f"{w:.0f},{v:.4f}" for w, v in zip(wl, t))
     (HERE / "larkhill-grey-reference.csv").write_text(
-        HEADER.format(tag="LB-4 (grey reference)") + "wavelength_nm,transmittance\n" + rows + "\n")
+        HEADER.format(tag="LB-4 (grey reference)") + "wavelength_nm,transmittance_fraction\n" + rows + "\n")
 
 
 if __name__ == "__main__":

@@ -94,7 +94,8 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
         Put the caveat (:data:`cvdfilter.cautions.CAVEAT`) under figures that
         show model predictions.
     **options
-        Kind-specific: ``space`` ("mb" or "xy") for chromaticity, ``metrics``
+        ``units`` and ``bandwidth`` of filter files (any kind); kind-specific:
+        ``space`` ("mb" or "xy") for chromaticity, ``metrics``
         and ``x`` for sweep, ``image`` for images, ``chart`` ("bar" or
         "radial") for hues.
 
@@ -116,7 +117,12 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
         raise InputError(f"unknown figure kind '{kind}'", hint=f"use one of {', '.join(KINDS)}")
     module, function, carries_metrics = _KIND_TABLE[key]
     fn = getattr(importlib.import_module(f"{__name__}.{module}"), function)
+    from ..spectra.filters import with_file_options
+
     kwargs = dict(options)
+    # units / bandwidth of filter files (the API's form of --units and --bandwidth)
+    filters = with_file_options(filters, units=kwargs.pop("units", None), bandwidth=kwargs.pop("bandwidth", None)) \
+        if filters is not None else None
     if observers is not None:
         kwargs["observers"] = [observers] if isinstance(observers, str) else list(observers)
     if surfaces is not None:

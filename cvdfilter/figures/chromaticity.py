@@ -34,12 +34,20 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import legend_axes, legend_columns, load_inputs, observer_label, short_name
+from .common import display_names, ensure_axes_height, legend_axes, legend_columns, legend_labels, load_inputs, observer_label, pad_lines, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style
 
-__all__ = ["chromaticity_figure", "chromaticity_data", "SPACES"]
+__all__ = ["chromaticity_figure", "chromaticity_data", "arrow_subset", "SPACES", "ARROW_MODES", "AUTO_ARROWS"]
+
+#: How surfaces are drawn: ``all`` (an arrow each), ``subset`` (arrows for :data:`AUTO_ARROWS` surfaces
+#: spread over the diagram, the others as small dots), ``mean`` (one arrow per cell of a 4 x 4 grid over
+#: the surfaces: the mean shift of the surfaces in it), or a number of surfaces; ``auto`` = ``all`` up to
+#: :data:`AUTO_ARROWS` surfaces, else ``subset``.
+ARROW_MODES = ("auto", "all", "subset", "mean")
+#: Most arrows per panel that stay readable at a column's width (common practice: a 24-patch chart).
+AUTO_ARROWS = 24
 
 SPACES = {
     "mb": "MacLeod-Boynton (l, s), CIE 170-1 scaling",
@@ -187,6 +195,73 @@ def _locus_labels(space: str):
             (600, (4, 0), "left", "center")]
 
 
+def arrow_subset(points: np.ndarray, n: int) -> np.ndarray:
+    """Indices of ``n`` points spread over the cloud (greedy farthest-point order, deterministic).
+
+    Starts at the point farthest from the cloud's mean; each next point is the one farthest from
+    those chosen, in coordinates scaled to the cloud's range, so the subset covers the gamut.
+    """
+    pts = np.asarray(points, dtype=float)
+    if n >= len(pts):
+        return np.arange(len(pts))
+    scale = np.ptp(pts, axis=0)
+    scale[scale == 0] = 1.0
+    z = (pts - pts.mean(axis=0)) / scale
+    chosen = [int(np.argmax(np.linalg.norm(z, axis=1)))]
+    dist = np.linalg.norm(z - z[chosen[0]], axis=1)
+    for _ in range(n - 1):
+        k = int(np.argmax(dist))
+        chosen.append(k)
+        dist = np.minimum(dist, np.linalg.norm(z - z[k], axis=1))
+    return np.sort(np.array(chosen))
+
+
+def _cell_means(w0: np.ndarray, w1: np.ndarray, lo, hi, cells: int = 4):
+    """Mean start and end of the surfaces in each cell of a ``cells`` x ``cells`` grid over [lo, hi]."""
+    idx = np.clip(((w0 - lo) / np.where(hi - lo > 0, hi - lo, 1.0) * cells).astype(int), 0, cells - 1)
+    key = idx[:, 0] * cells + idx[:, 1]
+    starts, ends, counts = [], [], []
+    for k in np.unique(key):
+        sel = key == k
+        starts.append(w0[sel].mean(axis=0))
+        ends.append(w1[sel].mean(axis=0))
+        counts.append(int(sel.sum()))
+    return np.array(starts), np.array(ends), np.array(counts)
+
+
+def _arrow_mode(arrows, n_surfaces: int) -> tuple[str, int]:
+    if isinstance(arrows, (int, np.integer)) or (isinstance(arrows, str) and arrows.strip().isdigit()):
+        n = int(arrows)
+        if n < 1:
+            raise InputError(f"--arrows {n}: give at least 1 surface")
+        return ("all" if n >= n_surfaces else "subset"), n
+    mode = str(arrows).strip().lower()
+    if mode not in ARROW_MODES:
+        raise InputError(f"--arrows {arrows} is not one of {', '.join(ARROW_MODES)} or a number")
+    if mode == "auto":
+        mode = "all" if n_surfaces <= AUTO_ARROWS else "subset"
+    return mode, (AUTO_ARROWS if mode == "subset" else n_surfaces)
+
+
+def _drop_colliding(fig, texts) -> None:
+    """Hide locus labels that would overlap a label already kept or leave the axes (measured)."""
+    if not texts:
+        return
+    fig.draw_without_rendering()
+    renderer = fig.canvas.get_renderer()
+    from matplotlib.text import Text
+
+    kept = []
+    for t in texts:
+        box = Text.get_window_extent(t, renderer)
+        ax_box = t.axes.bbox
+        outside = box.x0 < ax_box.x0 or box.x1 > ax_box.x1 or box.y0 < ax_box.y0 or box.y1 > ax_box.y1
+        if outside or any(box.overlaps(k) for k in kept):
+            t.set_visible(False)
+        else:
+            kept.append(box)
+
+
 def _fan_directions(copunctal, points, n=9):
     """Unit directions from the copunctal point spanning the angles of ``points``.
 
@@ -212,8 +287,8 @@ def _draw_fan(ax, copunctal, directions, length, gid):
 
 
 def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="chart24",
-                        adaptation="full", space: str = "mb", style: Style | None = None, width_mm: float = 89.0,
-                        height_mm: float | None = None, title: str | None = None,
+                        adaptation="full", space: str = "mb", arrows="auto", style: Style | None = None,
+                        width_mm: float = 89.0, height_mm: float | None = None, title: str | None = None,
                         caveat: str | None = None) -> FigureResult:
     """Chromaticity diagram: locus, copunctal point, confusion lines, surfaces without -> with the filter.
 
@@ -228,6 +303,8 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         Surface set (default the 24-patch chart set chart24, readable as arrows).
     space : str
         ``mb``, ``xy`` or ``xy2015`` (:data:`SPACES`).
+    arrows : str or int
+        ``auto`` (default), ``all``, ``subset``, ``mean`` or a number of surfaces (:data:`ARROW_MODES`).
 
     Returns
     -------
@@ -248,13 +325,24 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
     copunctal = data["copunctal"]
     locus = data["locus"]
     mb = space == "mb"
+    n_surf = len(data["labels"])
+    mode, n_arrows = _arrow_mode(arrows, n_surf)
+    data["arrows"] = {"mode": mode, "n": n_arrows}
+    from ..spectra.filters import load_filters
+
+    try:
+        shown_names = display_names(load_filters(filters)) if not isinstance(filters, np.ndarray) else None
+    except Exception:   # the names are cosmetic; the data above already validated the filters
+        shown_names = None
+    if not shown_names or len(shown_names) != n_f:
+        shown_names = [f["name"] for f in data["filters"]]
 
     if height_mm is None:
         if width_mm < 120:
             rows = int(np.ceil(n_f / min(n_f, 2)))
             height_mm = 48 + rows * (58 if n_f == 1 else 46) + 32
         else:
-            height_mm = width_mm * 0.62
+            height_mm = width_mm * (0.62 if n_f <= 2 else 0.78)
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
         if width_mm < 120:
@@ -263,10 +351,15 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
             gs = fig.add_gridspec(2 + nrows_zoom, ncols, height_ratios=[1.0] + [1.45] * nrows_zoom + [0.001])
             ax_all = fig.add_subplot(gs[0, :])
             zoom_axes = [fig.add_subplot(gs[1 + k // ncols, k % ncols]) for k in range(n_f)]
-        else:
-            gs = fig.add_gridspec(2, 1 + n_f, width_ratios=[1.0] + [1.3] * n_f, height_ratios=[1.0, 0.001])
+        elif n_f <= 2:
+            gs = fig.add_gridspec(2, 1 + n_f, width_ratios=[1.0] + [1.0] * n_f, height_ratios=[1.0, 0.001])
             ax_all = fig.add_subplot(gs[0, 0])
             zoom_axes = [fig.add_subplot(gs[0, 1 + k]) for k in range(n_f)]
+        else:
+            # the overview as tall as the two rows of zoomed panels beside it, never squashed
+            gs = fig.add_gridspec(3, 3, width_ratios=[1.15, 1.0, 1.0], height_ratios=[1.0, 1.0, 0.001])
+            ax_all = fig.add_subplot(gs[0:2, 0])
+            zoom_axes = [fig.add_subplot(gs[k // 2, 1 + k % 2]) for k in range(n_f)]
         legend_spec = gs[-1, :]
 
         handles = {}
@@ -275,11 +368,13 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         if not mb:
             ax_all.plot([locus[0, 0], locus[-1, 0]], [locus[0, 1], locus[-1, 1]], color="black", lw=0.5,
                         linestyle=(0, (1, 1)))
+        locus_texts = []
         for nm, offset, ha, va in _locus_labels(space):
             i = int(np.argmin(np.abs(data["locus_nm"] - nm)))
             ax_all.plot(*locus[i], marker="o", markersize=1.5, color="black", linestyle="none")
-            ax_all.annotate(f"{nm}", xy=locus[i], xytext=offset, textcoords="offset points",
-                            fontsize=style.tick_size, color=NEUTRAL["text"], ha=ha, va=va)
+            locus_texts.append(ax_all.annotate(f"{nm}", xy=locus[i], xytext=offset, textcoords="offset points",
+                                               fontsize=style.tick_size, color=NEUTRAL["text"], ha=ha, va=va,
+                                               gid=f"locus-label-{nm}"))
         all_points = np.vstack([data["white"][None]] + [f["without"] for f in data["filters"]] +
                                [f["with"] for f in data["filters"]])
         if copunctal is not None:
@@ -307,7 +402,7 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
         flo, fhi = frame.min(axis=0), frame.max(axis=0)
         fpad = 0.05 * (fhi - flo)
         ax_all.set_xlim(flo[0] - fpad[0], fhi[0] + fpad[0])
-        ax_all.set_ylim(flo[1] - (2.5 if mb else 1.0) * fpad[1], fhi[1] + 1.6 * fpad[1])
+        ax_all.set_ylim(flo[1] - (4.0 if mb else 1.0) * fpad[1], fhi[1] + 1.6 * fpad[1])
         ax_all.set_xlabel(data["axis_labels"][0])
         ax_all.set_ylabel(data["axis_labels"][1])
         if not mb:
@@ -318,6 +413,7 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
                                                   for f in data["filters"]])
         zlo, zhi = zpts.min(axis=0), zpts.max(axis=0)
         zpad = 0.06 * (zhi - zlo) + 1e-4
+        zoom_titles = []
         for k, (ax, f) in enumerate(zip(zoom_axes, data["filters"])):
             w0, w1 = f["without"], f["with"]
             if copunctal is not None:
@@ -331,15 +427,27 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
                     line = ax.axvline(x, color=NEUTRAL["line"], lw=0.45, linestyle=(0, (3, 2)), zorder=1,
                                       gid=f"fan-{k}-{j}")
                 handles["confusion"] = line
+            # Which arrows: every surface, a subset spread over the diagram, or mean shifts per cell.
+            if mode == "mean":
+                a0, a1, _ = _cell_means(w0, w1, w0.min(axis=0), w0.max(axis=0))
+            elif mode == "subset":
+                keep = arrow_subset(w0, n_arrows)
+                a0, a1 = w0[keep], w1[keep]
+            else:
+                a0, a1 = w0, w1
+            if len(a0) < len(w0):
+                handles["other"], = ax.plot(w0[:, 0], w0[:, 1], linestyle="none", marker="o",
+                                            markersize=style.marker_size * 0.45, color=NEUTRAL["fill"], zorder=3,
+                                            gid=f"surfaces-all-{k}")
             # One quiver for all arrows (far lighter than an annotation per surface).
-            ax.quiver(w0[:, 0], w0[:, 1], w1[:, 0] - w0[:, 0], w1[:, 1] - w0[:, 1], angles="xy",
+            ax.quiver(a0[:, 0], a0[:, 1], a1[:, 0] - a0[:, 0], a1[:, 1] - a0[:, 1], angles="xy",
                       scale_units="xy", scale=1, color=OKABE_ITO["blue"], width=0.55 / 72, units="inches",
                       headwidth=5.5, headlength=7, headaxislength=6.3, minlength=0.3, minshaft=1, zorder=5.5,
                       gid=f"arrows-{k}")
-            handles["without"], = ax.plot(w0[:, 0], w0[:, 1], linestyle="none", marker="o", markersize=style.marker_size,
+            handles["without"], = ax.plot(a0[:, 0], a0[:, 1], linestyle="none", marker="o", markersize=style.marker_size,
                                           markerfacecolor="white", markeredgecolor="black", markeredgewidth=0.6,
                                           zorder=4, gid=f"surfaces-without-{k}")
-            handles["with"], = ax.plot(w1[:, 0], w1[:, 1], linestyle="none", marker="o",
+            handles["with"], = ax.plot(a1[:, 0], a1[:, 1], linestyle="none", marker="o",
                                        markersize=style.marker_size * 0.6, color=OKABE_ITO["blue"], zorder=5,
                                        gid=f"surfaces-with-{k}")
             handles["white"], = ax.plot(*data["white"], linestyle="none", marker="*", markersize=style.marker_size * 2.2,
@@ -353,34 +461,56 @@ def chromaticity_figure(filters, *, illuminant="D65", observers=("deuteranope",)
             ax.set_xlim(zlo[0] - zpad[0], zhi[0] + zpad[0])
             ax.set_ylim(zlo[1] - zpad[1], zhi[1] + zpad[1])
             ax.set_xlabel(data["axis_labels"][0])
-            first_in_row = k % (min(n_f, 2) if width_mm < 120 else n_f) == 0
+            per_row = min(n_f, 2) if (width_mm < 120 or n_f > 2) else n_f
+            first_in_row = k % per_row == 0
             if first_in_row:
                 ax.set_ylabel(data["axis_labels"][1])
             else:
                 ax.tick_params(axis="y", labelleft=False)
-            if n_f > 1:
-                import textwrap
-
-                cols = min(n_f, 2) if width_mm < 120 else n_f + 0.8
-                chars = max(12, int((width_mm - 25) / cols / 25.4 * 72 / (0.58 * style.font_size)))
-                ax.set_title("\n".join(textwrap.wrap(f["name"], chars)[:2]), fontsize=style.font_size)
+            zoom_titles.append(shown_names[k])
             ax.ticklabel_format(useOffset=False)
             if not mb:
                 ax.set_aspect("equal", adjustable="box")
 
-        ax_all.set_title(f"{data['observer_label']}, {data['illuminant']}", loc="left", fontsize=style.font_size)
-        legend_items = [("without", "surface, no filter"), ("with", "with filter (adapted)"),
-                        ("white", f"white ({short_name(data['illuminant'], 12)})"),
+        # Panel titles wrapped to the panel's measured width and padded to the same line count, so the
+        # panels of a row stay aligned.
+        fig.draw_without_rendering()
+        wrapped = [wrap_to_width(t, 0.92 * zoom_axes[k].bbox.width * 72 / fig.dpi, style.font_size)
+                   for k, t in enumerate(zoom_titles)]
+        what = (f"{data['observer_label']}, {data['illuminant']}, {data['surfaces']} ({n_surf} surfaces"
+                + {"all": ")", "subset": f"; arrows for {min(n_arrows, n_surf)} spread over the diagram)",
+                   "mean": "; arrows: mean shift per cell of a 4 x 4 grid)"}[mode])
+        what = wrap_to_width(what, 0.9 * ax_all.bbox.width * 72 / fig.dpi, style.font_size)
+        if width_mm >= 120:
+            # the overview stands in the zoomed panels' (first) row: all titles of that row get one line count
+            first_row = min(n_f, 2) if n_f > 2 else n_f
+            padded = pad_lines([what] + wrapped[:first_row])
+            what, wrapped = padded[0], padded[1:] + pad_lines(wrapped[first_row:])
+        else:
+            wrapped = pad_lines(wrapped)
+        for ax, t in zip(zoom_axes, wrapped):
+            ax.set_title(t, fontsize=style.font_size, loc="left")
+        ax_all.set_title(what, loc="left", fontsize=style.font_size)
+        legend_items = [("without", "surface, no filter" if mode != "mean" else "mean of a cell, no filter"),
+                        ("with", "with filter (adapted)"),
+                        ("white", f"white ({data['illuminant']})"),
                         ("white_filtered", "filtered white, unadapted")]
+        if "other" in handles:
+            legend_items.append(("other", "other surfaces (no arrow)" if mode == "subset" else "each surface"))
         if "confusion" in handles:
             legend_items.append(("confusion", f"{data['deficiency']} confusion lines"))
         if "copunctal" in handles:
             legend_items.append(("copunctal", "copunctal point"))
-        texts = [t for _, t in legend_items]
+        texts = legend_labels([t for _, t in legend_items], width_mm, style.font_size, handle_pt=24)
         legend_axes(fig, legend_spec, [handles[k] for k, _ in legend_items], texts,
                     ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3, handle_pt=24),
                     handlelength=1.8, columnspacing=1.0)
+        _drop_colliding(fig, locus_texts)
+        if title:
+            title = f"{title}: {shown_names[0] if n_f == 1 else f'{n_f} filters'} ({data['surfaces']})"
         finish(fig, style, title=title, caveat=caveat)
+        zoom_rows = int(np.ceil(n_f / 2)) if (width_mm < 120 or n_f > 2) else 1
+        ensure_axes_height(fig, zoom_axes, 30.0, rows=zoom_rows + (1 if width_mm < 120 else 0))
 
     inputs = {"filters": [f["name"] for f in data["filters"]], "illuminant": data["illuminant"],
               "observer": data["observer"], "surfaces": data["surfaces"], "adaptation": data["adaptation"],

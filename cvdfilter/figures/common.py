@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..observers.labels import observer_label
 from ..spectra.grid import DEFAULT_GRID
 
 __all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes", "legend_columns",
-           "filter_labels", "callouts_fit"]
+           "filter_labels", "callouts_fit", "legend_labels", "text_width_pt", "wrap_to_width", "display_names", "pad_lines", "ensure_axes_height"]
 
 
 def load_filters_checked(filters, grid=DEFAULT_GRID):
@@ -41,25 +42,6 @@ def short_name(name: str, limit: int = 28) -> str:
     """A filter or observer name shortened for a legend (full names go in the report)."""
     name = str(name)
     return name if len(name) <= limit else name[: limit - 1] + "\u2026"
-
-
-def observer_label(obs) -> str:
-    """Readable observer label: ``deuteranomalous, 10 nm`` rather than the spec."""
-    name = obs.spec.split(":", 1)[0]
-    p = obs.params
-    extra = []
-    if obs.kind == "anomalous":
-        if p.get("model") == "machado2009":
-            extra.append(f"Machado severity {p['severity']:g}")
-        else:
-            extra.append(f"{p['shift']:.4g} nm")  # the default shifts are not whole numbers (17.35, 21.35)
-    if p.get("age", 32.0) != 32.0:
-        extra.append(f"{p['age']:g} y")
-    if p.get("field", 2.0) != 2.0:
-        extra.append(f"{p['field']:g}\u00b0")
-    if p.get("data", "cie2006") != "cie2006":
-        extra.append(p["data"])
-    return name + (" (" + ", ".join(extra) + ")" if extra else "")
 
 
 def spread_labels(positions, min_gap: float) -> np.ndarray:
@@ -189,29 +171,140 @@ def legend_below(fig, ax, handles, labels, *, ncols: int = 2, gap_pt: float = 3.
 
 
 def legend_axes(fig, spec, handles, labels, *, ncols: int = 2, **kwargs):
-    """A legend in its own (invisible) grid cell ``spec``, spanning the columns it is given.
+    """A legend in its own (invisible) grid cell ``spec``, centred on the figure's width.
 
     The cell gets a tiny height; constrained layout grows its margin to fit
-    the legend, centred under the panels it spans.
+    the legend. Centred on the figure (not on the cell, which the y labels
+    push to the right), so a legend as wide as the figure stays inside it.
     """
+    from matplotlib.transforms import blended_transform_factory
+
     ax = fig.add_subplot(spec)
     ax.set_axis_off()
-    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 1.0), ncols=ncols, borderaxespad=0,
-              **kwargs)
+    ax.legend(handles, labels, loc="upper center", bbox_to_anchor=(0.5, 1.0),
+              bbox_transform=blended_transform_factory(fig.transFigure, ax.transAxes), ncols=ncols,
+              borderaxespad=0, **kwargs)
     return ax
+
+
+def text_width_pt(text: str, size: float) -> float:
+    """The drawn width of ``text`` (its widest line) in points at ``size`` pt, in the current rc font.
+
+    Measured by the Agg renderer at 72 dpi, the resolution the figures are laid out at (glyph advances
+    are hinted to whole pixels there, so this is slightly wider than the printed text: a safe margin).
+    """
+    from matplotlib.backends.backend_agg import RendererAgg
+    from matplotlib.font_manager import FontProperties
+
+    renderer = RendererAgg(8, 8, 72)
+    prop = FontProperties(size=size)
+    widths = [renderer.get_text_width_height_descent(line, prop, ismath=False)[0] if line.strip() else 0.0
+              for line in str(text).split("\n")]
+    return max(widths, default=0.0)
+
+
+def wrap_to_width(text: str, width_pt: float, size: float, *, max_lines: int | None = None) -> str:
+    """Greedy word wrap of ``text`` so that every line measures at most ``width_pt`` at ``size`` pt.
+
+    A single word longer than the width is broken at ``-``, ``_``, ``:``, ``,`` or ``/`` if it can be,
+    else between characters. ``max_lines`` ends the last kept line with an ellipsis.
+    """
+    import re
+
+    words = " ".join(str(text).split()).split(" ")
+    pieces = []
+    for w in words:
+        if text_width_pt(w, size) <= width_pt:
+            pieces.append((w, True))
+            continue
+        parts = [p for p in re.split(r"(?<=[-_:,/=])", w) if p]
+        for p in parts:
+            while text_width_pt(p, size) > width_pt and len(p) > 1:
+                k = len(p)
+                while k > 1 and text_width_pt(p[:k], size) > width_pt:
+                    k -= 1
+                pieces.append((p[:k], False))
+                p = p[k:]
+            pieces.append((p, False))
+        pieces[-1] = (pieces[-1][0], True)
+    lines, line, glue = [], "", False
+    for piece, ends_word in pieces:
+        trial = line + (" " if glue and line else "") + piece
+        if line and text_width_pt(trial, size) > width_pt:
+            lines.append(line)
+            line = piece
+        else:
+            line = trial
+        glue = ends_word
+    if line:
+        lines.append(line)
+    if max_lines is not None and len(lines) > max_lines:
+        lines = lines[:max_lines]
+        last = lines[-1]
+        while last and text_width_pt(last + "\u2026", size) > width_pt:
+            last = last[:-1]
+        lines[-1] = last.rstrip() + "\u2026"
+    return "\n".join(lines)
+
+
+def pad_lines(texts, n: int | None = None) -> list[str]:
+    """Pad multi-line texts with empty lines at the top to the same line count (aligned panel titles)."""
+    texts = list(texts)
+    n = n or max((t.count("\n") + 1 for t in texts), default=1)
+    return ["\n" * (n - 1 - t.count("\n")) + t for t in texts]
 
 
 def legend_columns(labels, width_mm: float, font_size: float, *, max_cols: int = 4, handle_pt: float = 36.0) -> int:
     """The most legend columns (up to ``max_cols``) whose labels fit side by side in ``width_mm``.
 
-    Text width is estimated at 0.62 em per character (DejaVu Sans averages
-    about 0.55 em for mixed text, more for lower-case runs and hyphens; common
-    practice, with a margin so that no label is clipped), plus ``handle_pt``
-    for the handle, padding and column spacing.
+    Label widths are measured (:func:`text_width_pt`), plus ``handle_pt`` per
+    column for the handle, padding and column spacing.
     """
-    widest = max((len(str(t)) for t in labels), default=0) * 0.62 * font_size + handle_pt
-    room = 0.97 * width_mm / 25.4 * 72
-    return int(max(1, min(max_cols, len(labels) or 1, room // widest)))
+    labels = [str(t) for t in labels]
+    if not labels:
+        return 1
+    room = 0.92 * width_mm / 25.4 * 72
+    widths = [text_width_pt(t, font_size) * 1.05 + handle_pt for t in labels]
+    best = 1
+    for cols in range(1, min(max_cols, len(labels)) + 1):
+        rows = -(-len(labels) // cols)
+        # matplotlib fills legend columns top to bottom
+        col_widths = [max(widths[c * rows:(c + 1) * rows], default=0.0) for c in range(cols)]
+        if sum(col_widths) <= room:
+            best = cols
+    return best
+
+
+def legend_labels(labels, width_mm: float, font_size: float, *, handle_pt: float = 36.0) -> list[str]:
+    """Labels wrapped so that each fits one legend column across the figure (never cut at the edge)."""
+    # 10 % to spare: glyph advances are hinted differently at each raster resolution (a 110 dpi preview
+    # draws text up to 5 % wider than the 72 dpi layout measures it)
+    room = 0.9 * width_mm / 25.4 * 72 - handle_pt
+    return [wrap_to_width(t, room, font_size) for t in labels]
+
+
+def display_names(fs) -> list[str]:
+    """The name of each filter as figures show it: the loader's name, except that a filter read from a
+    file with one data column is named by the file's stem (not by its column header), and a column of a
+    file with several is ``stem:column``."""
+    import pathlib
+
+    names = [str(n) for n in fs.names]
+    infos = list(getattr(fs, "info", ()) or ())
+    sources = list(getattr(fs, "sources", ()) or ())
+    if len(infos) != len(names):
+        return names
+    paths = [i.get("path") if isinstance(i, dict) else None for i in infos]
+    out = []
+    for k, (name, info) in enumerate(zip(names, infos)):
+        src = sources[k] if k < len(sources) else None
+        path = paths[k]
+        if src == "file" and path and isinstance(info, dict) and info.get("column") == name:
+            stem = pathlib.Path(path).stem
+            out.append(stem if paths.count(path) == 1 else f"{stem}:{name}")
+        else:
+            out.append(name)
+    return out
 
 
 def filter_labels(names, limit: int = 34) -> list[str]:
@@ -235,3 +328,29 @@ def callouts_fit(fig, ax, annotations, *, pad_pt: float = 3.0, fill: float = 0.9
     total = sum(a.get_window_extent(renderer).width for a in annotations)
     total += pad_pt * fig.dpi / 72.0 * len(annotations)
     return total <= fill * ax.bbox.width
+
+
+def ensure_axes_height(fig, axes, min_mm: float, *, rows: int | None = None, passes: int = 3) -> None:
+    """Grow the figure's height until every axes in ``axes`` is at least ``min_mm`` tall.
+
+    Legends, wrapped titles and notes take the room they need (constrained layout measures them);
+    when they would squeeze the plots below ``min_mm``, the figure gets taller instead (by the deficit
+    times ``rows``, the number of axes stacked vertically; default: as many as given).
+    """
+    import warnings
+
+    axes = [a for a in axes if a is not None]
+    rows = rows or len(axes)
+    for _ in range(passes + 4):
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always")
+            fig.draw_without_rendering()
+        if any("collapsed" in str(w.message) for w in caught):
+            # the decorations alone are taller than the figure: grow it, then measure again
+            fig.set_figheight(fig.get_figheight() * 1.5)
+            continue
+        heights = [a.get_position().height * fig.get_figheight() * 25.4 for a in axes]
+        deficit = min_mm - min(heights)
+        if deficit <= 0.2:
+            return
+        fig.set_figheight(fig.get_figheight() + (deficit * rows + 1.0) / 25.4)

@@ -16,16 +16,35 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import filter_labels, legend_axes, legend_columns, load_filters_checked
+from .common import (ensure_axes_height, filter_labels, legend_axes, legend_columns, legend_labels,
+                     load_filters_checked, wrap_to_width)
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
 
-__all__ = ["hues_figure", "hues_card", "CHARTS", "N_BINS"]
+__all__ = ["hues_figure", "hues_card", "CHARTS", "N_BINS", "HUE_BIN_NAMES", "hue_bin_colours"]
 
 CHARTS = ("bar", "radial")
 N_BINS = 16
 _NO_FILTER = "no filter"
+#: Approximate colour names of the 16 TM-30 hue bins (22.5 deg of CAM02-UCS hue each, bin 1 from 0 deg),
+#: placed against the CIECAM02 unique hues red 20.14, yellow 90, green 164.25, blue 237.53 deg (CIE 159:2004
+#: hue quadrature; from memory). Names for reading the figure, not a colour standard.
+HUE_BIN_NAMES = ("red", "red-orange", "orange", "yellow-orange", "yellow", "yellow-green", "yellowish green",
+                 "green", "blue-green", "cyan", "blue", "violet-blue", "violet", "purple", "magenta", "pink-red")
+
+
+def hue_bin_colours(lightness: float = 62.0, colourfulness: float = 28.0) -> np.ndarray:
+    """sRGB (0-1, clipped) of each hue bin's centre hue in CAM02-UCS at a moderate lightness and chroma.
+
+    colour-science: CAM02-UCS J'a'b' -> XYZ (CIECAM02 defaults, D65, L_A 64 cd/m2, Y_b 20) -> sRGB.
+    """
+    import colour
+
+    h = np.deg2rad((np.arange(N_BINS) + 0.5) * 360.0 / N_BINS)
+    jab = np.stack([np.full(N_BINS, lightness), colourfulness * np.cos(h), colourfulness * np.sin(h)], axis=-1)
+    xyz = colour.CAM02UCS_to_XYZ(jab)       # colour-science returns XYZ on a 0-1 scale here
+    return np.clip(colour.XYZ_to_sRGB(xyz), 0.0, 1.0)
 
 
 def _rendition_card(filters, illuminant):
@@ -94,14 +113,15 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
     bins = np.arange(1, N_BINS + 1)
     filt = data_series[1:]
     styles = series(len(filt))
-    legend_names = filter_labels([s["name"] for s in filt])
+    legend_names = filter_labels([s["name"] for s in filt], limit=10_000)
     ill_name = card["illuminant"]["name"] if isinstance(card.get("illuminant"), dict) else str(card.get("illuminant"))
 
     if height_mm is None:
-        height_mm = (width_mm * 0.85 if chart == "bar" else width_mm * 1.15) if width_mm < 120 else width_mm * 0.5
+        height_mm = (width_mm * 1.05 if chart == "bar" else width_mm * 1.15) if width_mm < 120 else width_mm * 0.55
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
-        gs = fig.add_gridspec(2, 1, height_ratios=[1.0, 0.001])
+        gs = fig.add_gridspec(3, 1, height_ratios=[1.0, 0.035, 0.001] if chart == "bar" else [1.0, 0.0005, 0.001],
+                              hspace=0.0)
         handles = []
         if chart == "bar":
             ax = fig.add_subplot(gs[0, 0])
@@ -126,11 +146,23 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
             top = max(10.0, 1.1 * np.nanmax(np.abs(values)))
             ax.set_ylim(-top, top)
             ax.set_xlim(0.4, N_BINS + 0.6)
-            ax.set_xticks(bins)
-            ax.set_xlabel("TM-30 hue bin\n(22.5\u00b0 of CAM02-UCS hue each, bin 1 from 0\u00b0)")
-            ax.set_ylabel("Local chroma shift R$_{cs,h}$ (%)")
+            ax.set_xticks(bins, [])
+            ax.tick_params(axis="x", length=0)
+            ax.set_ylabel("Local chroma shift (%)")
             for x in bins[:-1] + 0.5:
                 ax.axvline(x, color=NEUTRAL["light"], lw=0.4, zorder=0)
+            # The bins named and coloured by their hue, in a strip under the bars.
+            strip = fig.add_subplot(gs[1, 0])
+            strip.imshow(hue_bin_colours()[None], extent=(0.5, N_BINS + 0.5, 0, 1), aspect="auto",
+                         interpolation="nearest", gid="hue-strip")
+            strip.set_yticks([])
+            for side in ("left", "bottom", "top", "right"):
+                strip.spines[side].set_visible(False)
+            strip.set_xticks(bins, [f"{j} {HUE_BIN_NAMES[j - 1]}" for j in bins], rotation=90)
+            strip.tick_params(axis="x", length=0, pad=2)
+            strip.set_xlim(0.4, N_BINS + 0.6)
+            strip.set_xlabel(wrap_to_width("TM-30 hue bin (22.5\u00b0 of CAM02-UCS hue each; names approximate)",
+                                           0.9 * width_mm / 25.4 * 72, style.font_size))
         else:
             ax = fig.add_subplot(gs[0, 0], projection="polar")
             theta = np.deg2rad((bins - 0.5) * 22.5)
@@ -155,14 +187,16 @@ def hues_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ada
             ticks = [t for t in (50, 100, 150, 200) if lo < t <= hi]
             ax.set_yticks(ticks, [f"{t}%" for t in ticks])
             ax.set_rlabel_position(100)
-            ax.tick_params(axis="y", labelsize=style.tick_size * 0.95)
+            ax.tick_params(axis="y", labelsize=style.tick_size)
             ax.set_title("Relative chroma per hue bin (100 % = as under the reference;\n"
                          "angle: CAM02-UCS hue)", fontsize=style.font_size)
         texts = [h.get_label() for h in handles]
-        legend_axes(fig, gs[1, 0], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
+        texts = legend_labels(texts, width_mm, style.font_size, handle_pt=30)
+        legend_axes(fig, gs[2, 0], handles, texts, ncols=legend_columns(texts, width_mm, style.font_size, max_cols=3),
                     handlelength=1.8,
                     columnspacing=1.0)
         finish(fig, style, title=title, caveat=caveat)
+        ensure_axes_height(fig, [ax], 35.0 if width_mm < 120 else 45.0)
 
     data = {"bins": bins, "series": data_series, "chart": chart, "illuminant": ill_name}
     inputs = {"filters": [s["name"] for s in filt], "illuminant": ill_name, "chart": chart}

@@ -18,21 +18,23 @@ import pathlib
 import numpy as np
 
 from ..errors import InputError
-from .common import load_filters_checked, observer_label, short_name
+from .common import display_names, load_filters_checked, observer_label, pad_lines, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .style import Style
 
 __all__ = ["images_figure", "default_image", "MAX_FIGURE_PIXELS"]
 
-#: Longest side, in pixels, of each view inside the figure (about 300 dpi at 89 mm / 2 wide).
-MAX_FIGURE_PIXELS = 640
+#: Resolution the views are kept at inside the figure, dots per inch at final size (print quality).
+FIGURE_DPI = 300
+#: Longest side, in pixels, of each view inside the figure at most (a double-column panel at 300 dpi).
+MAX_FIGURE_PIXELS = 1100
 
 
 def default_image() -> pathlib.Path:
-    """The bundled synthetic tabletop scene, ``test_images/tabletop.png`` (invented; made by
-    ``test_images/make_test_images.py`` from reflectance spectra)."""
+    """The bundled synthetic tabletop scene at 1024 x 1024, ``test_images/tabletop_large.png`` (invented;
+    made by ``test_images/make_test_images.py`` from reflectance spectra, edges supersampled 4 x 4)."""
     root = pathlib.Path(__file__).resolve().parents[2] / "test_images"
-    candidates = [root / "tabletop.png"] if (root / "tabletop.png").is_file() else []
+    candidates = [p for p in (root / "tabletop_large.png", root / "tabletop.png") if p.is_file()]
     if not candidates:
         raise InputError("no default image: the bundled scene is missing from test_images/",
                          hint="give an image with --image")
@@ -40,11 +42,12 @@ def default_image() -> pathlib.Path:
 
 
 def _reduce(img: np.ndarray, max_pixels: int) -> np.ndarray:
-    """Block-average an sRGB image (in linear light) so its long side is at most ``max_pixels``."""
+    """Block-average an sRGB image (in linear light) by the largest whole factor that keeps its long side at
+    least ``max_pixels``."""
     from ..rendering import decode_srgb, encode_srgb
 
     h, w = img.shape[:2]
-    f = int(np.ceil(max(h, w) / max_pixels))
+    f = int(max(h, w) // max_pixels)     # whole blocks, never below max_pixels (antialiased resampling does the rest)
     if f <= 1:
         return img
     from skimage.transform import downscale_local_mean
@@ -97,7 +100,8 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
         raise InputError("the images figure shows one observer", hint="give --observer once")
     fs = load_filters_checked(filters)
     if len(fs) != 1:
-        raise InputError(f"{len(fs)} filters: the images figure shows one filter", hint="one figure per filter")
+        raise InputError(f"{len(fs)} filters: the images figure shows one filter",
+                         hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
     from .chromaticity import check_adaptable
 
     check_adaptable(fs, illuminant=illuminant, observer=observers[0], adaptation=adaptation)
@@ -107,35 +111,38 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
     from ..observers.observer import observer as make_observer
 
     obs_text = observer_label(make_observer(observers[0]))
-    filt_text = short_name(fs.names[0], 30)
-    shown = {v: _reduce(_to8(a), MAX_FIGURE_PIXELS) for v, a in rendered.items()}
+    filt_text = display_names(fs)[0]
+    panel_mm = (width_mm - 4) / 2
+    max_pixels = min(MAX_FIGURE_PIXELS, int(np.ceil(panel_mm / 25.4 * FIGURE_DPI)))
+    shown = {v: _reduce(_to8(a), max_pixels) for v, a in rendered.items()}
     full = next(iter(rendered.values()))
-    reduced_by = int(np.ceil(max(full.shape[:2]) / MAX_FIGURE_PIXELS)) if max(full.shape[:2]) > MAX_FIGURE_PIXELS else 1
+    reduced_by = max(1, int(max(full.shape[:2]) // max_pixels))
     titles = {v: VIEW_TITLES[v].format(observer=obs_text, filter=filt_text) for v in VIEWS}
     titles["original"] = "original (normal observer, no filter)"
     h, w = next(iter(shown.values())).shape[:2]
-    import textwrap
-
-    panel_mm = (width_mm - 4) / 2
-    chars = max(20, int(panel_mm / 25.4 * 72 / (0.56 * style.tick_size)))
-    wrapped = {v: textwrap.wrap(t, chars) for v, t in titles.items()}
-    lines = max(len(t) for t in wrapped.values())
-    height_mm = height_mm or (2 * (panel_mm * h / w + lines * style.tick_size * 1.25 * 0.3528 + 2) + 17)
+    with style_context(style):
+        # wrapped to the panel's width (measured), padded so the two titles of a row have as many lines
+        wrapped = [wrap_to_width(f"({letter}) {titles[v]}", 0.97 * panel_mm / 25.4 * 72, style.tick_size)
+                   for v, letter in zip(VIEWS, "abcd")]
+        wrapped = pad_lines(wrapped[:2]) + pad_lines(wrapped[2:])
+    lines = [t.count("\n") + 1 for t in wrapped]
+    height_mm = height_mm or (2 * (panel_mm * h / w + 2) + (lines[0] + lines[2]) * style.tick_size * 1.3 * 0.3528
+                              + 20)
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm, compress=True)
         axes = fig.subplots(2, 2)
-        for ax, view, letter in zip(axes.ravel(), VIEWS, "abcd"):
-            ax.imshow(shown[view], interpolation="nearest", gid=f"image-{view}")
+        for ax, view, text in zip(axes.ravel(), VIEWS, wrapped):
+            # antialiased resampling: the views stay smooth at any output dpi
+            ax.imshow(shown[view], interpolation="antialiased", gid=f"image-{view}")
             ax.set_xticks([])
             ax.set_yticks([])
-            text = "\n".join(textwrap.wrap(f"({letter}) {titles[view]}", chars))
             ax.set_title(text, fontsize=style.tick_size, loc="left", pad=2)
             for spine in ax.spines.values():
                 spine.set_visible(False)
         note = f"{illuminant}, adaptation {adaptation}"
         if reduced_by > 1:
             note += f"; shown at 1/{reduced_by} size"
-        axes[1, 0].set_xlabel(note, fontsize=style.tick_size * 0.9, loc="left")
+        axes[1, 0].set_xlabel(note, fontsize=style.tick_size, loc="left")
         finish(fig, style, title=title, caveat=caveat)
 
     data = {"views": shown, "titles": titles, "image": str(source) if not isinstance(source, np.ndarray) else "array",

@@ -18,7 +18,6 @@ import io
 import os
 import pathlib
 import re
-import textwrap
 from collections.abc import Iterable
 from dataclasses import dataclass, field
 
@@ -59,11 +58,14 @@ def new_figure(style: Style, width_mm: float, height_mm: float, *, compress: boo
     return fig
 
 
-def _wrap(text: str, width_mm: float, size_pt: float) -> str:
-    # Average DejaVu Sans advance is about 0.55 em (common practice for a
-    # sans-serif); keep a margin so the line never runs past the edge.
-    chars = max(30, int(0.92 * width_mm / MM_PER_INCH * 72 / (0.56 * size_pt)))
-    return "\n".join(textwrap.wrap(" ".join(text.split()), chars))
+def _wrap(text: str, width_mm: float, size_pt: float, *, weight: str = "normal") -> str:
+    """Wrap to the figure width, measuring each line in the current font (2 % margin each side)."""
+    import matplotlib
+
+    from .common import wrap_to_width
+
+    with matplotlib.rc_context({"font.weight": weight}):
+        return wrap_to_width(text, 0.93 * width_mm / MM_PER_INCH * 72, size_pt)
 
 
 def finish(fig, style: Style, *, title: str | None = None, caveat: str | None = None) -> None:
@@ -76,7 +78,8 @@ def finish(fig, style: Style, *, title: str | None = None, caveat: str | None = 
         fig.supxlabel(text, x=0.01, ha="left", va="bottom", fontsize=style.caveat_size, color="#333333",
                       gid="caveat", linespacing=1.15, multialignment="left")
     if title:
-        fig.suptitle(title, x=0.01, ha="left", fontsize=style.title_size, fontweight="bold")
+        fig.suptitle(_wrap(title, width_mm, style.title_size, weight="bold"), x=0.01, ha="left",
+                     fontsize=style.title_size, fontweight="bold", multialignment="left")
 
 
 def freeze_layout(fig) -> None:
@@ -214,6 +217,18 @@ class FigureResult:
              inputs: Iterable[str | os.PathLike] = ()) -> pathlib.Path:
         """Write the figure atomically; the format follows the suffix (.pdf, .svg, .png)."""
         return save_figure(self.figure, path, style=self.style, dpi=dpi, format=format, inputs=inputs)
+
+    def data_csv(self) -> str:
+        """The plotted numbers as CSV text (:func:`cvdfilter.figures.data_export.data_csv`)."""
+        from .data_export import data_csv
+
+        return data_csv(self)
+
+    def save_data(self, path: str | os.PathLike, *, inputs: Iterable[str | os.PathLike] = ()) -> pathlib.Path:
+        """Write the plotted numbers as CSV, atomically (so a lab can re-plot them in its own style)."""
+        from .data_export import save_data
+
+        return save_data(self, path, inputs=inputs)
 
     def close(self) -> None:
         """Release the figure's memory (it is not registered with pyplot, so this only clears it)."""

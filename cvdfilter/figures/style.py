@@ -37,8 +37,8 @@ __all__ = ["Style", "parse_style", "width_mm", "STYLE_KEYS", "WIDTHS_MM", "MIN_T
 WIDTHS_MM = {"single": 89.0, "double": 183.0}
 
 #: Smallest text size accepted, in points: journals ask for 5-7 pt at final
-#: size (common practice); below 5 pt text is refused.
-MIN_TEXT_PT = 5.0
+#: size (common practice); below 6 pt text is refused, so nothing prints smaller.
+MIN_TEXT_PT = 6.0
 
 MM_PER_INCH = 25.4
 
@@ -229,7 +229,7 @@ def parse_style(items: str | Style | dict | Iterable[str] | None = None) -> Styl
     Raises
     ------
     cvdfilter.errors.InputError
-        For an unreadable file, an unknown key, a bad value or text below 5 pt.
+        For an unreadable file, an unknown key, a bad value or text below 6 pt.
 
     Examples
     --------

@@ -18,8 +18,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import load_inputs, observer_label, short_name
+from .common import display_names, load_inputs, observer_label, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
+from .layout import MIN_PRINT_PT
 from .style import Style
 
 __all__ = ["swatches_figure", "swatch_colours", "SWATCH_ROWS"]
@@ -48,7 +49,8 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
     got = load_inputs(filters, illuminant=illuminant, observers=[observer], surfaces=surfaces)
     fs, obs, surf, ill = got["filters"], got["observers"][0], got["surfaces"], got["illuminant"]
     if len(fs) != 1:
-        raise InputError(f"{len(fs)} filters: the swatches figure shows one filter", hint="one figure per filter")
+        raise InputError(f"{len(fs)} filters: the swatches figure shows one filter",
+                         hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
     from .chromaticity import check_adaptable
 
     check_adaptable(fs, illuminant=ill, observer=obs, adaptation=adaptation)
@@ -61,7 +63,7 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
         srgb8[v] = encode_srgb(lin, np.uint8)
         clipped[v] = int(np.sum(np.any((lin < -_OUT_TOL) | (lin > 1 + _OUT_TOL), axis=1)))
     return {"views": views, "linear": linear, "srgb8": srgb8, "clipped": clipped, "labels": list(surf.labels),
-            "filter": fs.names[0], "observer": obs.spec, "observer_label": observer_label(obs),
+            "filter": display_names(fs)[0], "observer": obs.spec, "observer_label": observer_label(obs),
             "illuminant": ill.name, "surfaces": surf.name}
 
 
@@ -110,13 +112,15 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
     images = {v: _row_image(data["srgb8"][v], per_line) for v in data["views"]}
     img_h, img_w = next(iter(images.values())).shape[:2]
     label_mm = 24.0
-    row_mm = (width_mm - label_mm - 4) * img_h / img_w
-    height_mm = height_mm or 4 * (row_mm + 2.5) + 24
+    # rows at least as tall as their two-line labels (patches then stretch, never the labels overlap)
+    label_row_mm = 2 * style.tick_size * 1.3 * 25.4 / 72 + 0.8
+    row_mm = max((width_mm - label_mm - 4) * img_h / img_w, label_row_mm)
+    height_mm = height_mm or 4 * (row_mm + 1.5) + 28
     with style_context(style):
-        fig = new_figure(style, width_mm, height_mm, compress=True)
+        fig = new_figure(style, width_mm, height_mm)
         axes = fig.subplots(4, 1)
         for k, (ax, (view, template)) in enumerate(zip(axes, SWATCH_ROWS)):
-            ax.imshow(images[view], interpolation="nearest", gid=f"swatches-{view}", resample=False)
+            ax.imshow(images[view], interpolation="nearest", gid=f"swatches-{view}", resample=False, aspect="auto")
             ax.set_xticks([])
             ax.set_yticks([])
             for spine in ax.spines.values():
@@ -126,19 +130,17 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
             if k == 0:
                 cell = 11
                 for c in range(per_line):
-                    if per_line <= 12 or c % 2 == 0 or c == per_line - 1:
+                    if per_line <= 12 or c % 2 == 0 or (c == per_line - 1 and c % 2 == 0):
                         ax.text(1 + c * cell + 5, -1.5, str(c + 1), ha="center", va="bottom",
-                                fontsize=style.tick_size * 0.85, color="#333333")
-        note = [f"{short_name(data['filter'], 40)}; {data['illuminant']}; {data['surfaces']} "
+                                fontsize=max(MIN_PRINT_PT, style.tick_size * 0.92), color="#333333")
+        note = [f"{data['filter']}; {data['illuminant']}; {data['surfaces']} "
                 f"({n} surfaces{', numbered in order, ' + str(lines) + ' lines per row' if lines > 1 else ''})"]
         clipped = {v: c for v, c in data["clipped"].items() if c}
         if clipped:
             note.append("clipped to sRGB: " + ", ".join(f"{c} in row {data['views'].index(v) + 1}"
                                                         for v, c in clipped.items()))
-        import textwrap
-
-        chars = max(40, int(0.95 * width_mm / 25.4 * 72 / (0.56 * style.tick_size)))
-        axes[-1].set_xlabel("\n".join(textwrap.wrap("; ".join(note), chars)), fontsize=style.tick_size, labelpad=3)
+        axes[-1].set_xlabel(wrap_to_width("; ".join(note), (width_mm - label_mm - 8) / 25.4 * 72, style.tick_size),
+                            fontsize=style.tick_size, labelpad=3)
         finish(fig, style, title=title, caveat=caveat)
 
     inputs = {"filters": [data["filter"]], "illuminant": data["illuminant"], "observer": data["observer"],

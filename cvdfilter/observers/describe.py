@@ -3,7 +3,7 @@
 The API behind ``cvdfilter inspect-observer``; returns plain dicts (JSON-ready
 after numpy conversion) so the same numbers are available in a notebook.
 
-Public: :func:`describe_observer`, :func:`describe_observers`.
+Public: :func:`describe_observer`, :func:`describe_observers`, :func:`describe_population`.
 """
 
 from __future__ import annotations
@@ -13,7 +13,7 @@ import numpy as np
 from ..spectra.grid import DEFAULT_GRID, Grid
 from .observer import Observer, observer as _make_observer
 
-__all__ = ["describe_observer", "describe_observers"]
+__all__ = ["describe_observer", "describe_observers", "describe_population"]
 
 _CONES = ("L", "M", "S")
 
@@ -162,9 +162,13 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
 
 
 def describe_observers(specs, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
-    """Describe several observers; adds ``tool``, ``version``, ``inputs``, ``white`` and ``caveat``."""
+    """Describe several observers; adds ``tool``, ``version``, ``inputs``, ``white`` and ``caveat``.
+
+    A population spec (``n=``) is described by :func:`describe_population` (its entry has ``population``).
+    """
     from .._version import __version__
     from ..cautions import CAVEAT
+    from .population import is_population_spec
 
     specs = [specs] if isinstance(specs, (str, Observer)) else list(specs)
     return {
@@ -175,5 +179,78 @@ def describe_observers(specs, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict
                    "grid": grid.key()},
         "white": white if isinstance(white, str) else ("equal-energy" if white is None else "spectrum"),
         "caveat": CAVEAT,
-        "observers": [describe_observer(s, white=white, grid=grid) for s in specs],
+        "observers": [describe_population(s, grid=grid) if is_population_spec(s)
+                      else describe_observer(s, white=white, grid=grid) for s in specs],
     }
+
+
+def _grid_peaks(wl: np.ndarray, values: np.ndarray) -> np.ndarray:
+    """Peak wavelengths along axis 1 of (n, n_wl, k) values, nm: the highest sample refined by a parabola
+    through it and its neighbours (vectorised over members)."""
+    i = np.clip(np.argmax(values, axis=1), 1, values.shape[1] - 2)  # (n, k)
+    y0 = np.take_along_axis(values, (i - 1)[:, None, :], axis=1)[:, 0]
+    y1 = np.take_along_axis(values, i[:, None, :], axis=1)[:, 0]
+    y2 = np.take_along_axis(values, (i + 1)[:, None, :], axis=1)[:, 0]
+    den = y0 - 2 * y1 + y2
+    offset = np.where(den < 0, 0.5 * (y0 - y2) / np.where(den < 0, den, -1.0), 0.0)
+    return wl[i] + offset * (wl[1] - wl[0])
+
+
+def _spread(values: np.ndarray) -> dict:
+    v = np.asarray(values, dtype=float)
+    p = np.percentile(v, [2.5, 50, 97.5])
+    return {"mean": float(v.mean()), "sd": float(v.std(ddof=1)) if len(v) > 1 else 0.0,
+            "p2_5": float(p[0]), "p50": float(p[1]), "p97_5": float(p[2])}
+
+
+def describe_population(spec, *, grid: Grid = DEFAULT_GRID) -> dict:
+    """Describe a population (``cvdfilter inspect-observer`` for an ``n=`` spec).
+
+    Returns
+    -------
+    dict
+        ``spec`` (canonical, seed included), ``population`` ({n, variation, seed}), ``kind``,
+        ``deficiency``, ``centre`` (the fixed observer's spec), ``separation_sd_nm`` (anomalous),
+        ``standard_deviations`` (the variation's SDs: % for densities, nm for peaks), ``parameters``
+        ({name: {unit, mean, sd, p2_5, p50, p97_5}}), ``fundamental_peaks_nm`` ({L, M, S: the same
+        statistics of the members' peaks, nm}), ``fundamental_separation_nm`` (anomalous protan/deutan:
+        the members' own affected-to-other peak distance), ``notes``.
+
+    Examples
+    --------
+    >>> d = describe_population("normal:n=50,seed=1")
+    >>> d["population"], abs(d["fundamental_peaks_nm"]["L"]["p50"] - 570.2) < 3
+    ({'n': 50, 'variation': 'asano2016', 'seed': 1}, True)
+    """
+    from .population import _DEVIATIONS, PARAMETERS, VARIATIONS, population
+
+    pop = population(spec, grid)
+    peaks = _grid_peaks(pop.wavelengths, pop.fundamentals)  # (n, 3)
+    out = {
+        "spec": pop.spec,
+        "population": {"n": pop.n, "variation": pop.variation, "seed": pop.seed},
+        "kind": pop.kind,
+        "deficiency": pop.deficiency,
+        "centre": pop.centre.spec,
+        "separation_sd_nm": pop.separation_sd,
+        "standard_deviations": dict(zip(_DEVIATIONS, VARIATIONS[pop.variation])),
+        "parameters": {k: {"unit": PARAMETERS[k][0], **_spread(v)} for k, v in pop.parameters.items()},
+        "fundamental_peaks_nm": {c: _spread(peaks[:, i]) for i, c in enumerate(_CONES)},
+        "fundamental_separation_nm": None,
+        "notes": ["individual variation: Asano, Fairchild & Blonde (2016) on the CIE 170-1 observer; "
+                  "peaks on the grid refined by a parabola"],
+    }
+    if pop.kind == "anomalous" and pop.deficiency != "tritan":
+        from .observer import _CONE, _TOWARD
+
+        k, other = _CONE[pop.deficiency], _TOWARD[pop.deficiency]
+        out["fundamental_separation_nm"] = _spread(np.abs(peaks[:, k] - peaks[:, other]))
+        out["notes"].append("separation_nm is drawn on the reference measure (32 years, 2 deg, before the "
+                            "individual peak shifts); fundamental_separation_nm is each member's own")
+    if pop.kind == "dichromat":
+        out["notes"].append(f"reduction dichromats: the {_CONES[_CONE_MISSING[pop.deficiency]]} cone carries "
+                            "no signal (its parameters are drawn so every kind shares the seed's physiology)")
+    return out
+
+
+_CONE_MISSING = {"protan": 0, "deutan": 1, "tritan": 2}

@@ -317,7 +317,14 @@ def observer_forms() -> list[dict]:
         if name == "tritanomalous":
             common = _form_parameters("normal", OBSERVER_KINDS["protanope"])
             forms += [{"form": f["form"], "parameters": common, "model": f["model"]} for f in _MODEL_FORMS]
+    forms.append(_population_form())
     return forms
+
+
+def _population_form() -> dict:
+    from .population import population_form
+
+    return population_form()
 
 
 def _luminance_weights(field: float) -> tuple:
@@ -342,8 +349,11 @@ def _parse(spec: str) -> tuple[str, dict]:
     name, _, rest = spec.strip().partition(":")
     name = name.strip().lower()
     if name not in OBSERVER_KINDS:
+        from ..errors import clip_text, did_you_mean
+
         names = list(OBSERVER_KINDS)
-        raise InputError(f"unknown observer '{name}'", source=spec,
+        close = did_you_mean(name, OBSERVER_KINDS)
+        raise InputError(f"unknown observer '{clip_text(name)}'" + (f"; {close}" if close else ""), source=spec,
                          hint=f"use {', '.join(names[:-1])} or {names[-1]} (cvdfilter list observers)")
     params = {}
     for part in filter(None, (p.strip() for p in rest.split(","))):
@@ -377,6 +387,10 @@ def _observer(spec: str, grid: Grid) -> Observer:
     kind = OBSERVER_KINDS[name]
     allowed = set(kind.parameters)
     unknown = set(params) - allowed
+    if "n" in params:
+        raise InputError("n= makes a population, and this takes single observers", source=spec,
+                         hint="populations go to 'cvdfilter score' and 'cvdfilter inspect-observer' "
+                              "(Python: cvdfilter.population(spec)); drop n= for one observer")
     if unknown:
         raise InputError(f"unknown parameter '{sorted(unknown)[0]}' for {name}", source=spec,
                          hint=f"allowed: {', '.join(sorted(allowed))}")

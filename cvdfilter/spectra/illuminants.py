@@ -157,7 +157,11 @@ def _one(part: str, grid: Grid) -> tuple[str, np.ndarray, str]:
                              source=str(path))
         spd = resample(table.wavelengths, table.values[0], grid, method="linear", outside="zero")
         return str(path), spd, f"file {path}"
-    raise InputError(f"unknown illuminant '{part}'",
+    from ..errors import clip_text, did_you_mean
+
+    close = did_you_mean(part.partition(":")[0] if ":" in part else part,
+                         [*CIE_ILLUMINANTS, *LAMPS, "daylight", "planck"])
+    raise InputError(f"unknown illuminant '{clip_text(part)}'" + (f"; {close}" if close else ""),
                      hint="try D65, A, FL2, LPS, daylight:cct=5000, planck:t=2856 or a file "
                           "(cvdfilter list illuminants)")
 

@@ -102,4 +102,8 @@ def surface_set(spec: str | SurfaceSet = "ces99", grid: Grid = DEFAULT_GRID) -> 
         table = read_spectra(path, kind="reflectance")
         refl = resample(table.wavelengths, table.values.T, grid, method="linear", outside="edge")
         return SurfaceSet(path.name, tuple(table.names), np.clip(refl, 0, 1), grid, f"file {path}")
-    raise InputError(f"unknown surface set '{key}'", hint=f"use one of {', '.join(SURFACE_SETS)} or a file")
+    from ..errors import clip_text, did_you_mean
+
+    close = did_you_mean(key, SURFACE_SETS)
+    raise InputError(f"unknown surface set '{clip_text(key)}'" + (f"; {close}" if close else ""),
+                     hint=f"use one of {', '.join(SURFACE_SETS)} or a file")

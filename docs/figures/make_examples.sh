@@ -19,3 +19,5 @@ $CVD figure hues larkhill-notch-575 larkhill-double-notch --illuminant FL2 --cha
 $CVD figure swatches larkhill-notch-575 --observer deuteranope -o "$OUT/swatches.png" --dpi 150
 $CVD figure images larkhill-notch-575 --observer deuteranope -o "$OUT/images.png" --dpi 150
 $CVD figure sweep "notch:center=530..620/5,fwhm=30,depth=0.8" --width double -o "$OUT/sweep.png" --dpi 110
+$CVD figure sweep "notch:center=530..620/10,fwhm=20..50/10,depth=0.8" --observer normal \
+    --observer deuteranope --observer protanomalous:shift=8 --width double -o "$OUT/sweep-2d.png" --dpi 110
