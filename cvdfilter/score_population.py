@@ -5,7 +5,7 @@ member through :func:`cvdfilter.score`'s per-observer path (:func:`population_sc
 (:func:`population_entry`) gives every per-observer metric as ``{mean, sd, p2_5, p50, p97_5}`` over the
 members and the share of members helped with a Wilson 95 % interval (:mod:`cvdfilter.metrics.population_stats`).
 
-Public: :func:`is_population`, :func:`population_scores`, :func:`population_summaries`,
+Public: :func:`is_population`, :func:`score_populations`, :func:`population_scores`, :func:`population_summaries`,
 :func:`population_entry`, :data:`STATS`, :data:`CONTRAST_KEYS`.
 """
 
@@ -15,8 +15,8 @@ import numpy as np
 
 from .score_plan import CONFUSION_KEYS as _CONFUSION_KEYS, PAIR_KEYS as _PAIR_KEYS
 
-__all__ = ["is_population", "population_scores", "population_summaries", "population_entry", "STATS",
-           "CONTRAST_KEYS"]
+__all__ = ["is_population", "score_populations", "population_scores", "population_summaries", "population_entry",
+           "STATS", "CONTRAST_KEYS"]
 
 #: Statistics of a population metric (JSON keys), from metrics.population_stats.STATISTICS.
 STATS = ("mean", "sd", "p2_5", "p50", "p97_5")
@@ -28,6 +28,19 @@ _CONTRAST_KEYS = CONTRAST_KEYS
 def is_population(o) -> bool:
     """True for a :class:`~cvdfilter.observers.population.Population` (checked by name: no import)."""
     return type(o).__name__ == "Population"
+
+
+def score_populations(inp, per_obs: list, groups, progress=None) -> None:
+    """Fill ``per_obs[k]`` for every population among ``inp.observers`` (a
+    :class:`~cvdfilter.score_plan.ScoreInputs`) with :func:`population_scores`, with the run's settings."""
+    kwargs = dict(illuminant=inp.illuminant, surfaces=inp.surfaces, adaptation=inp.adaptation, grid=inp.grid,
+                  weber_fraction=inp.weber_fraction, cone_ratios=inp.cone_ratios,
+                  discrimination_threshold=inp.discrimination_threshold,
+                  distribution_thresholds=inp.distribution_thresholds, normal_threshold=inp.normal_threshold,
+                  deficient_threshold=inp.deficient_threshold)
+    for k, pop in enumerate(inp.observers):
+        if is_population(pop):
+            per_obs[k] = population_scores(inp.filters, pop, groups, kwargs, progress)
 
 
 def population_scores(fs, pop, groups, kwargs: dict, progress=None, batch: int = 64) -> dict:

@@ -464,16 +464,9 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     elif progress is not None:
         progress("filters", n_f, n_f)
     if per_observer_groups and len(fixed) < len(inp.observers):
-        from .score_population import population_scores
+        from .score_population import score_populations
 
-        kwargs = dict(illuminant=inp.illuminant, surfaces=inp.surfaces, adaptation=inp.adaptation, grid=inp.grid,
-                      weber_fraction=weber_fraction, cone_ratios=cone_ratios,
-                      discrimination_threshold=discrimination_threshold,
-                      distribution_thresholds=inp.distribution_thresholds, normal_threshold=normal_threshold,
-                      deficient_threshold=deficient_threshold)
-        for k, pop in enumerate(inp.observers):
-            if is_population(pop):
-                per_obs[k] = population_scores(inp.filters, pop, per_observer_groups, kwargs, progress)
+        score_populations(inp, per_obs, per_observer_groups, progress)
     if "rendition" in groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 
