@@ -35,6 +35,7 @@ demo: $(VENV)/.installed
 		--format json --output $(OUT)/scorecard.json
 	$(BIN)/cvdfilter score larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
 		--format markdown --output $(OUT)/scorecard.md
+	$(BIN)/cvdfilter tasks larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference --export-stimuli $(OUT)/task-stimuli
 	$(BIN)/cvdfilter render test_images/tabletop.png test_images/dots_deutan.png test_images/tabletop_cube.npz \
 		--filter larkhill-notch-575 --observer deuteranope --panel --force --out $(OUT)/render
 	$(BIN)/cvdfilter report larkhill-notch-575 larkhill-double-notch larkhill-rose-tint larkhill-grey-reference \
@@ -52,6 +53,8 @@ demo: $(VENV)/.installed
 		-o $(OUT)/figures/sweep.pdf
 
 test: $(VENV)/.installed-test
+	$(BIN)/ruff check .
+	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
 bench: $(VENV)/.installed

@@ -12,6 +12,7 @@ Observers
     population, Population (individual observers, Asano et al. 2016: any observer spec plus n=N)
 Main jobs
     score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report,
+    tasks, TaskResult (colour-vision tasks of our own design for model observers),
     discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008)
 
 Every number is a model prediction from published cone fundamentals and
@@ -61,6 +62,8 @@ _LAZY = {
     "Renderer": "cvdfilter.rendering",
     "figure": "cvdfilter.figures",
     "report": "cvdfilter.reporting",
+    "tasks": "cvdfilter.vision_tasks",
+    "TaskResult": "cvdfilter.vision_tasks",
     "InputError": "cvdfilter.errors",
     "CAVEAT": "cvdfilter.cautions",
 }

@@ -36,13 +36,15 @@ from .rendering import (
 )
 from .figures import figure as figure
 from .reporting import report as report
+from .vision_tasks import tasks as tasks, TaskResult as TaskResult
 from .errors import InputError as InputError
 from .cautions import CAVEAT as CAVEAT
 
 __all__ = [
     "__version__", "Grid", "DEFAULT_GRID", "FilterSet", "load_filters", "parse_filter_spec", "find_notches",
     "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density", "illuminant", "Illuminant",
-    "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra", "inspect_filters", "catalog", "observer", "Observer",
-    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render", "render_views",
-    "render_spectra", "Renderer", "figure", "report", "InputError", "CAVEAT"
+    "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra",
+    "inspect_filters", "catalog", "observer", "Observer",
+    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render",
+    "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult", "InputError", "CAVEAT"
 ]

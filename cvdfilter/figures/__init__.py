@@ -10,6 +10,7 @@ Kinds (:data:`KINDS`)::
     swatches      the surface set as patches: normal and observer, without and with the filter
     images        the renderer's 2x2 before/after panel, labelled
     sweep         metrics against a swept filter parameter (design studies)
+    tasks         a model observer's hue-circle arrangement and moment ellipse, and every task's verdict
 
 Every figure is publishable as it is: vector PDF (TrueType fonts embedded) and
 SVG (text kept as text), PNG at a chosen dpi; single (89 mm) or double (183 mm)
@@ -48,6 +49,7 @@ _KIND_TABLE = {
     "swatches": ("swatches", "swatches_figure", True),
     "images": ("images", "images_figure", True),
     "sweep": ("sweep", "sweep_figure", True),
+    "tasks": ("tasks", "tasks_figure", True),
 }
 KINDS = tuple(_KIND_TABLE)
 
@@ -59,6 +61,7 @@ DEFAULT_TITLES = {
     "swatches": "Surface colours without and with the filter",
     "images": "Scene without and with the filter",
     "sweep": "Metrics against the swept filter parameter",
+    "tasks": "Model observers on colour-vision tasks",
 }
 
 

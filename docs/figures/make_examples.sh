@@ -21,3 +21,5 @@ $CVD figure images larkhill-notch-575 --observer deuteranope -o "$OUT/images.png
 $CVD figure sweep "notch:center=530..620/5,fwhm=30,depth=0.8" --width double -o "$OUT/sweep.png" --dpi 110
 $CVD figure sweep "notch:center=530..620/10,fwhm=20..50/10,depth=0.8" --observer normal \
     --observer deuteranope --observer protanomalous:shift=8 --width double -o "$OUT/sweep-2d.png" --dpi 110
+$CVD figure tasks larkhill-notch-575 larkhill-rose-tint larkhill-grey-reference --width double -o "$OUT/tasks.png" \
+    --dpi 110
