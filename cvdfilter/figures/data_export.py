@@ -140,7 +140,19 @@ def _per_filter_observer(d):
     return header, rows, []
 
 
-_TABLES = {"spectrum": _spectrum, "chromaticity": _chromaticity, "hues": _hues, "swatches": _swatches,
+def _population(d):
+    """Every member's value of the metric, then the plotted statistics and shares helped (member empty)."""
+    header = ["filter", "observer", "quantity", "member", "value"]
+    rows = []
+    for i, f in enumerate(d["filters"]):
+        for j, o in enumerate(d["populations"]):
+            rows += [[f, o, d["metric"], m, v] for m, v in enumerate(np.asarray(d["values"][i][j]).tolist())]
+            rows += [[f, o, q, "", d[q][i, j]] for q in ("p2_5", "p50", "p97_5", "share", "ci_low", "ci_high")]
+    return header, rows, ["p2_5, p50, p97_5: percentiles of the members' values; share, ci_low, ci_high: the "
+                          "share of members helped and its Wilson 95 % interval"]
+
+
+_TABLES = {"spectrum": _spectrum, "population": _population, "chromaticity": _chromaticity, "hues": _hues, "swatches": _swatches,
            "images": _images, "sweep": _sweep, "gains": _per_filter_observer}
 
 
