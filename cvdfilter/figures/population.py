@@ -170,7 +170,7 @@ def population_figure(filters, *, illuminant="D65", observers=None, surfaces=Non
                 if j == 0:
                     handles.append(h)
                 right_ticks.append(y)
-                right_labels.append(("-" if not np.isfinite(share[0, i, j]) else
+                right_labels.append("helped " + ("-" if not np.isfinite(share[0, i, j]) else
                                                  f"{100 * share[0, i, j]:.0f} % "
                                                  f"({100 * share[1, i, j]:.0f}\u2013{100 * share[2, i, j]:.0f})"))
         if finite.size:
@@ -197,7 +197,6 @@ def population_figure(filters, *, illuminant="D65", observers=None, surfaces=Non
         right.set_ylim(ax.get_ylim())
         right.set_yticks(right_ticks, right_labels, fontsize=style.tick_size)
         right.tick_params(axis="y", length=0)
-        right.set_ylabel("Members helped, % (95 % CI)")
         for t, (i, j) in zip(right.get_yticklabels(), [(i, j) for i in range(n_f) for j in range(n_p)]):
             t.set_gid(f"helped-{i}-{j}")
         texts = [hd.get_label() for hd in handles]
