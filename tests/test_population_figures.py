@@ -11,6 +11,7 @@ import pytest
 
 from cvdfilter.errors import InputError
 from cvdfilter.figures import figure
+from cvdfilter.figures.population import share_percent
 from cvdfilter.scorecard import score
 
 POP = "deuteranomalous:n=40,seed=3"
@@ -47,7 +48,7 @@ def test_population_figure_interval_is_numpy_percentiles(scored):
             assert _gid(r.figure, f"violin-{i}-0") is not None
             h = card["filters"][i]["observers"][0]["helped"]["red_green_gain"]
             text = _gid(r.figure, f"helped-{i}-0").get_text()
-            assert f"{100 * h['share']:.0f} %" in text and f"{100 * h['ci_low']:.0f}" in text
+            assert f"{share_percent(h['share'])} %" in text and f"{100 * h['ci_low']:.0f}" in text
             # the figure's percentiles agree with the scorecard's own statistics
             s = card["filters"][i]["observers"][0]["red_green_gain"]
             assert [s["p2_5"], s["p50"], s["p97_5"]] == pytest.approx([lo, med, hi], rel=1e-4)
@@ -95,7 +96,7 @@ def test_gains_figure_draws_population_spread(scored):
         seg = _segments_x(_gid(r.figure, "pairs-gained-spread-0"))[0]
         assert seg == pytest.approx(np.percentile(gained[0], [2.5, 97.5]))
         labels = [t.get_text() for t in r.figure.axes[0].get_yticklabels()]
-        assert labels[0] == "deuteranomalous (21.35 nm)\nn=40"
+        assert labels[0] == "deuteranomalous\n(21.35 nm), n=40"
     finally:
         r.close()
 
@@ -160,3 +161,7 @@ def test_report_population_section(tmp_path):
     assert [f.kind for f in r.figures].count("population") == 1
     assert any(name.endswith("-population.svg") for name in files)
     assert "members" not in o     # the per-member values feed the figure, not the report's JSON
+
+
+def test_share_percent_never_rounds_to_all_or_none():
+    assert [share_percent(x) for x in (0.0, 0.004, 0.5, 0.995, 1.0)] == ["0", "<1", "50", ">99", "100"]

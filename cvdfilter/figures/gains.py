@@ -78,7 +78,9 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
     if len(fl) > 8:
         raise InputError(f"{len(fl)} filters: the gains figure compares at most 8", hint="use the sweep figure")
     obs_specs = [o["observer"] for o in fl[0]["observers"]]
-    obs_labels = [lab.replace(", n=", "\nn=") for lab in table_labels(obs_specs)]   # populations: two lines
+    # a population's label on two lines: its name over its parameters and size
+    obs_labels = [lab.replace(" (", "\n(", 1) if "population" in o else lab
+                  for lab, o in zip(table_labels(obs_specs), fl[0]["observers"])]
     n_f, n_o = len(fl), len(obs_specs)
 
     def value(v, stat="p50"):

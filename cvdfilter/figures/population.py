@@ -22,7 +22,7 @@ from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
 
-__all__ = ["population_figure", "POPULATION_METRICS", "member_values"]
+__all__ = ["population_figure", "POPULATION_METRICS", "member_values", "share_percent"]
 
 #: metric name -> (axis label, ratio (log axis, reference 1) or net count (reference 0), key of ``helped``)
 POPULATION_METRICS = {
@@ -35,6 +35,16 @@ POPULATION_METRICS = {
 
 #: The default populations (seeds printed in every output through the canonical spec).
 DEFAULT_POPULATIONS = ("deuteranomalous:n=200,seed=1", "protanomalous:n=200,seed=1")
+
+
+def share_percent(share: float) -> str:
+    """A share as whole percent, never rounded to 0 or 100 unless it is exactly that (``<1``, ``>99``)."""
+    p = 100.0 * float(share)
+    if 0.0 < p < 0.5:
+        return "<1"
+    if 99.5 <= p < 100.0:
+        return ">99"
+    return f"{p:.0f}"
 
 
 def member_values(entry: dict, metric: str) -> np.ndarray:
@@ -171,7 +181,7 @@ def population_figure(filters, *, illuminant="D65", observers=None, surfaces=Non
                     handles.append(h)
                 right_ticks.append(y)
                 right_labels.append("helped " + ("-" if not np.isfinite(share[0, i, j]) else
-                                                 f"{100 * share[0, i, j]:.0f} % "
+                                                 f"{share_percent(share[0, i, j])} % "
                                                  f"({100 * share[1, i, j]:.0f}\u2013{100 * share[2, i, j]:.0f})"))
         if finite.size:
             lo, hi = float(np.min(finite)), float(np.max(finite))
@@ -188,7 +198,7 @@ def population_figure(filters, *, illuminant="D65", observers=None, surfaces=Non
             ax.set_xticks(ticks, [f"{t:g}" for t in ticks])
             ax.set_xticks([], minor=True)
         ax.set_xlabel(axis_label)
-        ax.set_yticks(rows, [lab.replace(", n=", "\nn=") for lab in labels])
+        ax.set_yticks(rows, [lab.replace(" (", "\n(", 1) for lab in labels])   # name over its parameters
         ax.set_ylim(-0.6, n_p - 0.4)
         ax.tick_params(axis="y", length=0)
         for r in rows[:-1]:
