@@ -53,6 +53,8 @@ demo: $(VENV)/.installed
 		-o $(OUT)/figures/sweep.pdf
 
 test: $(VENV)/.installed-test
+	$(BIN)/ruff check .
+	$(BIN)/mypy
 	$(BIN)/python -m pytest -q
 
 bench: $(VENV)/.installed

@@ -42,7 +42,8 @@ def main() -> None:
     print(f"python {sys.version.split()[0]}, {os.cpu_count()} CPUs, median of {args.repeat} runs")
     print(f"cvdfilter --help                      {help_t * 1000:8.0f} ms   ({help_t / colour_t:5.2f} x import colour)"
           f"   target < 300 ms: {'met' if help_t < 0.3 else 'NOT met'}")
-    print(f"cvdfilter inspect larkhill-notch-575  {inspect_t * 1000:8.0f} ms   ({inspect_t / colour_t:5.2f} x import colour)")
+    print(f"cvdfilter inspect larkhill-notch-575  {inspect_t * 1000:8.0f} ms   "
+          f"({inspect_t / colour_t:5.2f} x import colour)")
     print(f"python -c 'import colour' (floor)     {colour_t * 1000:8.0f} ms")
 
 

@@ -79,7 +79,10 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .errors import InputError
+from .observers.operator import PiecewiseLinear
 from .spectra.cache import cached_arrays
+from .render_pixels import (_SCALE, TILE_PIXELS, _convert_alpha, _decode_tile, _finish_tile, _gamut_tolerance,
+                            _Kernel, decode_srgb, encode_srgb)
 from .spectra.grid import DEFAULT_GRID, Grid
 
 __all__ = ["render", "render_views", "render_spectra", "render_file", "Renderer", "ViewTransform", "mallett_basis",
@@ -102,123 +105,6 @@ GAMUT_MODES = ("clip", "none")
 #: Output formats: ``auto`` keeps the input's container (JPEG and cubes give PNG) and bit
 #: depth; ``png``/``tiff`` keep the depth where the container holds it; the others force it.
 OUTPUT_FORMATS = ("auto", "png", "png8", "png16", "tiff", "tiff8", "tiff16", "tiff-float", "jpeg")
-#: Pixels per tile (64 Ki: a few hundred kB of float32 per array, cache-resident).
-TILE_PIXELS = 1 << 16
-
-_SCALE = 65536  # encode tables: linear light is scaled by 2**16 and truncated to an index
-
-
-# --- transfer functions -------------------------------------------------------------
-
-def _srgb_tables() -> dict:
-    """Lookup tables for the sRGB transfer function, built once with colour-science.
-
-    ``dec8``/``dec16``: code value -> linear light (float32). ``enc8``: index
-    ``i = floor(65536 y)`` (y linear, 0-1) -> 8-bit code of the interval's
-    midpoint; within 0.03 code values of the exact function before rounding
-    (the steepest slope, 12.92 x 255 codes per unit at black, times half an
-    interval). ``enc``: the encoded value at ``i / 65536``, i = 0..65536, for
-    linear interpolation (16-bit and float output, within 0.01 of a 16-bit code).
-    """
-
-    def build():
-        import colour
-
-        grid = np.arange(_SCALE + 1) / _SCALE
-        mid = (np.arange(_SCALE) + 0.5) / _SCALE
-        return {
-            "dec8": colour.cctf_decoding(np.arange(256) / 255.0, function="sRGB").astype(np.float32),
-            "dec16": colour.cctf_decoding(np.arange(65536) / 65535.0, function="sRGB").astype(np.float32),
-            "enc8": np.round(colour.cctf_encoding(mid, function="sRGB") * 255.0).astype(np.uint8),
-            "enc": colour.cctf_encoding(grid, function="sRGB").astype(np.float64),
-            "dec_grid": colour.cctf_decoding(grid, function="sRGB").astype(np.float64),
-        }
-
-    return cached_arrays("srgb-transfer-tables-v2", build)
-
-
-def decode_srgb(values) -> np.ndarray:
-    """sRGB code values (or encoded floats 0-1) to linear light, float32.
-
-    Parameters
-    ----------
-    values : array_like
-        uint8 (0-255), uint16 (0-65535) or float (encoded, 0-1; clipped to 0-1).
-
-    Returns
-    -------
-    numpy.ndarray
-        Linear sRGB, 0-1, float32, same shape (IEC 61966-2-1 through colour-science).
-
-    Examples
-    --------
-    >>> round(float(decode_srgb(np.uint8(128))), 4)
-    0.2159
-    """
-    t = _srgb_tables()
-    v = np.asarray(values)
-    if v.dtype == np.uint8:
-        return np.take(t["dec8"], v, mode="wrap")  # indices are in range; "wrap" skips the bounds check
-    if v.dtype == np.uint16:
-        return np.take(t["dec16"], v, mode="wrap")
-    grid = np.arange(_SCALE + 1, dtype=np.float64) / _SCALE
-    return np.interp(np.clip(v, 0.0, 1.0), grid, t["dec_grid"]).astype(np.float32)
-
-
-def encode_srgb(linear, dtype=np.uint8) -> np.ndarray:
-    """Linear light to sRGB code values (clipped to 0-1 first).
-
-    Parameters
-    ----------
-    linear : array_like
-        Linear sRGB.
-    dtype : numpy dtype
-        ``uint8`` or ``uint16`` (code values) or a float type (encoded values 0-1).
-
-    Returns
-    -------
-    numpy.ndarray
-
-    Examples
-    --------
-    >>> int(encode_srgb(0.2158605))
-    128
-    """
-    y = np.asarray(linear, dtype=np.float32).reshape(-1) * np.float32(_SCALE if np.dtype(dtype).kind == "u" else 1)
-    out = np.empty(y.shape, dtype=dtype)
-    _encode(y, out, np.dtype(dtype), "srgb", True)
-    return out.reshape(np.shape(linear))
-
-
-def _encode(y: np.ndarray, out: np.ndarray, dtype: np.dtype, encoding: str, clip: bool) -> None:
-    """Encode linear light into ``out`` (same shape as ``y``); ``y`` is modified.
-
-    Integer output: ``y`` holds linear light times 65536. Float output: linear light.
-    """
-    if dtype == np.uint8:
-        np.clip(y, 0.0, _SCALE - 1, out=y)
-        np.take(_srgb_tables()["enc8"], y.astype(np.uint16), out=out, mode="wrap")
-        return
-    if dtype == np.uint16 or encoding == "srgb":
-        if dtype.kind != "u":
-            y *= np.float32(_SCALE)
-        np.clip(y, 0.0, _SCALE, out=y)
-        enc = _srgb_tables()["enc"]
-        i = np.minimum(y.astype(np.int32), _SCALE - 1)
-        frac = y - i
-        lo = np.take(enc, i)
-        v = lo + frac * (np.take(enc, i + 1) - lo)
-        if dtype == np.uint16:
-            v *= 65535.0
-            v += 0.5
-            out[...] = v.astype(np.uint16)
-        else:
-            out[...] = v
-        return
-    if clip:
-        np.clip(y, 0.0, 1.0, out=y)
-    out[...] = y
-
 
 # --- spectral building blocks ----------------------------------------------------------
 
@@ -312,16 +198,11 @@ class ViewTransform:
     spectral_weights : numpy.ndarray
         (n_wl, 3): reflectance on the grid (per 1 nm sample) to the observer's
         adapted L, M, S: ``E T F diag(gains)``.
-    lms_to_rgb : numpy.ndarray
-        (k, 3, 3), k = 1 or 2: adapted L, M, S (row vectors) to linear sRGB,
-        simulation and display folded.
-    separator : numpy.ndarray or None
-        (3,): with k = 2, ``lms_to_rgb[0]`` applies where ``lms @ separator >= 0``.
-    rgb_matrices : numpy.ndarray
-        (k, 3, 3): linear sRGB in to linear sRGB out (row vectors), the whole
-        image pipeline.
-    rgb_separator : numpy.ndarray or None
-        (3,): the separator carried to linear sRGB input.
+    lms_to_rgb : PiecewiseLinear
+        Adapted L, M, S to linear sRGB, simulation and display folded
+        (column vectors, see :mod:`cvdfilter.observers.operator`).
+    rgb : PiecewiseLinear
+        Linear sRGB in to linear sRGB out, the whole image pipeline.
     """
 
     view: str
@@ -332,11 +213,19 @@ class ViewTransform:
     fundamentals: np.ndarray
     gains: np.ndarray
     spectral_weights: np.ndarray
-    lms_to_rgb: np.ndarray
-    separator: np.ndarray | None
-    rgb_matrices: np.ndarray
-    rgb_separator: np.ndarray | None
+    lms_to_rgb: PiecewiseLinear
+    rgb: PiecewiseLinear
     info: dict = field(default_factory=dict)
+
+    @property
+    def rgb_matrices(self) -> np.ndarray:
+        """(k, 3, 3): :attr:`rgb` for row vectors (pixels): ``out = rgb_in @ rgb_matrices[i]``."""
+        return self.rgb.row_matrices
+
+    @property
+    def rgb_separator(self) -> np.ndarray | None:
+        """(3,): ``rgb_matrices[0]`` applies where ``rgb_in @ rgb_separator >= 0``; None for one matrix."""
+        return self.rgb.separator
 
     @property
     def is_identity(self) -> bool:
@@ -408,7 +297,8 @@ class Renderer:
             fs = load_filters(filter, grid=grid, units=units, bandwidth=bandwidth)
             if len(fs) != 1:
                 raise InputError(f"describes {len(fs)} filters; rendering takes one", source=str(filter),
-                                 hint="give a single filter (no sweep, no list); pick one column of a file with FILE:COLUMN or FILE:N, e.g. lenses.csv:2")
+                                 hint="give a single filter (no sweep, no list); pick one column of a file with "
+                                      "FILE:COLUMN or FILE:N, e.g. lenses.csv:2")
             self.filter_name = fs.names[0]
             self.transmittance = np.asarray(fs.transmittance[0], dtype=float)
         self.scene, self.stimuli, self.display = _scene(scene, self.illuminant.spd, self.normal, grid)
@@ -452,14 +342,12 @@ class Renderer:
         cube_gains = von_kries_gains((e * t) @ f, e @ f, adaptation=self.adaptation)
         weights = (e * t)[:, None] * f * cube_gains
         sim = self._simulation(obs)
-        # Simulation matrices act on column vectors; here pixels are rows.
-        lms_to_rgb = np.transpose(sim.matrices, (0, 2, 1)) @ self.display_inverse
-        rgb = np.eye(3)[None] if view == "original" else to_lms @ lms_to_rgb
-        sep = None if sim.separator is None else np.asarray(sim.separator, dtype=float)
-        rgb_sep = None if sep is None or view == "original" else to_lms @ sep
+        # The display matrices work on row vectors (``lms = rgb @ display``): their transposes are the
+        # column-vector matrices the operator composes with.
+        lms_to_rgb = sim.operator.then(self.display_inverse.T)
+        rgb = PiecewiseLinear.linear(np.eye(3)) if view == "original" else lms_to_rgb.compose(to_lms.T)
         tr = ViewTransform(view, obs.spec, self.filter_name if filtered else None, sim.method, t, f, cube_gains,
-                           weights, lms_to_rgb, sep, rgb, rgb_sep,
-                           {"white_lms": white_t * gains, "image_gains": gains})
+                           weights, lms_to_rgb, rgb, {"white_lms": white_t * gains, "image_gains": gains})
         self._views[view] = tr
         return tr
 
@@ -552,7 +440,7 @@ class Renderer:
         tr = self.transform(view)
         # The original is copied as it is; every other view goes through the pipeline.
         identity = tr.view == "original" and out_dtype == px.dtype and out_encoding == encoding
-        kernel = _Kernel.build(tr.rgb_matrices, tr.rgb_separator, _SCALE if out_dtype.kind == "u" else 1.0,
+        kernel = _Kernel.build(tr.rgb, _SCALE if out_dtype.kind == "u" else 1.0,
                                *_gamut_tolerance(out_dtype))
         clip = self.gamut == "clip"
         src = px.reshape(h, w, channels_in)
@@ -641,7 +529,6 @@ class Renderer:
         """
         tr = self.transform(view)  # 'original' for a cube: the normal observer without the filter
         weights = self.cube_weights(cube, tr.view, exposure=exposure)
-        lms_to_rgb, sep = tr.lms_to_rgb, tr.separator
         out_dtype = np.dtype(dtype)
         if self.gamut == "none" and out_dtype.kind == "u":
             raise InputError("gamut 'none' needs float output (integer output must be clipped)")
@@ -650,7 +537,7 @@ class Renderer:
         h, w, b = data.shape
         work = np.float64 if data.dtype == np.float64 else np.float32
         wmat = weights.astype(work)
-        kernel = _Kernel.build(lms_to_rgb, sep, _SCALE if out_dtype.kind == "u" else 1.0,
+        kernel = _Kernel.build(tr.lms_to_rgb, _SCALE if out_dtype.kind == "u" else 1.0,
                                *_gamut_tolerance(out_dtype))
         clip = self.gamut == "clip"
         out = np.empty((h, w, 3), dtype=out_dtype)
@@ -676,13 +563,13 @@ def _scene(scene: str, illuminant_spd: np.ndarray, normal, grid: Grid):
     if kind == "reflectance" and not name:
         return "reflectance", mallett_basis(grid) * illuminant_spd[:, None], display_matrix(normal, grid)
     if kind == "display":
-        from .observers.display import DISPLAY_PRIMARIES, display_primaries
+        from .observers.display import DISPLAY_PRIMARIES, adapted_rgb_to_lms, display_primaries
 
         name = name.strip() or DISPLAY_PRIMARIES[0]
         p = display_primaries(name, grid)
         label = [n for n in DISPLAY_PRIMARIES if n.lower() == name.lower()][0]
-        f = normal.fundamentals
-        return f"display:{label}", p, (p.T @ f) / (p.sum(axis=1) @ f)
+        # The display matrix works on row vectors: the transpose of the display module's (column) one.
+        return f"display:{label}", p, adapted_rgb_to_lms(normal.fundamentals, p).T
     raise InputError(f"unknown scene '{scene}'",
                      hint="use reflectance (surfaces under the illuminant) or display[:PRIMARIES] "
                           "(light from a display, e.g. display:Typical CRT Brainard 1997)")
@@ -693,103 +580,6 @@ def _interpolation_matrix(wl: np.ndarray, target: np.ndarray, *, hold: bool) -> 
     eye = np.eye(len(wl))
     kw = {} if hold else {"left": 0.0, "right": 0.0}
     return np.stack([np.interp(target, wl, eye[j], **kw) for j in range(len(wl))], axis=1)
-
-
-def _gamut_tolerance(dtype: np.dtype) -> tuple[float, float]:
-    """Linear-light bounds beyond which a value counts as clipped: half an output code value.
-
-    For float output: 1e-6.
-    """
-    if dtype.kind == "u":
-        top = 255.0 if dtype == np.uint8 else 65535.0
-        # sRGB slopes: 12.92 at black, 1.055 / 2.4 at white (IEC 61966-2-1).
-        return -0.5 / (top * 12.92), 1.0 + 0.5 / (top * 1.055 / 2.4)
-    return -1e-6, 1.0 + 1e-6
-
-
-@dataclass(frozen=True, eq=False)
-class _Kernel:
-    """Float32 matrices for one view, scaled for the output.
-
-    ``first`` (3, 3) or (3, 4); with Brettel's two half-planes whose matrices
-    differ by ``outer(separator, w)`` (they meet on the separating plane) the
-    fourth column is the separator and ``second`` = [[I], [w]] (4, 3) adds
-    ``min(rgb . separator, 0) w``: two small matrix products, no selection.
-    Otherwise ``alternative`` and ``separator`` select per pixel.
-    """
-
-    first: np.ndarray
-    second: np.ndarray | None = None
-    alternative: np.ndarray | None = None
-    separator: np.ndarray | None = None
-    lo: float = 0.0
-    hi: float = 1.0
-
-    @classmethod
-    def build(cls, mats: np.ndarray, sep: np.ndarray | None, scale: float, lo: float, hi: float) -> _Kernel:
-        m0 = np.asarray(mats[0], dtype=np.float64) * scale
-        if len(mats) == 1:
-            return cls(m0.astype(np.float32), lo=lo * scale, hi=hi * scale)
-        m1 = np.asarray(mats[1], dtype=np.float64) * scale
-        sep = np.asarray(sep, dtype=np.float64)
-        w = sep @ (m1 - m0) / (sep @ sep)
-        if np.allclose(np.outer(sep, w), m1 - m0, rtol=0, atol=1e-9 * max(1.0, float(np.abs(m0).max()))):
-            first = np.concatenate([m0, sep[:, None]], axis=1).astype(np.float32)
-            second = np.concatenate([np.eye(3), w[None]], axis=0).astype(np.float32)
-            return cls(first, second, lo=lo * scale, hi=hi * scale)
-        return cls(m0.astype(np.float32), None, m1.astype(np.float32), sep.astype(np.float32),
-                   lo * scale, hi * scale)
-
-    def __call__(self, x: np.ndarray) -> np.ndarray:
-        """Rows of ``x`` (n, 3) float32 -> (n, 3) float32."""
-        y = x @ self.first
-        if self.second is not None:
-            s = y[:, 3]
-            np.minimum(s, 0.0, out=s)
-            return y @ self.second
-        if self.alternative is not None:
-            neg = (x @ self.separator) < 0
-            if neg.any():
-                y[neg] = x[neg] @ self.alternative
-        return y
-
-    def count_clipped(self, y: np.ndarray) -> int:
-        """Pixels (rows) with a channel beyond the gamut tolerance."""
-        if not y.size or (float(y.min()) >= self.lo and float(y.max()) <= self.hi):
-            return 0
-        b = y < self.lo
-        b |= y > self.hi
-        return int(np.count_nonzero(b[:, 0] | b[:, 1] | b[:, 2]))
-
-
-def _decode_tile(s: np.ndarray, encoding: str, grey: bool) -> np.ndarray:
-    """Linear float32 (n, 3) from a tile of code values or floats."""
-    rgb = decode_srgb(s) if encoding == "srgb" else s.astype(np.float32)
-    if grey:
-        rgb = np.repeat(rgb.reshape(-1, 1), 3, axis=1)
-    return rgb
-
-
-def _finish_tile(y: np.ndarray, d: np.ndarray, dtype: np.dtype, encoding: str, clip: bool) -> None:
-    """Encode ``y`` (n, 3) float32 into ``d[:, :3]``."""
-    if d.shape[1] == 3 and d.flags.c_contiguous:
-        _encode(y.reshape(-1), d.reshape(-1), dtype, encoding, clip)
-    else:
-        tmp = np.empty(y.shape, dtype=dtype)
-        _encode(y.reshape(-1), tmp.reshape(-1), dtype, encoding, clip)
-        d[:, :3] = tmp
-
-
-def _convert_alpha(a: np.ndarray, dtype: np.dtype) -> np.ndarray:
-    """Alpha is linear coverage: rescale between sample types."""
-    src = np.asarray(a)
-    if np.issubdtype(src.dtype, np.floating):
-        v = np.clip(src, 0.0, 1.0).astype(np.float64)
-    else:
-        v = src / float(np.iinfo(src.dtype).max)
-    if np.dtype(dtype).kind == "u":
-        return np.round(v * np.iinfo(dtype).max).astype(dtype)
-    return v.astype(dtype)
 
 
 # --- public functions ----------------------------------------------------------------
@@ -1096,223 +886,6 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
     return encode_png(rgb, {"Software": f"cvdfilter {__version__}", "Description": footer, **(metadata or {})})
 
 
-# --- files ---------------------------------------------------------------------------
-
-def output_suffix(fmt: str, input_path) -> str:
-    """The suffix of an output file for ``fmt`` (one of :data:`OUTPUT_FORMATS`) and an input path."""
-    if fmt not in OUTPUT_FORMATS:
-        raise InputError(f"unknown output format '{fmt}'", hint="use " + ", ".join(OUTPUT_FORMATS))
-    if fmt == "auto":
-        return ".tif" if pathlib.Path(input_path).suffix.lower() in (".tif", ".tiff") else ".png"
-    if fmt == "jpeg":
-        return ".jpg"
-    return ".png" if fmt.startswith("png") else ".tif"
-
-
-def output_dtype(fmt: str, pixels_dtype, *, cube: bool = False) -> np.dtype:
-    """The output sample type for ``fmt`` given the input's (cubes: 8-bit unless forced)."""
-    src = np.dtype(np.uint8) if cube else np.dtype(pixels_dtype)
-    forced = {"png8": np.uint8, "png16": np.uint16, "tiff8": np.uint8, "tiff16": np.uint16,
-              "tiff-float": np.float32, "jpeg": np.uint8}
-    if fmt in forced:
-        return np.dtype(forced[fmt])
-    if src.kind == "f":
-        return np.dtype(np.float32) if (fmt == "tiff" or (fmt == "auto" and not cube)) else np.dtype(np.uint16)
-    return src
-
-
-def panel_titles(renderer: Renderer) -> dict:
-    """Panel captions for a renderer's settings (the observer by its readable label)."""
-    from .observers.labels import observer_label
-
-    obs = observer_label(renderer.observer)
-    flt = renderer.filter_name or "no filter"
-    return {v: t.format(observer=obs, filter=flt) for v, t in VIEW_TITLES.items()}
-
-
-def panel_footer(renderer: Renderer) -> str:
-    """Settings and the caveat, for a panel's footer."""
-    d = renderer.describe()
-    light = f"illuminant {d['illuminant']}" if d["illuminant"] else d["scene"]
-    a = d["adaptation"]
-    adapt = "full" if a == 1 else "none" if a == 0 else f"{a:g}"
-    return (f"filter {d['filter'] or 'none'}; {light}; adaptation {adapt}; simulation {d['simulation']}; "
-            f"gamut {d['gamut']}. {d['caveat']}")
-
-
-def _small(px: np.ndarray, max_pixels: int = 1200) -> np.ndarray:
-    step = max(1, int(np.ceil(max(px.shape[:2]) / max_pixels)))
-    return px[::step, ::step].copy()  # a copy: the full-size buffer is reused for the next view
-
-
-def file_checksum(path) -> str:
-    """SHA-256 of a file's bytes, hex (read in blocks; a pipe or device is refused)."""
-    import hashlib
-
-    from .io.images import regular_file
-
-    p = regular_file(path)
-    h = hashlib.sha256()
-    try:
-        with open(p, "rb") as fh:
-            for block in iter(lambda: fh.read(1 << 20), b""):
-                h.update(block)
-    except OSError as exc:
-        raise InputError(f"cannot read ({exc.strerror or exc})", source=str(p)) from None
-    return h.hexdigest()
-
-
-def _digest(obj) -> str:
-    import hashlib
-    import json
-
-    return hashlib.sha256(json.dumps(obj, sort_keys=True, separators=(",", ":")).encode("utf-8")).hexdigest()
-
-
-def settings_fingerprint(renderer: Renderer, *, fmt: str = "auto", cube_kind: str | None = None,
-                         wavelengths=None) -> str:
-    """A SHA-256 over everything that decides a rendered file, except the input and the view.
-
-    It covers the renderer's settings (:meth:`Renderer.describe`, which includes the tool's version),
-    the numbers behind them (the filter's transmittance, the illuminant, both observers' fundamentals,
-    the scene's stimuli and display matrix, so that an edited filter file with the same name changes
-    it), the output format, the cube kind and the cube wavelengths. ``--max-megapixels`` and ``--jobs``
-    do not change a file and are left out.
-    """
-    import hashlib
-
-    arrays = hashlib.sha256()
-    for a in (renderer.transmittance, renderer.illuminant.spd, renderer.observer.fundamentals,
-              renderer.normal.fundamentals, renderer.stimuli, renderer.display, renderer.grid.wavelengths):
-        a = np.ascontiguousarray(np.asarray(a, dtype=np.float64))
-        arrays.update(str(a.shape).encode())
-        arrays.update(a.tobytes())
-    wl = None if wavelengths is None else [float(w) for w in np.asarray(wavelengths, dtype=float).ravel()]
-    settings = {k: v for k, v in renderer.describe().items()}
-    return _digest({"settings": settings, "arrays": arrays.hexdigest(), "format": fmt, "cube_kind": cube_kind,
-                    "wavelengths": wl})
-
-
-def output_fingerprint(settings_fp: str, input_sha256: str, view: str) -> str:
-    """The fingerprint of one output file: settings, the input's checksum and the view (or ``panel``)."""
-    return _digest({"settings": settings_fp, "input": input_sha256, "view": view})
-
-
-def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt: str = "auto",
-                cube_kind: str | None = None, wavelengths=None, max_megapixels: float | None = None,
-                inputs=(), fingerprints: dict | None = None, input_sha256: str | None = None) -> dict:
-    """Render one image or cube file to the requested views (and a panel), writing each atomically.
-
-    Parameters
-    ----------
-    path : str or path-like
-        Input image (PNG, JPEG, TIFF) or cube (``.npy``, ``.npz``, TIFF with wavelengths).
-    renderer : Renderer
-    outputs : dict
-        View name -> output path (written in this order).
-    panel_path : path, optional
-        Where to write the 2x2 panel (PNG).
-    fmt : str
-        One of :data:`OUTPUT_FORMATS` (decides the sample type).
-    cube_kind, wavelengths
-        For cubes (see :func:`cvdfilter.io.cubes.read_cube`).
-    max_megapixels : float, optional
-        Refuse larger inputs.
-    inputs : iterable of paths
-        Paths no output may overwrite (all inputs of a batch).
-    fingerprints : dict, optional
-        View (or ``panel``) -> fingerprint (:func:`output_fingerprint`), stored in each file's
-        metadata (``cvdfilter`` record, key ``fingerprint``) so that a later batch can tell whether
-        the file was made with the same settings and input.
-    input_sha256 : str, optional
-        The input's checksum, stored in the metadata too.
-
-    Returns
-    -------
-    dict
-        ``input``, ``kind`` (image or cube), ``width``, ``height``, ``outputs``
-        (view -> path), ``panel``, ``clipped_pixels`` (view -> count),
-        ``fingerprints`` (view or ``panel`` -> fingerprint, those given), ``warnings``.
-    """
-    from ._version import __version__
-    from .io.cubes import Cube, is_cube_path, read_cube, tiff_is_cube
-    from .io.images import DEFAULT_MAX_MEGAPIXELS, read_image, write_image
-
-    p = pathlib.Path(path)
-    mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
-    tif = p.suffix.lower() in (".tif", ".tiff")
-    if is_cube_path(p) or (tif and tiff_is_cube(p, wavelengths_given=wavelengths is not None)):
-        data = read_cube(p, wavelengths=wavelengths, kind=cube_kind, max_megapixels=mp)
-    else:
-        data = read_image(p, max_megapixels=mp)
-    cube = isinstance(data, Cube)
-    guard = [str(x) for x in inputs] + [str(p)]
-    settings = renderer.describe()
-    fps = dict(fingerprints or {})
-    record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
-              "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
-    if input_sha256 is not None:
-        record["input_sha256"] = input_sha256
-
-    def stamp(key: str) -> dict:
-        extra = {"fingerprint": fps[key]} if key in fps else {}
-        if input_sha256 is not None:
-            extra["input_sha256"] = input_sha256
-        return extra
-    if cube:
-        record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
-                      wavelengths=f"{data.wavelengths[0]:g}-{data.wavelengths[-1]:g} nm, {data.bands} bands")
-        out_dtype = output_dtype(fmt, None, cube=True)
-    else:
-        px = data.pixels
-        record.update(width=px.shape[1], height=px.shape[0], bits=data.bits, channels=data.channels)
-        out_dtype = output_dtype(fmt, px.dtype)
-        if fmt == "jpeg" and data.has_alpha:
-            raise InputError("has an alpha channel, which JPEG cannot hold", source=str(p),
-                             hint="use --format png or tiff")
-    encoding = "srgb" if out_dtype.kind == "u" else "linear"
-    small = {}
-    buffer = None
-    views = list(outputs)
-    for v in views:
-        if cube:
-            arr, clipped = renderer.apply_cube(data, v, dtype=out_dtype)
-        else:
-            px = data.pixels
-            in_place = (len(views) == 1 and panel_path is None and v != "original" and px.ndim == 3
-                        and px.shape[2] in (3, 4) and px.dtype == out_dtype and px.flags.writeable
-                        and data.encoding == encoding)
-            target = px if in_place else buffer
-            arr, clipped = renderer.apply(data, v, dtype=out_dtype, out=target)
-            buffer = arr
-        record["clipped_pixels"][v] = clipped
-        meta = {"Software": f"cvdfilter {__version__}",
-                "cvdfilter": {**settings, "view": v, "input": str(p), "clipped_pixels": clipped,
-                              "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)",
-                              "format": fmt, **stamp(v)}}
-        write_image(outputs[v], arr, encoding=encoding, metadata=meta, inputs=guard)
-        record["outputs"][v] = str(outputs[v])
-        if v in fps:
-            record["fingerprints"][v] = fps[v]
-        if panel_path is not None:
-            small[v] = _small(arr)
-    if panel_path is not None:
-        from .io.atomic import write_bytes
-
-        titles = panel_titles(renderer)
-        if not cube:
-            titles["original"] = "original"
-        for v in VIEWS:
-            if v not in small:
-                arr, _ = (renderer.apply_cube(data, v, dtype=out_dtype) if cube
-                          else renderer.apply(data, v, dtype=out_dtype, out=buffer))
-                buffer = None if cube else arr
-                small[v] = _small(arr)
-        ordered = {v: small[v] for v in VIEWS}
-        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png", **stamp("panel")}}
-        write_bytes(panel_path, panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=meta),
-                    inputs=guard)
-        record["panel"] = str(panel_path)
-        if "panel" in fps:
-            record["fingerprints"]["panel"] = fps["panel"]
-    return record
+# Re-exported here, where callers have always found them (defined at the end: render_files imports this module).
+from .render_files import (file_checksum, output_dtype, output_fingerprint, output_suffix,  # noqa: E402
+                           panel_titles, render_file, settings_fingerprint)

@@ -40,6 +40,7 @@ import numpy as np
 from ._version import __version__
 from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from .errors import InputError
+from .tables import fixed as _fmt, markdown_cell as _md_cell, markdown_lines as _md_table, yes_no as _yes
 
 __all__ = ["report", "Report", "ReportFigure", "REFERENCES", "SECTIONS", "environment", "transmittance_sha256",
            "REPORT_FIGURES"]
@@ -588,14 +589,6 @@ _POPULATION_ROWS = (
 )
 
 
-def _fmt(x, digits: int) -> str:
-    return "-" if x is None else f"{round(float(x), digits) + 0.0:.{digits}f}"
-
-
-def _yes(b) -> str:
-    return "-" if b is None else ("yes" if b else "no")
-
-
 def _is_number(v) -> bool:
     if isinstance(v, (int, float)) and not isinstance(v, bool):
         return True
@@ -613,16 +606,6 @@ def _html_table(header, rows, *, mono_cols=()) -> str:
         out.append("<tr>" + "".join(cells) + "</tr>")
     out += ["</tbody>", "</table>"]
     return "\n".join(out)
-
-
-def _md_cell(v) -> str:
-    return ("" if v is None else str(v)).replace("|", "\\|").replace("\n", " ")
-
-
-def _md_table(header, rows) -> list[str]:
-    lines = ["| " + " | ".join(_md_cell(h) for h in header) + " |", "|" + "|".join("---" for _ in header) + "|"]
-    lines += ["| " + " | ".join(_md_cell(v) for v in r) + " |" for r in rows]
-    return lines
 
 
 def _md_link(rel: str) -> str:

@@ -63,7 +63,8 @@ def test_xy_system_choice():
     with pytest.raises(InputError, match="needs an observer"):
         xy_cmfs("own-2", observer("normal").grid)
     # S&S 10 deg in the CIE 2015 10 deg xy is exact too
-    assert lms_to_xyz_matrix(observer("normal:data=ss10").fundamentals, xy_cmfs("cie2015-10", observer("normal").grid))[1] < 1e-4
+    grid = observer("normal").grid
+    assert lms_to_xyz_matrix(observer("normal:data=ss10").fundamentals, xy_cmfs("cie2015-10", grid))[1] < 1e-4
     with pytest.raises(InputError, match="xy system"):
         xy_cmfs("cie1976", observer("normal").grid)
 

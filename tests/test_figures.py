@@ -572,7 +572,8 @@ def _fake_card_2d():
     out = []
     for k, c in enumerate((540, 550, 560)):
         for fwhm in (20, 30):
-            out.append({"name": f"notch:center={c},depth=0.8,fwhm={fwhm}", "luminous_transmittance": 0.5 + 0.01 * c / 10,
+            out.append({"name": f"notch:center={c},depth=0.8,fwhm={fwhm}",
+                        "luminous_transmittance": 0.5 + 0.01 * c / 10,
                         "observers": [{"observer": "normal", "red_green_gain": 1.0 + 0.01 * k + 0.001 * fwhm},
                                       {"observer": "deuteranope", "red_green_gain": None}]})
     return {"illuminant": "D65", "surfaces": "ces99", "adaptation": "full", "filters": out}

@@ -355,4 +355,5 @@ def test_spike_in_a_2nm_file_is_no_notch_after_resampling():
 
     fs = load_filters(str(DATA / "noise_spike_760_2nm_sampling.csv"))
     assert filter_notches(fs) == [[]]
-    assert filter_notches(load_filters("notch:center=575,fwhm=30,depth=0.8"))[0][0]["fwhm"] == pytest.approx(30, abs=0.1)
+    notches = filter_notches(load_filters("notch:center=575,fwhm=30,depth=0.8"))
+    assert notches[0][0]["fwhm"] == pytest.approx(30, abs=0.1)

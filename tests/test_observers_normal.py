@@ -122,3 +122,23 @@ def test_bad_observer_specs(spec):
 
     with pytest.raises(InputError):
         observer(spec)
+
+
+def test_observer_kinds_registry_is_read_by_parser_list_and_docs():
+    # One registry of observer forms: the parser accepts exactly its names, `list observers` shows each of
+    # them, and docs/models.md names each.
+    import pathlib
+
+    from cvdfilter.errors import InputError
+    from cvdfilter.inspection import catalog
+    from cvdfilter.observers.observer import OBSERVER_KINDS, observer
+
+    listed = [i.get("form") or i.get("name") for i in catalog("observers")["items"]]
+    docs = (pathlib.Path(__file__).resolve().parent.parent / "docs" / "models.md").read_text()
+    for name, kind in OBSERVER_KINDS.items():
+        assert name in listed and name in docs
+        o = observer(name)
+        assert (o.kind, o.deficiency) == (kind.kind, kind.deficiency)
+    with pytest.raises(InputError) as err:
+        observer("achromat")
+    assert all(name in str(err.value.hint) for name in OBSERVER_KINDS)

@@ -322,7 +322,7 @@ def test_brettel_collapses_m_only_changes(seed, t):
 def test_brettel_fast_path_equals_selection():
     r = Renderer("larkhill-notch-575", observer="protanope", illuminant="A")
     tr = r.transform("observer-filtered")
-    fast = _Kernel.build(tr.rgb_matrices, tr.rgb_separator, 1.0, 0.0, 1.0)
+    fast = _Kernel.build(tr.rgb, 1.0, 0.0, 1.0)
     assert fast.second is not None
     slow = _Kernel(tr.rgb_matrices[0].astype(np.float32), None, tr.rgb_matrices[1].astype(np.float32),
                    tr.rgb_separator.astype(np.float32))

@@ -15,7 +15,8 @@ from cvdfilter.spectra.grid import DEFAULT_GRID
 def test_fl2_without_filter_rf70_rg86_ra64():
     # Source: colour-science's ANSI/IES TM-30-18 (CIE 2017 Rf) and CIE 13.3 implementations give
     # Rf 70, Rg 86 and Ra 64 for CIE FL2. This checks the wiring of illuminant x filter.
-    r = score("nd:t=1", illuminant="FL2", observers=["normal"], metrics="rendition").to_dict()["filters"][0]["rendition"]
+    card = score("nd:t=1", illuminant="FL2", observers=["normal"], metrics="rendition")
+    r = card.to_dict()["filters"][0]["rendition"]
     assert round(r["rf"]) == 70
     assert round(r["rg"]) == 86
     assert round(r["ra"]) == 64

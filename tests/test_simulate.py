@@ -284,7 +284,8 @@ def _colour_primaries(name):
 def test_machado_matches_colour_science(primaries, spec, shift):
     # colour-science 0.4.7, colour.blindness.matrix_anomalous_trichromacy_Machado2009, given the
     # same fundamentals (the base observer's), the same primaries and the same shift (20 nm x
-    # severity; tritan 29 nm at severity 0.5, see machado2009.TRITAN_SHIFTS_NM): our cone-space operator, expressed on the display's linear RGB, agrees within 1e-3.
+    # severity; tritan 29 nm at severity 0.5, see machado2009.TRITAN_SHIFTS_NM): our cone-space operator,
+    # expressed on the display's linear RGB, agrees within 1e-3.
     # Where Machado's opponent scaling is ill-conditioned, colour-science returns a meaningless matrix
     # (entries of 4 to 30) and we refuse (checked here too).
     from colour.blindness import matrix_anomalous_trichromacy_Machado2009

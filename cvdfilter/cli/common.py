@@ -8,7 +8,7 @@ from __future__ import annotations
 import json
 import sys
 import warnings
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable
 
 import typer
 
@@ -16,7 +16,8 @@ from ..errors import InputError
 from ..tables import csv_text, markdown_table, text_table
 
 __all__ = ["fail", "warn", "emit", "to_json", "table_text", "csv_text", "markdown_table", "FORMATS",
-           "resolve_format", "file_options", "flush_warnings", "input_files", "UNITS_HELP", "BANDWIDTH_HELP", "FORMAT_SUFFIXES"]
+           "resolve_format", "file_options", "flush_warnings", "input_files", "UNITS_HELP", "BANDWIDTH_HELP",
+           "FORMAT_SUFFIXES"]
 
 FORMATS = ("table", "json", "csv", "markdown")
 #: Output formats told by the -o file's extension (shared/CONVENTIONS.md: --format, else the extension).
@@ -39,8 +40,6 @@ def resolve_format(format: str | None, output: str | None, allowed=FORMATS, defa
     """
     import pathlib
 
-    from ..errors import InputError
-
     if format is not None and format not in allowed:
         raise InputError(f"--format {format} is not one of {', '.join(allowed)}")
     told = FORMAT_SUFFIXES.get(pathlib.Path(output).suffix.lower()) if output else None
@@ -58,7 +57,6 @@ def resolve_format(format: str | None, output: str | None, allowed=FORMATS, defa
 
 def file_options(filters, units: str | None, bandwidth: float | None):
     """Filter specs with --units/--bandwidth applied to every file term that does not set its own."""
-    from ..errors import InputError
     from ..io.spectra_files import UNITS
     from ..spectra.filters import with_file_options
 

@@ -52,7 +52,8 @@ def register(app: typer.Typer) -> None:
                 where += f", column {f['column'] if f['column'] is not None else f['column_number']}"
             rows = [
                 ("source", where),
-                ("measured range", f"{rng[0]:g}-{rng[1]:g} nm, sampling {f['sampling_nm']:g} nm" if rng else "parametric"),
+                ("measured range",
+                 f"{rng[0]:g}-{rng[1]:g} nm, sampling {f['sampling_nm']:g} nm" if rng else "parametric"),
                 ("units", f"{f['units']} ({f['units_reason']})" if f["units"] else "-"),
                 ("extrapolation", extrapolation_text(f["extrapolated"]) or "none"),
                 ("transmittance", f"min {f['min_transmittance']:.4f} at {f['min_at_nm']:g} nm, "

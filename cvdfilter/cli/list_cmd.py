@@ -35,7 +35,8 @@ def register(app: typer.Typer) -> None:
             rows = [(group, ", ".join(names)) for group, names in items.items()]
             text = table_text(["group", "names"], rows)
         elif kind == "observers":
-            text = table_text(["form", "parameters", "model"], [(i["form"], i["parameters"], i["model"]) for i in items])
+            text = table_text(["form", "parameters", "model"],
+                              [(i["form"], i["parameters"], i["model"]) for i in items])
         elif kind in ("surfaces", "methods"):
             text = table_text(["name", "description"], [(i["name"], i["description"]) for i in items])
         else:

@@ -152,8 +152,25 @@ def _population(d):
                           "share of members helped and its Wilson 95 % interval"]
 
 
+def _tasks(d):
+    """The drawn arrangement paths (cap order, u*, v*), the moment ellipses and the verdict grid."""
+    header = ["part", "state", "filter", "observer", "task", "step", "cap", "u_star", "v_star", "value"]
+    uv = np.asarray(d["uv"])
+    rows = []
+    for state in ("without", "with"):
+        for step, cap in enumerate(d[f"order_{state}"]):
+            rows.append(["path", state, "", "", "", step, int(cap), uv[cap, 0], uv[cap, 1], ""])
+        for name, v in zip(("r_major", "r_minor", "confusion_angle_deg"), d[f"ellipse_{state}"]):
+            rows.append([f"ellipse:{name}", state, "", "", "", "", "", "", "", v])
+    for (obs, task), per_filter in zip(d["rows"], d["verdicts"]):
+        for f, v in zip(d["filters"], per_filter):
+            rows.append(["verdict", "", f, obs, task, "", "", "", "", v])
+    return header, rows, ["path and ellipses: the first observer and filter's median-TES trials (u*, v* CIELUV)"]
+
+
 _TABLES = {"spectrum": _spectrum, "population": _population, "chromaticity": _chromaticity, "hues": _hues, "swatches": _swatches,
-           "images": _images, "sweep": _sweep, "gains": _per_filter_observer}
+           "images": _images, "sweep": _sweep, "gains": _per_filter_observer,
+           "tasks": _tasks}
 
 
 def figure_table(result) -> tuple[list[str], list[list], list[str]]:

@@ -16,7 +16,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import filter_labels, legend_axes, legend_columns, legend_labels, load_filters_checked, wrap_to_width, ensure_axes_height
+from .common import (ensure_axes_height, filter_labels, legend_axes, legend_columns, legend_labels,
+                     load_filters_checked, wrap_to_width)
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style

@@ -100,7 +100,8 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
         raise InputError("the images figure shows one observer", hint="give --observer once")
     fs = load_filters_checked(filters)
     if len(fs) != 1:
-        raise InputError(f"{len(fs)} filters: the images figure shows one filter", hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
+        raise InputError(f"{len(fs)} filters: the images figure shows one filter",
+                         hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
     from .chromaticity import check_adaptable
 
     check_adaptable(fs, illuminant=illuminant, observer=observers[0], adaptation=adaptation)

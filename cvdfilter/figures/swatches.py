@@ -49,7 +49,8 @@ def swatch_colours(filters, *, illuminant="D65", observer="deuteranope", surface
     got = load_inputs(filters, illuminant=illuminant, observers=[observer], surfaces=surfaces)
     fs, obs, surf, ill = got["filters"], got["observers"][0], got["surfaces"], got["illuminant"]
     if len(fs) != 1:
-        raise InputError(f"{len(fs)} filters: the swatches figure shows one filter", hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
+        raise InputError(f"{len(fs)} filters: the swatches figure shows one filter",
+                         hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
     from .chromaticity import check_adaptable
 
     check_adaptable(fs, illuminant=ill, observer=obs, adaptation=adaptation)

@@ -143,9 +143,9 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
         room_mm = ((width_mm / 2 if wide else width_mm) - 40.0) / n_f
         limit = max(6, int(room_mm / (0.62 * style.tick_size * 25.4 / 72)))
         for j, axv in enumerate(axes):
-            for k, o in enumerate(result.observers):
+            for k in range(n_o):
                 y = n_o - 1 - k
-                for i, t in enumerate(result.tasks):
+                for i in range(n_t):
                     v = verdicts[k * n_t + i][j]
                     colour, sign = VERDICT_STYLE[v]
                     axv.add_patch(_rect(i, y, colour, f"verdict-{k * n_t + i}-{j}"))
@@ -153,7 +153,8 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
             axv.set_xlim(0, n_t)
             axv.set_ylim(0, n_o)
             axv.set_xticks(np.arange(n_t) + 0.5, [short.get(t, t) for t in result.tasks], rotation=90)
-            axv.set_yticks(np.arange(n_o) + 0.5, [labels_o[o].replace(" (", "\n(") for o in result.observers][::-1] if j == 0 else [])
+            ylabels = [labels_o[o].replace(" (", "\n(") for o in result.observers][::-1]
+            axv.set_yticks(np.arange(n_o) + 0.5, ylabels if j == 0 else [])
             axv.tick_params(length=0)
             for side in axv.spines.values():
                 side.set_visible(False)

@@ -46,9 +46,10 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["CATEGORY_BANDS", "SIGNAL_LIMITS", "SIGNAL_LIMIT_READINGS", "SIGNAL_LIMIT_SOURCES",
-           "DEFAULT_SIGNAL_READING", "parse_signal_limits", "describe_signal_limits", "SIGNAL_COLOURS", "RATIO_BAND_NM", "RATIO_LIMIT", "NIGHT_MIN",
-           "MODEL_NOTE", "SignalLight", "iso12312_category", "category_text", "min_ratio_in_band",
-           "modelled_signal_lights", "signal_colour", "signal_quotients", "road_use_flags", "road_use_reasons"]
+           "DEFAULT_SIGNAL_READING", "parse_signal_limits", "describe_signal_limits", "SIGNAL_COLOURS",
+           "RATIO_BAND_NM", "RATIO_LIMIT", "NIGHT_MIN", "MODEL_NOTE", "SignalLight", "iso12312_category",
+           "category_text", "min_ratio_in_band", "modelled_signal_lights", "signal_colour", "signal_quotients",
+           "road_use_flags", "road_use_reasons"]
 
 #: ISO 12312-1:2013 luminous transmittance categories as (category, lower, upper) fractions:
 #: lower exclusive, upper inclusive (College of Optometrists, "Tints and driving").
@@ -402,7 +403,8 @@ def road_use_reasons(tau_v: float, category: int, min_ratio: float, at_nm: float
     >>> for s in road_use_reasons(0.5, 1, 1.0, 475.0, {"red": 1.0, "yellow": 1.0, "green": 1.0, "blue": 1.0}):
     ...     print(s)
     Luminous transmittance 50.0 % (CIE D65, CIE 1931 2 deg V(lambda)) is in ISO 12312-1 category 1 (over 43 to 80 %).
-    Spectral transmittance stays at or above 0.2 x the luminous transmittance from 475 to 650 nm (lowest 1.00 x, at 475 nm).
+    Spectral transmittance stays at or above 0.2 x the luminous transmittance from 475 to 650 nm
+    (lowest 1.00 x, at 475 nm).
     Signal quotients meet their limits: red 1.00, yellow 1.00, green 1.00, blue 1.00.
     Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.
     """

@@ -15,7 +15,8 @@ al. 1999) relate to the cone-space operators the tool computes; the tests use
 it to compare with colour-science and colorspacious.
 
 Public: :class:`DisplaySimulation`, :func:`display_primaries`, :func:`rgb_to_lms_matrix`,
-:func:`display_simulation`, :data:`DISPLAY_PRIMARIES`.
+:func:`adapted_rgb_to_lms`, :func:`display_simulation`,
+:data:`DISPLAY_PRIMARIES`.
 """
 
 from __future__ import annotations
@@ -28,9 +29,10 @@ from ..errors import InputError
 from ..spectra.cache import cached_arrays
 from ..spectra.grid import DEFAULT_GRID, Grid
 from .observer import Observer, observer as _make_observer
+from .operator import HasOperator, PiecewiseLinear
 
-__all__ = ["DisplaySimulation", "display_primaries", "rgb_to_lms_matrix", "display_simulation",
-           "DISPLAY_PRIMARIES"]
+__all__ = ["DisplaySimulation", "display_primaries", "rgb_to_lms_matrix", "adapted_rgb_to_lms",
+           "display_simulation", "DISPLAY_PRIMARIES"]
 
 #: Display primaries colour-science ships (``colour.characterisation.MSDS_DISPLAY_PRIMARIES``).
 DISPLAY_PRIMARIES = ("Typical CRT Brainard 1997", "Apple Studio Display")
@@ -78,42 +80,42 @@ def rgb_to_lms_matrix(fundamentals, primaries) -> np.ndarray:
     return np.asarray(fundamentals, dtype=float).T @ np.asarray(primaries, dtype=float)
 
 
+def adapted_rgb_to_lms(fundamentals, primaries, white_lms=None) -> np.ndarray:
+    """Adapted cone excitations of unit R, G, B for an observer adapted to the display's white.
+
+    ``A = diag(white_lms / (F^T P 1)) F^T P``, shape (3, 3), columns R, G, B
+    (column vectors: ``lms = A @ rgb``), so that R = G = B = 1 gives
+    ``white_lms`` (default (1, 1, 1)). The renderer's display scene uses it
+    too (:func:`cvdfilter.rendering.Renderer`).
+    """
+    p = np.asarray(primaries, dtype=float)
+    f = np.asarray(fundamentals, dtype=float)
+    # Row form (rgb @ A^T), the product the renderer has always computed.
+    rows = (p.T @ f) / (p.sum(axis=1) @ f)
+    if white_lms is not None:
+        rows = rows * np.asarray(white_lms, dtype=float)
+    return rows.T
+
+
 @dataclass(frozen=True, eq=False)
-class DisplaySimulation:
+class DisplaySimulation(HasOperator):
     """A simulation on a display's linear RGB.
 
     Attributes
     ----------
-    matrices : numpy.ndarray
-        (k, 3, 3), act on linear RGB column vectors.
-    separator : numpy.ndarray or None
-        (3,) for two matrices: ``matrices[0]`` where ``rgb @ separator >= 0``.
+    operator : PiecewiseLinear
+        On linear RGB column vectors (see :mod:`cvdfilter.observers.operator`).
     simulation : Simulation
         The cone-space operator it was made from.
     primaries : numpy.ndarray
         (n_wl, 3).
     """
 
-    matrices: np.ndarray
-    separator: np.ndarray | None
+    operator: PiecewiseLinear
     simulation: object
     primaries: np.ndarray
 
-    def apply(self, rgb) -> np.ndarray:
-        """Simulate linear RGB shaped (..., 3); returns (..., 3) (not clipped)."""
-        rgb = np.asarray(rgb, dtype=float)
-        if rgb.shape[-1:] != (3,):
-            raise ValueError(f"expected linear RGB shaped (..., 3), got {rgb.shape}")
-        if len(self.matrices) == 1:
-            return rgb @ self.matrices[0].T
-        first = rgb @ self.matrices[0].T
-        second = rgb @ self.matrices[1].T
-        return np.where((rgb @ self.separator >= 0)[..., None], first, second)
-
-
-def _adapted(fundamentals, primaries, white_lms) -> np.ndarray:
-    m = rgb_to_lms_matrix(fundamentals, primaries)
-    return (np.asarray(white_lms) / m.sum(axis=1))[:, None] * m
+    # matrices, separator and apply(rgb) (linear RGB (..., 3) in and out, not clipped) come from HasOperator.
 
 
 def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, method: str | None = None,
@@ -152,9 +154,7 @@ def display_simulation(observer, primaries="Typical CRT Brainard 1997", *, metho
     p = display_primaries(primaries, obs.grid)
     ref = p.sum(axis=1) if isinstance(reference_white, str) and reference_white == "display" else reference_white
     sim = simulation(obs, method=method, normalisation=normalisation, reference_white=ref, primaries=p)
-    a_in = _adapted(raw_fundamentals(obs), p, sim.white_lms)
+    a_in = adapted_rgb_to_lms(raw_fundamentals(obs), p, sim.white_lms)
     base = obs.base if obs.base is not None else obs
-    a_out = _adapted(base.fundamentals, p, sim.white_lms)
-    mats = np.stack([np.linalg.solve(a_out, m @ a_in) for m in sim.matrices])
-    sep = None if sim.separator is None else a_in.T @ sim.separator
-    return DisplaySimulation(mats, sep, sim, p)
+    a_out = adapted_rgb_to_lms(base.fundamentals, p, sim.white_lms)
+    return DisplaySimulation(sim.operator.compose(a_in).then(np.linalg.inv(a_out)), sim, p)

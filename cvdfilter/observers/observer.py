@@ -20,9 +20,10 @@ for both). The pigment moves by whatever does that (:func:`pigment_shift`), and
 that pigment is used at every age and field. Tritan: the S pigment's peak. See
 :data:`SHIFT_MEASURE` and docs/models.md section 2.
 
-Public: :class:`Observer`, :func:`observer`, :func:`observer_forms`, :func:`anomalous_absorbance`,
-:func:`pigment_shift`, :func:`normal_separation`, :func:`severity_shift`, :data:`SHIFT_MEASURE`,
-:data:`SEVERITY_SEPARATIONS`, :data:`SEVERITY_SHIFTS`, :data:`DEFAULT_SHIFTS`.
+Public: :class:`Observer`, :class:`ObserverKind`, :data:`OBSERVER_KINDS`, :func:`observer`,
+:func:`observer_forms`, :func:`anomalous_absorbance`, :func:`pigment_shift`, :func:`normal_separation`,
+:func:`severity_shift`, :data:`SHIFT_MEASURE`, :data:`SEVERITY_SEPARATIONS`, :data:`SEVERITY_SHIFTS`,
+:data:`DEFAULT_SHIFTS`.
 """
 
 from __future__ import annotations
@@ -37,8 +38,11 @@ from ..spectra.grid import DEFAULT_GRID, Grid
 from . import cie2006
 from .fundamentals import V_WEIGHTS_2DEG, V_WEIGHTS_10DEG
 
-__all__ = ["Observer", "observer", "observer_forms", "anomalous_absorbance", "pigment_shift", "normal_separation",
-           "severity_shift", "DEFAULT_SHIFTS", "SEVERITY_SHIFTS", "SEVERITY_SEPARATIONS", "SHIFT_MEASURE"]
+# DEFAULT_SHIFTS and SEVERITY_SHIFTS come from the module's __getattr__ (computed on first use), which a
+# static checker cannot see: hence the noqa.
+__all__ = ["Observer", "ObserverKind", "OBSERVER_KINDS", "observer", "observer_forms",  # noqa: F822
+           "anomalous_absorbance", "pigment_shift", "normal_separation", "severity_shift", "DEFAULT_SHIFTS",
+           "SEVERITY_SHIFTS", "SEVERITY_SEPARATIONS", "SHIFT_MEASURE"]
 
 #: What ``shift`` measures, per deficiency. Protan and deutan: the move of the
 #: affected cone's *fundamental* peak (lambda max of the corneal, energy-based
@@ -124,14 +128,45 @@ SEVERITY_MACHADO = {
     "tritan": {"mild": 0.55, "moderate": 0.8, "severe": 1.0},
 }
 
-_NAMES = {
-    "normal": ("normal", None),
-    "protanomalous": ("anomalous", "protan"),
-    "deuteranomalous": ("anomalous", "deutan"),
-    "tritanomalous": ("anomalous", "tritan"),
-    "protanope": ("dichromat", "protan"),
-    "deuteranope": ("dichromat", "deutan"),
-    "tritanope": ("dichromat", "tritan"),
+@dataclass(frozen=True)
+class ObserverKind:
+    """One observer form of the spec strings: what it is and which parameters it takes.
+
+    Attributes
+    ----------
+    kind : str
+        ``normal``, ``anomalous`` or ``dichromat`` (:attr:`Observer.kind`).
+    deficiency : str or None
+        ``protan``, ``deutan``, ``tritan`` or None.
+    parameters : tuple of str
+        The spec's keys it accepts.
+    model : str
+        One line on the model, for ``cvdfilter list observers`` (:func:`observer_forms`).
+    """
+
+    kind: str
+    deficiency: str | None
+    parameters: tuple
+    model: str
+
+
+_ANOMALOUS_KEYS = ("age", "field", "shift", "separation", "severity", "model")
+_SHIFTED = ("{0} pigment shifted toward {1} on a log-wavenumber axis so that the {0} fundamental's peak moves by "
+            "shift (CIE 2006 observer, 32 years, 2 deg)")
+
+#: Every observer form of the spec strings, in the order ``list observers`` shows them. The spec parser,
+#: :func:`observer_forms` (``cvdfilter list observers``) and its error hints read this mapping; a new form
+#: is an entry here and a builder in :data:`_BUILDERS` (see DEVELOPERS.md, "How to add an observer model").
+OBSERVER_KINDS = {
+    "normal": ObserverKind("normal", None, ("age", "field", "data"),
+                           "CIE 170-1:2006 physiological observer (Stockman & Sharpe 2000)"),
+    "protanomalous": ObserverKind("anomalous", "protan", _ANOMALOUS_KEYS, _SHIFTED.format("L", "M")),
+    "deuteranomalous": ObserverKind("anomalous", "deutan", _ANOMALOUS_KEYS, _SHIFTED.format("M", "L")),
+    "tritanomalous": ObserverKind("anomalous", "tritan", _ANOMALOUS_KEYS,
+                                  "S pigment's peak shifted toward M on a log-wavenumber axis"),
+    "protanope": ObserverKind("dichromat", "protan", ("age", "field", "data"), "reduction dichromat: no L cone"),
+    "deuteranope": ObserverKind("dichromat", "deutan", ("age", "field", "data"), "reduction dichromat: no M cone"),
+    "tritanope": ObserverKind("dichromat", "tritan", ("age", "field", "data"), "reduction dichromat: no S cone"),
 }
 _CONE = {"protan": 0, "deutan": 1, "tritan": 2}
 # The pigment each anomalous pigment moves toward.
@@ -250,32 +285,40 @@ class Observer:
         return f"Observer({self.spec!r})"
 
 
-def observer_forms() -> list[dict]:
-    """Every observer form with its parameters, for ``cvdfilter list observers``."""
+def _form_parameters(name: str, kind: ObserverKind) -> str:
+    """The parameters of one form as ``list observers`` prints them."""
     common = "age=20-80 (years, default 32), field=1-10 (deg, default 2)"
-    return [
-        {"form": "normal", "parameters": common + ", data=cie2006|ss2|ss10|sp1975",
-         "model": "CIE 170-1:2006 physiological observer (Stockman & Sharpe 2000)"},
-        *({"form": NAME,
-           "parameters": common + f", shift=0-{normal_separation(d):.2f} or separation=0-{normal_separation(d):.2f} "
-                                  f"(nm, {MINE}' to {OTHER} fundamental peaks) or severity=mild|moderate|severe "
-                                  f"(separation {'|'.join(f'{v:g}' for v in SEVERITY_SEPARATIONS[d].values())}; "
-                                  f"default {SEVERITY_SEPARATIONS[d]['moderate']:g})",
-           "model": f"{MINE} pigment shifted toward {OTHER} on a log-wavenumber axis so that the {MINE} "
-                    "fundamental's peak moves by shift (CIE 2006 observer, 32 years, 2 deg)"}
-          for NAME, d, MINE, OTHER in (("protanomalous", "protan", "L", "M"), ("deuteranomalous", "deutan", "M", "L"))),
-        {"form": "tritanomalous",
-         "parameters": common + f", shift=0-{normal_separation('tritan'):.1f} or separation (nm, S pigment peak) "
-                                f"or severity=mild|moderate|severe (shift "
-                                f"{'|'.join(f'{v:g}' for v in _TRITAN_SHIFTS.values())}; default 15)",
-         "model": "S pigment's peak shifted toward M on a log-wavenumber axis"},
-        {"form": "DEFICIENCY:model=machado2009,severity=0-1", "parameters": common,
-         "model": "Machado et al. (2009), via colour-science"},
-        {"form": "protanope", "parameters": common, "model": "reduction dichromat: no L cone"},
-        {"form": "deuteranope", "parameters": common, "model": "reduction dichromat: no M cone"},
-        {"form": "tritanope", "parameters": common, "model": "reduction dichromat: no S cone"},
-        _population_form(),
-    ]
+    d = kind.deficiency
+    if kind.kind == "normal":
+        return common + ", data=cie2006|ss2|ss10|sp1975"
+    if kind.kind != "anomalous":
+        return common
+    if d == "tritan":
+        return common + (f", shift=0-{normal_separation('tritan'):.1f} or separation (nm, S pigment peak) "
+                         f"or severity=mild|moderate|severe (shift "
+                         f"{'|'.join(f'{v:g}' for v in _TRITAN_SHIFTS.values())}; default 15)")
+    mine, other = "LMS"[_CONE[d]], "LMS"[_TOWARD[d]]
+    return common + (f", shift=0-{normal_separation(d):.2f} or separation=0-{normal_separation(d):.2f} "
+                     f"(nm, {mine}' to {other} fundamental peaks) or severity=mild|moderate|severe "
+                     f"(separation {'|'.join(f'{v:g}' for v in SEVERITY_SEPARATIONS[d].values())}; "
+                     f"default {SEVERITY_SEPARATIONS[d]['moderate']:g})")
+
+
+#: Forms that are a model option of several kinds rather than a kind: listed after the last anomalous kind.
+_MODEL_FORMS = ({"form": "DEFICIENCY:model=machado2009,severity=0-1",
+                 "model": "Machado et al. (2009), via colour-science"},)
+
+
+def observer_forms() -> list[dict]:
+    """Every observer form with its parameters, for ``cvdfilter list observers`` (from :data:`OBSERVER_KINDS`)."""
+    forms = []
+    for name, kind in OBSERVER_KINDS.items():
+        forms.append({"form": name, "parameters": _form_parameters(name, kind), "model": kind.model})
+        if name == "tritanomalous":
+            common = _form_parameters("normal", OBSERVER_KINDS["protanope"])
+            forms += [{"form": f["form"], "parameters": common, "model": f["model"]} for f in _MODEL_FORMS]
+    forms.append(_population_form())
+    return forms
 
 
 def _population_form() -> dict:
@@ -305,13 +348,13 @@ def _number(value: str, key: str, spec: str, lo: float, hi: float) -> float:
 def _parse(spec: str) -> tuple[str, dict]:
     name, _, rest = spec.strip().partition(":")
     name = name.strip().lower()
-    if name not in _NAMES:
+    if name not in OBSERVER_KINDS:
         from ..errors import clip_text, did_you_mean
 
-        close = did_you_mean(name, _NAMES)
+        names = list(OBSERVER_KINDS)
+        close = did_you_mean(name, OBSERVER_KINDS)
         raise InputError(f"unknown observer '{clip_text(name)}'" + (f"; {close}" if close else ""), source=spec,
-                         hint="use normal, protanomalous, deuteranomalous, tritanomalous, protanope, "
-                              "deuteranope or tritanope (cvdfilter list observers)")
+                         hint=f"use {', '.join(names[:-1])} or {names[-1]} (cvdfilter list observers)")
     params = {}
     for part in filter(None, (p.strip() for p in rest.split(","))):
         key, eq, val = part.partition("=")
@@ -341,12 +384,8 @@ def observer(spec: str | Observer = "normal", grid: Grid = DEFAULT_GRID) -> Obse
 @functools.lru_cache(maxsize=256)
 def _observer(spec: str, grid: Grid) -> Observer:
     name, params = _parse(spec)
-    kind, deficiency = _NAMES[name]
-    allowed = {"age", "field"}
-    if kind == "normal" or kind == "dichromat":
-        allowed |= {"data"}
-    if kind == "anomalous":
-        allowed |= {"shift", "separation", "severity", "model"}
+    kind = OBSERVER_KINDS[name]
+    allowed = set(kind.parameters)
     unknown = set(params) - allowed
     if "n" in params:
         raise InputError("n= makes a population, and this takes single observers", source=spec,
@@ -356,6 +395,12 @@ def _observer(spec: str, grid: Grid) -> Observer:
     if unknown:
         raise InputError(f"unknown parameter '{sorted(unknown)[0]}' for {name}", source=spec,
                          hint=f"allowed: {', '.join(sorted(allowed))}")
+    base = _base_observer(spec, params, grid)
+    return _BUILDERS[kind.kind](name, kind.deficiency, spec, params, base, grid)
+
+
+def _base_observer(spec: str, params: dict, grid: Grid) -> Observer:
+    """The normal observer of a spec's age, field and data."""
     age = _number(params["age"], "age", spec, *cie2006.AGE_RANGE) if "age" in params else 32.0
     fld = _number(params["field"], "field", spec, *cie2006.FIELD_RANGE) if "field" in params else 2.0
     data = params.get("data", "cie2006").lower()
@@ -365,7 +410,6 @@ def _observer(spec: str, grid: Grid) -> Observer:
         raise InputError("age and field apply to the CIE 2006 model, not to tabulated data", source=spec)
     if data == "ss10":
         fld = 10.0
-
     base_spec = _canonical("normal", {"age": age, "field": fld, "data": data})
     weights = _luminance_weights(fld)
     if data == "cie2006":
@@ -375,47 +419,63 @@ def _observer(spec: str, grid: Grid) -> Observer:
         from .fundamentals import tabulated_lms
 
         base_lms = tabulated_lms(data, grid)
-    base = Observer(base_spec, "normal", None, grid.wavelengths, base_lms, weights,
+    return Observer(base_spec, "normal", None, grid.wavelengths, base_lms, weights,
                     {"age": age, "field": fld, "data": data}, None, grid)
-    if kind == "normal":
-        return base
-    if kind == "dichromat":
-        p = {"age": age, "field": fld, "data": data}
-        # Reduction hypothesis: the missing cone contributes nothing, to luminance either. A
-        # protanope's luminous efficiency is its M cone's, a deuteranope's its L cone's (Smith &
-        # Pokorny 1975), each peaking at 1 as V(lambda) does; a tritanope keeps the normal a L + b M.
-        dweights = {"protan": (0.0, 1.0), "deutan": (1.0, 0.0)}.get(deficiency, weights)
-        return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, base_lms, dweights, p, base, grid)
 
-    # anomalous trichromats
+
+def _normal(name: str, deficiency, spec: str, params: dict, base: Observer, grid: Grid) -> Observer:
+    return base
+
+
+def _dichromat(name: str, deficiency, spec: str, params: dict, base: Observer, grid: Grid) -> Observer:
+    p = {k: base.params[k] for k in ("age", "field", "data")}
+    # Reduction hypothesis: the missing cone contributes nothing, to luminance either. A
+    # protanope's luminous efficiency is its M cone's, a deuteranope's its L cone's (Smith &
+    # Pokorny 1975), each peaking at 1 as V(lambda) does; a tritanope keeps the normal a L + b M.
+    dweights = {"protan": (0.0, 1.0), "deutan": (1.0, 0.0)}.get(deficiency, base.luminance_weights)
+    return Observer(_canonical(name, p), "dichromat", deficiency, grid.wavelengths, base.fundamentals, dweights, p,
+                    base, grid)
+
+
+def _anomalous(name: str, deficiency, spec: str, params: dict, base: Observer, grid: Grid) -> Observer:
     model = params.get("model", "shift").lower()
     if model not in ("shift", "machado2009"):
         raise InputError(f"model={model} is not shift or machado2009", source=spec)
-    if data != "cie2006":
+    if base.params["data"] != "cie2006":
         raise InputError("anomalous observers are built on the CIE 2006 model (data=cie2006)", source=spec)
     if sum(k in params for k in ("shift", "separation", "severity")) > 1:
         raise InputError("give one of shift, separation or severity", source=spec)
-    cone = _CONE[deficiency]
     if model == "machado2009":
-        from .machado2009 import machado_fundamentals, machado_severity, machado_shift_nm, max_shift_nm
+        return _machado(name, deficiency, spec, params, base, grid)
+    return _shifted(name, deficiency, spec, params, base, grid)
 
-        sev_text = params.get("severity", "moderate")
-        if "separation" in params:
-            raise InputError("separation goes with the shifted-pigment model; give severity=0-1 for "
-                             "model=machado2009", source=spec)
-        if "shift" in params:
-            severity = machado_severity(deficiency, _number(params["shift"], "shift", spec, 0,
-                                                            max_shift_nm(deficiency)))
-        elif sev_text.lower() in SEVERITY_MACHADO[deficiency]:
-            severity = SEVERITY_MACHADO[deficiency][sev_text.lower()]
-        else:
-            severity = _number(sev_text, "severity", spec, 0.0, 1.0)
-        table = machado_fundamentals(deficiency, severity, age=age, field=fld)
-        p = {"age": age, "field": fld, "model": "machado2009", "severity": severity,
-             "shift": machado_shift_nm(deficiency, severity)}
-        return Observer(_canonical(name, p), kind, deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
-                        weights, p, base, grid)
 
+def _machado(name: str, deficiency, spec: str, params: dict, base: Observer, grid: Grid) -> Observer:
+    """An anomalous observer of Machado et al. (2009)'s model (``model=machado2009``)."""
+    from .machado2009 import machado_fundamentals, machado_severity, machado_shift_nm, max_shift_nm
+
+    age, fld = base.params["age"], base.params["field"]
+    sev_text = params.get("severity", "moderate")
+    if "separation" in params:
+        raise InputError("separation goes with the shifted-pigment model; give severity=0-1 for "
+                         "model=machado2009", source=spec)
+    if "shift" in params:
+        severity = machado_severity(deficiency, _number(params["shift"], "shift", spec, 0,
+                                                        max_shift_nm(deficiency)))
+    elif sev_text.lower() in SEVERITY_MACHADO[deficiency]:
+        severity = SEVERITY_MACHADO[deficiency][sev_text.lower()]
+    else:
+        severity = _number(sev_text, "severity", spec, 0.0, 1.0)
+    table = machado_fundamentals(deficiency, severity, age=age, field=fld)
+    p = {"age": age, "field": fld, "model": "machado2009", "severity": severity,
+         "shift": machado_shift_nm(deficiency, severity)}
+    return Observer(_canonical(name, p), "anomalous", deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
+                    base.luminance_weights, p, base, grid)
+
+
+def _shifted(name: str, deficiency, spec: str, params: dict, base: Observer, grid: Grid) -> Observer:
+    """An anomalous observer with a shifted pigment (the default model)."""
+    age, fld = base.params["age"], base.params["field"]
     full = normal_separation(deficiency)
     key = "shift"
     if "severity" in params:
@@ -436,13 +496,18 @@ def _observer(spec: str, grid: Grid) -> Observer:
     shift = min(max(shift, 0.0), full)
     residual = round(full - shift, 9)  # exactly the number given for separation= and the severity words
     p_shift = pigment_shift(deficiency, shift)
+    cone = _CONE[deficiency]
     absorbance = cie2006.photopigment_absorbance().copy()
     absorbance[:, cone] = cie2006.anomalous_pigment(cone, _TOWARD[deficiency], p_shift)
     table = cie2006.fundamentals_from_absorbance(absorbance, age=age, field=fld)
     p = {"age": age, "field": fld, "model": "shift", "shift": shift, "separation": residual,
          "normal_separation": full, "shift_measure": SHIFT_MEASURE[deficiency], "pigment_shift": p_shift}
-    return Observer(_canonical(name, p, key), kind, deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
-                    weights, p, base, grid)
+    return Observer(_canonical(name, p, key), "anomalous", deficiency, grid.wavelengths, cie2006.to_grid(table, grid),
+                    base.luminance_weights, p, base, grid)
+
+
+#: How each kind of :data:`OBSERVER_KINDS` is built from its spec's parameters and its normal base observer.
+_BUILDERS = {"normal": _normal, "dichromat": _dichromat, "anomalous": _anomalous}
 
 
 def anomalous_absorbance(deficiency: str, shift: float) -> np.ndarray:

@@ -105,6 +105,7 @@ import numpy as np
 
 from ..errors import InputError
 from .observer import Observer, observer as _make_observer
+from .operator import HasOperator, PiecewiseLinear
 
 __all__ = ["Simulation", "simulation", "simulate", "METHODS", "METHOD_DESCRIPTIONS", "NORMALISATIONS",
            "DEFAULT_NORMALISATION", "ANCHORS_NM", "MATRIX_LMS_TO_OPPONENT", "reference_white_spectrum",
@@ -143,8 +144,8 @@ MATRIX_LMS_TO_OPPONENT = np.array([[0.600, 0.400, 0.000],
 
 
 @dataclass(frozen=True, eq=False)
-class Simulation:
-    """A per-pixel linear operator from an observer's adapted LMS to the normal observer's.
+class Simulation(HasOperator):
+    """A per-pixel operator from an observer's adapted LMS to the normal observer's, with its provenance.
 
     Attributes
     ----------
@@ -152,12 +153,9 @@ class Simulation:
         The simulated observer.
     method : str
         One of :data:`METHODS` (see :data:`METHOD_DESCRIPTIONS`).
-    matrices : numpy.ndarray
-        Shape (k, 3, 3), k = 1 or 2, float64; act on column vectors
-        (``out = M @ lms``).
-    separator : numpy.ndarray or None
-        Shape (3,): with two matrices, ``matrices[0]`` applies where
-        ``lms @ separator >= 0`` and ``matrices[1]`` elsewhere.
+    operator : PiecewiseLinear
+        The operator on adapted L, M, S (column vectors; one matrix, or two
+        split by a plane for Brettel 1997), see :mod:`cvdfilter.observers.operator`.
     white_lms : numpy.ndarray
         Adapted excitations of the white (3,), the same for input and output.
     info : dict
@@ -167,38 +165,12 @@ class Simulation:
 
     observer: Observer
     method: str
-    matrices: np.ndarray
-    separator: np.ndarray | None = None
+    operator: PiecewiseLinear
     white_lms: np.ndarray = field(default_factory=lambda: np.ones(3))
     info: dict = field(default_factory=dict)
 
-    def apply(self, lms) -> np.ndarray:
-        """Simulate adapted cone excitations.
-
-        Parameters
-        ----------
-        lms : array_like
-            The observer's adapted L, M, S, shape (..., 3).
-
-        Returns
-        -------
-        numpy.ndarray
-            The normal base observer's adapted L, M, S, shape (..., 3).
-        """
-        lms = np.asarray(lms, dtype=float)
-        if lms.shape[-1:] != (3,):
-            raise ValueError(f"expected cone excitations shaped (..., 3), got {lms.shape}")
-        if len(self.matrices) == 1:
-            return lms @ self.matrices[0].T
-        m0, m1 = self.matrices
-        out = lms @ m0.T
-        differ = np.nonzero(np.any(m0 != m1, axis=1))[0]  # Brettel: only the missing cone's row
-        if len(differ):
-            side = lms @ self.separator >= 0
-            out[..., differ] = np.where(side[..., None], out[..., differ], lms @ m1[differ].T)
-        return out
-
-    __call__ = apply
+    # matrices, separator, apply(lms) and __call__ come from HasOperator: ``apply`` maps the observer's
+    # adapted L, M, S (..., 3) to the normal base observer's adapted L, M, S (..., 3).
 
 
 def reference_white_spectrum(obs: Observer, reference_white=None) -> np.ndarray:
@@ -248,10 +220,11 @@ def raw_fundamentals(obs: Observer) -> np.ndarray:
         from .machado2009 import machado_peak_factors
 
         p = obs.params
-        return f * machado_peak_factors(obs.deficiency, p["severity"], age=p["age"], field=p["field"])
+        return f * machado_peak_factors(str(obs.deficiency), p["severity"], age=p["age"], field=p["field"])
     scale = np.ones(3)
     k = obs.affected_cone
-    scale[k] = obs.base.fundamentals[:, k].sum() / f[:, k].sum()
+    base = obs.base if obs.base is not None else obs  # an anomalous observer always has its base
+    scale[k] = base.fundamentals[:, k].sum() / f[:, k].sum()
     return f * scale
 
 
@@ -332,21 +305,22 @@ def methods_for(obs: Observer) -> tuple:
 
 
 def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray, primaries) -> Simulation:
-    k = obs.missing_cone
+    deficiency = str(obs.deficiency)
+    k = _MISSING[deficiency]  # obs.missing_cone, as an int for a dichromat
     f = obs.fundamentals
     raw_white = spd @ f
     gains = white / raw_white  # raw excitations -> adapted, as for the inputs
-    anchors_nm = ANCHORS_NM[obs.deficiency]
+    anchors_nm = ANCHORS_NM[deficiency]
     anchors = _anchor_lms(obs, anchors_nm) * gains
     axis = np.eye(3)[k]
     info = {"missing_cone": k, "anchors_nm": anchors_nm, "anchors_lms": anchors,
             "raw_white_lms": raw_white}
     if method == "vienot1999":
         p = np.asarray(primaries, dtype=float)
-        m = vienot_plane_matrix((f.T @ p) * gains[:, None], obs.deficiency)
+        m = vienot_plane_matrix((f.T @ p) * gains[:, None], deficiency)
         info["neutral_lms"] = (p.sum(axis=1) @ f) * gains
         info["blue_lms"] = (p[:, 2] @ f) * gains
-        return Simulation(obs, method, m[None], None, white, info)
+        return Simulation(obs, method, PiecewiseLinear.linear(m), white, info)
     if method == "brettel1997":
         neutral = f.sum(axis=0) * gains  # the equal-energy stimulus (Brettel et al. 1997)
     else:
@@ -359,7 +333,7 @@ def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray, p
         if not anchors[1] @ separator < 0:  # pragma: no cover - would need absurd fundamentals
             raise InputError("the two anchors lie on the same side of the neutral axis", source=obs.spec)
         matrices = np.stack([_plane_matrix(np.cross(neutral, a), k) for a in anchors])
-        return Simulation(obs, method, matrices, separator, white, info)
+        return Simulation(obs, method, PiecewiseLinear(matrices, separator), white, info)
     # brettel-plane: one plane through the neutral axis fitting both anchors best
     e = neutral / np.linalg.norm(neutral)
     u = np.cross(e, axis)
@@ -370,16 +344,16 @@ def _dichromat(obs: Observer, method: str, white: np.ndarray, spd: np.ndarray, p
     _, vecs = np.linalg.eigh(coords.T @ coords)
     normal = vecs[0, 0] * u + vecs[1, 0] * v  # the direction the anchors are least spread along
     info["plane_normal"] = normal
-    return Simulation(obs, method, _plane_matrix(normal, k)[None], None, white, info)
+    return Simulation(obs, method, PiecewiseLinear.linear(_plane_matrix(normal, k)), white, info)
 
 
 def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: str) -> Simulation:
-    info = {"affected_cone": obs.affected_cone, "normalisation": normalisation}
+    info: dict = {"affected_cone": obs.affected_cone, "normalisation": normalisation}
     if normalisation == "cone":
-        return Simulation(obs, "machado2009", np.eye(3)[None], None, white, info)
+        return Simulation(obs, "machado2009", PiecewiseLinear.linear(np.eye(3)), white, info)
     t = MATRIX_LMS_TO_OPPONENT
     raw_a = spd @ raw_fundamentals(obs)
-    raw_n = spd @ obs.base.fundamentals
+    raw_n = spd @ (obs.base if obs.base is not None else obs).fundamentals
     scale = (t @ raw_n) / (t @ raw_a)
     # Machado's per-channel scaling divides by the white's opponent responses;
     # YB and RG are near 0 for many whites, and then the scaling is meaningless
@@ -392,7 +366,7 @@ def _machado(obs: Observer, white: np.ndarray, spd: np.ndarray, normalisation: s
     m = (white / raw_n)[:, None] * operator * (raw_a / white)[None, :]
     info.update({"raw_white_lms": raw_a, "base_raw_white_lms": raw_n, "opponent_scale": scale,
                  "unadapted_operator": operator})
-    return Simulation(obs, "machado2009", m[None], None, white, info)
+    return Simulation(obs, "machado2009", PiecewiseLinear.linear(m), white, info)
 
 
 def _primaries(obs: Observer, primaries) -> np.ndarray:
@@ -461,7 +435,7 @@ def simulation(observer, *, white_lms=(1.0, 1.0, 1.0), method: str | None = None
                          hint="'auto' was removed: it switched between the two at a hidden boundary"
                          if normalisation == "auto" else None)
     if method == "identity":
-        return Simulation(obs, method, np.eye(3)[None], None, white, {})
+        return Simulation(obs, method, PiecewiseLinear.linear(np.eye(3)), white, {})
     p = None
     if method == "vienot1999":
         if primaries is None:

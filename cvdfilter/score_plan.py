@@ -1,0 +1,504 @@
+"""How :func:`cvdfilter.score` computes: validated inputs, a plan per observer, and a chunk runner.
+
+The scorecard's computation in three typed steps:
+
+1. :class:`ScoreInputs` (:meth:`ScoreInputs.validate`): every argument checked and turned into objects
+   (filters, light, surfaces, observers, thresholds, signal lights) before any heavy work.
+2. :func:`filter_results`: the per-filter numbers (photometry and road use, normal observer, CIE D65), and
+   :func:`plan_observers`: per observer an :class:`ObserverPlan` (cone columns, no-filter references) and the
+   result arrays it fills.
+3. :class:`ChunkRunner`: one call ``runner(lo, hi)`` scores filters ``lo:hi`` and writes only that slice of
+   the result arrays; :func:`run_chunks` runs the chunks (in this process, on threads). This is where an
+   executor for larger runs plugs in: anything that calls the runner once per chunk range.
+
+Public: :class:`ScoreInputs`, :class:`ObserverPlan`, :class:`ChunkRunner`, :func:`filter_results`,
+:func:`plan_observers`, :func:`run_chunks`, :func:`parse_metrics`, :data:`METRIC_GROUPS`,
+:data:`CORE_METRICS`, :data:`DEFAULT_OBSERVERS`, :data:`PAIR_KEYS`, :data:`CONFUSION_KEYS`.
+"""
+
+from __future__ import annotations
+
+import math
+import pathlib
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from .errors import InputError
+from .metrics.confusion import DEFICIENT_THRESHOLD, NORMAL_THRESHOLD
+from .metrics.discrimination import CONE_RATIOS, DISCRIMINATION_THRESHOLD, DISTRIBUTION_THRESHOLDS, WEBER_FRACTION
+
+__all__ = ["ScoreInputs", "ObserverPlan", "ChunkRunner", "filter_results", "plan_observers", "run_chunks",
+           "parse_metrics", "METRIC_GROUPS", "CORE_METRICS", "DEFAULT_OBSERVERS", "PAIR_KEYS", "CONFUSION_KEYS"]
+
+#: Observers scored when none are given.
+DEFAULT_OBSERVERS = ("normal", "protanomalous", "deuteranomalous", "protanope", "deuteranope")
+#: Metric groups, in output order.
+METRIC_GROUPS = ("photometry", "road_use", "rendition", "contrast", "discrimination", "confusion")
+#: ``metrics="core"``: everything but the (slow) rendition block.
+CORE_METRICS = ("photometry", "road_use", "contrast", "discrimination", "confusion")
+#: Counts of the discriminable-pair blocks.
+PAIR_KEYS = ("without", "with", "gained", "lost")
+#: Counts of the confused-pair block.
+CONFUSION_KEYS = ("without", "with", "resolved", "created")
+
+Progress = Callable[[str, int, int], None]
+
+
+def parse_metrics(metrics) -> tuple:
+    """``"all"``, ``"core"``, a comma-separated list or a sequence of group names -> groups in order.
+
+    >>> parse_metrics("core")
+    ('photometry', 'road_use', 'contrast', 'discrimination', 'confusion')
+    >>> parse_metrics("contrast,photometry")
+    ('photometry', 'contrast')
+    """
+    if isinstance(metrics, str):
+        text = metrics.strip().lower()
+        if text == "all":
+            return METRIC_GROUPS
+        if text == "core":
+            return CORE_METRICS
+        items = [m.strip().replace("-", "_") for m in text.split(",") if m.strip()]
+    else:
+        items = [str(m).strip().lower().replace("-", "_") for m in metrics]
+    unknown = [m for m in items if m not in METRIC_GROUPS]
+    if unknown or not items:
+        raise InputError(f"unknown metrics '{', '.join(unknown) or metrics}'",
+                         hint=f"use all, core or a comma-separated list of {', '.join(METRIC_GROUPS)}")
+    return tuple(m for m in METRIC_GROUPS if m in items)
+
+
+def workers() -> int:
+    """Threads for the chunks: the CPUs this process may use (at most 8); CVDFILTER_THREADS overrides."""
+    import os
+
+    env = os.environ.get("CVDFILTER_THREADS")
+    if env and env.isdigit() and int(env) > 0:
+        return int(env)
+    try:
+        n = len(os.sched_getaffinity(0))
+    except (AttributeError, OSError):
+        n = os.cpu_count() or 1
+    return max(1, min(8, n))
+
+
+# --- 1. inputs ----------------------------------------------------------------------------------------
+
+def _check_thresholds(discrimination: float, normal: float, deficient: float, distribution) -> tuple:
+    """The distribution thresholds as floats; InputError unless every threshold is a positive number."""
+    thresholds = {"discrimination threshold": discrimination, "normal threshold": normal,
+                  "deficient threshold": deficient}
+    try:
+        dist = tuple(float(t) for t in distribution)
+    except (TypeError, ValueError):
+        raise InputError(f"distribution thresholds must be numbers, got {distribution!r}") from None
+    for name, t in [*thresholds.items(), *(("distribution threshold", t) for t in dist)]:
+        try:
+            ok = math.isfinite(float(t)) and float(t) > 0
+        except (TypeError, ValueError):
+            ok = False
+        if not ok:
+            raise InputError(f"{name} must be a positive number of JND, got {t!r}")
+    return dist
+
+
+@dataclass(frozen=True, eq=False)
+class ScoreInputs:
+    """Every input of a scoring run, validated (see :func:`cvdfilter.score` for the meaning of each)."""
+
+    filters: Any  # FilterSet
+    illuminant: Any  # Illuminant
+    surfaces: Any  # SurfaceSet
+    observers: list
+    adaptation: float
+    groups: tuple
+    grid: Any  # Grid
+    signal_lights: list
+    signal_spectra: Any
+    weber_fraction: float
+    cone_ratios: Any
+    discrimination_threshold: float
+    distribution_thresholds: tuple
+    normal_threshold: float
+    deficient_threshold: float
+    signal_limits: dict
+    signal_limits_reading: Any
+    cmfs: np.ndarray = field(repr=False, default_factory=lambda: np.zeros((0, 3)))
+    d65: np.ndarray = field(repr=False, default_factory=lambda: np.zeros(0))
+
+    @classmethod
+    def validate(cls, filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="ces99",
+                 adaptation="full", metrics="all", signal_spectra=None, grid=None,
+                 weber_fraction: float = WEBER_FRACTION, cone_ratios=CONE_RATIOS,
+                 discrimination_threshold: float = DISCRIMINATION_THRESHOLD,
+                 distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
+                 deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, units: str | None = None,
+                 bandwidth: float | None = None, sensitivity: bool = False) -> ScoreInputs:
+        """Check and load every input; raises InputError before any heavy work.
+
+        An observer spec with ``n=N`` becomes a :class:`~cvdfilter.observers.population.Population`
+        (not with ``sensitivity``).
+        """
+        from .metrics.discrimination import receptor_noise
+        from .metrics.road_use import parse_signal_limits
+        from .observers.fundamentals import cie1931_cmfs
+        from .observers.observer import observer as make_observer
+        from .observers.spaces import parse_adaptation
+        from .spectra.filters import FilterSet, load_filters
+        from .spectra.grid import DEFAULT_GRID
+        from .spectra.illuminants import illuminant as make_illuminant
+        from .spectra.surfaces import surface_set
+
+        groups = parse_metrics(metrics)
+        a = parse_adaptation(adaptation)
+        if grid is None:
+            grid = filters.grid if isinstance(filters, FilterSet) else DEFAULT_GRID
+        if isinstance(observers, str) or not hasattr(observers, "__iter__"):
+            observers = [observers]
+        observers = list(observers)
+        if not observers:
+            raise InputError("no observers given", hint=f"e.g. {', '.join(DEFAULT_OBSERVERS)}")
+        dist = _check_thresholds(discrimination_threshold, normal_threshold, deficient_threshold,
+                                 distribution_thresholds)
+        try:
+            receptor_noise(None, weber=weber_fraction, cone_ratios=cone_ratios)
+            limits, reading = parse_signal_limits(signal_limits)
+        except (ValueError, TypeError) as exc:
+            raise InputError(str(exc)) from None
+        fs = load_filters(filters, grid=grid, units=units, bandwidth=bandwidth)
+        ill = make_illuminant(illuminant, grid)
+        surf = surface_set(surfaces, grid)
+        from .observers.population import Population, is_population_spec
+        from .observers.population import population as make_population
+
+        obs = [o if isinstance(o, Population) else make_population(o, grid) if is_population_spec(o)
+               else make_observer(o, grid) for o in observers]
+        if sensitivity and any(isinstance(o, Population) for o in obs):
+            raise InputError("sensitivity is not available for population observers yet",
+                             hint="score the population without --sensitivity, or its centre observer with it")
+        cmfs = cie1931_cmfs(grid)
+        d65 = make_illuminant("D65", grid).spd
+        lights = signal_lights(signal_spectra, grid, cmfs[:, 1]) if "road_use" in groups else []
+        return cls(fs, ill, surf, obs, a, groups, grid, lights, signal_spectra, weber_fraction, cone_ratios,
+                   discrimination_threshold, dist, normal_threshold, deficient_threshold, limits, reading,
+                   cmfs, d65)
+
+    def settings(self) -> dict:
+        """The model constants and thresholds (``Scorecard.settings``)."""
+        return {"weber_fraction": float(self.weber_fraction), "cone_ratios": [float(x) for x in self.cone_ratios],
+                "discrimination_threshold": float(self.discrimination_threshold),
+                "distribution_thresholds": [float(t) for t in self.distribution_thresholds],
+                "normal_threshold": float(self.normal_threshold),
+                "deficient_threshold": float(self.deficient_threshold),
+                "signal_limits": self.signal_limits, "signal_limits_reading": self.signal_limits_reading}
+
+
+def _measured_items(signal_spectra, grid) -> tuple[list, str]:
+    """(name, spectrum on the grid, source) of measured signal lights, and where they came from."""
+    from .spectra.grid import resample
+
+    if isinstance(signal_spectra, (str, pathlib.Path)):
+        from .io.spectra_files import read_spectra
+
+        path = str(signal_spectra)
+        table = read_spectra(path, kind="spd")
+        return [(n, resample(table.wavelengths, v, grid, method="linear", outside="zero"), f"file {path}")
+                for n, v in zip(table.names, table.values)], path
+    if isinstance(signal_spectra, dict):
+        items = []
+        for n, v in signal_spectra.items():
+            if isinstance(v, tuple) and len(v) == 2:
+                v = resample(np.asarray(v[0], float), np.asarray(v[1], float), grid, method="linear",
+                             outside="zero")
+            items.append((str(n), np.asarray(v, dtype=float), "given as an array"))
+        return items, "signal_spectra"
+    raise InputError("signal spectra must be a file path or a dict of name -> spectrum")
+
+
+def signal_lights(signal_spectra, grid, ybar) -> list:
+    """Measured lights (from a file or a dict) plus modelled lights for the colours they leave out."""
+    from .metrics.road_use import SignalLight, modelled_signal_lights, signal_colour
+    from .spectra.illuminants import illuminant as make_illuminant
+
+    measured = []
+    if signal_spectra is not None:
+        items, path = _measured_items(signal_spectra, grid)
+        for name, spd, src in items:
+            try:
+                colour = signal_colour(name)
+            except ValueError as exc:
+                raise InputError(str(exc), source=path,
+                                 hint="name each column red, yellow, amber, green or blue (e.g. 'red LED')") from None
+            if spd.shape != (grid.size,):
+                raise InputError(f"signal spectrum '{name}' is not on the grid ({grid.size} values)", source=path)
+            if not float(np.sum(np.clip(spd, 0, None) * ybar)) > 0:
+                raise InputError(f"signal spectrum '{name}' has no luminous power in {grid.start:g}-{grid.end:g} nm",
+                                 source=path)
+            measured.append(SignalLight(name, colour, np.clip(spd, 0, None), "measured", src))
+    covered = {light.colour for light in measured}
+    a = make_illuminant("A", grid).spd
+    modelled = [light for light in modelled_signal_lights(grid.wavelengths, a) if light.colour not in covered]
+    return measured + modelled
+
+
+# --- 2. per filter and per observer ----------------------------------------------------------------------
+
+def filter_results(inp: ScoreInputs) -> dict:
+    """Per-filter arrays (first axis filters): photometry and road use (normal observer, CIE D65)."""
+    from .metrics.photometry import luminous_transmittance, xyz_to_uv_prime, xyz_to_xy
+    from .metrics.road_use import (SIGNAL_COLOURS, iso12312_category, min_ratio_in_band, road_use_flags,
+                                   signal_quotients)
+
+    T, E, cmfs, d65 = inp.filters.transmittance, inp.illuminant.spd, inp.cmfs, inp.d65
+    ybar = cmfs[:, 1]
+    results: dict = {}
+    tau_v = luminous_transmittance(T, d65, ybar)
+    results["luminous_transmittance"] = tau_v
+    results["luminous_transmittance_illuminant"] = luminous_transmittance(T, E, ybar)
+    xyz_d65 = T @ (d65[:, None] * cmfs)
+    results["chromaticity"] = xyz_to_xy(xyz_d65)
+    uv1 = xyz_to_uv_prime(T @ (E[:, None] * cmfs))
+    uv0 = xyz_to_uv_prime(E @ cmfs)
+    results["white_shift"] = np.hypot(uv1[:, 0] - uv0[0], uv1[:, 1] - uv0[1])
+    if "road_use" in inp.groups:
+        lights = inp.signal_lights
+        cat = iso12312_category(tau_v)
+        ratio, at_nm = min_ratio_in_band(T, tau_v, inp.grid.wavelengths)
+        by_colour, by_light = signal_quotients(T, tau_v, lights, ybar)
+        suitable, night = road_use_flags(cat, ratio, by_colour, tau_v, inp.signal_limits)
+        results.update({"iso12312_category": cat, "min_ratio": ratio, "min_ratio_at_nm": at_nm,
+                        "suitable": suitable, "night_suitable": night})
+        for c in SIGNAL_COLOURS:
+            results[f"signal_quotient_{c}"] = by_colour[c]
+            names = [light.name for light in lights if light.colour == c]
+            stack = np.stack([by_light[n] for n in names], axis=1)
+            worst = np.argmin(np.nan_to_num(stack, nan=np.inf), axis=1)
+            results[f"signal_light_{c}"] = np.array(names, dtype=object)[worst]
+    return results
+
+
+def cone_basis(observers) -> tuple[np.ndarray, list]:
+    """Unique cone-sensitivity columns (n_wl, K) and, per observer, the indices of its L, M, S columns."""
+    columns: list = []
+    index = []
+    seen: dict = {}
+    for o in observers:
+        idx = []
+        for c in range(3):
+            col = np.ascontiguousarray(o.fundamentals[:, c], dtype=float)
+            key = col.tobytes()  # equal bytes = equal columns (one dictionary look-up, not a scan)
+            if key not in seen:
+                seen[key] = len(columns)
+                columns.append(col)
+            idx.append(seen[key])
+        index.append(idx)
+    return np.stack(columns, axis=1), index
+
+
+@dataclass(eq=False)
+class ObserverPlan:
+    """What one observer's metrics need per chunk, prepared once, and the arrays they fill.
+
+    Attributes
+    ----------
+    observer : Observer
+    cols : list of int
+        The observer's L, M, S columns in the shared cone basis.
+    w0 : numpy.ndarray
+        (3,) cone catches of the white without a filter.
+    channels, rms0
+        Contrast: the opponent channels and the RMS contrast without a filter (None without ``contrast``).
+    rnl : dict or None
+        Receptor-noise reference without a filter (``rnl_reference``), for the pair metrics.
+    confusion : dict or None
+        Confused-pair reference (``confusion_reference``) for deficient observers with a normal base.
+    store : dict of numpy.ndarray
+        The result arrays over filters (``Scorecard.per_observer`` entry); a chunk writes its own slice.
+    """
+
+    observer: Any
+    cols: list
+    w0: np.ndarray
+    channels: Any = None
+    rms0: Any = None
+    rnl: Any = None
+    confusion: dict | None = None
+    store: dict = field(default_factory=dict)
+
+
+def _pair_plan(plan: ObserverPlan, inp: ScoreInputs, q0: np.ndarray, stimuli: np.ndarray, n_f: int) -> None:
+    """The receptor-noise references and pair-count arrays of one observer."""
+    from .metrics.confusion import confusion_reference, normally_discriminable
+    from .metrics.discrimination import receptor_noise, rnl_reference
+
+    o, groups, store = plan.observer, inp.groups, plan.store
+    n_s = len(inp.surfaces)
+    noise = receptor_noise(o.missing_cone, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
+    normal_noise = receptor_noise(None, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
+    # The pairs the normal observer (this observer's base, or itself) tells apart without a filter:
+    # the set the median runs over and the confused pairs are drawn from.
+    normal = o.base if o.base is not None else o
+    sets = normally_discriminable(stimuli[:, :n_s].T @ normal.fundamentals, normal_noise, inp.normal_threshold)
+    with_confusion = "confusion" in groups and o.kind != "normal" and o.base is not None
+    plan.rnl = rnl_reference(q0, noise, threshold=inp.discrimination_threshold,
+                             thresholds=inp.distribution_thresholds if "discrimination" in groups else (),
+                             median_pairs=sets[0], extra_radii=(inp.deficient_threshold,) if with_confusion else ())
+    if with_confusion:
+        plan.confusion = confusion_reference(q0, noise, None, None, normal_threshold=inp.normal_threshold,
+                                             deficient_threshold=inp.deficient_threshold, rnl=plan.rnl, sets=sets)
+        for key in CONFUSION_KEYS:
+            store[f"confusion_{key}"] = np.zeros(n_f, dtype=np.int64)
+        store["confusion_normally_discriminable"] = plan.confusion["count"]
+        store["confusion_median_without"] = plan.rnl["median"]
+        store["confusion_median_with"] = np.full(n_f, np.nan)
+        store["confusion_median_ratio"] = np.full(n_f, np.nan)
+    if "discrimination" in groups:
+        for key in PAIR_KEYS:
+            store[f"discriminable_{key}"] = np.zeros(n_f, dtype=np.int64)
+        for t in inp.distribution_thresholds:
+            for key in PAIR_KEYS:
+                store[f"discriminable_at_{t:g}_{key}"] = np.zeros(n_f, dtype=np.int64)
+        store["discriminable_median_without"] = plan.rnl["median"]
+        store["discriminable_median_with"] = np.full(n_f, np.nan)
+        store["discriminable_median_ratio"] = np.full(n_f, np.nan)
+
+
+def plan_observers(inp: ScoreInputs, observers=None) -> tuple[list[ObserverPlan], ChunkRunner]:
+    """Per observer (default: all of ``inp``'s) its :class:`ObserverPlan`, and the :class:`ChunkRunner`
+    that fills them."""
+    from .metrics.contrast import opponent_channels, rms_without
+
+    grid, n_f, n_s = inp.grid, len(inp.filters), len(inp.surfaces)
+    observers = inp.observers if observers is None else observers
+    basis, cols = cone_basis(observers)
+    k_cols = basis.shape[1]
+    stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance, np.ones((grid.size, 1))],
+                                                           axis=1)
+    # B[lambda, (cone, sample)]: the last sample is the white (the light itself).
+    B = (basis[:, :, None] * stimuli[:, None, :]).reshape(grid.size, k_cols * (n_s + 1))
+    Q0 = B.sum(axis=0).reshape(k_cols, n_s + 1)  # without the filter (T = 1)
+    plans = []
+    for k, o in enumerate(observers):
+        c = cols[k]
+        q0, w0 = Q0[c, :n_s].T, Q0[c, n_s]
+        plan = ObserverPlan(o, c, w0)
+        if "contrast" in inp.groups:
+            plan.channels = opponent_channels(o.kind, o.deficiency, o.luminance_weights)
+            plan.rms0 = rms_without(q0, w0, plan.channels)
+            for key in ("luminance_contrast_gain", "red_green_gain", "blue_yellow_gain"):
+                plan.store[key] = np.full(n_f, np.nan)
+        if "discrimination" in inp.groups or "confusion" in inp.groups:
+            _pair_plan(plan, inp, q0, stimuli, n_f)
+        plans.append(plan)
+    runner = ChunkRunner(inp.filters.transmittance, B, k_cols, n_s, plans, inp.groups, inp.adaptation,
+                         np.empty((n_f, k_cols)))
+    return plans, runner
+
+
+# --- 3. chunks ------------------------------------------------------------------------------------------
+
+@dataclass(eq=False)
+class ChunkRunner:
+    """Scores a range of filters for every planned observer: ``runner(lo, hi)``.
+
+    One matrix product gives every cone catch of the chunk, laid out (filters, unique cone columns,
+    surfaces + white); per observer the metrics receive planes (one (F, N) array per cone) and the log
+    catches computed once per chunk. A call writes only rows ``lo:hi`` of the plans' arrays and of
+    :attr:`whites`, so chunks may run in any order, on any thread.
+    """
+
+    transmittance: np.ndarray
+    B: np.ndarray
+    k_cols: int
+    n_samples: int
+    plans: list
+    groups: tuple
+    adaptation: float
+    whites: np.ndarray
+
+    def __call__(self, lo: int, hi: int) -> int:
+        from .metrics.discrimination import close_changes, log_catches, rnl_points
+
+        n_s = self.n_samples
+        Q = (self.transmittance[lo:hi] @ self.B).reshape(hi - lo, self.k_cols, n_s + 1)
+        S, white = Q[:, :, :n_s], Q[:, :, n_s]
+        self.whites[lo:hi] = white
+        need_logs = "discrimination" in self.groups or "confusion" in self.groups
+        logs = log_catches(S) if need_logs else np.empty(0)
+        for plan in self.plans:
+            c = plan.cols
+            if "contrast" in self.groups:
+                self._contrast(plan, [S[:, i, :] for i in c], white[:, c], lo, hi)
+            if need_logs:
+                points = rnl_points(logs[:, c, :], plan.rnl)  # y = P ln q: Delta S is their distance
+                self._pairs(plan, points, close_changes(points, plan.rnl), lo, hi)
+        return hi
+
+    def _contrast(self, plan: ObserverPlan, planes: list, white: np.ndarray, lo: int, hi: int) -> None:
+        from .metrics.contrast import gains_from_planes
+
+        g = gains_from_planes(planes, white, plan.w0, plan.rms0, plan.channels, adaptation=self.adaptation)
+        store = plan.store
+        store["luminance_contrast_gain"][lo:hi] = g[:, 0]
+        store["red_green_gain"][lo:hi] = g[:, 1]
+        store["blue_yellow_gain"][lo:hi] = g[:, 2]
+
+    def _pairs(self, plan: ObserverPlan, points, changes, lo: int, hi: int) -> None:
+        from .metrics.confusion import confusion_from_points
+        from .metrics.discrimination import discriminable_from_points
+
+        store = plan.store
+        med = None
+        if "discrimination" in self.groups:
+            d = discriminable_from_points(points, plan.rnl, changes)
+            med = d
+            for key in PAIR_KEYS:
+                store[f"discriminable_{key}"][lo:hi] = d[key]
+            for t, counts in d["at"].items():
+                for key in PAIR_KEYS:
+                    store[f"discriminable_at_{t:g}_{key}"][lo:hi] = counts[key]
+            store["discriminable_median_with"][lo:hi] = d["median_with"]
+            store["discriminable_median_ratio"][lo:hi] = d["median_ratio"]
+        if plan.confusion is not None:
+            d = confusion_from_points(points, plan.confusion, changes, median=med)
+            for key in CONFUSION_KEYS:
+                store[f"confusion_{key}"][lo:hi] = d[key]
+            store["confusion_median_with"][lo:hi] = d["median_with"]
+            store["confusion_median_ratio"][lo:hi] = d["median_ratio"]
+
+    def mark_undefined(self) -> None:
+        """After every chunk: a filter that leaves some cone no light (a black filter) has no defined pair
+        statistics (``store["undefined"]``)."""
+        for plan in self.plans:
+            present = [c for i, c in enumerate(plan.cols) if i != plan.observer.missing_cone]
+            plan.store["undefined"] = ~np.all(self.whites[:, present] > 0, axis=1)
+
+
+def run_chunks(runner: Callable[[int, int], int], n_filters: int, *, chunk: int,
+               progress: Progress | None = None) -> None:
+    """Call ``runner(lo, hi)`` for every chunk of ``chunk`` filters, on threads when there are several.
+
+    Chunks are independent and numpy releases the GIL in its array loops, so threads share the work;
+    each writes its own slice of the result arrays. ``progress("filters", done, total)`` after each.
+    """
+    bounds = [(lo, min(n_filters, lo + chunk)) for lo in range(0, n_filters, chunk)]
+    n_workers = min(workers(), len(bounds))
+    if n_workers <= 1:
+        for lo, hi in bounds:
+            runner(lo, hi)
+            if progress is not None:
+                progress("filters", hi, n_filters)
+        return
+    from concurrent.futures import ThreadPoolExecutor, as_completed
+
+    done = 0
+    with ThreadPoolExecutor(max_workers=n_workers) as pool:
+        futures = [pool.submit(runner, lo, hi) for lo, hi in bounds]
+        for fut in as_completed(futures):
+            fut.result()
+            done += 1
+            if progress is not None:
+                progress("filters", min(n_filters, done * chunk), n_filters)

@@ -1,0 +1,121 @@
+"""How the scorecard's verdicts move when a model constant or threshold moves (``score --sensitivity``).
+
+Each variation of :data:`SENSITIVITY_RANGES` rescores the filters with one setting changed, the others at
+their values of the run; a verdict is robust when the sign of its change is the same in every variation.
+
+Public: :data:`SENSITIVITY_RANGES`, :func:`sensitivity_variants`, :func:`sensitivity`.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from .scorecard_views import median_ratio
+
+__all__ = ["SENSITIVITY_RANGES", "sensitivity_variants", "sensitivity"]
+
+
+#: The documented range over which ``score --sensitivity`` varies each model constant and threshold (one at
+#: a time, the others at their values of the run). Choices of this project, to show whether a verdict is robust:
+#: Weber fraction half and 1.5 times the default 0.02; L:M cone ratio 1:1 and 4:1 at the same S share (the
+#: default is 2:1; individual ratios vary at least this much, Hofer et al. 2005, from memory); every JND
+#: threshold together x0.8 and x1.25; the other reading of the signal-quotient limits.
+SENSITIVITY_RANGES: dict[str, Any] = {
+    "weber_fraction": (0.5, 1.5),
+    "cone_ratios_lm": ((1.0, 1.0), (4.0, 1.0)),
+    "threshold_factor": (0.8, 1.25),
+    "signal_limits": ("guidance", "blue-0.4"),
+}
+
+
+def sensitivity_variants(settings: dict) -> list:
+    """(name, score keyword arguments) of every variation, from the run's own settings."""
+    w = settings["weber_fraction"]
+    cr = settings["cone_ratios"]
+    lm = cr[0] + cr[1]
+    out = [(f"weber_fraction={w * f:g}", {"weber_fraction": w * f}) for f in SENSITIVITY_RANGES["weber_fraction"]]
+    for a, b in SENSITIVITY_RANGES["cone_ratios_lm"]:
+        ratios = (lm * a / (a + b), lm * b / (a + b), cr[2])
+        out.append((f"cone_ratios={':'.join(f'{x:g}' for x in ratios)}", {"cone_ratios": ratios}))
+    for f in SENSITIVITY_RANGES["threshold_factor"]:
+        out.append((f"thresholds x{f:g}", {
+            "discrimination_threshold": settings["discrimination_threshold"] * f,
+            "normal_threshold": settings["normal_threshold"] * f,
+            "deficient_threshold": settings["deficient_threshold"] * f}))
+    return out
+
+
+def _sign(x) -> int:
+    return 0 if x is None or x == 0 else (1 if x > 0 else -1)
+
+
+def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
+    """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section)."""
+    from .scorecard import score
+
+    st = card.settings
+    pair_groups = [g for g in ("discrimination", "confusion") if g in card.metrics]
+    base = {"illuminant": ill, "observers": obs, "surfaces": surf, "adaptation": a, "grid": grid,
+            "weber_fraction": st["weber_fraction"], "cone_ratios": st["cone_ratios"],
+            "discrimination_threshold": st["discrimination_threshold"],
+            "distribution_thresholds": st["distribution_thresholds"],
+            "normal_threshold": st["normal_threshold"], "deficient_threshold": st["deficient_threshold"],
+            "signal_limits": st["signal_limits"]}
+    variants = []
+    if pair_groups:
+        for name, kw in sensitivity_variants(st):
+            variants.append((name, kw, score(fs, metrics=pair_groups, **{**base, **kw}).to_dict()))
+    road = []
+    if "road_use" in card.metrics:
+        for reading in SENSITIVITY_RANGES["signal_limits"]:
+            if reading != st["signal_limits_reading"]:
+                road.append((f"signal_limits={reading}", score(fs, metrics="road_use", signal_spectra=signal_spectra,
+                                                              **{**base, "signal_limits": reading}).to_dict()))
+    doc = card.to_dict() if card.sensitivity is None else None
+    own = doc["filters"] if doc else []
+
+    def measures(o: dict) -> dict:
+        out = {}
+        p = o.get("discriminable_pairs")
+        if p is not None:
+            out["discriminable_net"] = p["gained"] - p["lost"]
+        c = o.get("confusion_pairs")
+        if c is not None:
+            out["confused_net_resolved"] = c["resolved"] - c["created"]
+        if p is not None or c is not None:
+            out["median_delta_s_ratio"] = median_ratio(o)
+        return out
+
+    filters = []
+    for i, f in enumerate(own):
+        entry = {"name": f["name"], "observers": []}
+        if road:
+            values = {"default": f["road_use"]["suitable"],
+                      **{name: d["filters"][i]["road_use"]["suitable"] for name, d in road}}
+            entry["road_use_suitable"] = {"values": values, "robust": len(set(values.values())) == 1}
+        for k, o in enumerate(f["observers"]):
+            m0 = measures(o)
+            rows = {}
+            for key, v0 in m0.items():
+                values = {"default": v0}
+                for name, _, d in variants:
+                    values[name] = measures(d["filters"][i]["observers"][k]).get(key)
+                nums = [v for v in values.values() if v is not None]
+                ref = 1.0 if key.startswith("median") else 0
+                signs = {_sign(v - ref) for v in nums}
+                rows[key] = {"values": values, "min": min(nums) if nums else None, "max": max(nums) if nums else None,
+                             "robust": len(signs) <= 1}
+            entry["observers"].append({"observer": o["observer"], **rows})
+        filters.append(entry)
+    return {
+        "what": "each verdict recomputed with one constant or threshold moved at a time over a documented range; "
+                "'robust' means the sign of the change (net pairs, median ratio - 1, or the road-use verdict) is "
+                "the same in every variation",
+        "ranges": {"weber_fraction_factors": list(SENSITIVITY_RANGES["weber_fraction"]),
+                   "cone_ratios_lm": [list(x) for x in SENSITIVITY_RANGES["cone_ratios_lm"]],
+                   "threshold_factors": list(SENSITIVITY_RANGES["threshold_factor"]),
+                   "signal_limit_readings": list(SENSITIVITY_RANGES["signal_limits"])},
+        "variations": [{"name": name, "settings": {k: (list(v) if isinstance(v, tuple) else v) for k, v in kw.items()}}
+                       for name, kw, _ in variants] + [{"name": name, "settings": {}} for name, _ in road],
+        "filters": filters,
+    }
