@@ -363,7 +363,8 @@ def _helped_rows(doc: dict, labels: dict | None = None):
         return f"{100 * h['share']:.0f} % ({100 * h['ci_low']:.0f}-{100 * h['ci_high']:.0f})"
 
     header = ["filter", "population", *(_HELPED_LABELS.get(k, k) for k in keys)]
-    return header, [[name, (labels or {}).get(o["observer"], o["observer"]), *(cell(o["helped"].get(k)) for k in keys)] for name, o in rows]
+    return header, [[name, (labels or {}).get(o["observer"], o["observer"]), *(cell(o["helped"].get(k)) for k in keys)]
+                    for name, o in rows]
 
 
 def _population_csv_entries(o: dict, statistics=_STATS) -> list:

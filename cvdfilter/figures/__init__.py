@@ -44,7 +44,8 @@ from ..errors import InputError
 from .output import FORMATS, FigureResult
 from .style import Style, parse_style, width_mm
 
-__all__ = ["figure", "KINDS", "POPULATION_KINDS", "FigureResult", "Style", "parse_style", "width_mm", "FORMATS", "DEFAULT_TITLES"]
+__all__ = ["figure", "KINDS", "POPULATION_KINDS", "FigureResult", "Style", "parse_style", "width_mm", "FORMATS",
+           "DEFAULT_TITLES"]
 
 #: kind -> (module, function, whether the figure carries model predictions and so the caveat)
 _KIND_TABLE = {

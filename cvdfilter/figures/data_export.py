@@ -168,9 +168,9 @@ def _tasks(d):
     return header, rows, ["path and ellipses: the first observer and filter's median-TES trials (u*, v* CIELUV)"]
 
 
-_TABLES = {"spectrum": _spectrum, "population": _population, "chromaticity": _chromaticity, "hues": _hues, "swatches": _swatches,
+_TABLES = {"spectrum": _spectrum, "chromaticity": _chromaticity, "hues": _hues, "swatches": _swatches,
            "images": _images, "sweep": _sweep, "gains": _per_filter_observer,
-           "tasks": _tasks}
+           "tasks": _tasks, "population": _population}
 
 
 def figure_table(result) -> tuple[list[str], list[list], list[str]]:

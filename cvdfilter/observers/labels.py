@@ -59,7 +59,8 @@ def _population_label(ps) -> str:
     """``<centre label>, n=N``; an age range replaces the centre's age (``20-70 y``)."""
     centre = observer_label(ps.centre)
     if ps.age[0] != "fixed":
-        ages = f"{ps.age[1]:g}-{ps.age[2]:g} y" if ps.age[0] == "uniform" else "|".join(f"{a:g}" for a in ps.age[1:]) + " y"
+        ages = (f"{ps.age[1]:g}-{ps.age[2]:g} y" if ps.age[0] == "uniform"
+                else "|".join(f"{a:g}" for a in ps.age[1:]) + " y")
         name, _, rest = centre.partition(" (")
         extra = [e for e in rest.rstrip(")").split(", ") if e and not e.endswith(" y")] if rest else []
         centre = name + " (" + ", ".join([*extra, ages]) + ")"
