@@ -56,7 +56,7 @@ SECTIONS = {
 }
 
 #: Figures a report draws, in order (``sweep`` only when the filters differ in a parameter).
-REPORT_FIGURES = ("spectrum", "chromaticity", "gains", "swatches", "sweep", "hues")
+REPORT_FIGURES = ("spectrum", "chromaticity", "gains", "population", "swatches", "sweep", "hues")
 
 #: (what it is used for, reference)
 REFERENCES = (
@@ -257,6 +257,8 @@ class Report:
                      _fmt((f.get("rendition") or {}).get("rf"), 1)]
             rows = []
             for o in f["observers"]:
+                if "population" in o:   # the median member (the population table gives the spread)
+                    o = {"observer": o["observer"], **_median_member(o)}
                 p = o.get("discriminable_pairs")
                 cp = o.get("confusion_pairs")
                 dist = o.get("delta_s_distribution")
@@ -310,6 +312,34 @@ class Report:
                       *_md_table(header, [r[:len(header)] for r in rows]), ""]
         return lines
 
+    def _population_table(self) -> tuple[list, list, str] | None:
+        """(header, rows, legend line) of the populations: per filter x population x metric the median
+        member, the 2.5-97.5 % range of the members and, where defined, the share helped with its Wilson
+        95 % interval; None without populations."""
+        from .observers.labels import label_legend, table_labels
+
+        specs = [o["observer"] for o in self.card["observers"] if "population" in o]
+        if not specs:
+            return None
+        labels = dict(zip(specs, table_labels(specs)))
+        header = ["filter", "population", "metric", "median member", "95 % of members", "members helped (95 % CI)"]
+        rows = []
+        for f in self.card["filters"]:
+            for o in f["observers"]:
+                if "population" not in o:
+                    continue
+                helped = o.get("helped") or {}
+                for name, get, digits, key in _POPULATION_ROWS:
+                    v = get(o)
+                    h = helped.get(key) if key else None
+                    if v is None and h is None:
+                        continue
+                    rows.append([f["name"], labels[o["observer"]], name,
+                                 "-" if v is None else _fmt(v["p50"], digits),
+                                 "-" if v is None else f"{_fmt(v['p2_5'], digits)} to {_fmt(v['p97_5'], digits)}",
+                                 _helped_cell(h)])
+        return header, rows, label_legend(specs, prefix="Populations: ")
+
     def _numbered(self) -> list[tuple]:
         """(number or None, figure): figures that are drawn are numbered 1, 2, ... in order; those left out
         get None (a note, no caption)."""
@@ -361,7 +391,12 @@ class Report:
         if rows:
             out += ["<h3>Colour rendition of the light through the filter (TM-30 / CIE 224, CIE 13.3)</h3>",
                     _html_table(header, rows)]
-        out += ["<h3>Per observer</h3>", f"<p>{e(_OBSERVER_NOTE)}</p>", self._observer_html(),
+        out += ["<h3>Per observer</h3>", f"<p>{e(_OBSERVER_NOTE)}</p>", self._observer_html()]
+        pop = self._population_table()
+        if pop:
+            out += ['<h3 id="populations">Observer populations</h3>', f"<p>{e(POPULATION_NOTE)}</p>",
+                    _html_table(pop[0], pop[1]), f"<p>{e(pop[2])}</p>"]
+        out += [
                 "<details><summary>Full scorecard (JSON)</summary>",
                 f"<pre><code>{e(json.dumps(self.card, indent=1, ensure_ascii=False))}</code></pre></details>",
                 "</section>"]
@@ -418,8 +453,11 @@ class Report:
                       *_md_table(header, rows), ""]
         json_name = f"{figure_dir}/scorecard.json"
         files[json_name] = (json.dumps(self.card, indent=2, ensure_ascii=False) + "\n").encode("utf-8")
-        lines += ["### Per observer", "", _OBSERVER_NOTE, "", *self._observer_markdown(),
-                  f"The full scorecard: [{json_name}]({_md_link(json_name)}).", "",
+        lines += ["### Per observer", "", _OBSERVER_NOTE, "", *self._observer_markdown()]
+        pop = self._population_table()
+        if pop:
+            lines += ["### Observer populations", "", POPULATION_NOTE, "", *_md_table(pop[0], pop[1]), "", pop[2], ""]
+        lines += [f"The full scorecard: [{json_name}]({_md_link(json_name)}).", "",
                   f"## {SECTIONS['figures']}", ""]
         for k, fig in self._numbered():
             if k is None:
@@ -499,6 +537,58 @@ dt{font-weight:bold;margin-top:.5rem}dd{margin-left:1.2rem}
 """
 
 
+#: What the population table is, printed above it (the caveat covers every number as well).
+POPULATION_NOTE = ("Each population (an observer spec with n=N) is a sample of model observers whose lens, macular "
+                   "and photopigment densities and pigment peaks vary as Asano, Fairchild & Blonde (2016) model "
+                   "them (anomalous trichromats also in the position of the anomalous pigment). Median member and "
+                   "the range holding 95 % of the members (2.5-97.5 percentiles); members helped: gain or median "
+                   "Delta S ratio above 1, or net pairs above 0, with a Wilson 95 % interval. The spread is the "
+                   "model's, not that of measured people: " + CAVEAT)
+
+
+def _median_member(o: dict) -> dict:
+    """A population entry's statistics dicts replaced by their medians (p50), recursively."""
+    def pick(v):
+        if isinstance(v, dict):
+            if "p50" in v and "p2_5" in v:
+                return v["p50"]
+            return {k: pick(x) for k, x in v.items()}
+        return v
+
+    return {k: pick(v) for k, v in o.items() if k not in ("observer", "population", "helped", "members")}
+
+
+def _helped_cell(h) -> str:
+    if not h or h.get("share") is None:
+        return "-"
+    return f"{100 * h['share']:.0f} % ({100 * h['ci_low']:.0f}-{100 * h['ci_high']:.0f} %)"
+
+
+def _nested(*keys):
+    def get(o):
+        v = o
+        for k in keys:
+            v = v.get(k) if isinstance(v, dict) else None
+        return v if isinstance(v, dict) and "p50" in v else None
+    return get
+
+
+#: Population table rows: label, getter of the statistics dict, digits, key of ``helped`` (or None).
+_POPULATION_ROWS = (
+    ("red-green gain", _nested("red_green_gain"), 3, "red_green_gain"),
+    ("blue-yellow gain", _nested("blue_yellow_gain"), 3, "blue_yellow_gain"),
+    ("luminance gain", _nested("luminance_contrast_gain"), 3, None),
+    ("discriminable pairs gained", _nested("discriminable_pairs", "gained"), 1, None),
+    ("discriminable pairs lost", _nested("discriminable_pairs", "lost"), 1, None),
+    ("discriminable pairs, net gain > 0", lambda o: None, 0, "discriminable_pairs_net"),
+    ("confused pairs resolved", _nested("confusion_pairs", "resolved"), 1, None),
+    ("confused pairs created", _nested("confusion_pairs", "created"), 1, None),
+    ("confused pairs, net resolved > 0", lambda o: None, 0, "confusion_pairs_net"),
+    ("median Delta S ratio", lambda o: _nested("confusion_pairs", "median_delta_s_ratio")(o)
+     or _nested("delta_s_distribution", "median_ratio")(o), 3, "median_delta_s_ratio"),
+)
+
+
 def _is_number(v) -> bool:
     if isinstance(v, (int, float)) and not isinstance(v, bool):
         return True
@@ -570,7 +660,9 @@ def _command(filters, illuminant, observers, surfaces, adaptation, metrics, styl
 def _first_deficient(observers) -> str | None:
     from .observers.observer import observer as make_observer
 
-    objs = [make_observer(o) for o in observers]
+    from .observers.population import is_population_spec
+
+    objs = [make_observer(o) for o in observers if not is_population_spec(o)]
     for kind in ("dichromat", "anomalous"):
         for o in objs:
             if o.kind == kind and o.deficiency in ("protan", "deutan", "tritan"):
@@ -578,7 +670,8 @@ def _first_deficient(observers) -> str | None:
     return None
 
 
-def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) -> list[ReportFigure]:
+def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style,
+             member_card=None) -> list[ReportFigure]:
     from .figures import figure
     from .figures.hues import hues_card
 
@@ -587,7 +680,10 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
     names = ", ".join(fs.names[:4]) + (" ..." if n > 4 else "")
     common = {"illuminant": illuminant, "adaptation": adaptation, "width": "double", "style": style}
     deficient = _first_deficient(observers)
-    anomalous = [o for o in observers if "anomalous" in str(o)]
+    from .observers.population import is_population_spec
+
+    anomalous = [o for o in observers if "anomalous" in str(o) and not is_population_spec(o)]
+    populations = [o for o in observers if is_population_spec(o)]
 
     def add(kind, caption, make, limit=None):
         if limit is not None and n > limit:
@@ -626,6 +722,13 @@ def _figures(fs, card, *, illuminant, observers, surfaces, adaptation, style) ->
     add("gains", "Red-green, blue-yellow and luminance contrast gains (with / without the filter, log scale) "
                  "and discriminable surface pairs gained and lost, per observer.",
         lambda: figure("gains", fs, observers=observers, surfaces=surfaces, card=card, **common), limit=8)
+    if populations:
+        add("population", "Red-green gain (with / without the filter, log scale) of every member of each observer "
+                          "population: the distribution of the members, the median member and the range holding "
+                          "95 % of them; on the right the share of members helped (gain above 1) with its Wilson "
+                          "95 % interval.",
+            lambda: figure("population", fs, observers=populations, surfaces=surfaces, card=member_card,
+                           **common), limit=4)
     if deficient:
         # the first filter that lets every cone see some light (adapting to a black filter is undefined)
         from .observers.spaces import parse_adaptation
@@ -682,7 +785,9 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
     filters
         Filter specs, paths, example names or a FilterSet (as for :func:`cvdfilter.score`).
     illuminant, observers, surfaces, adaptation, metrics
-        As for :func:`cvdfilter.score` (observers default to its defaults).
+        As for :func:`cvdfilter.score` (observers default to its defaults). A population observer
+        (a spec with ``n=N``) adds the observer-populations table (median member, 95 % range of the
+        members, share helped) and the population figure.
     style
         Figure style (:func:`cvdfilter.figures.parse_style`).
     output : path, optional
@@ -716,11 +821,18 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
 
     filters = with_file_options(filters, units=units, bandwidth=bandwidth)  # units/bandwidth of filter files
     fs = load_filters_checked(filters)
-    card = score(fs, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
-                 metrics=metrics).to_dict()
+    from .observers.population import is_population_spec
+
+    # populations: the per-member values feed the population figure; the report's card leaves them out
+    with_members = any(is_population_spec(o) for o in observers)
+    member_card = score(fs, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
+                        metrics=metrics, members=with_members).to_dict()
+    card = member_card if not with_members else {
+        **member_card, "filters": [{**f, "observers": [{k: v for k, v in o.items() if k != "members"}
+                                                       for o in f["observers"]]} for f in member_card["filters"]]}
     observer_specs = [o["observer"] for o in card["observers"]]
     figs = _figures(fs, card, illuminant=illuminant, observers=observer_specs, surfaces=surfaces,
-                    adaptation=adaptation, style=parsed_style)
+                    adaptation=adaptation, style=parsed_style, member_card=member_card)
     raw_filters = [filters] if isinstance(filters, (str, os.PathLike)) else list(filters) \
         if isinstance(filters, (list, tuple)) else list(fs.names)
     command = _command(raw_filters, illuminant, observer_specs, surfaces, adaptation, metrics,

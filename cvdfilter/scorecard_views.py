@@ -13,6 +13,7 @@ from __future__ import annotations
 import textwrap
 
 from . import tables as _tables
+from .observers.labels import label_legend, table_labels
 from .score_plan import CONFUSION_KEYS, PAIR_KEYS
 from .score_population import STATS as _STATS
 from .tables import fixed as _fmt, yes_no as _yes
@@ -122,14 +123,19 @@ def to_table(card, width: int = 100) -> str:
         parts.append(textwrap.fill(_observer_note(doc), width=width) + "\n")
         if any("population" in o for o in doc["observers"]):
             parts.append(textwrap.fill(_POPULATION_NOTE, width=width) + "\n")
+        specs = [o["observer"] for o in doc["observers"]]
+        labels = dict(zip(specs, table_labels(specs)))   # short labels; the legend line maps them to specs
         for f in doc["filters"]:
-            rows = [_observer_row(f["name"], o, card.metrics, compact=True) for o in f["observers"]]
+            rows = [_observer_row(f["name"], o, card.metrics, compact=True, labels=labels) for o in f["observers"]]
             parts.append(_tables.text_table(_observer_header(card.metrics, compact=True), rows,
                                      f"Per observer: {f['name']} - costs: {_costs_text(f)}", width))
-        helped = _helped_rows(doc)
+        helped = _helped_rows(doc, labels)
         if helped:
             parts.append(_tables.text_table(helped[0], helped[1],
                                             "Share of population members helped (Wilson 95 % interval)", width))
+        if label_legend(specs):
+            parts.append(textwrap.fill(label_legend(specs), width=width, break_long_words=False,
+                                       break_on_hyphens=False) + "\n")
     if card.sensitivity is not None:
         parts.append(textwrap.fill(_SENSITIVITY_NOTE, width=width) + "\n")
         for name, rows in _sensitivity_rows(card.sensitivity):
@@ -265,11 +271,12 @@ def _observer_header(metrics, *, compact: bool = False) -> list:
     return h
 
 
-def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict | None = None) -> list:
+def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict | None = None,
+                  labels: dict | None = None) -> list:
     if "population" in o:  # tables show the median member (JSON: the spread and the shares helped)
         o = _population_csv_entries(o, statistics=("p50",))[0]
     row = [] if compact else [name]
-    row.append(o["observer"])
+    row.append((labels or {}).get(o["observer"], o["observer"]))
     if "contrast" in metrics:
         row += [_fmt(o["red_green_gain"], 3), _fmt(o["blue_yellow_gain"], 3), _fmt(o["luminance_contrast_gain"], 3)]
     if "discrimination" in metrics:
@@ -336,7 +343,7 @@ _HELPED_LABELS = {"red_green_gain": "RG gain > 1", "blue_yellow_gain": "BY gain 
                   "median_delta_s_ratio": "dS ratio > 1"}
 
 
-def _helped_rows(doc: dict):
+def _helped_rows(doc: dict, labels: dict | None = None):
     """(header, rows) of the shares helped, one row per filter x population; None without populations."""
     rows, keys = [], []
     for f in doc["filters"]:
@@ -356,7 +363,8 @@ def _helped_rows(doc: dict):
         return f"{100 * h['share']:.0f} % ({100 * h['ci_low']:.0f}-{100 * h['ci_high']:.0f})"
 
     header = ["filter", "population", *(_HELPED_LABELS.get(k, k) for k in keys)]
-    return header, [[name, o["observer"], *(cell(o["helped"].get(k)) for k in keys)] for name, o in rows]
+    return header, [[name, (labels or {}).get(o["observer"], o["observer"]), *(cell(o["helped"].get(k)) for k in keys)]
+                    for name, o in rows]
 
 
 def _population_csv_entries(o: dict, statistics=_STATS) -> list:

@@ -79,7 +79,18 @@ def _sweep_card(n: int) -> dict:
 
 #: kind -> filter counts it takes
 _COUNTS = {"spectrum": (1, 4, 12), "chromaticity": (1, 4), "gains": (1, 4), "hues": (1, 4),
-           "swatches": (1,), "images": (1,), "sweep": (4, 12)}
+           "swatches": (1,), "images": (1,), "sweep": (4, 12), "population": (1, 4)}
+POPULATIONS = ["deuteranomalous:n=40,seed=3", "normal:age=20..70,n=40,seed=3"]
+
+
+def _population_card(n: int, length: str) -> dict:
+    key = ("population", n, length)
+    if key not in _CARDS:
+        from cvdfilter.scorecard import score
+
+        _CARDS[key] = score(_filterset(n, length), observers=POPULATIONS, surfaces="chart24", metrics="core",
+                            members=True).to_dict()
+    return _CARDS[key]
 
 
 def _small_image():
@@ -108,6 +119,9 @@ def _make(kind: str, n: int, length: str, width: str):
     if kind == "images":
         return figure("images", fs, observers="protanomalous:shift=16", width=width,
                       image=None if (length, width) == ("long", "double") else _small_image())
+    if kind == "population":
+        return figure("population", fs, observers=POPULATIONS, surfaces="chart24", width=width,
+                      card=_population_card(n, length))
     raise AssertionError(kind)
 
 

@@ -400,6 +400,7 @@ _KIND_ARGS = {
     "sweep": (["notch:center=550..590/20,fwhm=30,depth=0.8"], {"surfaces": "chart24",
                                                               "observers": ["normal", "deuteranope"]}),
     "tasks": (["larkhill-notch-575"], {"observers": ["normal", "deuteranope"], "trials": 30}),
+    "population": (["larkhill-notch-575"], {"surfaces": "chart24", "observers": ["deuteranomalous:n=40,seed=3"]}),
 }
 
 

@@ -8,7 +8,7 @@ import typer
 
 from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options, input_files
 
-_KINDS_HELP = "spectrum, chromaticity, gains, hues, swatches, images or sweep"
+_KINDS_HELP = "spectrum, chromaticity, gains, hues, swatches, images, sweep, tasks or population"
 
 
 def register(app: typer.Typer) -> None:
@@ -37,7 +37,10 @@ def register(app: typer.Typer) -> None:
         space: Optional[str] = typer.Option(None, "--space", help="chromaticity: mb (MacLeod-Boynton) or xy."),
         metric: Optional[List[str]] = typer.Option(None, "--metric",
                                                    help="sweep: a scorecard metric, e.g. red_green_gain, "
-                                                        "luminous_transmittance; repeatable."),
+                                                        "luminous_transmittance; repeatable. population: one of "
+                                                        "red_green_gain (default), blue_yellow_gain, "
+                                                        "median_delta_s_ratio, discriminable_pairs.net, "
+                                                        "confusion_pairs.net."),
         x: Optional[str] = typer.Option(None, "--x", help="sweep: the swept parameter on the x axis (e.g. center)."),
         image: Optional[str] = typer.Option(None, "--image", help="images: the image to render "
                                                                   "(default: the bundled synthetic scene)."),
@@ -63,6 +66,8 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter figure sweep "notch:center=540..600/5,fwhm=30,depth=0.8" --width double -o sweep.svg
 
         Example: cvdfilter figure hues larkhill-notch-575 -o hues.pdf --data hues.csv
+
+        Example: cvdfilter figure population larkhill-notch-575 --observer deuteranomalous:n=200,seed=7 -o pop.pdf
         """
         import pathlib
 

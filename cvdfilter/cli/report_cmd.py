@@ -37,6 +37,10 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter report larkhill-notch-575 larkhill-double-notch -o report.html
 
         Example: cvdfilter report lens.csv --observer deuteranomalous --surfaces chart24 -o report.md
+
+        A population observer (any spec plus n=N) adds a table of each metric's median member, the range
+        of 95 % of the members and the share helped, and the population figure:
+        cvdfilter report larkhill-notch-575 --observer normal --observer deuteranomalous:n=200,seed=7 -o report.html
         """
         import pathlib
 

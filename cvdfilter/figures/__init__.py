@@ -11,6 +11,12 @@ Kinds (:data:`KINDS`)::
     images        the renderer's 2x2 before/after panel, labelled
     sweep         metrics against a swept filter parameter (design studies)
     tasks         a model observer's hue-circle arrangement and moment ellipse, and every task's verdict
+    population    the distribution of one metric over each observer population's members, per filter,
+                  with the share of members helped
+
+Observer populations (specs with ``n=N``) are drawn by the kinds in
+:data:`POPULATION_KINDS` (gains: median member and 2.5-97.5 % interval;
+population); the other kinds take single observers and refuse them.
 
 Every figure is publishable as it is: vector PDF (TrueType fonts embedded) and
 SVG (text kept as text), PNG at a chosen dpi; single (89 mm) or double (183 mm)
@@ -38,7 +44,8 @@ from ..errors import InputError
 from .output import FORMATS, FigureResult
 from .style import Style, parse_style, width_mm
 
-__all__ = ["figure", "KINDS", "FigureResult", "Style", "parse_style", "width_mm", "FORMATS", "DEFAULT_TITLES"]
+__all__ = ["figure", "KINDS", "POPULATION_KINDS", "FigureResult", "Style", "parse_style", "width_mm", "FORMATS",
+           "DEFAULT_TITLES"]
 
 #: kind -> (module, function, whether the figure carries model predictions and so the caveat)
 _KIND_TABLE = {
@@ -50,7 +57,10 @@ _KIND_TABLE = {
     "images": ("images", "images_figure", True),
     "sweep": ("sweep", "sweep_figure", True),
     "tasks": ("tasks", "tasks_figure", True),
+    "population": ("population", "population_figure", True),
 }
+#: Kinds that draw observer populations (specs with n=N).
+POPULATION_KINDS = ("gains", "population")
 KINDS = tuple(_KIND_TABLE)
 
 DEFAULT_TITLES = {
@@ -62,6 +72,7 @@ DEFAULT_TITLES = {
     "images": "Scene without and with the filter",
     "sweep": "Metrics against the swept filter parameter",
     "tasks": "Model observers on colour-vision tasks",
+    "population": "Spread over the members of each observer population",
 }
 
 
@@ -100,7 +111,8 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
         ``units`` and ``bandwidth`` of filter files (any kind); kind-specific:
         ``space`` ("mb" or "xy") for chromaticity, ``metrics``
         and ``x`` for sweep, ``image`` for images, ``chart`` ("bar" or
-        "radial") for hues.
+        "radial") for hues, ``metrics`` (one of
+        :data:`cvdfilter.figures.population.POPULATION_METRICS`) for population.
 
     Returns
     -------
@@ -128,6 +140,13 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
         if filters is not None else None
     if observers is not None:
         kwargs["observers"] = [observers] if isinstance(observers, str) else list(observers)
+        from ..observers.population import is_population_spec
+
+        pops = [o for o in kwargs["observers"] if is_population_spec(o)]
+        if pops and key not in POPULATION_KINDS:
+            raise InputError(f"the {key} figure takes single observers, and {pops[0]} is a population (n=)",
+                             hint=f"populations are drawn by the {' and '.join(POPULATION_KINDS)} figures; "
+                                  "drop n= for one observer")
     if surfaces is not None:
         kwargs["surfaces"] = surfaces
     if key not in ("spectrum",):

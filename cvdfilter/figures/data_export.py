@@ -140,6 +140,18 @@ def _per_filter_observer(d):
     return header, rows, []
 
 
+def _population(d):
+    """Every member's value of the metric, then the plotted statistics and shares helped (member empty)."""
+    header = ["filter", "observer", "quantity", "member", "value"]
+    rows = []
+    for i, f in enumerate(d["filters"]):
+        for j, o in enumerate(d["populations"]):
+            rows += [[f, o, d["metric"], m, v] for m, v in enumerate(np.asarray(d["values"][i][j]).tolist())]
+            rows += [[f, o, q, "", d[q][i, j]] for q in ("p2_5", "p50", "p97_5", "share", "ci_low", "ci_high")]
+    return header, rows, ["p2_5, p50, p97_5: percentiles of the members' values; share, ci_low, ci_high: the "
+                          "share of members helped and its Wilson 95 % interval"]
+
+
 def _tasks(d):
     """The drawn arrangement paths (cap order, u*, v*), the moment ellipses and the verdict grid."""
     header = ["part", "state", "filter", "observer", "task", "step", "cap", "u_star", "v_star", "value"]
@@ -158,7 +170,7 @@ def _tasks(d):
 
 _TABLES = {"spectrum": _spectrum, "chromaticity": _chromaticity, "hues": _hues, "swatches": _swatches,
            "images": _images, "sweep": _sweep, "gains": _per_filter_observer,
-           "tasks": _tasks}
+           "tasks": _tasks, "population": _population}
 
 
 def figure_table(result) -> tuple[list[str], list[list], list[str]]:

@@ -6,7 +6,9 @@ filter) on a logarithmic axis, so that a gain of 1.25 and a loss to 0.8 are
 drawn the same size, with a reference line at 1 (no change); and the
 discriminable pairs (receptor-noise model, Vorobyev & Osorio 1998) gained
 (right) and lost (left). Filters are told apart by colour, marker and, for
-the pair bars, hatching of the "lost" side. An observer without the axis
+the pair bars, hatching of the "lost" side. A population observer (a spec with
+``n=N``) is drawn at its median member with a line over the 2.5-97.5 %
+interval of its members (gains and pairs). An observer without the axis
 (a protanope or deuteranope has no red-green signal) gets "n/a". A gain is
 never shown alone: each filter's legend entry carries its costs (luminous
 transmittance, white shift, Rf for the normal observer), and the fourth
@@ -19,7 +21,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import filter_labels, legend_axes, legend_columns, observer_label
+from ..observers.labels import table_labels
+from .common import filter_labels, legend_axes, legend_columns
 from .metrics import scorecard_dict
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
@@ -58,8 +61,11 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         ``data``: ``observers`` (specs), ``filters`` (names), ``gains``: metric ->
         array (n_filters, n_observers) (NaN where the metric does not apply),
         ``gained``, ``lost``: arrays (n_filters, n_observers) of pair counts.
-        Artists: ``gain-<metric>-<filter index>`` (markers), ``pairs-gained-<i>``,
-        ``pairs-lost-<i>`` (bars), ``reference-1`` lines.
+        With populations also ``gains_p2_5``, ``gains_p97_5`` (metric -> array), ``gained_p2_5``,
+        ``gained_p97_5``, ``lost_p2_5``, ``lost_p97_5`` (NaN for fixed observers).
+        Artists: ``gain-<metric>-<filter index>`` (markers; a population's median), ``pairs-gained-<i>``,
+        ``pairs-lost-<i>`` (bars), ``reference-1`` lines; with populations ``spread-<metric>-<i>``,
+        ``pairs-gained-spread-<i>``, ``pairs-lost-spread-<i>`` (2.5-97.5 % lines).
     """
     from ..errors import InputError
 
@@ -72,33 +78,45 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
     if len(fl) > 8:
         raise InputError(f"{len(fl)} filters: the gains figure compares at most 8", hint="use the sweep figure")
     obs_specs = [o["observer"] for o in fl[0]["observers"]]
-    from ..observers.observer import observer as make_observer
-
-    obs_labels = [observer_label(make_observer(s)) for s in obs_specs]
+    # a population's label on two lines: its name over its parameters and size
+    obs_labels = [lab.replace(" (", "\n(", 1) if "population" in o else lab
+                  for lab, o in zip(table_labels(obs_specs), fl[0]["observers"])]
     n_f, n_o = len(fl), len(obs_specs)
 
-    def grid_of(key):
+    def value(v, stat="p50"):
+        """A fixed observer's number, or a population's statistic (its median by default)."""
+        if v is None:
+            return np.nan
+        if isinstance(v, dict):
+            v = v.get(stat)
+            return np.nan if v is None else float(v)
+        return float(v) if stat == "p50" else np.nan   # a fixed observer has no interval
+
+    def grid_of(get, stat="p50"):
         out = np.full((n_f, n_o), np.nan)
         for i, f in enumerate(fl):
             for k, o in enumerate(f["observers"]):
-                v = o.get(key)
-                out[i, k] = np.nan if v is None else float(v)
+                out[i, k] = value(get(o), stat)
         return out
 
-    gains = {key: grid_of(key) for key, _ in GAIN_PANELS}
-    gained = np.full((n_f, n_o), np.nan)
-    lost = np.full((n_f, n_o), np.nan)
-    for i, f in enumerate(fl):
-        for k, o in enumerate(f["observers"]):
-            dp = o.get("discriminable_pairs")
-            if dp:
-                gained[i, k], lost[i, k] = dp["gained"], dp["lost"]
+    def pairs(key):
+        return lambda o: (o.get("discriminable_pairs") or {}).get(key)
+
+    gains = {key: grid_of(lambda o, key=key: o.get(key)) for key, _ in GAIN_PANELS}
+    # populations: the 2.5-97.5 % interval over the members (NaN for fixed observers)
+    spread = {key: (grid_of(lambda o, key=key: o.get(key), "p2_5"), grid_of(lambda o, key=key: o.get(key), "p97_5"))
+              for key, _ in GAIN_PANELS}
+    gained, lost = grid_of(pairs("gained")), grid_of(pairs("lost"))
+    gained_spread = (grid_of(pairs("gained"), "p2_5"), grid_of(pairs("gained"), "p97_5"))
+    lost_spread = (grid_of(pairs("lost"), "p2_5"), grid_of(pairs("lost"), "p97_5"))
+    any_population = any("population" in o for o in fl[0]["observers"])
 
     styles = series(n_f)
     rows = np.arange(n_o)[::-1]                       # first observer at the top
     offsets = -(np.arange(n_f) - (n_f - 1) / 2) * (0.7 / max(n_f, 1))   # first filter on top
-    height_mm = height_mm or (max(70.0, 30 + 2 * 9.0 * n_o * (1 + 0.12 * n_f)) if width_mm < 120
-                              else max(50.0, 28 + 9.0 * n_o * (1 + 0.12 * n_f)))
+    n_rows = n_o + 0.7 * sum("population" in o for o in fl[0]["observers"])   # a population's label: 2 lines
+    height_mm = height_mm or (max(70.0, 30 + 2 * 9.0 * n_rows * (1 + 0.12 * n_f)) if width_mm < 120
+                              else max(50.0, 28 + 9.0 * n_rows * (1 + 0.12 * n_f)))
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
         ncols = 2 if width_mm < 120 else 4
@@ -108,7 +126,8 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         for ax in axes[1:]:
             ax.sharey(axes[0])
         legend_names = [f"{n}\n{cost_label(f)}" for n, f in zip(filter_labels([f["name"] for f in fl]), fl)]
-        limits = _gain_limits(np.concatenate([g.ravel() for g in gains.values()]))
+        limits = _gain_limits(np.concatenate([g.ravel() for g in gains.values()]
+                                             + [b.ravel() for lo_hi in spread.values() for b in lo_hi]))
         handles = []
         for p, (key, label) in enumerate(GAIN_PANELS):
             ax = axes[p]
@@ -120,6 +139,10 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
                              label=legend_names[i], **styles[i].marker_kwargs())
                 if p == 0:
                     handles.append(h)
+                lo, hi = spread[key]
+                if np.any(np.isfinite(lo)):
+                    ax.hlines(y, lo[i], hi[i], color=styles[i].color, lw=style.line_width * 0.8, zorder=2,
+                              gid=f"spread-{key}-{i}")
             for k in range(n_o):
                 if np.all(np.isnan(gains[key][:, k])):
                     ax.text(1.0, rows[k], " n/a", ha="left", va="center", fontsize=style.tick_size,
@@ -138,8 +161,14 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
                     lw=0.4, gid=f"pairs-gained-{i}")
             ax.barh(y, -np.nan_to_num(lost[i]), height=height, color="white", edgecolor=styles[i].color,
                     hatch="/////", lw=0.4, gid=f"pairs-lost-{i}")
+            if np.any(np.isfinite(gained_spread[0])):
+                ax.hlines(y, gained_spread[0][i], gained_spread[1][i], color=NEUTRAL["text"], lw=0.8, zorder=3,
+                          gid=f"pairs-gained-spread-{i}")
+                ax.hlines(y, -lost_spread[0][i], -lost_spread[1][i], color=NEUTRAL["text"], lw=0.8, zorder=3,
+                          gid=f"pairs-lost-spread-{i}")
         ax.axvline(0.0, color=NEUTRAL["line"], lw=0.7, zorder=1)
-        span = np.nanmax(np.abs(np.concatenate([gained.ravel(), lost.ravel(), [1.0]])))
+        span = np.nanmax(np.abs(np.concatenate([gained.ravel(), lost.ravel(), gained_spread[1].ravel(),
+                                                lost_spread[1].ravel(), [1.0]])))
         ax.set_xlim(-1.1 * span, 1.1 * span)
         ax.xaxis.set_major_formatter(_abs_formatter())
         t = (card.get("models", {}).get("discrimination") or {}).get("threshold_jnd", 1.0)
@@ -155,17 +184,25 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         # Every filter's costs sit in its legend entry, beside its gains: a gain is never shown alone.
         texts = [h.get_label() for h in handles]
         widest = [max(t.split("\n"), key=len) for t in texts]
+        legend_title = COST_TITLE + (f"\n{SPREAD_NOTE}" if any_population else "")
         legend_axes(fig, gs[-1, :], handles, texts, ncols=legend_columns(widest, width_mm, style.font_size),
-                    handlelength=1.2, columnspacing=1.0, title=COST_TITLE,
+                    handlelength=1.2, columnspacing=1.0, title=legend_title,
                     title_fontsize=style.font_size)
         finish(fig, style, title=title, caveat=caveat)
 
     data = {"observers": obs_specs, "filters": [f["name"] for f in fl], "gains": gains, "gained": gained,
             "lost": lost}
+    if any_population:
+        data.update(gains_p2_5={k: v[0] for k, v in spread.items()}, gains_p97_5={k: v[1] for k, v in spread.items()},
+                    gained_p2_5=gained_spread[0], gained_p97_5=gained_spread[1], lost_p2_5=lost_spread[0],
+                    lost_p97_5=lost_spread[1])
     inputs = {"filters": data["filters"], "illuminant": card.get("illuminant"), "surfaces": card.get("surfaces"),
               "adaptation": card.get("adaptation"), "observers": obs_specs}
     return FigureResult("gains", fig, data, style, inputs)
 
+
+#: Legend note when an observer is a population (a spec with n=N).
+SPREAD_NOTE = "Populations (n=N): median member, line 2.5-97.5 % of members"
 
 #: Legend title: what the second line of each entry is.
 COST_TITLE = "Costs beside each filter:\n\u03c4v (D65), white shift \u0394u\u2032v\u2032, Rf (normal)"

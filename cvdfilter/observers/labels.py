@@ -2,15 +2,18 @@
 
 ``protanomalous:shift=16`` reads ``protanomalous (16 nm)``; ``normal:age=70,field=10``
 reads ``normal (70 y, 10°)``; ``deuteranomalous:severity=0.6,model=machado2009``
-reads ``deuteranomalous (Machado severity 0.6)``. The spec string stays the
-machine key (JSON, CSV); this label is what people read.
+reads ``deuteranomalous (Machado severity 0.6)``; a population
+``deuteranomalous:n=200,seed=7`` reads ``deuteranomalous (21.35 nm), n=200``.
+The spec string stays the machine key (JSON, CSV); this label is what people
+read, and :func:`label_legend` maps each label back to its full spec for the
+line under a table.
 
-Public: :func:`observer_label`.
+Public: :func:`observer_label`, :func:`table_labels`, :func:`label_legend`.
 """
 
 from __future__ import annotations
 
-__all__ = ["observer_label"]
+__all__ = ["observer_label", "table_labels", "label_legend"]
 
 
 def observer_label(obs) -> str:
@@ -24,9 +27,17 @@ def observer_label(obs) -> str:
     'normal'
     """
     if isinstance(obs, str):
+        from .population import is_population_spec
+
+        if is_population_spec(obs):
+            from .population import parse_population_spec
+
+            return _population_label(parse_population_spec(obs))
         from .observer import observer
 
         obs = observer(obs)
+    if type(obs).__name__ == "Population":
+        return _population_label(obs._ps)
     name = obs.spec.split(":", 1)[0]
     p = obs.params
     extra = []
@@ -42,3 +53,54 @@ def observer_label(obs) -> str:
     if p.get("data", "cie2006") != "cie2006":
         extra.append(p["data"])
     return name + (" (" + ", ".join(extra) + ")" if extra else "")
+
+
+def _population_label(ps) -> str:
+    """``<centre label>, n=N``; an age range replaces the centre's age (``20-70 y``)."""
+    centre = observer_label(ps.centre)
+    if ps.age[0] != "fixed":
+        ages = (f"{ps.age[1]:g}-{ps.age[2]:g} y" if ps.age[0] == "uniform"
+                else "|".join(f"{a:g}" for a in ps.age[1:]) + " y")
+        name, _, rest = centre.partition(" (")
+        extra = [e for e in rest.rstrip(")").split(", ") if e and not e.endswith(" y")] if rest else []
+        centre = name + " (" + ", ".join([*extra, ages]) + ")"
+    return f"{centre}, n={ps.n}"
+
+
+def table_labels(specs) -> list[str]:
+    """The readable label of each observer spec, made unique (``#2``, ``#3`` ... on repeats) so a table row
+    maps back to one spec. Specs that are no observer spec (e.g. already a label) are kept as they are.
+
+    Examples
+    --------
+    >>> table_labels(["normal", "deuteranomalous:n=200,seed=7"])
+    ['normal', 'deuteranomalous (21.35 nm), n=200']
+    """
+    from ..errors import InputError
+
+    out: list[str] = []
+    for spec in specs:
+        try:
+            label = observer_label(str(spec))
+        except InputError:
+            label = str(spec)
+        base, k = label, 1
+        while label in out:
+            k += 1
+            label = f"{base} #{k}"
+        out.append(label)
+    return out
+
+
+def label_legend(specs, *, prefix: str = "Observers: ") -> str:
+    """One line mapping each table label to its full canonical spec (``label = spec; ...``), or ``""`` when
+    every label is its spec already.
+
+    Examples
+    --------
+    >>> label_legend(["normal", "protanomalous:shift=16"])
+    'Observers: protanomalous (16 nm) = protanomalous:shift=16.'
+    """
+    specs = [str(s) for s in specs]
+    pairs = [(lab, s) for lab, s in zip(table_labels(specs), specs) if lab != s]
+    return prefix + "; ".join(f"{lab} = {s}" for lab, s in pairs) + "." if pairs else ""

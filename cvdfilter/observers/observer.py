@@ -389,7 +389,8 @@ def _observer(spec: str, grid: Grid) -> Observer:
     unknown = set(params) - allowed
     if "n" in params:
         raise InputError("n= makes a population, and this takes single observers", source=spec,
-                         hint="populations go to 'cvdfilter score' and 'cvdfilter inspect-observer' "
+                         hint="populations go to 'cvdfilter score', 'inspect-observer', 'report' and the gains and "
+                              "population figures "
                               "(Python: cvdfilter.population(spec)); drop n= for one observer")
     if unknown:
         raise InputError(f"unknown parameter '{sorted(unknown)[0]}' for {name}", source=spec,

@@ -23,3 +23,5 @@ $CVD figure sweep "notch:center=530..620/10,fwhm=20..50/10,depth=0.8" --observer
     --observer deuteranope --observer protanomalous:shift=8 --width double -o "$OUT/sweep-2d.png" --dpi 110
 $CVD figure tasks larkhill-notch-575 larkhill-rose-tint larkhill-grey-reference --width double -o "$OUT/tasks.png" \
     --dpi 110
+$CVD figure population larkhill-notch-575 larkhill-rose-tint --observer deuteranomalous:n=200,seed=7 \
+    --observer protanomalous:n=200,seed=7 -o "$OUT/population.png" --dpi 150
