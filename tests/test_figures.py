@@ -440,9 +440,9 @@ def test_gains_plot_the_scorecard(every_kind):
         for key in ("blue_yellow_gain", "luminance_contrast_gain"):
             xs = _artist(r.figure, f"gain-{key}-{i}").get_xdata()
             assert np.allclose(xs, [o[key] for o in f["observers"]])
-    # the deuteranope has no red-green axis: marked n/a, no marker drawn
+    # the deuteranope has no red-green axis: marked "not defined", no marker drawn
     assert np.isnan(r.data["gains"]["red_green_gain"][:, 1]).all()
-    assert _artist(r.figure, "na-red_green_gain-1").get_text().strip() == "n/a"
+    assert _artist(r.figure, "na-red_green_gain-1").get_text().strip() == "not defined"
     ax = r.figure.axes[0]
     assert ax.get_xscale() == "log" and 1.0 in [line.get_xdata()[0] for line in ax.lines
                                                 if line.get_gid() == "reference-1"]

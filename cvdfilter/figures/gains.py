@@ -9,7 +9,7 @@ discriminable pairs (receptor-noise model, Vorobyev & Osorio 1998) gained
 the pair bars, hatching of the "lost" side. A population observer (a spec with
 ``n=N``) is drawn at its median member with a line over the 2.5-97.5 %
 interval of its members (gains and pairs). An observer without the axis
-(a protanope or deuteranope has no red-green signal) gets "n/a". A gain is
+(a protanope or deuteranope has no red-green signal) gets "not defined". A gain is
 never shown alone: each filter's legend entry carries its costs (luminous
 transmittance, white shift, Rf for the normal observer), and the fourth
 panel the pairs it loses.
@@ -32,12 +32,16 @@ __all__ = ["gains_figure", "GAIN_PANELS", "COST_TITLE", "cost_label"]
 
 GAIN_PANELS = (("red_green_gain", "Red-green gain"), ("blue_yellow_gain", "Blue-yellow gain"),
                ("luminance_contrast_gain", "Luminance gain"))
-_NICE = (0.25, 0.33, 0.5, 0.67, 0.8, 0.9, 1.0, 1.1, 1.25, 1.5, 2.0, 3.0, 4.0)
+_NICE = (0.25, 0.33, 0.5, 0.67, 0.8, 0.9, 0.95, 0.98, 0.99, 1.0, 1.01, 1.02, 1.05, 1.1, 1.25, 1.5, 2.0,
+         3.0, 4.0)
+#: Smallest half-range of a gain axis, as a factor: 1.25 for the colour gains, 1.02 for the luminance panel
+#: (its own scale, so that small luminance changes are visible rather than an empty panel).
+MIN_HALF_RANGE = {"colour": 1.25, "luminance": 1.02}
 
 
-def _gain_limits(values) -> tuple[float, float]:
+def _gain_limits(values, min_half: float = 1.25) -> tuple[float, float]:
     v = np.asarray([x for x in values if x is not None and np.isfinite(x) and x > 0], dtype=float)
-    half = max(np.log(1.25), 1.15 * np.max(np.abs(np.log(v)))) if v.size else np.log(1.25)
+    half = max(np.log(min_half), 1.15 * np.max(np.abs(np.log(v)))) if v.size else np.log(min_half)
     return float(np.exp(-half)), float(np.exp(half))
 
 
@@ -126,8 +130,12 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         for ax in axes[1:]:
             ax.sharey(axes[0])
         legend_names = [f"{n}\n{cost_label(f)}" for n, f in zip(filter_labels([f["name"] for f in fl]), fl)]
-        limits = _gain_limits(np.concatenate([g.ravel() for g in gains.values()]
-                                             + [b.ravel() for lo_hi in spread.values() for b in lo_hi]))
+        colour_keys = [k for k, _ in GAIN_PANELS if k != "luminance_contrast_gain"]
+        limits = _gain_limits(np.concatenate([gains[k].ravel() for k in colour_keys]
+                                             + [b.ravel() for k in colour_keys for b in spread[k]]))
+        lum_limits = _gain_limits(np.concatenate([gains["luminance_contrast_gain"].ravel()]
+                                                 + [b.ravel() for b in spread["luminance_contrast_gain"]]),
+                                  MIN_HALF_RANGE["luminance"])
         handles = []
         for p, (key, label) in enumerate(GAIN_PANELS):
             ax = axes[p]
@@ -137,6 +145,8 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
                 y = rows + offsets[i]
                 h, = ax.plot(gains[key][i], y, markersize=style.marker_size * 1.1, gid=f"gain-{key}-{i}",
                              label=legend_names[i], **styles[i].marker_kwargs())
+                h.set_markeredgecolor(NEUTRAL["text"])  # a thin dark edge keeps pale colours visible
+                h.set_markeredgewidth(0.4)
                 if p == 0:
                     handles.append(h)
                 lo, hi = spread[key]
@@ -145,13 +155,14 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
                               gid=f"spread-{key}-{i}")
             for k in range(n_o):
                 if np.all(np.isnan(gains[key][:, k])):
-                    ax.text(1.0, rows[k], " n/a", ha="left", va="center", fontsize=style.tick_size,
-                            color=NEUTRAL["text"], gid=f"na-{key}-{k}")
-            ax.set_xlim(*limits)
-            ticks = _ticks(limits)
+                    ax.text(0.03, rows[k], "not defined", ha="left", va="center", fontsize=style.tick_size,
+                            color=NEUTRAL["text"], gid=f"na-{key}-{k}", transform=ax.get_yaxis_transform())
+            panel_limits = lum_limits if key == "luminance_contrast_gain" else limits
+            ax.set_xlim(*panel_limits)
+            ticks = _ticks(panel_limits)
             ax.set_xticks(ticks, [f"{t:g}" for t in ticks])
             ax.set_xticks([], minor=True)
-            ax.set_xlabel(f"{label}\n(with / without)")
+            ax.set_xlabel(f"{label}\n({'own scale' if key == 'luminance_contrast_gain' else 'with / without'})")
         # pairs gained (right) and lost (left)
         ax = axes[3]
         height = 0.7 / max(n_f, 1)
@@ -188,7 +199,7 @@ def gains_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
         legend_axes(fig, gs[-1, :], handles, texts, ncols=legend_columns(widest, width_mm, style.font_size),
                     handlelength=1.2, columnspacing=1.0, title=legend_title,
                     title_fontsize=style.font_size)
-        finish(fig, style, title=title, caveat=caveat)
+        finish(fig, style, title=_with_context(title, card), caveat=caveat)
 
     data = {"observers": obs_specs, "filters": [f["name"] for f in fl], "gains": gains, "gained": gained,
             "lost": lost}
@@ -219,10 +230,23 @@ def cost_label(f: dict) -> str:
     return ", ".join(parts)
 
 
+def _with_context(title: str | None, card: dict) -> str:
+    """The title with the light, the surface set and the adaptation on a line of their own."""
+    ill = card.get("illuminant") or {}
+    surf = card.get("surfaces") or {}
+    adapt = card.get("adaptation") or {}
+    ill_name = ill.get("name", ill) if isinstance(ill, dict) else ill
+    surf_name = surf.get("name", surf) if isinstance(surf, dict) else surf
+    count = f" ({surf['count']})" if isinstance(surf, dict) and "count" in surf else ""
+    adapt_text = adapt.get("spec", adapt) if isinstance(adapt, dict) else adapt
+    context = f"{ill_name} light, {surf_name}{count} surfaces, {adapt_text} adaptation"
+    return f"{title}: {context}" if title else context
+
+
 def _ticks(limits) -> list[float]:
-    """Round ticks inside ``limits``, at least a sixth of the log range apart, always with 1."""
+    """Round ticks inside ``limits``, at least a quarter of the log range apart, always with 1."""
     lo, hi = np.log(limits[0]), np.log(limits[1])
-    gap = (hi - lo) / 6
+    gap = (hi - lo) / 4
     kept = [1.0]
     for t in sorted(_NICE, key=lambda t: abs(np.log(t))):
         if limits[0] <= t <= limits[1] and all(abs(np.log(t) - np.log(k)) >= gap for k in kept):
