@@ -655,7 +655,7 @@ def test_one_observer_label_everywhere():
     assert in_figures is observer_label
     r = figure("spectrum", "larkhill-notch-575", observers=["normal", "protanomalous:shift=16"])
     labels = [t.get_text() for t in r.figure.axes[1].get_legend().get_texts()]
-    assert any("protanomalous (16 nm)" in t for t in labels)
+    assert any("protanomalous (shift 16 nm)" in t for t in labels)
 
 
 def test_figure_data_csv_holds_the_plotted_numbers(every_kind):

@@ -96,7 +96,7 @@ def test_gains_figure_draws_population_spread(scored):
         seg = _segments_x(_gid(r.figure, "pairs-gained-spread-0"))[0]
         assert seg == pytest.approx(np.percentile(gained[0], [2.5, 97.5]))
         labels = [t.get_text() for t in r.figure.axes[0].get_yticklabels()]
-        assert labels[0] == "deuteranomalous\n(21.35 nm), n=40"
+        assert labels[0] == "deuteranomalous\n(6 nm apart), n=40"
     finally:
         r.close()
 
@@ -134,9 +134,9 @@ def test_score_table_short_labels_with_legend():
     spec = sc.to_dict()["observers"][0]["observer"]
     text = sc.to_table(width=100)
     # the observer column shows the short label, unbroken, and the legend maps it to the full spec
-    assert "deuteranomalous (21.35 nm), n=40 = " + spec in " ".join(text.split())
-    assert "protanomalous (16 nm) = protanomalous:shift=16" in " ".join(text.split())
-    assert table_labels([spec, "normal"]) == ["deuteranomalous (21.35 nm), n=40", "normal"]
+    assert "deuteranomalous (6 nm apart), n=40 = " + spec in " ".join(text.split())
+    assert "protanomalous (shift 16 nm) = protanomalous:shift=16" in " ".join(text.split())
+    assert table_labels([spec, "normal"]) == ["deuteranomalous (6 nm apart), n=40", "normal"]
     assert table_labels(["deuteranomalous:n=40,seed=3", "deuteranomalous:n=40,seed=4"])[1].endswith("#2")
     assert label_legend(["normal"]) == ""
     # JSON and CSV keep the full spec verbatim
@@ -151,7 +151,7 @@ def test_report_population_section(tmp_path):
     html = r.to_html()
     spec = r.card["observers"][1]["observer"]
     assert "### Observer populations" in md and 'id="populations"' in html
-    assert "Populations: deuteranomalous (21.35 nm), n=40 = " + spec in md
+    assert "Populations: deuteranomalous (6 nm apart), n=40 = " + spec in md
     o = r.card["filters"][0]["observers"][1]
     s, h = o["red_green_gain"], o["helped"]["red_green_gain"]
     row = next(line for line in md.splitlines() if "| red-green gain |" in line)

@@ -233,6 +233,6 @@ def test_report_per_observer_table_groups_by_filter_with_readable_observers():
     table = text[text.index('<table class="observers">'):]
     table = table[:table.index("</table>")]
     # one full-width row names each filter; observers by their one readable label, not the spec
-    assert table.count('scope="rowgroup"') == 2 and "protanomalous (16 nm)" in table
+    assert table.count('scope="rowgroup"') == 2 and "protanomalous (shift 16 nm)" in table
     assert "protanomalous:shift=16" not in table
     assert "contrast gain (with / without filter)" in table

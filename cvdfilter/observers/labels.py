@@ -1,9 +1,9 @@
 """One readable label per observer, used by every figure, table and report.
 
-``protanomalous:shift=16`` reads ``protanomalous (16 nm)``; ``normal:age=70,field=10``
+``protanomalous:shift=16`` reads ``protanomalous (shift 16 nm)``; ``normal:age=70,field=10``
 reads ``normal (70 y, 10°)``; ``deuteranomalous:severity=0.6,model=machado2009``
 reads ``deuteranomalous (Machado severity 0.6)``; a population
-``deuteranomalous:n=200,seed=7`` reads ``deuteranomalous (21.35 nm), n=200``.
+``deuteranomalous:n=200,seed=7`` reads ``deuteranomalous (6 nm apart), n=200``.
 The spec string stays the machine key (JSON, CSV); this label is what people
 read, and :func:`label_legend` maps each label back to its full spec for the
 line under a table.
@@ -22,7 +22,7 @@ def observer_label(obs) -> str:
     Examples
     --------
     >>> observer_label("protanomalous:shift=16")
-    'protanomalous (16 nm)'
+    'protanomalous (shift 16 nm)'
     >>> observer_label("normal")
     'normal'
     """
@@ -45,7 +45,12 @@ def observer_label(obs) -> str:
         if p.get("model") == "machado2009":
             extra.append(f"Machado severity {p['severity']:g}")
         else:
-            extra.append(f"{p['shift']:.4g} nm")  # the default shifts are not whole numbers (17.35, 21.35)
+            # Say it the way the spec does: a residual separation ("6 nm apart", the default severities of
+            # DeMarco et al. 1992) or a peak shift ("shift 16 nm").
+            if "separation=" in obs.spec:
+                extra.append(f"{p['separation']:.4g} nm apart")
+            else:
+                extra.append(f"shift {p['shift']:.4g} nm")
     if p.get("age", 32.0) != 32.0:
         extra.append(f"{p['age']:g} y")
     if p.get("field", 2.0) != 2.0:
@@ -74,7 +79,7 @@ def table_labels(specs) -> list[str]:
     Examples
     --------
     >>> table_labels(["normal", "deuteranomalous:n=200,seed=7"])
-    ['normal', 'deuteranomalous (21.35 nm), n=200']
+    ['normal', 'deuteranomalous (6 nm apart), n=200']
     """
     from ..errors import InputError
 
@@ -99,7 +104,7 @@ def label_legend(specs, *, prefix: str = "Observers: ") -> str:
     Examples
     --------
     >>> label_legend(["normal", "protanomalous:shift=16"])
-    'Observers: protanomalous (16 nm) = protanomalous:shift=16.'
+    'Observers: protanomalous (shift 16 nm) = protanomalous:shift=16.'
     """
     specs = [str(s) for s in specs]
     pairs = [(lab, s) for lab, s in zip(table_labels(specs), specs) if lab != s]
