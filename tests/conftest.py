@@ -30,6 +30,29 @@ def write(tmp_path):
     return _write
 
 
+def _assert_no_jump(labs, what):
+    """Mean and max CIEDE2000 between neighbours; no step larger than 3x a neighbouring step (plus a floor).
+
+    The floors (0.05 mean, 0.3 max) keep rounding-sized steps from counting as jumps; the jump this guards
+    against was 10-15 mean, 28-30 max between steps of 0.01-0.2 (docs/models.md, section 5).
+    """
+    import colour
+    import numpy as np
+
+    d = [colour.delta_E(a, b, method="CIE 2000") for a, b in zip(labs[:-1], labs[1:])]
+    for stat, floor in ((np.mean, 0.05), (np.max, 0.3)):
+        steps = [float(stat(x)) for x in d]
+        for i, step in enumerate(steps):
+            neighbours = steps[max(i - 1, 0):i] + steps[i + 1:i + 2]
+            assert step <= 3.0 * max(neighbours) + floor, (what, stat.__name__, steps)
+
+
+@pytest.fixture(scope="session")
+def no_jump():
+    """The continuity rule for rendering and simulation defaults (session-scoped: usable under hypothesis)."""
+    return _assert_no_jump
+
+
 def pytest_sessionfinish(session, exitstatus):
     """Remove the session's cache folder (tests that need a cache of their own make one in tmp_path)."""
     import shutil
