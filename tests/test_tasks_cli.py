@@ -64,3 +64,22 @@ def test_bad_input_one_line_exit_2_nothing_written(tmp_path):
         assert r.returncode == 2, (args, r.stderr)
         assert len(r.stderr.strip().splitlines()) == 1 and "Traceback" not in r.stderr
         assert not out.exists()
+
+
+def test_units_apply_to_filter_files_and_format_follows_the_output(tmp_path):
+    # Issue 10: every command that reads spectra takes --units; the format follows -o unless --format says
+    # otherwise, and a contradiction is refused. A file of 0.3 everywhere with no unit word is ambiguous
+    # (fraction or optical density); with --units od it is a neutral filter of T = 10^-0.3 (definition of
+    # optical density, common practice), which leaves the Rayleigh reading unchanged.
+    lens = tmp_path / "flat.csv"
+    lens.write_text("nm,value\n" + "".join(f"{w},0.3\n" for w in range(380, 781, 5)))
+    r = run(str(lens), "--task", "rayleigh", "--observer", "normal")
+    assert r.returncode == 2 and "--units" in r.stderr
+    out = tmp_path / "r.json"
+    r = run(str(lens), "--task", "rayleigh", "--observer", "normal", "--units", "od", "-o", str(out))
+    assert r.returncode == 0, r.stderr
+    res = json.loads(out.read_text())["results"][0]
+    assert res["verdict"] == "no change"
+    assert abs(res["with"]["red_fraction"] - res["without"]["red_fraction"]) < 1e-9
+    r = run("nd:t=0.5", "--task", "rayleigh", "--format", "json", "-o", str(tmp_path / "x.csv"))
+    assert r.returncode == 2 and not (tmp_path / "x.csv").exists()

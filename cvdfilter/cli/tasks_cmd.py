@@ -7,7 +7,7 @@ from typing import List, Optional
 
 import typer
 
-from .common import FORMATS, emit, fail
+from .common import BANDWIDTH_HELP, FORMATS, UNITS_HELP, emit, fail, file_options, input_files, resolve_format
 
 _TASK_CHOICES = ("arrangement", "arrangement-fine", "plates", "rayleigh")
 
@@ -32,6 +32,8 @@ def register(app: typer.Typer) -> None:
                                                                          "(default: from -o's extension, else "
                                                                          "table)."),
         output: Optional[str] = typer.Option(None, "--output", "-o", help="Write to this file instead of stdout."),
+        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
+        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
         export_stimuli: Optional[str] = typer.Option(None, "--export-stimuli", help=(
             "Also write the task designs into this folder: cap reflectances, plates as PNG and CSV, the "
             "Rayleigh primaries.")),
@@ -42,18 +44,17 @@ def register(app: typer.Typer) -> None:
 
         Example: cvdfilter tasks larkhill-notch-575 --observer deuteranomalous --task arrangement --trials 200
         """
-        import pathlib
 
         from ..errors import InputError
         from ..vision_tasks import tasks
         from ..vision_tasks.core import DEFAULT_OBSERVERS
 
-        fmt = format
-        if fmt is None:
-            suffix = pathlib.Path(output).suffix.lower().lstrip(".") if output else ""
-            fmt = {"json": "json", "csv": "csv", "md": "markdown", "markdown": "markdown"}.get(suffix, "table")
-        if fmt not in FORMATS:
-            fail(f"--format {fmt} is not one of {', '.join(FORMATS)}")
+        # -- file reading and output format (units/bandwidth per file or for all; format from -o) --
+        try:
+            fmt = resolve_format(format, output, FORMATS)
+            filters = file_options(filters, units, bandwidth)
+        except InputError as exc:
+            fail(exc)
         for t in task or ():
             if t not in _TASK_CHOICES:
                 fail(f"--task {t} is not one of {', '.join(_TASK_CHOICES)}")
@@ -64,7 +65,7 @@ def register(app: typer.Typer) -> None:
                 from ..io.atomic import check_outputs, check_writable
 
                 check_writable(output)
-                check_outputs([output], [f for f in filters if pathlib.Path(f).exists()])
+                check_outputs([output], input_files(filters))
             if export_stimuli:
                 from ..io.atomic import check_writable
 
@@ -74,7 +75,7 @@ def register(app: typer.Typer) -> None:
                            trial_noise=trial_noise)
             text = {"json": result.to_json, "csv": result.to_csv, "markdown": result.to_markdown,
                     "table": lambda: result.to_table(width=110)}[fmt]()
-            inputs = [f for f in filters if pathlib.Path(f).exists()]
+            inputs = input_files(filters)
             if export_stimuli:
                 from ..vision_tasks.stimuli import export_stimuli as export
 
