@@ -309,7 +309,8 @@ def from_file(ft: FileTerm, grid: Grid, units: str | None, bandwidth: float | No
                       "warnings": col_warnings, "sha256": digest,
                       "range_nm": [float(table.wavelengths[0]), float(table.wavelengths[-1])],
                       "step_nm": measured_step, "extrapolated": ex, "features": feats,
-                      "options": {k: v for k, v in (("units", ft.units), ("bandwidth", ft.bandwidth)) if v is not None}})
+                      "options": {k: v for k, v in (("units", ft.units), ("bandwidth", ft.bandwidth))
+                                  if v is not None}})
         if source_kind == "file":
             for w in col_warnings:
                 _warnings.warn(InputWarning(f"{clip_text(path, 200)}" + (f" ({name})" if multi else "") + f": {w}"),

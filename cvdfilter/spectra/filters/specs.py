@@ -166,7 +166,8 @@ def parse_filter_spec(spec: str, grid: Grid = DEFAULT_GRID, *, units: str | None
     """
     spec = spec.strip()
     if not spec:
-        raise InputError("empty filter spec", hint="give a file, an example name or e.g. notch:center=575,fwhm=35,depth=0.8")
+        raise InputError("empty filter spec",
+                         hint="give a file, an example name or e.g. notch:center=575,fwhm=35,depth=0.8")
     terms = [t.strip() for t in spec.split("*")]
     if any(not t for t in terms):
         raise InputError("empty term in a stack ('*' with nothing on one side)", source=spec,
