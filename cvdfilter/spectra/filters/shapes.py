@@ -138,6 +138,8 @@ class FilterShape:
         Parameters whose value is a word, with the words allowed (``shape=gauss|flat``).
     form : str
         The spec form shown by ``cvdfilter list filters``.
+    example : str
+        A spec of this shape (docs/getting-started.md shows it; tests parse it).
     build : callable
         ``build(wavelengths, numbers, words)`` -> transmittance (see :data:`Builder`).
     """
@@ -146,6 +148,7 @@ class FilterShape:
     required: frozenset
     optional: frozenset
     form: str
+    example: str
     build: Builder
     one_of: frozenset = frozenset()
     words: Mapping[str, tuple] = field(default_factory=dict)
@@ -178,13 +181,15 @@ def _build_shortpass(wl, p, words):
 #: Every parametric shape, by the kind word of its spec (order: as ``cvdfilter list filters`` shows them).
 FILTER_SHAPES: dict[str, FilterShape] = {s.name: s for s in (
     FilterShape("notch", frozenset({"center", "fwhm"}), frozenset({"order"}),
-                "notch:center=NM,fwhm=NM,depth=0-1 | od=OD[,shape=gauss|flat][,order=N]", _build_notch,
+                "notch:center=NM,fwhm=NM,depth=0-1 | od=OD[,shape=gauss|flat][,order=N]",
+                "notch:center=575,fwhm=35,depth=0.8", _build_notch,
                 one_of=frozenset({"depth", "od"}), words={"shape": ("gauss", "flat")}),
-    FilterShape("nd", frozenset(), frozenset(), "nd:t=0-1 | nd:od=OD", _build_nd, one_of=frozenset({"t", "od"})),
+    FilterShape("nd", frozenset(), frozenset(), "nd:t=0-1 | nd:od=OD", "nd:t=0.5", _build_nd,
+                one_of=frozenset({"t", "od"})),
     FilterShape("longpass", frozenset({"edge", "width"}), frozenset({"min", "max"}),
-                "longpass:edge=NM,width=NM[,min=0-1][,max=0-1]", _build_longpass),
+                "longpass:edge=NM,width=NM[,min=0-1][,max=0-1]", "longpass:edge=500,width=10", _build_longpass),
     FilterShape("shortpass", frozenset({"edge", "width"}), frozenset({"min", "max"}),
-                "shortpass:edge=NM,width=NM[,min=0-1][,max=0-1]", _build_shortpass),
+                "shortpass:edge=NM,width=NM[,min=0-1][,max=0-1]", "shortpass:edge=650,width=10", _build_shortpass),
 )}
 
 #: Other spellings accepted for parameter keys.
