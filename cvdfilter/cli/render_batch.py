@@ -106,7 +106,8 @@ def plan_outputs(files, out_dir: pathlib.Path, views, fmt: str, panel: bool) -> 
                 break
         for t, i in zip(tails, members):
             stems[i] = pathlib.Path(*[x for x in t.parts if x not in ("/", "\\")]) / stems[i]
-    jobs, seen = [], {}
+    jobs: list[dict] = []
+    seen: dict[str, str] = {}
     for (f, _), stem in zip(files, stems):
         ext = output_suffix(fmt, f)
         outputs = {v: str(out_dir / stem.parent / f"{stem.name}.{v}{ext}") for v in views}

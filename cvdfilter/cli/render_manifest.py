@@ -26,7 +26,7 @@ def now() -> str:
     return datetime.datetime.now(datetime.timezone.utc).strftime("%Y-%m-%dT%H:%M:%S.%fZ")
 
 
-def manifest_item(rec: dict, job: dict, run_id: str, settings_fp: str) -> dict:
+def manifest_item(rec: dict, job: dict, run_id: str | None, settings_fp: str) -> dict:
     """A manifest record for one input and one set of settings: the outputs that now exist with their
     fingerprints (new ones from ``rec``, earlier ones kept from ``job``)."""
     item = {k: v for k, v in rec.items() if k not in ("outputs", "panel", "fingerprints", "clipped_pixels")}

@@ -23,7 +23,7 @@ def _for_display(px: np.ndarray) -> np.ndarray:
         return (a >> 8).astype(np.uint8)
     rgb = encode_srgb(a[..., :3], np.uint8)
     if a.shape[-1] == 4:
-        return np.concatenate([rgb, _convert_alpha(a[..., 3], np.uint8)[..., None]], axis=-1)
+        return np.concatenate([rgb, _convert_alpha(a[..., 3], np.dtype(np.uint8))[..., None]], axis=-1)
     return rgb
 
 
@@ -120,8 +120,8 @@ def panel(images: dict, *, titles: dict | None = None, footer: str = "", width_m
             i = r * cols + c
             if i >= len(names):
                 break
-            ax = fig.add_axes([(c * cell_w + margin_in) / width_in, top / height_in, image_w / width_in,
-                               image_w * h / w / height_in])
+            ax = fig.add_axes(((c * cell_w + margin_in) / width_in, top / height_in, image_w / width_in,
+                               image_w * h / w / height_in))
             ax.imshow(shown[names[i]], interpolation="antialiased")
             ax.set_axis_off()
             lines = [""] * (row_lines[r] - len(wrapped[i])) + wrapped[i]

@@ -201,7 +201,7 @@ def tiff_has_wavelengths(path) -> bool:
         with tifffile.TiffFile(path) as tif:
             if tif.shaped_metadata:
                 return "wavelengths" in tif.shaped_metadata[0]
-            desc = tif.pages[0].description
+            desc = tif.pages.first.description
             return desc.lstrip().startswith("{") and "wavelengths" in json.loads(desc)
     except (tifffile.TiffFileError, OSError, ValueError, EOFError, KeyError, IndexError, TypeError):
         return False  # not a readable TIFF (or its description is not our JSON): the image reader will say why
@@ -388,7 +388,7 @@ def _wavelengths_and_kind(p: pathlib.Path, src: str, wavelengths, kind, file_wl,
     elif file_wl is not None:
         wl, wl_src = file_wl.ravel(), "file"
     elif side_wl is not None:
-        wl, wl_src = side_wl.ravel(), side_src
+        wl, wl_src = side_wl.ravel(), str(side_src)
     else:
         raise InputError("no wavelengths for the cube's bands", source=src,
                          hint="give --wavelengths START:STOP:STEP, a 'wavelengths' array in the .npz, "
@@ -437,7 +437,7 @@ def _tiff_plan(p: pathlib.Path, src: str):
             if tif.shaped_metadata:
                 meta = dict(tif.shaped_metadata[0])
             else:
-                desc = tif.pages[0].description
+                desc = tif.pages.first.description
                 if desc.strip().startswith("{"):
                     try:
                         meta = json.loads(desc)

@@ -192,7 +192,7 @@ def read_metadata(path, key: str = "cvdfilter") -> dict | None:
                 import tifffile
 
                 with tifffile.TiffFile(fh) as tif:
-                    desc = tif.pages[0].description
+                    desc = tif.pages.first.description
                 record = _json_key(desc, key)
     except (InputError, UnicodeDecodeError) + _decode_errors():
         return None

@@ -135,8 +135,8 @@ def _decide_units(values: np.ndarray, header: list, kind: str, units: str | None
                              source=source, hint="check the file, or say the units with --units")
         else:
             names = {"fraction": "a fraction", "percent": "percent", "od": "optical density"}
-            options = [names[p] for p in possible]
-            options = ", ".join(options[:-1]) + " or " + options[-1]
+            readings = [names[p] for p in possible]
+            options = ", ".join(readings[:-1]) + " or " + readings[-1]
             raise InputError(f"{which}{_range_text(v)} could be {options}, and the header names no unit",
                              source=source,
                              hint="say which with --units fraction|percent|od, FILE@units=..., or a header such as "

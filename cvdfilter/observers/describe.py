@@ -8,6 +8,8 @@ Public: :func:`describe_observer`, :func:`describe_observers`, :func:`describe_p
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from ..spectra.grid import DEFAULT_GRID, Grid
@@ -42,7 +44,8 @@ def _pigment_peaks(obs: Observer) -> tuple[dict | None, str]:
         if obs.params.get("model") == "machado2009":
             return ({c: float(p) for c, p in zip(_CONES, peaks)},
                     "Machado 2009 shifts the fundamental, not the pigment; normal pigment peaks shown")
-        k, other = CONE_INDEX[obs.deficiency], TOWARD[obs.deficiency]
+        d = str(obs.deficiency)  # anomalous: never None
+        k, other = CONE_INDEX[d], TOWARD[d]
         peaks = peaks.copy()
         peaks[k] += np.sign(peaks[other] - peaks[k]) * obs.params["pigment_shift"]
     return ({c: float(p) for c, p in zip(_CONES, peaks)},
@@ -92,7 +95,7 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
     base = obs.base if obs.base is not None else obs
     pig, pig_note = _pigment_peaks(obs)
     notes = [pig_note]
-    out = {
+    out: dict[str, Any] = {
         "spec": obs.spec,
         "kind": obs.kind,
         "deficiency": obs.deficiency,
@@ -117,11 +120,12 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
     }
     if obs.kind == "anomalous" and obs.deficiency != "tritan":
         fp = out["fundamental_peaks_nm"]
-        k, other = _CONES[CONE_INDEX[obs.deficiency]], _CONES[TOWARD[obs.deficiency]]
+        d = str(obs.deficiency)
+        k, other = _CONES[CONE_INDEX[d]], _CONES[TOWARD[d]]
         out["fundamental_separation_nm"] = abs(fp[k] - fp[other])
     notes += _shift_notes(obs, out)
     if obs.kind == "dichromat":
-        notes.append(f"reduction dichromat: the {_CONES[obs.missing_cone]} cone is absent; "
+        notes.append(f"reduction dichromat: the {_CONES[CONE_INDEX[str(obs.deficiency)]]} cone is absent; "
                      "its fundamental is kept only for reference")
     if obs.deficiency is not None:
         notes += _copunctal(obs, base, out)
@@ -235,7 +239,7 @@ def describe_population(spec, *, grid: Grid = DEFAULT_GRID) -> dict:
 
     pop = population(spec, grid)
     peaks = _grid_peaks(pop.wavelengths, pop.fundamentals)  # (n, 3)
-    out = {
+    out: dict[str, Any] = {
         "spec": pop.spec,
         "population": {"n": pop.n, "variation": pop.variation, "seed": pop.seed},
         "kind": pop.kind,
@@ -250,12 +254,13 @@ def describe_population(spec, *, grid: Grid = DEFAULT_GRID) -> dict:
                   "peaks on the grid refined by a parabola"],
     }
     if pop.kind == "anomalous" and pop.deficiency != "tritan":
-        k, other = CONE_INDEX[pop.deficiency], TOWARD[pop.deficiency]
+        d = str(pop.deficiency)
+        k, other = CONE_INDEX[d], TOWARD[d]
         out["fundamental_separation_nm"] = _spread(np.abs(peaks[:, k] - peaks[:, other]))
         out["notes"].append("separation_nm is drawn on the reference measure (32 years, 2 deg, before the "
                             "individual peak shifts); fundamental_separation_nm is each member's own")
     if pop.kind == "dichromat":
-        out["notes"].append(f"reduction dichromats: the {_CONES[CONE_INDEX[pop.deficiency]]} cone carries "
+        out["notes"].append(f"reduction dichromats: the {_CONES[CONE_INDEX[str(pop.deficiency)]]} cone carries "
                             "no signal (its parameters are drawn so every kind shares the seed's physiology)")
     return out
 

@@ -95,7 +95,7 @@ class Observer:
     @property
     def missing_cone(self) -> int | None:
         """Index of the absent cone for dichromats (0 L, 1 M, 2 S), else None."""
-        return CONE_INDEX[self.deficiency] if self.kind == "dichromat" else None
+        return CONE_INDEX[self.deficiency] if self.kind == "dichromat" and self.deficiency else None
 
     @property
     def affected_cone(self) -> int | None:

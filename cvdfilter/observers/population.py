@@ -127,7 +127,8 @@ def _draws(ps: PopulationSpec, centre: Observer) -> dict:
             sep = np.full(n, centre.params["separation"])
             shift = np.full(n, centre.params["shift"])
         if centre.params["shift_measure"] == "fundamental peak":
-            table = cie2006.peak_shift_table(CONE_INDEX[centre.deficiency], TOWARD[centre.deficiency])
+            d = str(centre.deficiency)  # anomalous: never None
+            table = cie2006.peak_shift_table(CONE_INDEX[d], TOWARD[d])
             pshift = np.interp(shift, table[:, 1], table[:, 0])
         else:
             pshift = shift.copy()
@@ -139,7 +140,8 @@ def _draws(ps: PopulationSpec, centre: Observer) -> dict:
         # other pigment's. Tritan: the S pigment is no hybrid of M and keeps its own S peak shift.
         if centre.deficiency != "tritan":
             names = ("l_peak_shift_nm", "m_peak_shift_nm", "s_peak_shift_nm")
-            out[names[CONE_INDEX[centre.deficiency]]] = out[names[TOWARD[centre.deficiency]]].copy()
+            d = str(centre.deficiency)
+            out[names[CONE_INDEX[d]]] = out[names[TOWARD[d]]].copy()
     for v in out.values():
         v.flags.writeable = False
     return out
@@ -192,7 +194,7 @@ class Population:
                       peak_shift_nm=np.column_stack([p["l_peak_shift_nm"], p["m_peak_shift_nm"],
                                                      p["s_peak_shift_nm"]]))
         if anomalous:
-            d = self.deficiency
+            d = str(self.deficiency)
             kwargs["anomalous"] = (CONE_INDEX[d], TOWARD[d], p["pigment_shift_nm"])
         values = members_to_grid(individual_fundamentals(**kwargs), self.grid)
         values.flags.writeable = False

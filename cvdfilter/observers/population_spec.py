@@ -140,16 +140,17 @@ def parse_population_spec(spec: str) -> PopulationSpec:
                          hint="drop model=machado2009 (give shift=, separation= or severity=)")
     sep_sd = None
     if centre.kind == "anomalous":
+        deficiency = str(centre.deficiency)  # every anomalous observer names its deficiency
         if "separation_sd" in params:
             try:
                 sep_sd = float(params["separation_sd"])
             except ValueError:
                 raise InputError(f"separation_sd={params['separation_sd']} is not a number", source=text) from None
-            if not 0.0 <= sep_sd <= normal_separation(centre.deficiency):
-                raise InputError(f"separation_sd={sep_sd:g} is outside 0-{normal_separation(centre.deficiency):.2f}",
+            if not 0.0 <= sep_sd <= normal_separation(deficiency):
+                raise InputError(f"separation_sd={sep_sd:g} is outside 0-{normal_separation(deficiency):.2f}",
                                  source=text)
         else:
-            sep_sd = 0.0 if variation == "none" else SEPARATION_SD[centre.deficiency]
+            sep_sd = 0.0 if variation == "none" else SEPARATION_SD[deficiency]
     elif "separation_sd" in params:
         raise InputError("separation_sd applies to anomalous trichromats only", source=text)
     head, _, tail = centre.spec.partition(":")

@@ -85,6 +85,7 @@ def _form_parameters(name: str, kind: ObserverKind) -> str:
         return common + (f", shift=0-{normal_separation('tritan'):.1f} or separation (nm, S pigment peak) "
                          f"or severity=mild|moderate|severe (shift "
                          f"{'|'.join(f'{v:g}' for v in TRITAN_SHIFTS.values())}; default 15)")
+    assert d is not None  # every anomalous form names its deficiency
     mine, other = "LMS"[CONE_INDEX[d]], "LMS"[TOWARD[d]]
     return common + (f", shift=0-{normal_separation(d):.2f} or separation=0-{normal_separation(d):.2f} "
                      f"(nm, {mine}' to {other} fundamental peaks) or severity=mild|moderate|severe "

@@ -12,6 +12,7 @@ Public: :func:`render_file`, :func:`output_suffix`, :func:`output_dtype`, :func:
 from __future__ import annotations
 
 import pathlib
+from collections.abc import Callable
 
 import numpy as np
 
@@ -211,7 +212,7 @@ def _input_record(p: pathlib.Path, data, fmt: str) -> tuple[dict, np.dtype]:
     from ..io.cubes import Cube
 
     cube = isinstance(data, Cube)
-    record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
+    record: dict = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
               "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
     if cube:
         record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
@@ -270,5 +271,6 @@ def _write_panel(panel_path, renderer: Renderer, data, small: dict, buffer, *, o
     ordered = {v: small[v] for v in VIEWS}
     from .. import rendering  # rendering.panel, looked up at call time (figures/render_panel.py)
 
-    write_bytes(panel_path, rendering.panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=metadata),
+    draw: Callable[..., bytes] = rendering.panel
+    write_bytes(panel_path, draw(ordered, titles=titles, footer=panel_footer(renderer), metadata=metadata),
                 inputs=inputs)

@@ -206,11 +206,11 @@ def _one(part: str, grid: Grid) -> tuple[str, np.ndarray, str]:
         from ..io.spectra_files import read_spectra
         from .grid import resample
 
-        table = read_spectra(path, kind="spd")
-        if len(table.names) != 1:
-            raise InputError(f"holds {len(table.names)} spectra; an illuminant file needs exactly one value column",
+        spectra = read_spectra(path, kind="spd")
+        if len(spectra.names) != 1:
+            raise InputError(f"holds {len(spectra.names)} spectra; an illuminant file needs exactly one value column",
                              source=str(path))
-        spd = resample(table.wavelengths, table.values[0], grid, method="linear", outside="zero")
+        spd = resample(spectra.wavelengths, spectra.values[0], grid, method="linear", outside="zero")
         return str(path), spd, f"file {path}"
     from ..errors import clip_text, did_you_mean
 

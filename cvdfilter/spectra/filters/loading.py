@@ -33,7 +33,7 @@ def _unique_names(fs: FilterSet) -> FilterSet:
             continue
         files = [fs.info[i].get("file") if i < len(fs.info) else None for i in idx]
         if all(files):
-            parents = [pathlib.Path(f).resolve().parent.name for f in files]
+            parents = [pathlib.Path(str(f)).resolve().parent.name for f in files]
             if len(set(parents)) == len(parents):
                 for i, parent in zip(idx, parents):
                     given[i] = f"{parent}/{n}"
