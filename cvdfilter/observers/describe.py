@@ -19,6 +19,10 @@ from .observer import Observer, observer as _make_observer
 __all__ = ["describe_observer", "describe_observers", "describe_population"]
 
 _CONES = ("L", "M", "S")
+#: The simulation each kind of observer gets by default, as inspect-observer reports it.
+_DEFAULT_SIMULATION = {"normal": "identity",
+                       "dichromat": "brettel1997 (API default); brettel-adapted in render, figures and reports",
+                       "anomalous": "machado2009"}
 
 
 def _peak_nm(wl: np.ndarray, values: np.ndarray) -> float:
@@ -114,9 +118,7 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
         "xy_system": xy_system_for(base),
         "copunctal_point": None,
         "neutral_points": [],
-        "simulation": {"normal": "identity",
-                       "dichromat": "brettel1997 (API default); brettel-adapted in render, figures and reports",
-                       "anomalous": "machado2009"}[obs.kind],
+        "simulation": _DEFAULT_SIMULATION[obs.kind],
     }
     if obs.kind == "anomalous" and obs.deficiency != "tritan":
         fp = out["fundamental_peaks_nm"]

@@ -173,12 +173,6 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
     record, out_dtype = _input_record(p, data, fmt)
     if input_sha256 is not None:
         record["input_sha256"] = input_sha256
-
-    def stamp(key: str) -> dict:
-        extra = {"fingerprint": fps[key]} if key in fps else {}
-        if input_sha256 is not None:
-            extra["input_sha256"] = input_sha256
-        return extra
     encoding = "srgb" if out_dtype.kind == "u" else "linear"
     small = {}
     buffer = None
@@ -191,7 +185,7 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         meta = {"Software": f"cvdfilter {__version__}",
                 "cvdfilter": {**settings, "view": v, "input": str(p), "clipped_pixels": clipped,
                               "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)",
-                              "format": fmt, **stamp(v)}}
+                              "format": fmt, **_stamp(fps, v, input_sha256)}}
         write_image(outputs[v], arr, encoding=encoding, metadata=meta, inputs=guard)
         record["outputs"][v] = str(outputs[v])
         if v in fps:
@@ -199,12 +193,21 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         if panel_path is not None:
             small[v] = _small(arr)
     if panel_path is not None:
-        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png", **stamp("panel")}}
+        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png",
+                              **_stamp(fps, "panel", input_sha256)}}
         _write_panel(panel_path, renderer, data, small, buffer, out_dtype=out_dtype, metadata=meta, inputs=guard)
         record["panel"] = str(panel_path)
         if "panel" in fps:
             record["fingerprints"]["panel"] = fps["panel"]
     return record
+
+
+def _stamp(fps: dict, key: str, input_sha256: str | None) -> dict:
+    """What a file's metadata records of its fingerprint and its input's checksum (those known)."""
+    extra = {"fingerprint": fps[key]} if key in fps else {}
+    if input_sha256 is not None:
+        extra["input_sha256"] = input_sha256
+    return extra
 
 
 def _input_record(p: pathlib.Path, data, fmt: str) -> tuple[dict, np.dtype]:
