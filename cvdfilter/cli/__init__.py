@@ -2,6 +2,7 @@
 
 __all__ = ["main"]
 
+
 def main() -> None:
     from .app import run
 
