@@ -58,7 +58,7 @@ def image_benchmark(repeat: int) -> dict:
     import colour
     from skimage import data
 
-    from cvdfilter.render_pixels import _SCALE, _srgb_tables
+    from cvdfilter.rendering.pixels import _SCALE, _srgb_tables
     from cvdfilter.rendering import Renderer
 
     img = np.ascontiguousarray(np.tile(data.astronaut(), (4, 4, 1)))[:2048, :2048]

@@ -25,7 +25,7 @@ def catalog(kind: str) -> dict:
 
         items = illuminant_names()
     elif kind == "observers":
-        from .observers.observer import observer_forms
+        from .observers.specs import observer_forms
 
         items = observer_forms()
     elif kind == "surfaces":

@@ -1,4 +1,4 @@
-"""Copunctal points, confusion lines and neutral points (cvdfilter.observers.confusion)."""
+"""Copunctal points, confusion lines and neutral points (cvdfilter.observers.copunctal)."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from cvdfilter.errors import InputError
-from cvdfilter.observers.confusion import (DEFICIENCIES, confusion_direction_lms, confusion_line, copunctal_point,
+from cvdfilter.observers.copunctal import (DEFICIENCIES, confusion_direction_lms, confusion_line, copunctal_point,
                                            copunctal_points, lms_to_xyz_matrix, neutral_points, spectrum_locus,
                                            xy_cmfs, xy_system_for)
 from cvdfilter.observers.fundamentals import cie1931_cmfs, cie2015_cmfs

@@ -277,7 +277,7 @@ def test_sweep_plots_the_card_values():
 @pytest.mark.parametrize("obs,space", [("deuteranope", "xy"), ("protanope", "xy2015"), ("tritanope", "xy2015"),
                                        ("deuteranomalous:shift=10", "xy")])
 def test_chromaticity_copunctal_point_is_the_computed_one(obs, space):
-    from cvdfilter.observers.confusion import copunctal_point
+    from cvdfilter.observers.copunctal import copunctal_point
 
     r = figure("chromaticity", "larkhill-notch-575", observers=obs, space=space, caveat=False)
     plotted = np.asarray(_artist(r.figure, "copunctal").get_xydata())[0]

@@ -17,14 +17,14 @@ from hypothesis import strategies as st
 
 from cvdfilter.errors import InputError
 from cvdfilter.observers import cie2006
-from cvdfilter.observers.observer import (
+from cvdfilter.observers.anomalous import (
     SEVERITY_SEPARATIONS,
     SEVERITY_SHIFTS,
     anomalous_absorbance,
     normal_separation,
-    observer,
     pigment_shift,
 )
+from cvdfilter.observers.observer import observer
 from cvdfilter.spectra.grid import Grid
 
 CONE = {"protan": 0, "deutan": 1, "tritan": 2}

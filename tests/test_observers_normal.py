@@ -131,7 +131,8 @@ def test_observer_kinds_registry_is_read_by_parser_list_and_docs():
 
     from cvdfilter.errors import InputError
     from cvdfilter.inspection import catalog
-    from cvdfilter.observers.observer import OBSERVER_KINDS, observer
+    from cvdfilter.observers.observer import observer
+    from cvdfilter.observers.specs import OBSERVER_KINDS
 
     listed = [i.get("form") or i.get("name") for i in catalog("observers")["items"]]
     docs = (pathlib.Path(__file__).resolve().parent.parent / "docs" / "models.md").read_text()

@@ -215,9 +215,9 @@ def test_confused_pairs_equal_the_published_formula_pair_by_pair():
 
 
 def test_metamer_pair_lies_on_one_deutan_confusion_line():
-    # Consistency with the confusion-line geometry (observers/confusion.py): the two surfaces the
+    # Consistency with the confusion-line geometry (observers/copunctal.py): the two surfaces the
     # scorecard calls a deuteranope confusion pair are collinear with the deutan copunctal point.
-    from cvdfilter.observers.confusion import copunctal_point
+    from cvdfilter.observers.copunctal import copunctal_point
     from cvdfilter.observers.fundamentals import LMS_TO_XYZ_2DEG
     from cvdfilter.observers.observer import observer
     from cvdfilter.spectra.illuminants import illuminant

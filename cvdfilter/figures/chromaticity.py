@@ -10,7 +10,7 @@ Spaces:
     1979, JOSA 69, 1183).
 ``xy``
     CIE 1931 xy. Cone excitations map to XYZ with the least-squares
-    LMS-to-XYZ matrix (:func:`cvdfilter.observers.confusion.lms_to_xyz_matrix`),
+    LMS-to-XYZ matrix (:func:`cvdfilter.observers.copunctal.lms_to_xyz_matrix`),
     so the confusion lines pass exactly through the plotted copunctal point; the
     CIE 2006 fundamentals are not an exact transform of the 1931 functions, so
     coordinates can differ from a direct CIE 1931 calculation by a few thousandths.
@@ -117,7 +117,7 @@ def chromaticity_data(filters, *, illuminant="D65", observer="deuteranope", surf
         ((n_surfaces, 2) adapted coordinates), ``white_filtered`` ((2,),
         before adaptation), ``white_adapted`` ((2,)), and ``labels`` of the surfaces.
     """
-    from ..observers import confusion
+    from ..observers import copunctal as confusion
     from ..observers.spaces import parse_adaptation, von_kries_gains
 
     if space not in SPACES:

@@ -201,7 +201,7 @@ def tiff_has_wavelengths(path) -> bool:
         with tifffile.TiffFile(path) as tif:
             if tif.shaped_metadata:
                 return "wavelengths" in tif.shaped_metadata[0]
-            desc = tif.pages[0].description
+            desc = tif.pages.first.description
             return desc.lstrip().startswith("{") and "wavelengths" in json.loads(desc)
     except (tifffile.TiffFileError, OSError, ValueError, EOFError, KeyError, IndexError, TypeError):
         return False  # not a readable TIFF (or its description is not our JSON): the image reader will say why
@@ -344,36 +344,51 @@ def read_cube(path, *, wavelengths=None, kind: str | None = None, max_megapixels
     -------
     Cube
     """
-    import zipfile
-
     from .images import regular_file
 
     p = pathlib.Path(path)
     src = str(p)
     regular_file(p)
     suffix = p.suffix.lower()
-    file_wl = None
-    file_kind = None
+    member, shape, file_wl, file_kind = _declared(p, suffix, src)
+    wl, wl_src, k, k_src = _wavelengths_and_kind(p, src, wavelengths, kind, file_wl, file_kind)
+    _check_declared(shape, wl, max_megapixels, src)
+    data = _load(p, suffix, src, member, shape)
+    if tuple(data.shape) != tuple(shape):
+        raise InputError(f"data shape {data.shape} differs from the declared {shape}", source=src)
+    cube = Cube(data, wl, k, src, wl_src, k_src)
+    cube.warnings.extend(_value_warnings(cube))
+    return cube
+
+
+def _declared(p: pathlib.Path, suffix: str, src: str) -> tuple:
+    """(npz member or None, declared shape, the file's wavelengths or None, the file's kind or None), from the
+    headers alone."""
     if suffix == ".npy":
         try:
             with open(p, "rb") as fh:
                 shape, _ = _npy_header(fh, src, "array")
         except OSError as exc:
             raise InputError(f"cannot read the cube ({exc.strerror})", source=src) from None
-    elif suffix == ".npz":
+        return None, shape, None, None
+    if suffix == ".npz":
         member, shape, _, file_wl, file_kind = _npz_plan(p, src)
-    elif suffix in (".tif", ".tiff"):
+        return member, shape, file_wl, file_kind
+    if suffix in (".tif", ".tiff"):
         shape, file_wl, file_kind = _tiff_plan(p, src)
-    else:
-        raise InputError(f"unsupported cube type '{p.suffix}'", source=src, hint="use .npy, .npz or TIFF")
+        return None, shape, file_wl, file_kind
+    raise InputError(f"unsupported cube type '{p.suffix}'", source=src, hint="use .npy, .npz or TIFF")
 
+
+def _wavelengths_and_kind(p: pathlib.Path, src: str, wavelengths, kind, file_wl, file_kind) -> tuple:
+    """(wavelengths, where from, kind, where from): the argument, else the file, else a sidecar."""
     side_wl, side_kind, side_src = _sidecar(p)
     if wavelengths is not None:
         wl, wl_src = parse_wavelengths(wavelengths), "argument"
     elif file_wl is not None:
         wl, wl_src = file_wl.ravel(), "file"
     elif side_wl is not None:
-        wl, wl_src = side_wl.ravel(), side_src
+        wl, wl_src = side_wl.ravel(), str(side_src)
     else:
         raise InputError("no wavelengths for the cube's bands", source=src,
                          hint="give --wavelengths START:STOP:STEP, a 'wavelengths' array in the .npz, "
@@ -386,30 +401,30 @@ def read_cube(path, *, wavelengths=None, kind: str | None = None, max_megapixels
         k, k_src = _kind(side_kind, src), "sidecar"
     else:
         k, k_src = "reflectance", "assumed"
-    _check_declared(shape, wl, max_megapixels, src)
+    return wl, wl_src, k, k_src
+
+
+def _load(p: pathlib.Path, suffix: str, src: str, member, shape) -> np.ndarray:
+    """The cube's values (``.npy`` memory-mapped), after the declared shape has been checked."""
+    import zipfile
 
     try:
         if suffix == ".npy":
-            data = np.load(p, mmap_mode="r", allow_pickle=False)
-        elif suffix == ".npz":
+            return np.load(p, mmap_mode="r", allow_pickle=False)
+        if suffix == ".npz":
             with np.load(p, allow_pickle=False) as z:
-                data = z[member]
-        else:
-            import tifffile
+                return z[member]
+        import tifffile
 
-            with tifffile.TiffFile(p) as tif:
-                data = tif.asarray()
-            if data.size == int(np.prod(shape)):
-                data = data.reshape(shape)  # the length-1 axes dropped from the declared shape
+        with tifffile.TiffFile(p) as tif:
+            data = tif.asarray()
+        if data.size == int(np.prod(shape)):
+            data = data.reshape(shape)  # the length-1 axes dropped from the declared shape
+        return data
     except MemoryError:
         raise InputError("not enough memory to read the cube", source=src) from None
     except (ValueError, OSError, EOFError, zipfile.BadZipFile, KeyError, IndexError) as exc:
         raise InputError(f"cannot read the cube ({' '.join(str(exc).split())[:160]})", source=src) from None
-    if tuple(data.shape) != tuple(shape):
-        raise InputError(f"data shape {data.shape} differs from the declared {shape}", source=src)
-    cube = Cube(data, wl, k, src, wl_src, k_src)
-    cube.warnings.extend(_value_warnings(cube))
-    return cube
 
 
 def _tiff_plan(p: pathlib.Path, src: str):
@@ -422,7 +437,7 @@ def _tiff_plan(p: pathlib.Path, src: str):
             if tif.shaped_metadata:
                 meta = dict(tif.shaped_metadata[0])
             else:
-                desc = tif.pages[0].description
+                desc = tif.pages.first.description
                 if desc.strip().startswith("{"):
                     try:
                         meta = json.loads(desc)

@@ -31,7 +31,8 @@ naming the file, line or column, and the fix. Problems the reader can mend are
 returned as warnings.
 
 Public: :class:`SpectraTable`, :func:`read_spectra`, :func:`parse_spectra_text`,
-:func:`header_units`, :func:`possible_units`.
+:func:`header_units`, :func:`possible_units`; the unit rules themselves live in
+:mod:`cvdfilter.io.spectra_units`.
 """
 
 from __future__ import annotations
@@ -46,24 +47,18 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError, clip_text
+from .spectra_units import NOISE_TOLERANCE, OD_MAX, UNITS, header_units, possible_units, spd_values, to_fractions
 
 __all__ = ["SpectraTable", "read_spectra", "parse_spectra_text", "header_units", "possible_units", "UNITS", "KINDS",
            "MAX_FILE_BYTES", "MAX_LINES", "MAX_COLUMNS", "MAX_CELLS", "OD_MAX"]
 
-UNITS = ("fraction", "percent", "od")
 KINDS = ("transmittance", "reflectance", "spd")
 
 #: The range every filter curve must cover: the photopic visible band where
 #: cone fundamentals and V(lambda) carry nearly all their weight (common practice).
 REQUIRED_RANGE = (400.0, 700.0)
-#: How far below 0 or above 1 a converted value may stray before it is an error
-#: rather than instrument noise (common practice: a few percent).
-NOISE_TOLERANCE = 0.05
 #: Sampling coarser than this misses notch structure (common practice).
 COARSE_STEP_NM = 10.0
-#: Optical densities above this are beyond what bench spectrophotometers measure (common practice: about 6-8);
-#: a column whose median exceeds it cannot be optical density.
-OD_MAX = 10.0
 
 #: Largest spectra file read, bytes (32 MiB: a 0.1 nm scan with 1,000 columns is well under).
 MAX_FILE_BYTES = 32 * 2**20
@@ -78,10 +73,7 @@ MAX_HEADER_CHARS = 200
 
 _SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".ods", ".numbers")
 _DELIMS = ("\t", ";", ",")
-_R_PERCENT = re.compile(r"%\s*r\b|\br\s*%|\br\s*[(\[]\s*%|reflect\w*\s*[(\[]?\s*(%|percent)")
-_OD_WORDS = re.compile(r"\b(od|o\.\s?d\.?|abs\.?|absorbance|optical\s*density|density)(?![a-z])")
-_PERCENT_WORDS = re.compile(r"%|\bpercent\b|\bpct\b")
-_FRACTION_WORDS = re.compile(r"\bfraction\b|\(\s*0\s*-\s*1\s*\)|\b0\s*-\s*1\b|\b0\.\.1\b")
+
 
 
 @dataclass
@@ -164,126 +156,6 @@ def _detect_delimiter(lines: list[str]) -> str | None:
     return best
 
 
-def header_units(cell: str | None, *, kind: str = "transmittance", source: str | None = None,
-                 column: int | None = None) -> tuple[str | None, str]:
-    """The unit a column header names, if any: ``(units or None, reason)``.
-
-    Optical density: ``A``, ``Abs``, ``Abs.``, ``Absorbance``, ``OD``, ``O.D.``,
-    ``Optical density``, ``Density``, ``D``. Percent: ``%T``, ``T%``, ``T (%)``,
-    ``Transmission [%]``, ``Transmittance (%)``, ``percent``. Fraction:
-    ``fraction``, ``(0-1)``. Percent reflectance (``%R``, ``R%``) is refused in
-    a transmittance file. A plain ``T`` or ``Transmittance`` names no unit.
-
-    Examples
-    --------
-    >>> header_units("Abs")[0], header_units("Transmittance (%)")[0], header_units("T")[0]
-    ('od', 'percent', None)
-    """
-    if not cell:
-        return None, ""
-    raw = str(cell).strip()
-    c = re.sub(r"[_\s]+", " ", raw.lower())
-    shown = clip_text(raw)
-    if _R_PERCENT.search(c):
-        if kind == "transmittance":
-            raise InputError(f"column header '{shown}' names percent reflectance, but a filter file holds "
-                             "transmittance", source=source, column=column,
-                             hint="give a transmittance measurement (%T, T or OD), or use the file as --surfaces")
-        return "percent", f"header '{shown}' names percent reflectance"
-    found = []
-    if c in ("a", "d") or _OD_WORDS.search(c):
-        found.append("od")
-    if _PERCENT_WORDS.search(c):
-        found.append("percent")
-    if _FRACTION_WORDS.search(c):
-        found.append("fraction")
-    if kind != "transmittance" and "od" in found:
-        found.remove("od")
-    if len(found) > 1:
-        raise InputError(f"column header '{shown}' names both {found[0]} and {found[1]}", source=source,
-                         column=column, hint="give one unit, or --units fraction|percent|od")
-    if not found:
-        return None, ""
-    what = {"od": "optical density", "percent": "percent", "fraction": "fraction"}[found[0]]
-    return found[0], f"header '{shown}' names {what}"
-
-
-def possible_units(values: np.ndarray, kind: str = "transmittance") -> list[str]:
-    """Which readings of these values are physically possible (transmittance or reflectance).
-
-    ``fraction`` needs every value within 0-1, ``percent`` within 0-100 (each
-    with :data:`NOISE_TOLERANCE`); ``od`` needs no negative density and a
-    median at most :data:`OD_MAX` (single values above it may be an
-    instrument's out-of-range markers, so they do not rule optical density out).
-    Every value is checked.
-    """
-    if values.size == 0:
-        return []
-    vmin, vmax = float(values.min()), float(values.max())
-    out = []
-    tol = NOISE_TOLERANCE
-    if vmin >= -tol and vmax <= 1 + tol:
-        out.append("fraction")
-    if vmin >= -100 * tol and vmax <= 100 * (1 + tol):
-        out.append("percent")
-    if kind == "transmittance" and vmin >= -tol and float(np.median(values)) <= OD_MAX:
-        out.append("od")
-    return out
-
-
-def _range_text(values: np.ndarray) -> str:
-    return f"values {float(values.min()):.3g} to {float(values.max()):.3g} (median {float(np.median(values)):.3g})"
-
-
-def _decide_units(values: np.ndarray, header: list, kind: str, units: str | None, source: str,
-                  how_given: str) -> tuple[list, list, list]:
-    """Per column (units, reason); plus warnings. Raises InputError when the units are ambiguous."""
-    n = values.shape[0]
-    warnings: list[str] = []
-    if units is not None:
-        return [units] * n, [f"given ({how_given})"] * n, warnings
-    col_units: list = [None] * n
-    reasons: list = [""] * n
-    for j in range(n):
-        cell = header[j] if j < len(header) else None
-        col_units[j], reasons[j] = header_units(cell, kind=kind, source=source, column=j + 2)
-    open_cols = [j for j in range(n) if col_units[j] is None]
-    if open_cols:
-        v = values[open_cols]
-        possible = possible_units(v, kind)
-        which = "" if len(open_cols) == n else f"columns {', '.join(str(j + 2) for j in open_cols)}: "
-        if kind == "reflectance" and possible[:1] == ["fraction"]:
-            possible = ["fraction"]  # a surface set darker than 1 % everywhere is not a surface set
-        if len(possible) == 1:
-            reason = f"no unit word in the header; {_range_text(v)} fit only {possible[0]}"
-        elif not possible:
-            vmin, vmax = float(v.min()), float(v.max())
-            if vmin < -100 * NOISE_TOLERANCE or (vmin < -NOISE_TOLERANCE and vmax <= 1 + NOISE_TOLERANCE):
-                k = np.unravel_index(int(np.argmin(v)), v.shape)
-                raise InputError(f"value {vmin:.3g} is far below 0 in any unit", source=source,
-                                 column=open_cols[k[0]] + 2, hint="transmittance cannot be negative")
-            raise InputError(f"{which}{_range_text(v)} fit no unit (fraction 0-1, percent 0-100, optical density)",
-                             source=source, hint="check the file, or say the units with --units")
-        else:
-            names = {"fraction": "a fraction", "percent": "percent", "od": "optical density"}
-            options = [names[p] for p in possible]
-            options = ", ".join(options[:-1]) + " or " + options[-1]
-            raise InputError(f"{which}{_range_text(v)} could be {options}, and the header names no unit",
-                             source=source,
-                             hint="say which with --units fraction|percent|od, FILE@units=..., or a header such as "
-                                  "'%T', 'T (fraction)' or 'OD'")
-        for j in open_cols:
-            col_units[j], reasons[j] = possible[0], reason
-    return col_units, reasons, warnings
-
-
-def _convert(values: np.ndarray, units: str) -> np.ndarray:
-    if units == "percent":
-        return values / 100.0
-    if units == "od":
-        return np.power(10.0, -values)
-    return values
-
 
 def parse_spectra_text(text: str, source: str, *, kind: str = "transmittance",
                        units: str | None = None, units_given_by: str = "--units") -> SpectraTable:
@@ -292,6 +164,37 @@ def parse_spectra_text(text: str, source: str, *, kind: str = "transmittance",
         raise ValueError(f"kind must be one of {KINDS}, got {kind!r}")
     if units is not None and units not in UNITS:
         raise InputError(f"unknown units '{clip_text(units)}'", source=source, hint="use fraction, percent or od")
+    rows, delim, header_cells = _data_rows(text, source)
+    n_cols = len(_split(rows[0][1], delim))
+    data = _cells(rows, delim, n_cols, source)
+    warnings: list[str] = []
+    line_numbers = np.array([n for n, _ in rows])
+    stem = pathlib.Path(source).name
+    labels: list = [None] * (n_cols - 1)
+    if header_cells is not None and len(header_cells) == n_cols:
+        labels = [h or None for h in header_cells[1:]]
+    names = [lab if lab else (stem if n_cols == 2 else f"{stem}:{j + 1}") for j, lab in enumerate(labels)]
+    wl, values = _checked_wavelengths(data[:, 0], data[:, 1:].T.copy(), line_numbers, source, warnings)
+    if kind == "spd":
+        out_units, reason = "relative", "spectral power distribution (relative)"
+        col_units, col_reasons = [out_units] * values.shape[0], [reason] * values.shape[0]
+        values = spd_values(values, source, warnings)
+    else:
+        values, col_units, col_reasons = to_fractions(values, wl, labels, kind, units, source, units_given_by,
+                                                      warnings)
+        distinct = list(dict.fromkeys(col_units))
+        out_units = distinct[0] if len(distinct) == 1 else "mixed"
+        reasons = list(dict.fromkeys(col_reasons))
+        reason = reasons[0] if len(reasons) == 1 else "; ".join(
+            f"column {j + 2}: {u} ({r})" for j, (u, r) in enumerate(zip(col_units, col_reasons)))
+    return SpectraTable(source=source, wavelengths=wl, values=values, names=names, units=out_units,
+                        units_reason=reason, warnings=warnings, labels=labels, column_units=list(col_units),
+                        column_reasons=list(col_reasons))
+
+
+def _data_rows(text: str, source: str) -> tuple[list[tuple[int, str]], str | None, list[str] | None]:
+    """(line number, text) of the data rows, the delimiter and the header cells (None without a header),
+    with the size limits checked before any cell is split out."""
     n_lines = text.count("\n") + 1
     if n_lines > MAX_LINES:
         raise InputError(f"{n_lines} lines; at most {MAX_LINES:,} are read", source=source,
@@ -324,14 +227,17 @@ def parse_spectra_text(text: str, source: str, *, kind: str = "transmittance",
     if len(rows) * n_cols > MAX_CELLS:
         raise InputError(f"{len(rows)} rows x {n_cols} columns; at most {MAX_CELLS:,} cells are read",
                          source=source, hint="resample the file or split its columns")
-    if header_cells is not None:
-        for j, h in enumerate(header_cells):
-            if len(h) > MAX_HEADER_CHARS:
-                raise InputError(f"header of column {j + 1} is {len(h):,} characters long "
-                                 f"(at most {MAX_HEADER_CHARS})", source=source, line=1)
+    for j, h in enumerate(header_cells or []):
+        if len(h) > MAX_HEADER_CHARS:
+            raise InputError(f"header of column {j + 1} is {len(h):,} characters long "
+                             f"(at most {MAX_HEADER_CHARS})", source=source, line=1)
+    return rows, delim, header_cells
+
+
+def _cells(rows: list[tuple[int, str]], delim: str | None, n_cols: int, source: str) -> np.ndarray:
+    """Every cell as a finite number, (n_rows, n_cols); InputError naming the line and column otherwise."""
     decimal_comma = delim != ","
     data = np.empty((len(rows), n_cols))
-    line_numbers = np.array([n for n, _ in rows])
     for r, (lineno, line) in enumerate(rows):
         cells = _split(line, delim)
         if delim is not None and len(cells) > n_cols and all(c == "" for c in cells[n_cols:]):
@@ -350,14 +256,12 @@ def parse_spectra_text(text: str, source: str, *, kind: str = "transmittance",
                 raise InputError(f"'{clip_text(cell)}' is not a finite number", source=source, line=lineno,
                                  column=c + 1, hint="remove NaN/inf values or fill them with measurements")
             data[r, c] = v
-    warnings: list[str] = []
-    wl = data[:, 0]
-    values = data[:, 1:].T.copy()
-    stem = pathlib.Path(source).name
-    labels: list = [None] * (n_cols - 1)
-    if header_cells is not None and len(header_cells) == n_cols:
-        labels = [h or None for h in header_cells[1:]]
-    names = [lab if lab else (stem if n_cols == 2 else f"{stem}:{j + 1}") for j, lab in enumerate(labels)]
+    return data
+
+
+def _checked_wavelengths(wl: np.ndarray, values: np.ndarray, line_numbers: np.ndarray, source: str,
+                         warnings: list) -> tuple[np.ndarray, np.ndarray]:
+    """Wavelengths sorted (with a warning), unique, in nm and covering :data:`REQUIRED_RANGE`; values to match."""
     if len(wl) < 2:
         raise InputError("fewer than 2 data points", source=source, hint="a curve needs at least 2 wavelengths")
     order = np.argsort(wl, kind="stable")
@@ -383,55 +287,9 @@ def parse_spectra_text(text: str, source: str, *, kind: str = "transmittance",
                          hint=f"measure at least {lo:g}-{hi:g} nm")
     step = float(np.max(np.diff(wl)))
     if step > COARSE_STEP_NM:
-        warnings.append(f"sampling up to {step:g} nm is coarser than {COARSE_STEP_NM:g} nm; narrow notches may be missed")
-
-    if kind == "spd":
-        out_units, reason = "relative", "spectral power distribution (relative)"
-        col_units, col_reasons = [out_units] * values.shape[0], [reason] * values.shape[0]
-        if np.any(values < 0):
-            neg = int(np.sum(values < 0))
-            scale = float(np.max(np.abs(values))) or 1.0
-            if np.min(values) < -NOISE_TOLERANCE * scale:
-                raise InputError("spectral power has large negative values", source=source,
-                                 hint="an SPD must be non-negative")
-            values = np.clip(values, 0, None)
-            warnings.append(f"clipped {neg} small negative values to 0 (instrument noise)")
-    else:
-        col_units, col_reasons, notes = _decide_units(values, labels, kind, units, source, units_given_by)
-        warnings += notes
-        for j, u in enumerate(col_units):
-            if u == "od" and float(values[j].max()) > OD_MAX:
-                k = int(np.argmax(values[j]))
-                warnings.append(f"column {j + 2}: optical density {values[j, k]:.3g} at {wl[k]:g} nm is beyond what "
-                                f"spectrophotometers measure (about {OD_MAX:g}); read as no transmission")
-            values[j] = _convert(values[j], u)
-        for j in range(values.shape[0]):
-            col = values[j]
-            if np.min(col) < -NOISE_TOLERANCE:
-                k = int(np.argmin(col))
-                raise InputError(f"value {col[k]:.3g} at {wl[k]:g} nm is far below 0 after reading as "
-                                 f"{col_units[j]}", source=source, column=j + 2,
-                                 hint="check the units (--units fraction|percent|od)")
-            if np.max(col) > 1 + NOISE_TOLERANCE:
-                k = int(np.argmax(col))
-                raise InputError(f"value {col[k]:.3g} at {wl[k]:g} nm is far above 1 after reading as "
-                                 f"{col_units[j]}", source=source, column=j + 2,
-                                 hint="check the units (--units fraction|percent|od)")
-        neg = int(np.sum(values < 0))
-        if neg:
-            warnings.append(f"clipped {neg} small negative values to 0 (instrument noise)")
-        over = int(np.sum(values > 1))
-        if over:
-            warnings.append(f"clipped {over} values slightly above 1 to 1 (instrument noise)")
-        values = np.clip(values, 0.0, 1.0)
-        distinct = list(dict.fromkeys(col_units))
-        out_units = distinct[0] if len(distinct) == 1 else "mixed"
-        reasons = list(dict.fromkeys(col_reasons))
-        reason = reasons[0] if len(reasons) == 1 else "; ".join(
-            f"column {j + 2}: {u} ({r})" for j, (u, r) in enumerate(zip(col_units, col_reasons)))
-    return SpectraTable(source=source, wavelengths=wl, values=values, names=names, units=out_units,
-                        units_reason=reason, warnings=warnings, labels=labels, column_units=list(col_units),
-                        column_reasons=list(col_reasons))
+        warnings.append(f"sampling up to {step:g} nm is coarser than {COARSE_STEP_NM:g} nm; narrow notches may be "
+                        "missed")
+    return wl, values
 
 
 def _read_tm2714(path: pathlib.Path, kind: str, units: str | None, given_by: str) -> SpectraTable:

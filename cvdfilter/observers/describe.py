@@ -8,14 +8,21 @@ Public: :func:`describe_observer`, :func:`describe_observers`, :func:`describe_p
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from ..spectra.grid import DEFAULT_GRID, Grid
+from .anomalous import CONE_INDEX, TOWARD
 from .observer import Observer, observer as _make_observer
 
 __all__ = ["describe_observer", "describe_observers", "describe_population"]
 
 _CONES = ("L", "M", "S")
+#: The simulation each kind of observer gets by default, as inspect-observer reports it.
+_DEFAULT_SIMULATION = {"normal": "identity",
+                       "dichromat": "brettel1997 (API default); brettel-adapted in render, figures and reports",
+                       "anomalous": "machado2009"}
 
 
 def _peak_nm(wl: np.ndarray, values: np.ndarray) -> float:
@@ -41,9 +48,8 @@ def _pigment_peaks(obs: Observer) -> tuple[dict | None, str]:
         if obs.params.get("model") == "machado2009":
             return ({c: float(p) for c, p in zip(_CONES, peaks)},
                     "Machado 2009 shifts the fundamental, not the pigment; normal pigment peaks shown")
-        from .observer import _CONE, _TOWARD
-
-        k, other = _CONE[obs.deficiency], _TOWARD[obs.deficiency]
+        d = str(obs.deficiency)  # anomalous: never None
+        k, other = CONE_INDEX[d], TOWARD[d]
         peaks = peaks.copy()
         peaks[k] += np.sign(peaks[other] - peaks[k]) * obs.params["pigment_shift"]
     return ({c: float(p) for c, p in zip(_CONES, peaks)},
@@ -86,14 +92,14 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
     >>> d["affected_cone"], [round(p["wavelength_nm"]) for p in d["neutral_points"]]
     ('M', [498])
     """
-    from .confusion import copunctal_point, neutral_points, xy_system_for
+    from .copunctal import neutral_points, xy_system_for
 
     obs = _make_observer(spec, grid) if not isinstance(spec, Observer) else spec
     wl = obs.wavelengths
     base = obs.base if obs.base is not None else obs
     pig, pig_note = _pigment_peaks(obs)
     notes = [pig_note]
-    out = {
+    out: dict[str, Any] = {
         "spec": obs.spec,
         "kind": obs.kind,
         "deficiency": obs.deficiency,
@@ -112,53 +118,62 @@ def describe_observer(spec, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
         "xy_system": xy_system_for(base),
         "copunctal_point": None,
         "neutral_points": [],
-        "simulation": {"normal": "identity",
-                       "dichromat": "brettel1997 (API default); brettel-adapted in render, figures and reports",
-                       "anomalous": "machado2009"}[obs.kind],
+        "simulation": _DEFAULT_SIMULATION[obs.kind],
     }
     if obs.kind == "anomalous" and obs.deficiency != "tritan":
-        from .observer import _CONE, _TOWARD
-
         fp = out["fundamental_peaks_nm"]
-        k, other = _CONES[_CONE[obs.deficiency]], _CONES[_TOWARD[obs.deficiency]]
+        d = str(obs.deficiency)
+        k, other = _CONES[CONE_INDEX[d]], _CONES[TOWARD[d]]
         out["fundamental_separation_nm"] = abs(fp[k] - fp[other])
-    if obs.kind == "anomalous" and obs.params.get("model") == "shift":
-        if obs.params["shift_measure"] == "fundamental peak":
-            own = ("" if (obs.params["age"], obs.params["field"]) == (32.0, 2.0) else
-                   f" (at this observer's own age and field the peaks are "
-                   f"{out['fundamental_separation_nm']:.2f} nm apart: lens and macula move them too)")
-            notes.append(f"shift: the {out['affected_cone']} fundamental's peak moves {obs.params['shift']:.2f} nm "
-                         f"toward the other cone's in the CIE 2006 observer at 32 years and 2 deg, leaving "
-                         f"{obs.params['separation']:.2f} of {obs.params['normal_separation']:.2f} nm between "
-                         f"the peaks{own}; the pigment itself moves {obs.params['pigment_shift']:.2f} nm")
-        else:
-            notes.append(f"shift: the S pigment's peak moves {obs.params['shift']:.2f} nm toward M, leaving "
-                         f"{obs.params['separation']:.2f} of {obs.params['normal_separation']:.2f} nm between "
-                         "the pigment peaks")
+    notes += _shift_notes(obs, out)
     if obs.kind == "dichromat":
-        notes.append(f"reduction dichromat: the {_CONES[obs.missing_cone]} cone is absent; "
+        notes.append(f"reduction dichromat: the {_CONES[CONE_INDEX[str(obs.deficiency)]]} cone is absent; "
                      "its fundamental is kept only for reference")
     if obs.deficiency is not None:
-        out["copunctal_point"] = copunctal_point(obs)
-        if obs.kind == "anomalous":
-            notes.append("copunctal point: where this observer's lines of poorest discrimination converge "
-                         "(the base observer's dichromatic copunctal point)")
-        from .confusion import XY_SYSTEMS, lms_to_xyz_matrix, xy_cmfs
-
-        _, resid = lms_to_xyz_matrix(base.fundamentals, xy_cmfs(out["xy_system"], obs.grid, observer=obs))
-        out["copunctal_fit_residual"] = resid
-        if out["xy_system"].startswith("own"):
-            notes.append(f"xy system: this observer's own cone-fundamental-based chromaticity "
-                         f"({XY_SYSTEMS[out['xy_system']].split(': ')[1]})")
-        if resid > 1e-3:
-            notes.append(f"copunctal point: best linear fit of these fundamentals to the {out['xy_system']} "
-                         f"CMFs (relative RMS misfit {resid:.3f}); confusion lines are only roughly straight "
-                         "in that diagram")
+        notes += _copunctal(obs, base, out)
     if obs.kind == "dichromat":
         out["neutral_points"] = [{"wavelength_nm": p["wavelength"], "xy": p["xy"]}
                                  for p in neutral_points(obs, white)]
     out["notes"] = notes
     return out
+
+
+def _shift_notes(obs: Observer, out: dict) -> list[str]:
+    """What the shifted-pigment model's shift means for this observer (none for other models)."""
+    if not (obs.kind == "anomalous" and obs.params.get("model") == "shift"):
+        return []
+    if obs.params["shift_measure"] == "fundamental peak":
+        own = ("" if (obs.params["age"], obs.params["field"]) == (32.0, 2.0) else
+               f" (at this observer's own age and field the peaks are "
+               f"{out['fundamental_separation_nm']:.2f} nm apart: lens and macula move them too)")
+        return [f"shift: the {out['affected_cone']} fundamental's peak moves {obs.params['shift']:.2f} nm "
+                f"toward the other cone's in the CIE 2006 observer at 32 years and 2 deg, leaving "
+                f"{obs.params['separation']:.2f} of {obs.params['normal_separation']:.2f} nm between "
+                f"the peaks{own}; the pigment itself moves {obs.params['pigment_shift']:.2f} nm"]
+    return [f"shift: the S pigment's peak moves {obs.params['shift']:.2f} nm toward M, leaving "
+            f"{obs.params['separation']:.2f} of {obs.params['normal_separation']:.2f} nm between "
+            "the pigment peaks"]
+
+
+def _copunctal(obs: Observer, base: Observer, out: dict) -> list[str]:
+    """Fill ``out``'s copunctal point and fit residual; returns the notes on them."""
+    from .copunctal import XY_SYSTEMS, copunctal_point, lms_to_xyz_matrix, xy_cmfs
+
+    notes = []
+    out["copunctal_point"] = copunctal_point(obs)
+    if obs.kind == "anomalous":
+        notes.append("copunctal point: where this observer's lines of poorest discrimination converge "
+                     "(the base observer's dichromatic copunctal point)")
+    _, resid = lms_to_xyz_matrix(base.fundamentals, xy_cmfs(out["xy_system"], obs.grid, observer=obs))
+    out["copunctal_fit_residual"] = resid
+    if out["xy_system"].startswith("own"):
+        notes.append(f"xy system: this observer's own cone-fundamental-based chromaticity "
+                     f"({XY_SYSTEMS[out['xy_system']].split(': ')[1]})")
+    if resid > 1e-3:
+        notes.append(f"copunctal point: best linear fit of these fundamentals to the {out['xy_system']} "
+                     f"CMFs (relative RMS misfit {resid:.3f}); confusion lines are only roughly straight "
+                     "in that diagram")
+    return notes
 
 
 def describe_observers(specs, *, white="D65", grid: Grid = DEFAULT_GRID) -> dict:
@@ -222,18 +237,18 @@ def describe_population(spec, *, grid: Grid = DEFAULT_GRID) -> dict:
     >>> d["population"], abs(d["fundamental_peaks_nm"]["L"]["p50"] - 570.2) < 3
     ({'n': 50, 'variation': 'asano2016', 'seed': 1}, True)
     """
-    from .population import _DEVIATIONS, PARAMETERS, VARIATIONS, population
+    from .population import DEVIATIONS, PARAMETERS, VARIATIONS, population
 
     pop = population(spec, grid)
     peaks = _grid_peaks(pop.wavelengths, pop.fundamentals)  # (n, 3)
-    out = {
+    out: dict[str, Any] = {
         "spec": pop.spec,
         "population": {"n": pop.n, "variation": pop.variation, "seed": pop.seed},
         "kind": pop.kind,
         "deficiency": pop.deficiency,
         "centre": pop.centre.spec,
         "separation_sd_nm": pop.separation_sd,
-        "standard_deviations": dict(zip(_DEVIATIONS, VARIATIONS[pop.variation])),
+        "standard_deviations": dict(zip(DEVIATIONS, VARIATIONS[pop.variation])),
         "parameters": {k: {"unit": PARAMETERS[k][0], **_spread(v)} for k, v in pop.parameters.items()},
         "fundamental_peaks_nm": {c: _spread(peaks[:, i]) for i, c in enumerate(_CONES)},
         "fundamental_separation_nm": None,
@@ -241,16 +256,13 @@ def describe_population(spec, *, grid: Grid = DEFAULT_GRID) -> dict:
                   "peaks on the grid refined by a parabola"],
     }
     if pop.kind == "anomalous" and pop.deficiency != "tritan":
-        from .observer import _CONE, _TOWARD
-
-        k, other = _CONE[pop.deficiency], _TOWARD[pop.deficiency]
+        d = str(pop.deficiency)
+        k, other = CONE_INDEX[d], TOWARD[d]
         out["fundamental_separation_nm"] = _spread(np.abs(peaks[:, k] - peaks[:, other]))
         out["notes"].append("separation_nm is drawn on the reference measure (32 years, 2 deg, before the "
                             "individual peak shifts); fundamental_separation_nm is each member's own")
     if pop.kind == "dichromat":
-        out["notes"].append(f"reduction dichromats: the {_CONES[_CONE_MISSING[pop.deficiency]]} cone carries "
+        out["notes"].append(f"reduction dichromats: the {_CONES[CONE_INDEX[str(pop.deficiency)]]} cone carries "
                             "no signal (its parameters are drawn so every kind shares the seed's physiology)")
     return out
 
-
-_CONE_MISSING = {"protan": 0, "deutan": 1, "tritan": 2}

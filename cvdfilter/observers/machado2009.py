@@ -39,6 +39,8 @@ import functools
 
 import numpy as np
 
+from .anomalous import CONE_INDEX as _CONE
+
 __all__ = ["machado_fundamentals", "machado_peak_factors", "machado_shifted", "machado_shift_nm",
            "machado_severity", "max_shift_nm", "MAX_SHIFT_NM", "TRITAN_SHIFTS_NM"]
 
@@ -50,8 +52,6 @@ TRITAN_SHIFTS_NM = ((0.0, 0.1, 0.2, 0.3, 0.4, 0.5, 0.6, 0.7, 0.8, 0.9, 1.0),
                     (0.0, 5.0, 11.0, 17.0, 23.0, 29.0, 35.0, 41.0, 47.0, 53.0, 59.0))
 #: Machado et al.'s factor in the L/M blend (errata).
 _FACTOR = 0.96
-
-_CONE = {"protan": 0, "deutan": 1, "tritan": 2}
 
 
 def max_shift_nm(deficiency: str) -> float:

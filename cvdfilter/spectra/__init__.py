@@ -1,1 +1,55 @@
-"""Spectra: the wavelength grid, filters, illuminants and surface sets."""
+"""Spectra: the wavelength grid, filters, illuminants, surface sets and synthetic scenes.
+
+Public names are exported here lazily (imported on first use, so ``cvdfilter --help`` stays fast); each
+lives in the submodule :data:`_LAZY` names.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+_LAZY = {
+    "Grid": ".grid",
+    "DEFAULT_GRID": ".grid",
+    "resample": ".grid",
+    "FilterSet": ".filters",
+    "load_filters": ".filters",
+    "parse_filter_spec": ".filters",
+    "find_features": ".filters",
+    "find_notches": ".filters",
+    "gaussian_notch": ".filters",
+    "flat_notch": ".filters",
+    "longpass": ".filters",
+    "shortpass": ".filters",
+    "neutral_density": ".filters",
+    "FILTER_SHAPES": ".filters",
+    "SPEC_FORMS": ".filters",
+    "Illuminant": ".illuminants",
+    "illuminant": ".illuminants",
+    "illuminant_names": ".illuminants",
+    "ILLUMINANT_KINDS": ".illuminants",
+    "SurfaceSet": ".surfaces",
+    "surface_set": ".surfaces",
+    "SURFACE_SETS": ".surfaces",
+    "SURFACE_SET_KINDS": ".surfaces",
+    "synthetic_scene": ".scenes",
+    "write_scene": ".scenes",
+    "cached_arrays": ".cache",
+    "memo_arrays": ".cache",
+}
+
+__all__ = list(_LAZY)
+
+
+def __getattr__(name: str) -> Any:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(module, __name__), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

@@ -10,13 +10,15 @@ Spec strings::
     D65@0.7+A@0.3              a mixture; each part is scaled to equal luminance (CIE 1931
                                2 deg Y) and weighted, so the weights are luminance fractions
 
-Public: :class:`Illuminant`, :func:`illuminant`, :func:`illuminant_names`.
+Public: :class:`Illuminant`, :class:`IlluminantKind`, :func:`illuminant`, :func:`illuminant_names`,
+:data:`ILLUMINANT_KINDS`, :data:`CIE_ILLUMINANTS`, :data:`LAMPS`.
 """
 
 from __future__ import annotations
 
 import pathlib
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,7 +27,8 @@ from ..errors import InputError
 from .cache import cached_arrays, memo_arrays
 from .grid import DEFAULT_GRID, Grid
 
-__all__ = ["Illuminant", "illuminant", "illuminant_names", "CIE_ILLUMINANTS", "LAMPS"]
+__all__ = ["Illuminant", "IlluminantKind", "illuminant", "illuminant_names", "CIE_ILLUMINANTS", "LAMPS",
+           "ILLUMINANT_KINDS"]
 
 #: CIE illuminants offered by name (colour.SDS_ILLUMINANTS keys).
 CIE_ILLUMINANTS = (["D50", "D55", "D65", "D75", "A", "E"] + [f"FL{i}" for i in range(1, 13)]
@@ -59,8 +62,9 @@ class Illuminant:
 
 
 def illuminant_names() -> dict[str, list[str]]:
+    """What ``cvdfilter list illuminants`` shows: the named tables, the parametric kinds, the mixture form."""
     return {"cie": list(CIE_ILLUMINANTS), "lamps": list(LAMPS),
-            "parametric": ["daylight:cct=K", "planck:t=K"], "mixture": ["NAME@WEIGHT+NAME@WEIGHT"]}
+            "parametric": [k.form for k in ILLUMINANT_KINDS.values()], "mixture": ["NAME@WEIGHT+NAME@WEIGHT"]}
 
 
 def _lookup(name: str) -> tuple[str, str] | None:
@@ -117,6 +121,57 @@ def _planck(t: float, grid: Grid) -> np.ndarray:
     return memo_arrays(f"planck-{t:g}-{grid.key()}", build)["spd"]  # a user's parameter: not on disk
 
 
+@dataclass(frozen=True)
+class IlluminantKind:
+    """A parametric kind of light: ``NAME:KEY=VALUE`` with one number.
+
+    Attributes
+    ----------
+    form : str
+        As ``cvdfilter list illuminants`` shows it.
+    canonical : str
+        Format of the canonical name, ``{value:g}`` filled in.
+    source : str
+        Where the spectrum comes from.
+    build : callable
+        ``build(value, grid)`` -> relative spectral power (n_wl,); refuses a value out of range.
+    """
+
+    form: str
+    canonical: str
+    source: str
+    build: Callable[[float, Grid], np.ndarray]
+
+
+#: Every parametric kind of light, by the spec's kind word. The parser (:func:`illuminant`), ``list`` and the
+#: docs read this mapping; a new kind is a builder and one entry here.
+ILLUMINANT_KINDS = {
+    "daylight": IlluminantKind("daylight:cct=K", "daylight:cct={value:g}", "colour-science: CIE daylight", _daylight),
+    "planck": IlluminantKind("planck:t=K", "planck:t={value:g}", "colour-science: Planckian radiator", _planck),
+}
+#: Other spellings of the kind words, and the parameter keys every kind accepts.
+_KIND_ALIASES = {"blackbody": "planck"}
+_KIND_KEYS = ("cct", "t")
+
+
+def _parametric(part: str) -> tuple[str, str] | None:
+    """(kind, number text) if ``part`` has the form KIND:KEY=NUMBER of a registered kind, else None."""
+    kinds = "|".join(re.escape(k) for k in (*ILLUMINANT_KINDS, *_KIND_ALIASES))
+    m = re.fullmatch(rf"({kinds}):({'|'.join(_KIND_KEYS)})=([0-9.eE+-]+)", part, flags=re.I)
+    if not m:
+        return None
+    kind = m.group(1).lower()
+    return _KIND_ALIASES.get(kind, kind), m.group(3)
+
+
+def _is_mixture(spec: str) -> bool:
+    """Whether a spec has the mixture form: parts joined by '+', one of them at least a named or parametric
+    light or carrying an @WEIGHT (so a file whose name holds '+' and names no light stays one file)."""
+    if "+" not in spec:
+        return False
+    return any("@" in p or _lookup(p.strip()) or _parametric(p.strip()) for p in spec.split("+"))
+
+
 def _luminance_Y(spd: np.ndarray, grid: Grid) -> float:
     from ..observers.fundamentals import cie1931_cmfs
 
@@ -137,30 +192,30 @@ def _one(part: str, grid: Grid) -> tuple[str, np.ndarray, str]:
         name, table = found
         src = f"colour-science: {'CIE illuminant' if table == 'cie' else 'lamp'} {name}"
         return name, _named_spd(name, table, grid), src
-    m = re.fullmatch(r"(daylight|planck|blackbody):(cct|t)=([0-9.eE+-]+)", part, flags=re.I)
-    if m:
+    found_kind = _parametric(part)
+    if found_kind:
+        kind_name, text = found_kind
         try:
-            value = float(m.group(3))
+            value = float(text)
         except ValueError:
-            raise InputError(f"{m.group(3)} is not a number", source=part) from None
-        if m.group(1).lower() == "daylight":
-            return f"daylight:cct={value:g}", _daylight(value, grid), "colour-science: CIE daylight"
-        return f"planck:t={value:g}", _planck(value, grid), "colour-science: Planckian radiator"
+            raise InputError(f"{text} is not a number", source=part) from None
+        kind = ILLUMINANT_KINDS[kind_name]
+        return kind.canonical.format(value=value), kind.build(value, grid), kind.source
     path = pathlib.Path(part)
     if path.exists():
         from ..io.spectra_files import read_spectra
         from .grid import resample
 
-        table = read_spectra(path, kind="spd")
-        if len(table.names) != 1:
-            raise InputError(f"holds {len(table.names)} spectra; an illuminant file needs exactly one value column",
+        spectra = read_spectra(path, kind="spd")
+        if len(spectra.names) != 1:
+            raise InputError(f"holds {len(spectra.names)} spectra; an illuminant file needs exactly one value column",
                              source=str(path))
-        spd = resample(table.wavelengths, table.values[0], grid, method="linear", outside="zero")
+        spd = resample(spectra.wavelengths, spectra.values[0], grid, method="linear", outside="zero")
         return str(path), spd, f"file {path}"
     from ..errors import clip_text, did_you_mean
 
     close = did_you_mean(part.partition(":")[0] if ":" in part else part,
-                         [*CIE_ILLUMINANTS, *LAMPS, "daylight", "planck"])
+                         [*CIE_ILLUMINANTS, *LAMPS, *ILLUMINANT_KINDS])
     raise InputError(f"unknown illuminant '{clip_text(part)}'" + (f"; {close}" if close else ""),
                      hint="try D65, A, FL2, LPS, daylight:cct=5000, planck:t=2856 or a file "
                           "(cvdfilter list illuminants)")
@@ -177,7 +232,7 @@ def illuminant(spec: str | Illuminant = "D65", grid: Grid = DEFAULT_GRID) -> Ill
     if isinstance(spec, Illuminant):
         return spec
     spec = str(spec).strip()
-    parts = [p for p in spec.split("+")] if "+" in spec and not pathlib.Path(spec).exists() else [spec]
+    parts = spec.split("+") if _is_mixture(spec) else [spec]
     if len(parts) == 1 and "@" not in spec:
         name, spd, src = _one(spec, grid)
         return Illuminant(name, _normalised(spd, grid, spec), grid, src)

@@ -414,14 +414,7 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
     from ..spectra.filters import load_filters
     from ..spectra.illuminants import illuminant as make_illuminant
 
-    task_list = tuple(dict.fromkeys([tasks] if isinstance(tasks, str) else tasks))
-    for t in task_list:
-        if t not in TASKS:
-            raise InputError(f"unknown task '{t}'", source=str(t), hint="use " + ", ".join(TASKS))
-    if isinstance(trials, bool) or int(trials) != trials or trials < 1:
-        raise InputError(f"trials must be a whole number >= 1, got {trials}", source="--trials")
-    if not trial_noise > 0:
-        raise InputError(f"trial noise must be > 0, got {trial_noise}", source="--trial-noise")
+    task_list = _check_tasks(tasks, trials, trial_noise)
     fs = load_filters(filters, grid=grid)
     ill = make_illuminant(illuminant, grid)
     members = [_members(o, grid) for o in ([observers] if isinstance(observers, str) else observers)]
@@ -449,12 +442,7 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
                 scores[(t, m.name)] = arrangement_scores(t, fund, e, weights, uv_by_task[t], z_by_task[t],
                                                          trial_noise=trial_noise, grid=grid)
             elif t == "plates":
-                p = rnl_transform(e)
-                refl = np.stack([pl.reflectance for pl in plates])  # (P, D, n_wl)
-                catches = np.einsum("pdw,fw,mwc->fmpdc", refl, weights, fund)
-                y = np.log(np.maximum(catches, 1e-300)) @ p.T
-                leg = np.stack([legibility(y[:, :, i], pl.figure) for i, pl in enumerate(plates)], axis=-1)
-                scores[(t, m.name)] = {"legibility": leg}
+                scores[(t, m.name)] = _plate_scores(plates, weights, fund, e)
             else:
                 # the filter sits in front of the instrument: it scales the primaries, not the room light
                 r = rayleigh_match(fund[None], grid.wavelengths, e, transmittance=transmittance[:, None, :],
@@ -462,17 +450,46 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
                 scores[(t, m.name)] = r
     info = tuple({"source": s, **{k: v for k, v in i.items() if k in ("spec", "path", "units", "sha256")}}
                  for s, i in zip(fs.sources or ("",) * len(fs), fs.info or ({},) * len(fs)))
-    settings = {"trials": int(trials), "seed": int(seed), "illuminant": ill.name, "cap_uv": uv_by_task,
-                "models": {"weber_fraction": weber_fraction, "cone_ratios": list(cone_ratios),
-                           "trial_noise": trial_noise, "arrangement_margin": ARRANGEMENT_MARGIN,
-                           "plate_read_threshold": READ_THRESHOLD, "plate_margin": PLATE_MARGIN,
-                           "rayleigh_margin": RAYLEIGH_MARGIN, "rayleigh_match_threshold_jnd": MATCH_THRESHOLD,
-                           "robustness_factors": list(ROBUSTNESS_FACTORS),
-                           "rayleigh_primaries_nm": dict(PRIMARIES_NM), "rayleigh_primary_fwhm_nm": PRIMARY_FWHM_NM,
-                           "rayleigh_calibration": calibration,
-                           "arrangement_scoring": "moment method, Vingrys & King-Smith 1988, CIELUV u*v* under "
-                                                  "the illuminant (CIE 1931 2 deg)",
-                           "discrimination": "receptor-noise-limited model, Vorobyev & Osorio 1998",
-                           "caps": "Munsell renotation colours (colour-science), reflectances by Jakob & Hanika "
-                                   "2019; our own design"}}
+    settings = _settings(trials, seed, ill.name, uv_by_task, weber_fraction, cone_ratios, trial_noise, calibration)
     return TaskResult(tuple(fs.names), info, tuple(names), task_list, scores, settings)
+
+
+def _check_tasks(tasks, trials, trial_noise) -> tuple:
+    """The tasks asked for, each once, after checking them and the trial settings up front."""
+    task_list = tuple(dict.fromkeys([tasks] if isinstance(tasks, str) else tasks))
+    for t in task_list:
+        if t not in TASKS:
+            raise InputError(f"unknown task '{t}'", source=str(t), hint="use " + ", ".join(TASKS))
+    if isinstance(trials, bool) or int(trials) != trials or trials < 1:
+        raise InputError(f"trials must be a whole number >= 1, got {trials}", source="--trials")
+    if not trial_noise > 0:
+        raise InputError(f"trial noise must be > 0, got {trial_noise}", source="--trial-noise")
+    return task_list
+
+
+def _plate_scores(plates, weights: np.ndarray, fund: np.ndarray, e: np.ndarray) -> dict:
+    """Legibility of every plate, (filters, members, plates), in the receptor-noise space."""
+    p = rnl_transform(e)
+    refl = np.stack([pl.reflectance for pl in plates])  # (P, D, n_wl)
+    catches = np.einsum("pdw,fw,mwc->fmpdc", refl, weights, fund)
+    y = np.log(np.maximum(catches, 1e-300)) @ p.T
+    leg = np.stack([legibility(y[:, :, i], pl.figure) for i, pl in enumerate(plates)], axis=-1)
+    return {"legibility": leg}
+
+
+def _settings(trials, seed, illuminant_name: str, uv_by_task: dict, weber_fraction, cone_ratios, trial_noise,
+              calibration) -> dict:
+    """Every setting and model constant of a run, for the result's JSON."""
+    return {"trials": int(trials), "seed": int(seed), "illuminant": illuminant_name, "cap_uv": uv_by_task,
+            "models": {"weber_fraction": weber_fraction, "cone_ratios": list(cone_ratios),
+                       "trial_noise": trial_noise, "arrangement_margin": ARRANGEMENT_MARGIN,
+                       "plate_read_threshold": READ_THRESHOLD, "plate_margin": PLATE_MARGIN,
+                       "rayleigh_margin": RAYLEIGH_MARGIN, "rayleigh_match_threshold_jnd": MATCH_THRESHOLD,
+                       "robustness_factors": list(ROBUSTNESS_FACTORS),
+                       "rayleigh_primaries_nm": dict(PRIMARIES_NM), "rayleigh_primary_fwhm_nm": PRIMARY_FWHM_NM,
+                       "rayleigh_calibration": calibration,
+                       "arrangement_scoring": "moment method, Vingrys & King-Smith 1988, CIELUV u*v* under "
+                                              "the illuminant (CIE 1931 2 deg)",
+                       "discrimination": "receptor-noise-limited model, Vorobyev & Osorio 1998",
+                       "caps": "Munsell renotation colours (colour-science), reflectances by Jakob & Hanika "
+                               "2019; our own design"}}

@@ -15,8 +15,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .observers.operator import PiecewiseLinear
-from .spectra.cache import cached_arrays
+from ..observers.operator import PiecewiseLinear
+from ..spectra.cache import cached_arrays
 
 __all__ = ["decode_srgb", "encode_srgb", "TILE_PIXELS"]
 

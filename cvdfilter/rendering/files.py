@@ -5,21 +5,23 @@ What ``cvdfilter render`` runs per input (in worker processes with ``--jobs``); 
 :class:`cvdfilter.rendering.Renderer`. :mod:`cvdfilter.rendering` re-exports the public names.
 
 Public: :func:`render_file`, :func:`output_suffix`, :func:`output_dtype`, :func:`panel_titles`,
-:func:`panel_footer`, :func:`file_checksum`, :func:`settings_fingerprint`, :func:`output_fingerprint`.
+:func:`panel_footer`, :func:`file_checksum`, :func:`settings_fingerprint`, :func:`output_fingerprint`,
+:func:`read_render_input`.
 """
 
 from __future__ import annotations
 
 import pathlib
+from collections.abc import Callable
 
 import numpy as np
 
-from .errors import InputError
-from . import rendering as _rendering
-from .rendering import OUTPUT_FORMATS, VIEW_TITLES, VIEWS, Renderer
+from ..errors import InputError
+from .renderer import Renderer
+from .views import OUTPUT_FORMATS, VIEW_TITLES, VIEWS
 
 __all__ = ["render_file", "output_suffix", "output_dtype", "panel_titles", "panel_footer", "file_checksum",
-           "settings_fingerprint", "output_fingerprint"]
+           "settings_fingerprint", "output_fingerprint", "read_render_input"]
 
 
 def output_suffix(fmt: str, input_path) -> str:
@@ -47,7 +49,7 @@ def output_dtype(fmt: str, pixels_dtype, *, cube: bool = False) -> np.dtype:
 
 def panel_titles(renderer: Renderer) -> dict:
     """Panel captions for a renderer's settings (the observer by its readable label)."""
-    from .observers.labels import observer_label
+    from ..observers.labels import observer_label
 
     obs = observer_label(renderer.observer)
     flt = renderer.filter_name or "no filter"
@@ -73,7 +75,7 @@ def file_checksum(path) -> str:
     """SHA-256 of a file's bytes, hex (read in blocks; a pipe or device is refused)."""
     import hashlib
 
-    from .io.images import regular_file
+    from ..io.images import regular_file
 
     p = regular_file(path)
     h = hashlib.sha256()
@@ -158,57 +160,32 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         (view -> path), ``panel``, ``clipped_pixels`` (view -> count),
         ``fingerprints`` (view or ``panel`` -> fingerprint, those given), ``warnings``.
     """
-    from ._version import __version__
-    from .io.cubes import Cube
-    from .io.images import write_image
+    from .._version import __version__
+    from ..io.cubes import Cube
+    from ..io.images import write_image
 
     p = pathlib.Path(path)
-    data = _read_input(p, cube_kind=cube_kind, wavelengths=wavelengths, max_megapixels=max_megapixels)
+    data = read_render_input(p, cube_kind=cube_kind, wavelengths=wavelengths, max_megapixels=max_megapixels)
     cube = isinstance(data, Cube)
     guard = [str(x) for x in inputs] + [str(p)]
     settings = renderer.describe()
     fps = dict(fingerprints or {})
-    record = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
-              "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
+    record, out_dtype = _input_record(p, data, fmt)
     if input_sha256 is not None:
         record["input_sha256"] = input_sha256
-
-    def stamp(key: str) -> dict:
-        extra = {"fingerprint": fps[key]} if key in fps else {}
-        if input_sha256 is not None:
-            extra["input_sha256"] = input_sha256
-        return extra
-    if cube:
-        record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
-                      wavelengths=f"{data.wavelengths[0]:g}-{data.wavelengths[-1]:g} nm, {data.bands} bands")
-        out_dtype = output_dtype(fmt, None, cube=True)
-    else:
-        px = data.pixels
-        record.update(width=px.shape[1], height=px.shape[0], bits=data.bits, channels=data.channels)
-        out_dtype = output_dtype(fmt, px.dtype)
-        if fmt == "jpeg" and data.has_alpha:
-            raise InputError("has an alpha channel, which JPEG cannot hold", source=str(p),
-                             hint="use --format png or tiff")
     encoding = "srgb" if out_dtype.kind == "u" else "linear"
     small = {}
     buffer = None
     views = list(outputs)
     for v in views:
-        if cube:
-            arr, clipped = renderer.apply_cube(data, v, dtype=out_dtype)
-        else:
-            px = data.pixels
-            in_place = (len(views) == 1 and panel_path is None and v != "original" and px.ndim == 3
-                        and px.shape[2] in (3, 4) and px.dtype == out_dtype and px.flags.writeable
-                        and data.encoding == encoding)
-            target = px if in_place else buffer
-            arr, clipped = renderer.apply(data, v, dtype=out_dtype, out=target)
-            buffer = arr
+        arr, clipped = _render_view(renderer, data, v, out_dtype, buffer,
+                                    in_place_ok=len(views) == 1 and panel_path is None, encoding=encoding)
+        buffer = None if cube else arr
         record["clipped_pixels"][v] = clipped
         meta = {"Software": f"cvdfilter {__version__}",
                 "cvdfilter": {**settings, "view": v, "input": str(p), "clipped_pixels": clipped,
                               "encoding": "sRGB" if encoding == "srgb" else "linear sRGB (no transfer function)",
-                              "format": fmt, **stamp(v)}}
+                              "format": fmt, **_stamp(fps, v, input_sha256)}}
         write_image(outputs[v], arr, encoding=encoding, metadata=meta, inputs=guard)
         record["outputs"][v] = str(outputs[v])
         if v in fps:
@@ -216,7 +193,8 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
         if panel_path is not None:
             small[v] = _small(arr)
     if panel_path is not None:
-        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png", **stamp("panel")}}
+        meta = {"cvdfilter": {**settings, "view": "panel", "input": str(p), "format": "png",
+                              **_stamp(fps, "panel", input_sha256)}}
         _write_panel(panel_path, renderer, data, small, buffer, out_dtype=out_dtype, metadata=meta, inputs=guard)
         record["panel"] = str(panel_path)
         if "panel" in fps:
@@ -224,10 +202,50 @@ def render_file(path, renderer: Renderer, *, outputs: dict, panel_path=None, fmt
     return record
 
 
-def _read_input(p: pathlib.Path, *, cube_kind, wavelengths, max_megapixels):
-    """An input file as a Cube (cube files, TIFF cubes) or ImageData."""
-    from .io.cubes import is_cube_path, read_cube, tiff_is_cube
-    from .io.images import DEFAULT_MAX_MEGAPIXELS, read_image
+def _stamp(fps: dict, key: str, input_sha256: str | None) -> dict:
+    """What a file's metadata records of its fingerprint and its input's checksum (those known)."""
+    extra = {"fingerprint": fps[key]} if key in fps else {}
+    if input_sha256 is not None:
+        extra["input_sha256"] = input_sha256
+    return extra
+
+
+def _input_record(p: pathlib.Path, data, fmt: str) -> tuple[dict, np.dtype]:
+    """The record of one input (what it is, its size) and the sample type its outputs get."""
+    from ..io.cubes import Cube
+
+    cube = isinstance(data, Cube)
+    record: dict = {"input": str(p), "kind": "cube" if cube else "image", "outputs": {}, "panel": None,
+              "clipped_pixels": {}, "fingerprints": {}, "warnings": list(data.warnings)}
+    if cube:
+        record.update(width=data.width, height=data.height, cube_kind=data.kind, cube_kind_source=data.kind_source,
+                      wavelengths=f"{data.wavelengths[0]:g}-{data.wavelengths[-1]:g} nm, {data.bands} bands")
+        return record, output_dtype(fmt, None, cube=True)
+    px = data.pixels
+    record.update(width=px.shape[1], height=px.shape[0], bits=data.bits, channels=data.channels)
+    if fmt == "jpeg" and data.has_alpha:
+        raise InputError("has an alpha channel, which JPEG cannot hold", source=str(p),
+                         hint="use --format png or tiff")
+    return record, output_dtype(fmt, px.dtype)
+
+
+def _render_view(renderer: Renderer, data, view: str, out_dtype: np.dtype, buffer, *, in_place_ok: bool,
+                 encoding: str) -> tuple[np.ndarray, int]:
+    """One view of a cube, or of an image into ``buffer`` (or in place, when the only output allows it)."""
+    from ..io.cubes import Cube
+
+    if isinstance(data, Cube):
+        return renderer.apply_cube(data, view, dtype=out_dtype)
+    px = data.pixels
+    in_place = (in_place_ok and view != "original" and px.ndim == 3 and px.shape[2] in (3, 4)
+                and px.dtype == out_dtype and px.flags.writeable and data.encoding == encoding)
+    return renderer.apply(data, view, dtype=out_dtype, out=px if in_place else buffer)
+
+
+def read_render_input(p: pathlib.Path, *, cube_kind, wavelengths, max_megapixels):
+    """An input file as a Cube (cube files, TIFF cubes) or ImageData: the one place that tells them apart."""
+    from ..io.cubes import is_cube_path, read_cube, tiff_is_cube
+    from ..io.images import DEFAULT_MAX_MEGAPIXELS, read_image
 
     mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
     tif = p.suffix.lower() in (".tif", ".tiff")
@@ -240,8 +258,8 @@ def _write_panel(panel_path, renderer: Renderer, data, small: dict, buffer, *, o
                  inputs) -> None:
     """The 2x2 panel of every view: ``small`` holds the views already rendered (reduced); the rest are
     rendered here (into ``buffer`` for images)."""
-    from .io.atomic import write_bytes
-    from .io.cubes import Cube
+    from ..io.atomic import write_bytes
+    from ..io.cubes import Cube
 
     cube = isinstance(data, Cube)
     titles = panel_titles(renderer)
@@ -254,6 +272,8 @@ def _write_panel(panel_path, renderer: Renderer, data, small: dict, buffer, *, o
             buffer = None if cube else arr
             small[v] = _small(arr)
     ordered = {v: small[v] for v in VIEWS}
-    # rendering.panel is looked up at call time (the panel lives in rendering.py).
-    write_bytes(panel_path, _rendering.panel(ordered, titles=titles, footer=panel_footer(renderer), metadata=metadata),
+    from .. import rendering  # rendering.panel, looked up at call time (figures/render_panel.py)
+
+    draw: Callable[..., bytes] = rendering.panel
+    write_bytes(panel_path, draw(ordered, titles=titles, footer=panel_footer(renderer), metadata=metadata),
                 inputs=inputs)
