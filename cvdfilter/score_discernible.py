@@ -411,7 +411,7 @@ def discernible_entry(card, i: int, k: int, summary=None) -> dict:
 
     Keys: ``without``, ``with``, ``ratio`` (with / without), ``method``, ``normal_without``,
     ``ratio_to_normal`` (without / normal without), ``ratio_to_normal_with`` (with / normal without),
-    pooled over the stimuli; ``scenes`` (one entry per stimulus, same keys) and ``mean_scene_ratio`` when
+    pooled over the stimuli; ``scenes`` (stimulus name -> the same keys) and ``mean_scene_ratio`` when
     there are several. For a population ``summary(key)`` gives the statistics of a key (its counts and
     ratios become ``{mean, sd, p2_5, p50, p97_5}``).
     """
@@ -440,7 +440,7 @@ def discernible_entry(card, i: int, k: int, summary=None) -> dict:
     if len(stimuli) > 1:
         d["pooled"] = "union"
         d["mean_scene_ratio"] = value("mean_scene_ratio")
-        d["scenes"] = [{"scene": name, **block(f"scene{j}_")} for j, name in enumerate(stimuli)]
+        d["scenes"] = {name: block(f"scene{j}_") for j, name in enumerate(stimuli)}
     if info.get("method") == "cam16ucs":
         d["excluded_pixels"] = value("excluded_pixels", count=True) if summary is None else \
             summary("discernible_excluded_pixels", 0)
