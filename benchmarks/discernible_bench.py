@@ -14,7 +14,8 @@ The API does more: float64 products (so that a model invariance is not broken by
 boundary), the von Kries gains and the simulation's half-space test for dichromats.
 
 Also the scorecard's ``discernible`` group on the same scene, and a 150-filter sweep on the ``munsell`` set
-(filter x observer counts per second). Target (issue 15): at most 2 s. Times are medians; the machine is shared, so read the ratio.
+(filter x observer counts per second). Target (issue 15): at most 2 s. Times are medians; the machine is
+shared, so read the ratio.
 No test asserts any of this.
 """
 

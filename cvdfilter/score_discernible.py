@@ -62,7 +62,7 @@ STORE_KEYS = ("without", "with", "ratio", "normal_without", "ratio_to_normal", "
 @dataclass(frozen=True, eq=False)
 class _Stimulus:
     name: str
-    samples: np.ndarray  # (n_pixels, m)
+    samples: np.ndarray  # (m, n_pixels), contiguous: (k, m) @ (m, n) is the fast product layout
     interpolation: np.ndarray  # (n_wl, m): from the stimulus's bands to the grid
 
 
@@ -98,7 +98,7 @@ class DiscernibleInputs:
 
         d: dict[str, Any] = {
             "method": self.method, "space": DISCERNIBLE_METHODS[self.method], "cube_size": self.cube_size,
-            "stimuli": [{"name": s.name, "pixels": int(s.samples.shape[0]), "bands": int(s.samples.shape[1])}
+            "stimuli": [{"name": s.name, "pixels": int(s.samples.shape[1]), "bands": int(s.samples.shape[0])}
                         for s in self.stimuli],
             "pooled": "union of the stimuli's colours (a cube counts once if any pixel of any stimulus is in "
                       "it); mean_scene_ratio = mean over stimuli of with / without",
@@ -160,10 +160,11 @@ def discernible_inputs(scenes, surfaces, *, method: str = DEFAULT_METHOD, simula
         eye = np.eye(len(wl))
         # linear interpolation onto the grid, held at the end values outside the bands (as the renderer)
         p = np.stack([np.interp(grid.wavelengths, wl, eye[j]) for j in range(len(wl))], axis=1)
-        stimuli.append(_Stimulus(name, np.asarray(cube.data, dtype=float).reshape(-1, len(wl)), p))
+        stimuli.append(_Stimulus(name, np.ascontiguousarray(np.asarray(cube.data, dtype=float).reshape(-1, len(wl)).T),
+                                 p))
         sources.append(name)
     if not stimuli:
-        stimuli.append(_Stimulus(surfaces.name, np.ascontiguousarray(surfaces.reflectance.T, dtype=float),
+        stimuli.append(_Stimulus(surfaces.name, np.ascontiguousarray(surfaces.reflectance, dtype=float),
                                  np.eye(grid.size)))
     names = [s.name for s in stimuli]
     if len(set(names)) != len(names):
@@ -219,28 +220,27 @@ def _coordinates(cond: _Condition, t: np.ndarray, stim: _Stimulus, e: np.ndarray
     # cone weights per pixel band and filter: W[m, k, c] = sum_w p[w, m] e[w] t[k, w] phi[w, c]
     A = stim.interpolation * e[:, None]
     W = (A.T @ (t.T[:, :, None] * phi[:, None, :]).reshape(n_wl, k_rows * 3)).reshape(-1, k_rows, 3)
-    n = stim.samples.shape[0]
+    n = stim.samples.shape[1]
     if cond.kind == "rnl":
         from .metrics.discrimination import log_catches
 
-        q = stim.samples @ (W * gains[None]).reshape(-1, k_rows * 3)  # (n, K*3), adapted cone signals
-        f = log_catches(q).reshape(n, k_rows, 3)
-        return np.einsum("xc,nkc->kxn", cond.space, f), defined
+        wg = np.ascontiguousarray((W * gains[None]).reshape(-1, k_rows * 3).T)  # (K*3, m)
+        f = log_catches(wg @ stim.samples).reshape(k_rows, 3, n)  # ln of the adapted cone signals
+        return np.einsum("xc,kcn->kxn", cond.space, f), defined
     # gains, the simulation, the normal base's scale and LMS -> XYZ folded into 3x3 matrices per filter
     sims = cond.sim.matrices
     mats = np.stack([LMS_TO_XYZ_2DEG @ (cond.w_n[:, None] * sm) for sm in sims])  # (j, 3, 3)
     folded = mats[None] * gains[:, None, None, :]  # (K, j, 3, 3): M_j diag(g_k)
-    cols = [np.einsum("mkc,kxc->mkx", W, folded[:, i]) for i in range(len(sims))]
+    rows = [np.einsum("mkc,kxc->kxm", W, folded[:, i]) for i in range(len(sims))]
     if len(sims) == 2:
         sep = cond.sim.separator[None, :] * gains  # (K, 3)
-        cols.append(np.einsum("mkc,kc->mk", W, sep)[:, :, None])
-    big = np.concatenate(cols, axis=2)  # (m, K, 3 j [+1])
-    out = stim.samples @ big.reshape(big.shape[0], -1)  # (n, K * cols)
-    out = out.reshape(n, k_rows, -1)
-    xyz = out[:, :, 0:3]
+        rows.append(np.einsum("mkc,kc->km", W, sep)[:, None, :])
+    big = np.ascontiguousarray(np.concatenate(rows, axis=1))  # (K, 3 j [+1], m)
+    out = (big.reshape(-1, big.shape[2]) @ stim.samples).reshape(k_rows, big.shape[1], n)
+    xyz = out[:, 0:3]
     if len(sims) == 2:
-        xyz = np.where(out[:, :, 6:7] >= 0, xyz, out[:, :, 3:6])
-    planes = np.ascontiguousarray(np.moveaxis(xyz, 2, 0)).reshape(3, -1)  # (3, n*K)
+        xyz = np.where(out[:, 6:7] >= 0, xyz, out[:, 3:6])
+    planes = np.ascontiguousarray(np.moveaxis(xyz, 1, 0)).reshape(3, -1)  # (3, K*n)
     white_xyz = LMS_TO_XYZ_2DEG @ cond.w_n
     if method == "cam16ucs":
         coords = cam16ucs_planes(planes, white_xyz)
@@ -248,8 +248,9 @@ def _coordinates(cond: _Condition, t: np.ndarray, stim: _Stimulus, e: np.ndarray
         if bad.any():
             coords[:, bad] = np.nan
     else:
-        coords = lab_planes(planes, white_xyz)
-    return np.ascontiguousarray(coords.reshape(3, n, k_rows).transpose(2, 0, 1)), defined
+        # float32 after the ratio to the white, as discernible_colours (equal ratios keep equal values)
+        coords = lab_planes(planes, white_xyz, dtype=np.float32)
+    return np.ascontiguousarray(coords.reshape(3, k_rows, n).transpose(1, 0, 2)), defined
 
 
 def _count(coords: np.ndarray, cube_size: float, keys: bool):
@@ -281,14 +282,17 @@ def _chunk(n_pixels: int) -> int:
 
 
 def _without(cond: _Condition, d: DiscernibleInputs, e: np.ndarray, a: float, n_wl: int) -> tuple:
-    """Counts per stimulus without a filter (n_s,), the occupied cubes per stimulus, undefined colours."""
+    """Counts per stimulus without a filter (n_s,), the occupied cubes per stimulus (several stimuli only),
+    undefined colours."""
     ones = np.ones((1, n_wl))
     counts, parts, excluded = np.zeros(len(d.stimuli)), [], 0
+    pooled = len(d.stimuli) > 1
     for j, stim in enumerate(d.stimuli):
         c, _ = _coordinates(cond, ones, stim, e, a, d.method)
-        (n, keys), x = _count(c, d.cube_size, True)
-        counts[j] = n[0]
-        parts.append(keys)
+        got, x = _count(c, d.cube_size, pooled)
+        counts[j] = (got[0] if pooled else got)[0]
+        if pooled:
+            parts.append(got[1])
         excluded += int(x.sum())
     return counts, parts, excluded
 
@@ -314,7 +318,7 @@ def _observer_counts(cond: _Condition, reference: tuple, T: np.ndarray, d: Disce
     out = {"scene_without": s0, "scene_with": np.full((n_s, n_f), np.nan), "scene_normal": sn,
            "without": _pool(s0, parts0), "normal_without": _pool(sn, parts_n),
            "with": np.full(n_f, np.nan), "excluded": np.full(n_f, float(x0))}
-    size = _chunk(max(s.samples.shape[0] for s in d.stimuli))
+    size = _chunk(max(s.samples.shape[1] for s in d.stimuli))
     for lo in range(0, n_f, size):  # chunks of filters, each vectorised over its filters and pixels
         hi = min(n_f, lo + size)
         parts = []
@@ -357,8 +361,11 @@ def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None) -
         results = []
         for i, m in enumerate(members):  # per member only the 3x3 maps differ; pixels stay vectorised
             cond = _condition(m, d, e, noise_args)
-            if m.base is None:
-                reference = (cond, _without(cond, d, e, a, T.shape[1]))
+            if m.base is None:  # a normal observer is its own reference (shared with those it is the base of)
+                if m.spec not in references:
+                    references[m.spec] = (cond, _without(cond, d, e, a, T.shape[1]))
+                reference = references[m.spec]
+                cond = reference[0]
             else:
                 if m.base.spec not in references:
                     base_cond = _condition(m.base, d, e, noise_args)
