@@ -303,42 +303,61 @@ def _pool(counts: np.ndarray, parts: list) -> float:
     return float(count_union(parts, 1)[0]) if len(parts) > 1 else float(counts[0])
 
 
-def _observer_counts(cond: _Condition, reference: tuple, T: np.ndarray, d: DiscernibleInputs,
+def _observer_counts(cond: _Condition, reference: tuple | None, T: np.ndarray, d: DiscernibleInputs,
                      e: np.ndarray, a: float, progress=None) -> dict:
     """Arrays of one observer: per stimulus and pooled, without / with / normal_without / excluded.
 
-    ``reference`` is the normal base observer's :func:`_without` (shared by observers with one base)."""
+    ``reference`` is ``(condition, _without(...))`` of the normal base observer (shared by the observers
+    with one base); None for a normal observer not counted yet: it is its own reference, and its state
+    without a filter is then counted in the first chunk with the filters (``out["reference"]``).
+    """
     from .metrics.discernible import count_union
 
     n_f, n_wl = T.shape
     n_s = len(d.stimuli)
     pooled = n_s > 1
-    s0, parts0, x0 = _without(cond, d, e, a, n_wl) if reference[0] is not cond else reference[1]
-    sn, parts_n, _ = reference[1]
-    out = {"scene_without": s0, "scene_with": np.full((n_s, n_f), np.nan), "scene_normal": sn,
-           "without": _pool(s0, parts0), "normal_without": _pool(sn, parts_n),
-           "with": np.full(n_f, np.nan), "excluded": np.full(n_f, float(x0))}
+    own = reference is None or reference[0] is not cond  # the no-filter state still to count
+    rows = np.vstack([np.ones((1, n_wl)), T]) if own else T
+    first = 1 if own else 0
+    n_r = rows.shape[0]
+    scene = np.full((n_s, n_r), np.nan)
+    excluded = np.zeros(n_r)
+    with_ = np.full(n_r, np.nan)
+    parts0: list = []
     size = _chunk(max(s.samples.shape[1] for s in d.stimuli))
-    for lo in range(0, n_f, size):  # chunks of filters, each vectorised over its filters and pixels
-        hi = min(n_f, lo + size)
+    for lo in range(0, n_r, size):  # chunks of filters, each vectorised over its filters and pixels
+        hi = min(n_r, lo + size)
         parts = []
         defined = np.ones(hi - lo, dtype=bool)
         for j, stim in enumerate(d.stimuli):
-            coords, ok = _coordinates(cond, T[lo:hi], stim, e, a, d.method)
+            coords, ok = _coordinates(cond, rows[lo:hi], stim, e, a, d.method)
             got, x = _count(coords, d.cube_size, pooled)
             counts = got[0] if pooled else got
             defined &= ok
-            out["scene_with"][j, lo:hi] = np.where(ok, counts, np.nan)
-            out["excluded"][lo:hi] += x
+            scene[j, lo:hi] = np.where(ok, counts, np.nan)
+            excluded[lo:hi] += x
             if pooled:
                 parts.append(got[1])
+                if own and lo == 0:
+                    r, k = got[1]
+                    parts0.append((r[r == 0], k[r == 0]))
         if pooled:
-            out["with"][lo:hi] = np.where(defined, count_union(parts, hi - lo), np.nan)
+            with_[lo:hi] = np.where(defined, count_union(parts, hi - lo), np.nan)
         else:
-            out["with"][lo:hi] = out["scene_with"][0, lo:hi]
+            with_[lo:hi] = scene[0, lo:hi]
         if progress is not None:
-            progress(hi)
-    return out
+            progress(max(0, hi - first))
+    if own:
+        s0, x0 = scene[:, 0].copy(), float(excluded[0])
+        mine = (cond, (s0, parts0, x0))
+    else:
+        s0, parts0, x0 = reference[1]  # type: ignore[index]
+        mine = reference
+    ref = mine if reference is None else reference
+    sn, parts_n, _ = ref[1]
+    return {"scene_without": s0, "scene_with": scene[:, first:], "scene_normal": sn,
+            "without": _pool(s0, parts0), "normal_without": _pool(sn, parts_n),
+            "with": with_[first:], "excluded": excluded[first:] + x0, "reference": mine}
 
 
 def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None) -> None:
@@ -355,25 +374,26 @@ def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None) -
     a = float(inp.adaptation)
     noise_args = {"weber": inp.weber_fraction, "cone_ratios": inp.cone_ratios}
     n_f = T.shape[0]
-    references: dict = {}
+    references: dict = {}  # normal observer spec -> (condition, its counts without a filter)
     for k, o in enumerate(inp.observers):
         members = o.members() if is_population(o) else [o]
         results = []
         for i, m in enumerate(members):  # per member only the 3x3 maps differ; pixels stay vectorised
-            cond = _condition(m, d, e, noise_args)
             if m.base is None:  # a normal observer is its own reference (shared with those it is the base of)
-                if m.spec not in references:
-                    references[m.spec] = (cond, _without(cond, d, e, a, T.shape[1]))
-                reference = references[m.spec]
-                cond = reference[0]
+                reference = references.get(m.spec)
+                cond = reference[0] if reference is not None else _condition(m, d, e, noise_args)
             else:
+                cond = _condition(m, d, e, noise_args)
                 if m.base.spec not in references:
                     base_cond = _condition(m.base, d, e, noise_args)
                     references[m.base.spec] = (base_cond, _without(base_cond, d, e, a, T.shape[1]))
                 reference = references[m.base.spec]
             cb = None if progress is None else (lambda done, i=i, n=len(members): progress(
                 "discernible", i * n_f + done, n * n_f))
-            results.append(_observer_counts(cond, reference, T, d, e, a, cb))
+            r = _observer_counts(cond, reference, T, d, e, a, cb)
+            if m.base is None:
+                references.setdefault(m.spec, r["reference"])
+            results.append(r)
         per_obs[k].update(_store(results, len(d.stimuli), is_population(o)))
 
 
