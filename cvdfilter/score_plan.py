@@ -58,6 +58,8 @@ def parse_metrics(metrics) -> tuple:
     ('photometry', 'road_use', 'contrast', 'discrimination', 'confusion')
     >>> parse_metrics("contrast,photometry")
     ('photometry', 'contrast')
+    >>> parse_metrics("core,discernible")[-1]
+    'discernible'
     """
     if isinstance(metrics, str):
         text = metrics.strip().lower()
@@ -68,6 +70,7 @@ def parse_metrics(metrics) -> tuple:
         items = [m.strip().replace("-", "_") for m in text.split(",") if m.strip()]
     else:
         items = [str(m).strip().lower().replace("-", "_") for m in metrics]
+    items = [g for m in items for g in ({"all": METRIC_GROUPS, "core": CORE_METRICS}.get(m) or (m,))]
     unknown = [m for m in items if m not in METRIC_GROUPS + OPTIONAL_GROUPS]
     if unknown or not items:
         raise InputError(f"unknown metrics '{', '.join(unknown) or metrics}'",

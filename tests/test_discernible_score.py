@@ -72,6 +72,7 @@ def test_receptor_noise_space_distances():
 def test_not_in_all_and_named_only():
     assert "discernible" not in parse_metrics("all")
     assert parse_metrics("discernible,contrast") == ("contrast", "discernible")
+    assert parse_metrics("core,discernible") == (*parse_metrics("core"), "discernible")
 
 
 def test_scorecard_counts_equal_the_api_on_munsell():

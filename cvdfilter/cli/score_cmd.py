@@ -66,7 +66,7 @@ def register(app: typer.Typer) -> None:
         metrics: str = typer.Option("all", "--metrics", help="all, core (no colour rendition: fast for sweeps) "
                                                              "or a comma-separated list of photometry, road_use, "
                                                              "rendition, contrast, discrimination, confusion, "
-                                                             "discernible (only when named)."),
+                                                             "discernible (only when named, e.g. core,discernible)."),
         signal_spectra: Optional[str] = typer.Option(None, "--signal-spectra", help=(
             "Measured signal-light spectra: first column nm, value columns named red, yellow (or amber), "
             "green, blue. They replace the modelled lights of those colours.")),
