@@ -149,7 +149,8 @@ def discernible_inputs(scenes, surfaces, *, method: str = DEFAULT_METHOD, simula
             raise InputError(f"unknown simulation '{simulation}'", hint=f"use one of {', '.join(METHOD_DESCRIPTIONS)}")
     if scenes is None or isinstance(scenes, (str, pathlib.Path, Cube)):
         scenes = [] if scenes is None else [scenes]
-    stimuli, sources = [], []
+    stimuli: list[_Stimulus] = []
+    sources: list[str] = []
     for sc in scenes:
         cube = sc if isinstance(sc, Cube) else read_cube(sc)
         name = cube.path or f"scene {len(stimuli) + 1}"
@@ -347,11 +348,13 @@ def _observer_counts(cond: _Condition, reference: tuple | None, T: np.ndarray, d
             with_[lo:hi] = scene[0, lo:hi]
         if progress is not None:
             progress(max(0, hi - first))
+    mine: tuple
     if own:
         s0, x0 = scene[:, 0].copy(), float(excluded[0])
         mine = (cond, (s0, parts0, x0))
     else:
-        s0, parts0, x0 = reference[1]  # type: ignore[index]
+        assert reference is not None
+        s0, parts0, x0 = reference[1]
         mine = reference
     ref = mine if reference is None else reference
     sn, parts_n, _ = ref[1]
