@@ -13,7 +13,9 @@ one notch filter: ``cvdfilter.discernible_colours`` against a floor made of
 The API does more: float64 products (so that a model invariance is not broken by rounding at a cube
 boundary), the von Kries gains and the simulation's half-space test for dichromats.
 
-Target (issue 15): at most 2 s. Times are medians; the machine is shared, so read the ratio.
+Also the scorecard's ``discernible`` group on the same scene, and a 150-filter sweep on the ``munsell`` set
+(filter x observer counts per second). Target (issue 15): at most 2 s. Times are medians; the machine is
+shared, so read the ratio.
 No test asserts any of this.
 """
 
@@ -73,6 +75,23 @@ def main() -> None:
     for j, o in enumerate(r.observers):
         print(f"  {o:32s} without {r.without[j]:7d}  with {r.with_filter[0, j]:7d}  "
               f"ratio {r.ratio[0, j]:.3f}  to normal {r.ratio_to_normal[j]:.3f}")
+    # the scorecard's group (score --metrics discernible --scene): chunks of filters, vectorised over them
+    from cvdfilter.scorecard import score
+
+    card_t = []
+    for _ in range(args.repeat):
+        t = time.perf_counter()
+        score(flt, scenes=[scene], metrics="discernible", observers=observers)
+        card_t.append(time.perf_counter() - t)
+    c = statistics.median(card_t)
+    print(f"score --metrics discernible --scene (1 filter): median {c:.3f} s; ratio to the floor {c / f:.2f}x")
+    sweep = "notch:center=500..649/1,fwhm=30,depth=0.8"  # 150 filters on the munsell set
+    t = time.perf_counter()
+    card = score(sweep, surfaces="munsell", metrics="discernible", observers=observers)
+    s_t = time.perf_counter() - t
+    n = len(card) * len(observers)
+    print(f"score --metrics discernible --surfaces munsell, {len(card)} filters x 5 observers: {s_t:.2f} s, "
+          f"{n / s_t:.0f} filter-observer counts/s")
 
 
 if __name__ == "__main__":

@@ -31,12 +31,16 @@ from .metrics.confusion import DEFICIENT_THRESHOLD, NORMAL_THRESHOLD
 from .metrics.discrimination import CONE_RATIOS, DISCRIMINATION_THRESHOLD, DISTRIBUTION_THRESHOLDS, WEBER_FRACTION
 
 __all__ = ["ScoreInputs", "ObserverPlan", "ChunkRunner", "filter_results", "plan_observers", "run_chunks",
-           "parse_metrics", "METRIC_GROUPS", "CORE_METRICS", "DEFAULT_OBSERVERS", "PAIR_KEYS", "CONFUSION_KEYS"]
+           "parse_metrics", "METRIC_GROUPS", "CORE_METRICS", "DEFAULT_OBSERVERS", "PAIR_KEYS", "CONFUSION_KEYS",
+           "OPTIONAL_GROUPS"]
 
 #: Observers scored when none are given.
 DEFAULT_OBSERVERS = ("normal", "protanomalous", "deuteranomalous", "protanope", "deuteranope")
 #: Metric groups, in output order.
 METRIC_GROUPS = ("photometry", "road_use", "rendition", "contrast", "discrimination", "confusion")
+#: Groups computed only when named (not in ``all``): ``discernible`` needs a large stimulus (a scene or a
+#: surface set such as ``munsell``) and counts colours in unit cubes (cvdfilter/score_discernible.py).
+OPTIONAL_GROUPS = ("discernible",)
 #: ``metrics="core"``: everything but the (slow) rendition block.
 CORE_METRICS = ("photometry", "road_use", "contrast", "discrimination", "confusion")
 #: Counts of the discriminable-pair blocks.
@@ -54,6 +58,8 @@ def parse_metrics(metrics) -> tuple:
     ('photometry', 'road_use', 'contrast', 'discrimination', 'confusion')
     >>> parse_metrics("contrast,photometry")
     ('photometry', 'contrast')
+    >>> parse_metrics("core,discernible")[-1]
+    'discernible'
     """
     if isinstance(metrics, str):
         text = metrics.strip().lower()
@@ -64,11 +70,13 @@ def parse_metrics(metrics) -> tuple:
         items = [m.strip().replace("-", "_") for m in text.split(",") if m.strip()]
     else:
         items = [str(m).strip().lower().replace("-", "_") for m in metrics]
-    unknown = [m for m in items if m not in METRIC_GROUPS]
+    items = [g for m in items for g in ({"all": METRIC_GROUPS, "core": CORE_METRICS}.get(m) or (m,))]
+    unknown = [m for m in items if m not in METRIC_GROUPS + OPTIONAL_GROUPS]
     if unknown or not items:
         raise InputError(f"unknown metrics '{', '.join(unknown) or metrics}'",
-                         hint=f"use all, core or a comma-separated list of {', '.join(METRIC_GROUPS)}")
-    return tuple(m for m in METRIC_GROUPS if m in items)
+                         hint="use all, core or a comma-separated list of "
+                              f"{', '.join(METRIC_GROUPS + OPTIONAL_GROUPS)}")
+    return tuple(m for m in METRIC_GROUPS + OPTIONAL_GROUPS if m in items)
 
 
 def workers() -> int:

@@ -95,6 +95,10 @@ def population_summaries(card) -> dict:
             r = np.where(undefined, np.nan, np.asarray(ratio, dtype=float))
             helped["median_delta_s_ratio"] = share_helped(np.nan_to_num(r, nan=0.0) > 1.0 + RATIO_TOLERANCE,
                                                           np.isfinite(r))
+        if "discernible_ratio" in o:  # helped: more discernible colours with the filter than without
+            r = np.asarray(o["discernible_ratio"], dtype=float)
+            helped["discernible_ratio"] = share_helped(np.nan_to_num(r, nan=0.0) > 1.0 + RATIO_TOLERANCE,
+                                                       np.isfinite(r))
         out[k] = (stats, helped)
     return out
 
@@ -142,6 +146,10 @@ def population_entry(card, i: int, k: int) -> dict:
                 "median_delta_s_with": s("confusion_median_with", 4),
                 "median_delta_s_ratio": s("confusion_median_ratio"),
             }
+    if "discernible" in card.metrics:
+        from .score_discernible import discernible_entry
+
+        d["discernible_colours"] = discernible_entry(card, i, k, summary=s)
     d["helped"] = {key: {"share": _num(h["share"][i]), "ci_low": _num(h["ci_low"][i]),
                          "ci_high": _num(h["ci_high"][i]), "helped": int(h["helped"][i]), "n": int(h["n"][i])}
                    for key, h in helped.items()}

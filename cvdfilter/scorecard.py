@@ -225,6 +225,10 @@ class Scorecard:
                     "median_delta_s_with": _num(o["confusion_median_with"][i], 4),
                     "median_delta_s_ratio": _num(o["confusion_median_ratio"][i]),
                 }
+        if "discernible" in self.metrics:
+            from .score_discernible import discernible_entry
+
+            d["discernible_colours"] = discernible_entry(self, i, k)
         return d
 
     @functools.cached_property
@@ -306,6 +310,11 @@ class Scorecard:
             },
             "inputs": self.inputs,
         }
+        if "discernible" in self.metrics:
+            from .score_discernible import discernible_model
+
+            models: dict = head["models"]  # type: ignore[assignment]
+            models["discernible"] = discernible_model(self)
         if "road_use" in self.metrics:
             head["signal_lights"] = {
                 c: {"limit": self.settings.get("signal_limits", SIGNAL_LIMITS)[c],
@@ -363,7 +372,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
           distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
           deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
           members: bool = False, progress=None, units: str | None = None,
-          bandwidth: float | None = None) -> Scorecard:
+          bandwidth: float | None = None, scenes=None, discernible_method: str = "cielab") -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -422,6 +431,12 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         Units (``fraction``, ``percent``, ``od``) and instrument bandwidth (nm) of
         filter files that do not set their own (``FILE@units=od``); see
         :func:`cvdfilter.load_filters`.
+    scenes : path, Cube or sequence of them, optional
+        With the ``discernible`` group: reflectance cubes whose colours are counted (each per scene and
+        pooled); without them the surface set is counted.
+    discernible_method : str
+        ``cielab`` (Linhares et al. 2008, default), ``cam16ucs`` or ``rnl``
+        (:data:`cvdfilter.score_discernible.DISCERNIBLE_METHODS`).
 
     Returns
     -------
@@ -450,6 +465,15 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         deficient_threshold=deficient_threshold, signal_limits=signal_limits, units=units, bandwidth=bandwidth,
         sensitivity=sensitivity)
     groups, n_f = inp.groups, len(inp.filters)
+    discern = None
+    if "discernible" in groups:  # checked before the heavy work, like every input
+        from .score_discernible import discernible_inputs
+
+        discern = discernible_inputs(scenes, inp.surfaces, method=discernible_method, grid=inp.grid)
+    elif scenes:
+        from .errors import InputError
+
+        raise InputError("scenes are only used by the discernible group", hint="add discernible to --metrics")
     results = filter_results(inp)
     per_obs: list = [dict() for _ in inp.observers]
     per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
@@ -467,6 +491,10 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         from .score_population import score_populations
 
         score_populations(inp, per_obs, per_observer_groups, progress)
+    if discern is not None:
+        from .score_discernible import score_discernible
+
+        score_discernible(inp, discern, per_obs, progress)
     if "rendition" in groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 
@@ -478,8 +506,13 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
               "adaptation": _adaptation_text(inp.adaptation), "metrics": list(groups),
               "signal_spectra": None if signal_spectra is None else (
                   str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
+    settings = inp.settings()
+    if discern is not None:
+        record["scenes"] = list(discern.sources)
+        record["discernible_method"] = discern.method
+        settings["discernible"] = discern.settings()
     card = Scorecard(inp.filters, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups,
-                     inp.signal_lights, results, per_obs, inp.settings(), record, members=members)
+                     inp.signal_lights, results, per_obs, settings, record, members=members)
     if sensitivity:
         from .score_sensitivity import sensitivity as _sensitivity
 

@@ -184,7 +184,19 @@ def _observer_note(doc: dict) -> str:
             f"confused = Delta S >= {tn:g} JND for the normal observer and < {td:g} JND for this observer "
             "(-resolved/+created). dS ratio: median Delta S, over the pairs the normal observer discriminates, "
             "with / without the filter (no threshold of its own; above 1 the surfaces move apart). "
-            + GAIN_CAUTION)
+            + _discernible_note(m) + GAIN_CAUTION)
+
+
+def _discernible_note(models: dict) -> str:
+    """The sentence on the discernible-colour columns (empty without the group)."""
+    d = models.get("discernible")
+    if not d:
+        return ""
+    where = ", ".join(s["name"] for s in d["stimuli"])
+    pooled = " (pooled: union of the stimuli's colours)" if len(d["stimuli"]) > 1 else ""
+    return (f"Colours: number of discernible colours of {where}{pooled}, counted as occupied cubes of edge "
+            f"{d['cube_size']:g} ({d['method']}: {d['space']}), without -> with the filter; ratio = with / "
+            "without; vs normal = this observer's count / the normal observer's without a filter. ")
 
 
 def _costs_text(f: dict) -> str:
@@ -266,6 +278,9 @@ def _observer_header(metrics, *, compact: bool = False) -> list:
         h += ["confused", "res./new"] if compact else ["confused without", "with", "resolved", "created"]
     if "discrimination" in metrics or "confusion" in metrics:
         h += ["dS ratio"]
+    if "discernible" in metrics:
+        h += ["colours", "ratio", "vs normal"] if compact else [
+            "colours without", "with", "ratio", "vs normal without", "vs normal with"]
     if not compact:
         h += ["tau_v %", "du'v'", "Rf"]
     return h
@@ -285,6 +300,8 @@ def _observer_row(name: str, o: dict, metrics, *, compact: bool = False, f: dict
         row += _pair_cells(o["confusion_pairs"], CONFUSION_KEYS, "-+", compact)
     if "discrimination" in metrics or "confusion" in metrics:
         row.append(_fmt(median_ratio(o), 3))
+    if "discernible" in metrics:
+        row += _discernible_cells(o.get("discernible_colours"), compact)
     if f is not None:
         tv = f.get("luminous_transmittance")
         row += [_fmt(None if tv is None else 100 * tv, 1), _fmt(f.get("white_shift"), 4),
@@ -300,6 +317,22 @@ def _pair_cells(block: dict | None, keys: tuple, signs: str, compact: bool) -> l
             return ["-", "-"]
         return [f"{block[keys[0]]}->{block[keys[1]]}", f"{signs[0]}{block[keys[2]]}/{signs[1]}{block[keys[3]]}"]
     return ["-"] * 4 if block is None else [block[k] for k in keys]
+
+
+def _discernible_cells(b: dict | None, compact: bool) -> list:
+    """Cells of the discernible-colour block (pooled over the stimuli): counts, ratio with / without, and the
+    ratios to the normal observer without a filter (compact: without -> with)."""
+    if b is None:
+        return ["-"] * (3 if compact else 5)
+
+    def n(v):
+        return "-" if v is None else f"{v:.0f}"
+
+    if compact:
+        return [f"{n(b['without'])}->{n(b['with'])}", _fmt(b["ratio"], 3),
+                f"{_fmt(b['ratio_to_normal'], 3)}->{_fmt(b['ratio_to_normal_with'], 3)}"]
+    return [n(b["without"]), n(b["with"]), _fmt(b["ratio"], 3), _fmt(b["ratio_to_normal"], 3),
+            _fmt(b["ratio_to_normal_with"], 3)]
 
 
 def median_ratio(o: dict):
@@ -340,7 +373,7 @@ def _pick(v, stat: str):
 
 _HELPED_LABELS = {"red_green_gain": "RG gain > 1", "blue_yellow_gain": "BY gain > 1",
                   "discriminable_pairs_net": "discr. net > 0", "confusion_pairs_net": "confused net > 0",
-                  "median_delta_s_ratio": "dS ratio > 1"}
+                  "median_delta_s_ratio": "dS ratio > 1", "discernible_ratio": "colours ratio > 1"}
 
 
 def _helped_rows(doc: dict, labels: dict | None = None):

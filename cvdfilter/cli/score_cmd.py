@@ -52,8 +52,8 @@ def register(app: typer.Typer) -> None:
         observer: Optional[List[str]] = typer.Option(None, "--observer", help=(
             "Observer spec; repeat for several. Default: normal, protanomalous, deuteranomalous, "
             "protanope, deuteranope.")),
-        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15 or a "
-                                                                 "reflectance file."),
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15, munsell "
+                                                                 "or a reflectance file."),
         adaptation: str = typer.Option("full", "--adaptation", help="full, none or a degree 0-1 of von Kries "
                                                                     "adaptation to the filtered light."),
         # -- file reading and output format (units/bandwidth per file or for all; format from -o) --
@@ -65,7 +65,8 @@ def register(app: typer.Typer) -> None:
         # -- end of file reading and output format --
         metrics: str = typer.Option("all", "--metrics", help="all, core (no colour rendition: fast for sweeps) "
                                                              "or a comma-separated list of photometry, road_use, "
-                                                             "rendition, contrast, discrimination, confusion."),
+                                                             "rendition, contrast, discrimination, confusion, "
+                                                             "discernible (only when named, e.g. core,discernible)."),
         signal_spectra: Optional[str] = typer.Option(None, "--signal-spectra", help=(
             "Measured signal-light spectra: first column nm, value columns named red, yellow (or amber), "
             "green, blue. They replace the modelled lights of those colours.")),
@@ -85,6 +86,14 @@ def register(app: typer.Typer) -> None:
             "signal-quotient limits vary over a documented range (docs/metrics.md).")),
         members: bool = typer.Option(False, "--members", help=(
             "With population observers (a spec plus n=N): also write every member's values (JSON only).")),
+        # -- discernible colours (the discernible group) --
+        scene: Optional[List[str]] = typer.Option(None, "--scene", help=(
+            "With --metrics discernible: a reflectance cube (.npy/.npz, e.g. from cvdfilter scene) whose colours "
+            "are counted; repeat for several (per scene and pooled). Default: the --surfaces set.")),
+        discernible_method: str = typer.Option("cielab", "--discernible-method", help=(
+            "Space the discernible colours are counted in: cielab (unit CIELAB cubes, Linhares et al. 2008), "
+            "cam16ucs (unit CAM16-UCS cubes, the Euclidean stand-in for CIEDE2000) or rnl (1-JND cubes of the "
+            "observer's receptor-noise space).")),
     ) -> None:
         """Score filters: photometry and road use, colour rendition, and for each observer the contrast
         gains and the surface pairs gained, lost, resolved or created.
@@ -94,6 +103,8 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter score larkhill-notch-575 larkhill-rose-tint --metrics core --sensitivity
 
         Example: cvdfilter score larkhill-notch-575 --observer deuteranomalous:n=200,seed=7 --metrics core
+
+        Example: cvdfilter score larkhill-notch-575 --metrics discernible --surfaces munsell
         """
         from ..errors import InputError
         from ..scorecard import DEFAULT_OBSERVERS, score
@@ -117,7 +128,8 @@ def register(app: typer.Typer) -> None:
                          surfaces=surfaces, adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
                          weber_fraction=weber_fraction, cone_ratios=ratios, discrimination_threshold=jnd_threshold,
                          normal_threshold=jnd_threshold, deficient_threshold=jnd_threshold,
-                         signal_limits=signal_limits, sensitivity=sensitivity, members=members, progress=progress)
+                         signal_limits=signal_limits, sensitivity=sensitivity, members=members, progress=progress,
+                         scenes=scene or None, discernible_method=discernible_method)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)
@@ -132,6 +144,7 @@ def register(app: typer.Typer) -> None:
         else:
             text = render()
         inputs = input_files(filters) + ([signal_spectra] if signal_spectra else []) + [surfaces, illuminant]
+        inputs += list(scene or [])
         try:
             emit(text, output, inputs=inputs)
         except InputError as exc:

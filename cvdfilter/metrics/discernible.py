@@ -23,7 +23,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["lab_from_xyz", "lab_planes", "count_discernible", "count_planes", "CUBE_SIZE", "DENSE_CELLS"]
+__all__ = ["lab_from_xyz", "lab_planes", "count_discernible", "count_planes", "count_planes_many", "count_union",
+           "receptor_noise_space", "cam16ucs_planes", "CAM16_VIEWING", "CUBE_SIZE", "DENSE_CELLS"]
 
 #: Edge of the counting cube, CIELAB units (Linhares et al. 2008: unit cubes, Delta E*ab = 1).
 CUBE_SIZE = 1.0
@@ -160,3 +161,138 @@ def count_planes(planes, *, cube_size: float = CUBE_SIZE) -> int:
     keys = (k[0] << (2 * _BITS)) | (k[1] << _BITS) | k[2]
     keys.sort()
     return int(1 + np.count_nonzero(keys[1:] != keys[:-1]))
+
+
+# --- many sets at once, the variants' coordinates ----------------------------------------------------
+
+#: Offset that makes every admissible cube index non-negative in a packed global key.
+_OFFSET = _LIMIT
+
+
+def count_planes_many(planes, *, cube_size: float = CUBE_SIZE, keys: bool = False):
+    """:func:`count_planes` for K sets of equal size at once: ``planes`` (K, 3, n_colours) -> counts (K,).
+
+    Vectorised over the sets (one dense marking or one row-wise sort for all of them). With ``keys``,
+    also returns the occupied cubes as ``(rows, packed)``: for every (set, occupied cube) the set's row and
+    the cube's global int64 key (indices offset by 2^20 and packed 21 bits per axis), so that cubes of
+    different stimuli can be pooled (:func:`count_union`).
+
+    >>> p = np.array([[[0.1, 0.9, 1.1], [0.2, 0.5, 0.0], [0.3, 0.5, 0.0]]] * 2)
+    >>> count_planes_many(p).tolist()
+    [2, 2]
+    """
+    planes = np.asarray(planes)
+    if planes.ndim != 3 or planes.shape[1] != 3:
+        raise ValueError(f"expected planes shaped (sets, 3, n_colours), got {planes.shape}")
+    if not (np.isfinite(cube_size) and cube_size > 0):
+        raise ValueError(f"cube_size must be a positive number, got {cube_size}")
+    n_sets, _, n = planes.shape
+    empty = (np.zeros(0, dtype=np.int64), np.zeros(0, dtype=np.int64))
+    if n_sets == 0 or n == 0:
+        counts = np.zeros(n_sets, dtype=np.int64)
+        return (counts, empty) if keys else counts
+    idx = np.floor(planes / cube_size) if cube_size != 1 else np.floor(planes)
+    lo, hi = idx.min(axis=(0, 2)), idx.max(axis=(0, 2))
+    if not (np.all(np.isfinite(lo)) and np.all(np.isfinite(hi))):
+        raise ValueError("colours hold NaN or infinite values")
+    if max(np.abs(lo).max(), np.abs(hi).max()) >= _LIMIT:
+        raise ValueError(f"colours beyond +-{_LIMIT} cube edges cannot be counted")
+    span = (hi - lo + 1).astype(np.int64)
+    cells = int(np.prod(span))
+    if n_sets * cells <= DENSE_CELLS:
+        k = (idx - lo[None, :, None]).astype(np.int64)
+        local = (k[:, 0] * int(span[1]) + k[:, 1]) * int(span[2]) + k[:, 2]
+        local += (np.arange(n_sets, dtype=np.int64) * cells)[:, None]
+        seen = np.zeros(n_sets * cells, dtype=bool)
+        seen[local.ravel()] = True
+        counts = np.count_nonzero(seen.reshape(n_sets, cells), axis=1).astype(np.int64)
+        if not keys:
+            return counts
+        nz = np.flatnonzero(seen)
+        rows, cell = np.divmod(nz, cells)
+        c0, rest = np.divmod(cell, int(span[1]) * int(span[2]))
+        c1, c2 = np.divmod(rest, int(span[2]))
+        g = [c + int(lo[a]) + _OFFSET for a, c in enumerate((c0, c1, c2))]
+        return counts, (rows, (g[0] << (2 * _BITS)) | (g[1] << _BITS) | g[2])
+    k = (idx + _OFFSET).astype(np.int64)
+    packed = (k[:, 0] << (2 * _BITS)) | (k[:, 1] << _BITS) | k[:, 2]
+    packed.sort(axis=1)
+    first = np.ones(packed.shape, dtype=bool)
+    first[:, 1:] = packed[:, 1:] != packed[:, :-1]
+    counts = np.count_nonzero(first, axis=1).astype(np.int64)
+    if not keys:
+        return counts
+    rows = np.nonzero(first)[0]
+    return counts, (rows, packed[first])
+
+
+def count_union(parts, n_sets: int) -> np.ndarray:
+    """Pooled counts: the cubes occupied in any of several stimuli, per set.
+
+    ``parts`` are ``(rows, packed)`` pairs from :func:`count_planes_many` (``keys=True``) over the same
+    ``n_sets`` sets; returns (n_sets,) counts of the distinct (row, cube) pairs.
+    """
+    rows = np.concatenate([np.asarray(r, dtype=np.int64) for r, _ in parts]) if parts else np.zeros(0, np.int64)
+    packed = np.concatenate([np.asarray(k, dtype=np.int64) for _, k in parts]) if parts else np.zeros(0, np.int64)
+    order = np.lexsort((packed, rows))
+    rows, packed = rows[order], packed[order]
+    new = np.ones(len(rows), dtype=bool)
+    new[1:] = (rows[1:] != rows[:-1]) | (packed[1:] != packed[:-1])
+    return np.bincount(rows[new], minlength=n_sets).astype(np.int64)
+
+
+def receptor_noise_space(noise) -> np.ndarray:
+    """The 3x3 map from ln cone catches to the observer's receptor-noise space, in JND units.
+
+    Rows: the chromatic coordinates of Vorobyev & Osorio (1998) (:func:`~cvdfilter.metrics.discrimination.
+    rnl_transform`; Euclidean distance = their Delta S), then the achromatic coordinate of the same
+    independent receptor noise, ``sum_i f_i / e_i^2 / sqrt(sum_i 1 / e_i^2)`` over the cones present (the
+    component of the noise-whitened log signals along a uniform change of all cones); for a dichromat a
+    third row of zeros. The Euclidean distance in this space is the Mahalanobis distance of the log cone
+    signals under independent noise e_i: sqrt(Delta S_chromatic^2 + Delta S_achromatic^2).
+
+    >>> from cvdfilter.metrics.discrimination import receptor_noise
+    >>> m = receptor_noise_space(receptor_noise())
+    >>> d = np.array([0.01, -0.02, 0.03])
+    >>> bool(np.isclose(np.linalg.norm(m @ d), np.linalg.norm(d / receptor_noise())))
+    True
+    """
+    from .discrimination import rnl_transform
+
+    e = np.asarray(noise, dtype=float)
+    present = np.isfinite(e)
+    chroma = rnl_transform(e)
+    inv = np.where(present, 1.0 / np.where(present, e, 1.0) ** 2, 0.0)
+    achromatic = inv / np.sqrt(inv.sum())
+    out = np.zeros((3, 3))
+    out[:len(chroma)] = chroma
+    out[len(chroma)] = achromatic
+    return out
+
+
+#: CAM16 viewing conditions of the ``cam16ucs`` count (common practice for reflecting samples in a
+#: lit room: L_A = 64 cd/m^2, i.e. about 1000 lx / pi x 0.2; Y_b = 20; average surround, CIE 159:2004 /
+#: Li et al. 2017); the illuminant is discounted (D = 1) because the cone signals are already adapted.
+CAM16_VIEWING = {"L_A": 64.0, "Y_b": 20.0, "surround": "Average", "discount_illuminant": True}
+
+
+def cam16ucs_planes(xyz, white_xyz) -> np.ndarray:
+    """CAM16-UCS J', a', b' (Li et al. 2017) on planes: ``xyz`` (3, n) relative to ``white_xyz`` (3,).
+
+    Viewing conditions :data:`CAM16_VIEWING` (colour-science's CAM16 and Luo, Cui & Li 2006 UCS
+    coefficients). Colours the model does not define (negative achromatic response: imaginary dark
+    colours, possible after a dichromat simulation) come back as NaN; the caller decides.
+    """
+    import warnings
+
+    import colour
+
+    white = np.asarray(white_xyz, dtype=float)
+    scale = 100.0 / white[1]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)
+        jab = colour.XYZ_to_CAM16UCS(
+            np.asarray(xyz, dtype=float).T * scale, XYZ_w=white * scale, L_A=CAM16_VIEWING["L_A"],
+            Y_b=CAM16_VIEWING["Y_b"], surround=colour.VIEWING_CONDITIONS_CAM16[CAM16_VIEWING["surround"]],
+            discount_illuminant=CAM16_VIEWING["discount_illuminant"], compute_H=False)
+    return np.ascontiguousarray(np.asarray(jab, dtype=float).T)
