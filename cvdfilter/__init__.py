@@ -13,7 +13,8 @@ Observers
 Main jobs
     score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report,
     tasks, TaskResult (colour-vision tasks of our own design for model observers),
-    discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008)
+    discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008),
+    design, DesignResult (the best filters of a family under requirements)
 
 Every number is a model prediction from published cone fundamentals and
 simulation models, not clinical evidence (see ``cvdfilter.cautions.CAVEAT``).
@@ -63,6 +64,8 @@ _LAZY = {
     "figure": "cvdfilter.figures",
     "report": "cvdfilter.reporting",
     "tasks": "cvdfilter.vision_tasks",
+    "design": "cvdfilter.designing",
+    "DesignResult": "cvdfilter.designing",
     "TaskResult": "cvdfilter.vision_tasks",
     "InputError": "cvdfilter.errors",
     "CAVEAT": "cvdfilter.cautions",
