@@ -15,9 +15,18 @@ import numpy as np
 
 from .objectives import _AT, Metric
 
-__all__ = ["metric_values", "entry_value"]
+__all__ = ["metric_values", "entry_value", "DIGITS"]
 
 _CONTRAST = ("red_green_gain", "blue_yellow_gain", "luminance_contrast_gain")
+
+
+#: Decimals the JSON keeps for a key (Scorecard.filter_dict, population_entry); 6 for the others. The arrays
+#: are rounded the same way, so that the search and the re-score judge a requirement alike.
+DIGITS = {"road_use.min_ratio_475_650": 4, "road_use.min_ratio_at_nm": 2,
+          **{f"signal_quotients.{c}": 4 for c in ("red", "yellow", "green", "blue")},
+          "rendition.rf": 2, "rendition.rg": 2, "rendition.ra": 2, "rendition.cct_k": 1, "rendition.duv": 5,
+          "delta_s_distribution.median_without": 4, "delta_s_distribution.median_with": 4,
+          "confusion_pairs.median_delta_s_without": 4, "confusion_pairs.median_delta_s_with": 4}
 
 
 def _array_name(key: str) -> str:
@@ -56,10 +65,15 @@ def _filter_array(card, key: str) -> np.ndarray:
 
 
 def metric_values(card, metric: Metric, k: int | None) -> np.ndarray:
-    """One metric for every filter of ``card`` (float array (n_filters,), NaN where undefined).
+    """One metric for every filter of ``card`` (float array (n_filters,), NaN where undefined), rounded to
+    the decimals its JSON keeps (:data:`DIGITS`).
 
     ``k`` is the index of ``metric.observer`` among ``card.observers`` (None for per-filter keys).
     """
+    return np.round(_values(card, metric, k), DIGITS.get(metric.key, 6)) + 0.0
+
+
+def _values(card, metric: Metric, k: int | None) -> np.ndarray:
     if not metric.per_observer:
         return _filter_array(card, metric.key)
     n = len(card)

@@ -4,8 +4,8 @@ Two or more objectives: every candidate the search scored as a small point (grey
 missed a requirement, light dots where it met them all), the reported designs (the Pareto set, after
 re-scoring) as numbered markers joined in order, and the reference filters as open markers; a
 requirement on a plotted metric is drawn as a dashed line at its bound (the constraint boundary).
-One objective: the objective against the evaluation number (how the search converged), with the
-designs marked at the right.
+One objective: the objective of every candidate against the evaluation number, with the best so far
+(how the search converged), the references and any requirement on it as horizontal lines.
 
 Numbers come from a :class:`~cvdfilter.designing.study.DesignResult` (its archive and its re-scored
 designs); the figure computes no metric of its own.
@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import legend_below, legend_columns, short_name
+from .common import ensure_axes_height, legend_below, legend_columns, short_name, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style
@@ -162,6 +162,10 @@ def pareto_figure(result, *, style: Style | None = None, width_mm: float = 89.0,
         default = f"Design search: {len(values)} candidates, {len(result.designs)} designs"
         finish(fig, style, title=default if title is None else title,
                caveat=(CAVEAT if caveat is None else caveat) or None)
+        ensure_axes_height(fig, [ax], 0.55 * width_mm if width_mm < 120 else 70.0, rows=1)
+        # a y label longer than the plot is wrapped to its height
+        ax.set_ylabel(wrap_to_width(ax.get_ylabel(), ax.get_position().height * fig.get_figheight() * 72 * 0.95,
+                                    style.font_size))
     data = {"metrics": names, "candidates": values, "feasible": feasible, "designs": designs,
             "references": refs, "bounds": bounds}
     return FigureResult("pareto", fig, data, style, {"family": problem.space.family,
