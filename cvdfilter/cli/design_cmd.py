@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from typing import List, Optional
+from typing import Any, List, Optional
 
 import typer
 
@@ -13,8 +13,8 @@ class _Progress:
     """A rich progress bar of evaluations on stderr (transient)."""
 
     def __init__(self) -> None:
-        self.bar = None
-        self.task = None
+        self.bar: Any = None
+        self.task: Any = None
 
     def __call__(self, done: int, total: int) -> None:
         if self.bar is None:

@@ -177,7 +177,7 @@ class DesignSpace:
 
     def describe(self) -> dict:
         """The space for the JSON ``inputs``: family, variables with bounds and units, the stated bounds."""
-        d = {"family": self.family, "kind": self.kind,
+        d: dict = {"family": self.family, "kind": self.kind,
              "variables": [{"name": v.name, "low": v.lo, "high": v.hi, "unit": v.unit, "decimals": v.digits}
                            for v in self.variables]}
         if self.kind == "spline":
@@ -302,17 +302,17 @@ def parse_family(family: str, grid: Grid = DEFAULT_GRID) -> DesignSpace:
                              source=text, hint=FAMILY_FORMS["notch"])
     bounds = {**_DEFAULT_BOUNDS, **({"edge": _EDGE_BOUNDS[on]} if on in _EDGE_BOUNDS else {})}
     b = {key: _range(params[key], key, text) if key in params else bounds[key] for key in allowed}
-    variables = []
+    notch_variables: list[Variable] = []
     for i in range(1, k + 1):
         for key in ("center", "fwhm", strength):
-            variables.append(Variable(f"{key}{i}", key, *b[key], _UNITS[key], SPEC_DIGITS[key]))
+            notch_variables.append(Variable(f"{key}{i}", key, *b[key], _UNITS[key], SPEC_DIGITS[key]))
     extra = ["t"] if on == "nd" else ["edge", "width", "min"] if on else []
     for key in extra:
-        variables.append(Variable(key, key, *b[key], _UNITS[key], SPEC_DIGITS[key]))
+        notch_variables.append(Variable(key, key, *b[key], _UNITS[key], SPEC_DIGITS[key]))
     canonical = [f"notch:k={k}", f"shape={shape}"] + [f"{key}={b[key][0]:g}..{b[key][1]:g}"
                                                       for key in ("center", "fwhm", strength)]
     if on:
         canonical.append(f"on={on}")
         canonical += [f"{key}={b[key][0]:g}..{b[key][1]:g}" for key in extra]
-    return DesignSpace(",".join(canonical), "notch", tuple(variables), grid,
+    return DesignSpace(",".join(canonical), "notch", tuple(notch_variables), grid,
                        {"k": k, "shape": shape, "strength": strength, "on": on})

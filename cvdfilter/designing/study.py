@@ -16,6 +16,7 @@ from __future__ import annotations
 import json
 import shlex
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -406,14 +407,14 @@ def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output
 
     space = problem.space
     curves = np.vstack([space.curve(x) for x in candidates])
-    if space.kind == "notch":
-        specs = [space.spec(x) for x in candidates]
-        filters = specs
-    else:
-        folder = f"{output}/" if output else ""
-        specs = [None] * len(candidates)
+    folder = f"{output}/" if output else ""
+    specs: list[str] = [space.spec(x) or "" for x in candidates]
+    names = tuple(f"candidate-{i + 1}" for i in range(len(candidates)))
+    filters: Any = specs
+    if space.kind != "notch":
         filters = FilterSet(tuple(f"candidate-{i + 1}" for i in range(len(candidates))), curves, space.grid,
                             ("file",) * len(candidates), tuple({} for _ in candidates))
+
     def meets(entry):
         return all(bool(r.satisfied(entry_value(entry, r.metric, problem.observer_index(r.metric))))
                    for r in problem.requirements)
@@ -431,13 +432,13 @@ def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output
 
     kept.sort(key=order)
     if len(problem.objectives) > 1 and len(kept) > top:  # thin the front evenly along the first objective
-        idx = np.unique(np.round(np.linspace(0, len(kept) - 1, top)).astype(int))
-        kept = [kept[j] for j in idx]
+        pick = np.unique(np.round(np.linspace(0, len(kept) - 1, top)).astype(int))
+        kept = [kept[j] for j in pick]
     kept = kept[:top]
     # 2. the designs kept, re-scored with every group asked for (the scorecard entry written), checked again
     idx = [i for i, _ in kept]
-    final = [specs[i] for i in idx] if space.kind == "notch" else FilterSet(
-        tuple(filters.names[i] for i in idx), curves[idx], space.grid, ("file",) * len(idx),
+    final: Any = [specs[i] for i in idx] if space.kind == "notch" else FilterSet(
+        tuple(names[i] for i in idx), curves[idx], space.grid, ("file",) * len(idx),
         tuple({} for _ in idx))
     card = score_batch(final, problem, metrics=_union(metrics, problem.groups)) if idx else card
     kept = [(i, card.filter_dict(j)) for j, i in enumerate(idx)]
