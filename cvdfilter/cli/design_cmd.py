@@ -63,6 +63,7 @@ def register(app: typer.Typer) -> None:
             "Metric groups in each design's scorecard entry: all, core (no colour rendition: faster) or a "
             "list; the groups the objectives and requirements need are always there.")),
         figure_format: str = typer.Option("png", "--figure-format", help="pdf, svg or png (figures)."),
+        dpi: float = typer.Option(300.0, "--dpi", help="Resolution of PNG figures, dots per inch."),
         output: str = typer.Option(..., "--output", "-o", help="Folder for designs.json, designs.csv, curves/ "
                                                                 "and the figures."),
     ) -> None:
@@ -94,7 +95,7 @@ def register(app: typer.Typer) -> None:
         progress.close()
         elapsed = time.perf_counter() - start
         try:
-            written = result.write(output, formats=(figure_format,))
+            written = result.write(output, formats=(figure_format,), dpi=dpi)
         except InputError as exc:
             fail(exc)
         typer.echo(result.table_text(width=100), nl=False)

@@ -109,10 +109,11 @@ class DesignResult:
         from ..tables import text_table
 
         names = self.metric_names()
-        rows = [[d["rank"], *(_cell(d["objectives"][m]) for m in names), d["spec"]] for d in self.designs]
+        rows = [[d["rank"], *(_cell(d["objectives"][m]) for m in names), "yes", d["spec"]] for d in self.designs]
         for r in self.references:
-            rows.append(["ref", *(_cell(r["objectives"][m]) for m in names), r["spec"]])
-        text = text_table(["rank", *names, "design"], rows, width=width)
+            rows.append(["ref", *(_cell(r["objectives"][m]) for m in names),
+                         "yes" if r["meets_requirements"] else "no", r["spec"]])
+        text = text_table(["rank", *names, "meets", "design"], rows, width=width)
         return text + "\n" + CAVEAT + "\n"
 
     def curve_csv(self, d: dict) -> str:
@@ -139,9 +140,10 @@ class DesignResult:
         from ..figures import figure
 
         fs = _designs_filterset(self, self.designs[:n])
-        return figure("spectrum", fs, title=f"Best designs of {self.problem.space.family}", **kwargs)
+        kwargs.setdefault("width", "double")
+        return figure("spectrum", fs, title=f"The best designs, ranks 1-{len(fs)}", **kwargs)
 
-    def write(self, folder, *, inputs=(), formats=("png",)) -> list:
+    def write(self, folder, *, inputs=(), formats=("png",), dpi: float = 300.0) -> list:
         """Write every output into ``folder`` (atomically, file by file; never over an input)."""
         import pathlib
 
@@ -154,7 +156,7 @@ class DesignResult:
         texts = {"designs.json": self.to_json(), "designs.csv": self.csv_text(),
                  **{f"curves/design-{d['rank']:02d}.csv": self.curve_csv(d) for d in self.designs}}
         figures = [("pareto", self.pareto_figure()), ("spectra", self.spectrum_figure())]
-        blobs = {f"{name}.{f}": fig.to_bytes(f) for name, fig in figures for f in formats}
+        blobs = {f"{name}.{f}": fig.to_bytes(f, dpi=dpi) for name, fig in figures for f in formats}
         for fig in figures:
             fig[1].close()
         written = []

@@ -7,4 +7,4 @@ CVD=${CVD:-.venv/bin/cvdfilter}
 $CVD design --observer deuteranomalous --maximise red_green_gain --maximise luminous_transmittance \
     --require road_use.suitable --require "iso12312_category<=1" --require "white_shift<=0.01" \
     --require "discriminable_pairs.lost[normal]<=60" --family notch:k=2 --budget 3000 --seed 1 --top 8 \
-    -o "$OUT"
+    --dpi 150 -o "$OUT"
