@@ -64,11 +64,11 @@ _LAZY = {
     "figure": "cvdfilter.figures",
     "report": "cvdfilter.reporting",
     "tasks": "cvdfilter.vision_tasks",
-    "design": "cvdfilter.designing",
-    "DesignResult": "cvdfilter.designing",
     "TaskResult": "cvdfilter.vision_tasks",
     "InputError": "cvdfilter.errors",
     "CAVEAT": "cvdfilter.cautions",
+    "design": "cvdfilter.designing",
+    "DesignResult": "cvdfilter.designing",
 }
 
 __all__ = ["__version__", *_LAZY]
