@@ -266,3 +266,20 @@ def test_pareto_figure_layout(objectives, width):
     fig = r.pareto_figure(width_mm=width)
     assert layout_problems(fig.figure) == []
     assert fig.data["designs"].shape == (len(r.designs), len(objectives))
+
+
+def test_an_interrupted_search_reports_the_best_so_far():
+    # Ctrl-C arrives as KeyboardInterrupt: here raised from the progress callback after the third generation
+    calls = []
+
+    def progress(done, total):
+        calls.append(done)
+        if len(calls) == 3:
+            raise KeyboardInterrupt
+
+    for objectives in (["red_green_gain"], ["red_green_gain", "luminous_transmittance"]):
+        calls.clear()
+        r = cvdfilter.design("deuteranomalous", maximise=objectives, family="notch:k=1", budget=5000, seed=1,
+                             top=3, progress=progress, **FAST)
+        assert r.run["stopped"] == "interrupted" and r.run["evaluations"] == calls[-1] < 5000
+        assert r.designs

@@ -169,8 +169,8 @@ def search(problem: DesignProblem, *, budget: int, seed: int, time_limit: float 
             record, stopped = _differential_evolution(problem, ev, budget, seed)
         else:
             record, stopped = _nsga2(problem, ev, budget, seed)
-    except KeyboardInterrupt:
-        record = {"algorithm": "interrupted"}
+    except KeyboardInterrupt:  # Ctrl-C: the archive holds every candidate scored so far
+        record = {"algorithm": "differential evolution (scipy)" if n_obj == 1 else "NSGA-II (pymoo)"}
         stopped = "interrupted"
     record.update({"evaluations": ev.evaluations, "budget": budget, "stopped": stopped, "seed": seed})
     return ev.archive, record
