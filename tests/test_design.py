@@ -283,3 +283,17 @@ def test_an_interrupted_search_reports_the_best_so_far():
                              top=3, progress=progress, **FAST)
         assert r.run["stopped"] == "interrupted" and r.run["evaluations"] == calls[-1] < 5000
         assert r.designs
+
+
+def test_outputs_never_overwrite_an_input(tmp_path):
+    import shutil
+
+    (tmp_path / "out" / "curves").mkdir(parents=True)
+    ref = tmp_path / "out" / "curves" / "design-01.csv"
+    shutil.copy(cvdfilter.spectra.filters.example_path("larkhill-notch-575"), ref)
+    before = ref.read_bytes()
+    r = _cli("design", "--observer", "deuteranomalous", "--maximise", "red_green_gain", "--budget", "60",
+             "--metrics", "core", "--reference", str(ref), "-o", str(tmp_path / "out"))
+    assert r.returncode == 2 and "overwrite an input" in r.stderr
+    assert ref.read_bytes() == before and sorted(p.name for p in (tmp_path / "out").rglob("*")) == ["curves",
+                                                                                                     "design-01.csv"]

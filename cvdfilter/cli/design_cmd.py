@@ -6,7 +6,7 @@ from typing import Any, List, Optional
 
 import typer
 
-from .common import fail
+from .common import fail, input_files
 
 
 class _Progress:
@@ -95,7 +95,8 @@ def register(app: typer.Typer) -> None:
         progress.close()
         elapsed = time.perf_counter() - start
         try:
-            written = result.write(output, formats=(figure_format,), dpi=dpi)
+            written = result.write(output, formats=(figure_format,), dpi=dpi,
+                                   inputs=input_files(reference or []) + [surfaces])
         except InputError as exc:
             fail(exc)
         typer.echo(result.table_text(width=100), nl=False)

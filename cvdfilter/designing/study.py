@@ -409,7 +409,7 @@ def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output
 
     space = problem.space
     curves = np.vstack([space.curve(x) for x in candidates])
-    folder = f"{output}/" if output else ""
+    folder = (output.rstrip("/\\") + "/") if output else ""
     specs: list[str] = [space.spec(x) or "" for x in candidates]
     names = tuple(f"candidate-{i + 1}" for i in range(len(candidates)))
     filters: Any = specs
