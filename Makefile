@@ -51,6 +51,9 @@ demo: $(VENV)/.installed
 	$(BIN)/cvdfilter figure images larkhill-notch-575 --observer deuteranope -o $(OUT)/figures/images.png
 	$(BIN)/cvdfilter figure sweep "notch:center=530..620/5,fwhm=30,depth=0.8" --width double \
 		-o $(OUT)/figures/sweep.pdf
+	$(BIN)/cvdfilter design --observer deuteranomalous --maximise red_green_gain --maximise luminous_transmittance \
+		--require road_use.suitable --require "white_shift<=0.01" --family notch:k=2 --budget 1000 --seed 1 \
+		--metrics core -o $(OUT)/design
 
 test: $(VENV)/.installed-test
 	$(BIN)/ruff check .

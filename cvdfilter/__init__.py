@@ -13,7 +13,8 @@ Observers
 Main jobs
     score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report,
     tasks, TaskResult (colour-vision tasks of our own design for model observers),
-    discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008)
+    discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008),
+    design, DesignResult (the best filters of a family under requirements)
 
 Every number is a model prediction from published cone fundamentals and
 simulation models, not clinical evidence (see ``cvdfilter.cautions.CAVEAT``).
@@ -66,6 +67,8 @@ _LAZY = {
     "TaskResult": "cvdfilter.vision_tasks",
     "InputError": "cvdfilter.errors",
     "CAVEAT": "cvdfilter.cautions",
+    "design": "cvdfilter.designing",
+    "DesignResult": "cvdfilter.designing",
 }
 
 __all__ = ["__version__", *_LAZY]

@@ -37,6 +37,7 @@ from .rendering import (
 from .figures import figure as figure
 from .reporting import report as report
 from .vision_tasks import tasks as tasks, TaskResult as TaskResult
+from .designing import design as design, DesignResult as DesignResult
 from .errors import InputError as InputError
 from .cautions import CAVEAT as CAVEAT
 
@@ -46,5 +47,6 @@ __all__ = [
     "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra",
     "inspect_filters", "catalog", "observer", "Observer",
     "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render",
-    "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult", "InputError", "CAVEAT"
+    "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult", "InputError", "CAVEAT",
+    "design", "DesignResult"
 ]

@@ -14,7 +14,7 @@ import typer
 from .._version import __version__
 
 COMMAND_MODULES = ["list_cmd", "inspect_cmd", "figure_cmd", "score_cmd", "observer_cmd", "render_cmd", "report_cmd",
-                   "cache_cmd", "tasks_cmd", "scene_cmd"]
+                   "cache_cmd", "tasks_cmd", "scene_cmd", "design_cmd"]
 
 app = typer.Typer(
     name="cvdfilter",

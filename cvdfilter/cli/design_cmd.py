@@ -1,0 +1,105 @@
+"""``cvdfilter design``: search a family of filters for the best designs (a thin shell over ``cvdfilter.design``)."""
+
+from __future__ import annotations
+
+from typing import Any, List, Optional
+
+import typer
+
+from .common import fail, input_files
+
+
+class _Progress:
+    """A rich progress bar of evaluations on stderr (transient)."""
+
+    def __init__(self) -> None:
+        self.bar: Any = None
+        self.task: Any = None
+
+    def __call__(self, done: int, total: int) -> None:
+        if self.bar is None:
+            from rich.console import Console
+            from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+            self.bar = Progress(TextColumn("designing"), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                                console=Console(stderr=True), transient=True)
+            self.bar.start()
+            self.task = self.bar.add_task("designing", total=total)
+        self.bar.update(self.task, completed=min(done, total))
+
+    def close(self) -> None:
+        if self.bar is not None:
+            self.bar.stop()
+
+
+def register(app: typer.Typer) -> None:
+    @app.command("design")
+    def design_cmd(
+        observer: List[str] = typer.Option(..., "--observer", help=(
+            "The observer designed for (a spec; n=N makes it a population). Repeat to score more observers; "
+            "a metric names them in brackets, e.g. discriminable_pairs.lost[normal].")),
+        maximise: Optional[List[str]] = typer.Option(None, "--maximise", help=(
+            "A scorecard key to maximise (red_green_gain, confusion_pairs.net, luminous_transmittance; for a "
+            "population mean:KEY, p2_5:KEY or share:KEY). Two or more give a Pareto set.")),
+        minimise: Optional[List[str]] = typer.Option(None, "--minimise", help="A scorecard key to minimise."),
+        require: Optional[List[str]] = typer.Option(None, "--require", help=(
+            "A requirement every design must meet: KEY>=N, KEY<=N, KEY>N, KEY<N, KEY==N, or a yes/no key "
+            "alone, e.g. 'luminous_transmittance>=0.43', 'iso12312_category<=1', road_use.suitable.")),
+        family: str = typer.Option("notch:k=1", "--family", help=(
+            "notch:k=1-3[,shape=flat][,center=LO..HI][,fwhm=LO..HI][,depth=LO..HI|od=LO..HI]"
+            "[,on=nd|longpass|shortpass] or spline:k=4-60 (free-form curve).")),
+        budget: int = typer.Option(2000, "--budget", help="Most candidates scored."),
+        seed: int = typer.Option(0, "--seed", help="Seed of the optimiser: the same seed gives the same JSON."),
+        top: int = typer.Option(10, "--top", help="Most designs reported."),
+        reference: Optional[List[str]] = typer.Option(None, "--reference", help=(
+            "A filter to compare with (repeat); default the bundled examples.")),
+        no_references: bool = typer.Option(False, "--no-references", help="Compare with no reference filters."),
+        illuminant: str = typer.Option("D65", "--illuminant", help="The light the surfaces are seen in."),
+        surfaces: str = typer.Option("ces99", "--surfaces", help="ces99, chart24, tcs14, vs15 or a file."),
+        adaptation: str = typer.Option("full", "--adaptation", help="full, none or a degree 0-1."),
+        time_limit: Optional[float] = typer.Option(None, "--time-limit", help=(
+            "Stop the search after this many seconds (the result then depends on the machine).")),
+        metrics: str = typer.Option("all", "--metrics", help=(
+            "Metric groups in each design's scorecard entry: all, core (no colour rendition: faster) or a "
+            "list; the groups the objectives and requirements need are always there.")),
+        figure_format: str = typer.Option("png", "--figure-format", help="pdf, svg or png (figures)."),
+        dpi: float = typer.Option(300.0, "--dpi", help="Resolution of PNG figures, dots per inch."),
+        output: str = typer.Option(..., "--output", "-o", help="Folder for designs.json, designs.csv, curves/ "
+                                                                "and the figures."),
+    ) -> None:
+        """Search a family of filters for the designs that best meet objectives under requirements; write
+        the ranked designs (JSON, CSV, curve files), a Pareto figure and the spectra of the best designs.
+        Ctrl-C stops the search and writes the best designs found so far.
+
+        Example: cvdfilter design --observer deuteranomalous --maximise red_green_gain
+        --require 'luminous_transmittance>=0.43' --family notch:k=1 --budget 1000 --seed 1 -o design-out
+        """
+        import time
+
+        from ..designing import design
+        from ..errors import InputError
+
+        if figure_format not in ("pdf", "svg", "png"):
+            fail(f"--figure-format {figure_format}: use pdf, svg or png")
+        refs = [] if no_references else (reference or None)
+        progress = _Progress()
+        start = time.perf_counter()
+        try:
+            result = design(observer, maximise=maximise or [], minimise=minimise or [], require=require or [],
+                            family=family, budget=budget, seed=seed, top=top, references=refs,
+                            illuminant=illuminant, surfaces=surfaces, adaptation=adaptation,
+                            time_limit=time_limit, metrics=metrics, progress=progress, output=output)
+        except (InputError, ValueError) as exc:
+            progress.close()
+            fail(exc)
+        progress.close()
+        elapsed = time.perf_counter() - start
+        try:
+            written = result.write(output, formats=(figure_format,), dpi=dpi,
+                                   inputs=input_files(reference or []) + [surfaces])
+        except InputError as exc:
+            fail(exc)
+        typer.echo(result.table_text(width=100), nl=False)
+        run = result.run
+        typer.echo(f"{run['evaluations']:,} candidates scored in {elapsed:.1f} s ({run['stopped']}); "
+                   f"wrote {len(written)} files in {output}", err=True)

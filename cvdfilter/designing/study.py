@@ -1,0 +1,458 @@
+"""``cvdfilter.design``: the best filters of a family for an observer, under requirements.
+
+:func:`design` parses the family, objectives and requirements (every input checked before any
+scoring), runs the search (:mod:`cvdfilter.designing.engine`), re-scores the chosen designs with the
+ordinary scorer and returns a :class:`DesignResult`, whose views are the files ``cvdfilter design``
+writes: ``designs.json`` (:meth:`DesignResult.to_dict`), ``designs.csv``, one curve file per design in
+``curves/``, the Pareto figure and the spectrum figure of the best designs.
+
+A design is the optimum of a model, not a clinical recommendation (docs/design.md).
+
+Public: :func:`design`, :class:`DesignResult`, :data:`DEFAULT_BUDGET`, :data:`DEFAULT_TOP`.
+"""
+
+from __future__ import annotations
+
+import json
+import shlex
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from ..errors import InputError
+from .engine import Archive, DesignProblem, score_batch, search, select
+from .objectives import groups_needed, parse_metric, parse_requirement
+from .reading import entry_value
+from .spaces import CURVE_DIGITS, parse_family
+
+__all__ = ["design", "DesignResult", "DEFAULT_BUDGET", "DEFAULT_TOP", "MAX_BUDGET"]
+
+DEFAULT_BUDGET = 2000
+DEFAULT_TOP = 10
+MAX_BUDGET = 10_000_000
+
+
+@dataclass
+class DesignResult:
+    """The outcome of :func:`design`.
+
+    Attributes
+    ----------
+    designs : list of dict
+        Best first: ``rank``, ``spec`` (spec string, or the curve file for free-form designs),
+        ``parameters``, ``objectives`` {metric: value}, ``requirements`` {expression: value},
+        ``scorecard`` (the design's JSON entry in ``cvdfilter score``), and ``curve`` (transmittance on
+        the grid, not in the JSON).
+    references : list of dict
+        The reference filters scored the same way (``spec``, ``objectives``, ``requirements``, ``meets``).
+    problem : DesignProblem
+    archive : Archive
+        Every candidate scored during the search.
+    run : dict
+        Algorithm, library, population, generations, evaluations, why it stopped.
+    inputs : dict
+        The arguments (canonical) and the command that reproduces the run.
+    header : dict
+        The scorecard header of the re-score (models, thresholds and constants used).
+    """
+
+    designs: list
+    references: list
+    problem: DesignProblem
+    archive: Archive
+    run: dict
+    inputs: dict
+    header: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        """``designs.json``: ``{tool, version, caveat, inputs, designs: [{rank, spec, objectives, scorecard}]}``
+        plus the run record, the scorer's models and the references."""
+        from .._version import __version__
+        from ..cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
+
+        return {
+            "tool": "cvdfilter", "version": __version__, "caveat": CAVEAT,
+            "cautions": [ROAD_CAUTION, EYE_CARE_CAUTION,
+                         "A design is the optimum of a model under the stated bounds, not a clinical "
+                         "recommendation; manufacturability is not modelled beyond those bounds."],
+            "inputs": self.inputs,
+            "search": self.run,
+            "models": self.header.get("models", {}),
+            "designs": [{k: v for k, v in d.items() if k != "curve"} for d in self.designs],
+            "references": self.references,
+        }
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+    def metric_names(self) -> list[str]:
+        return [m.text for m, _ in self.problem.objectives]
+
+    def csv_text(self) -> str:
+        """``designs.csv``: one row per design, objectives first, then every scorecard number."""
+        from ..tables import csv_text
+
+        rows = [_flatten_entry(d["scorecard"]) for d in self.designs]
+        keys: list[str] = []
+        for r in rows:
+            keys += [k for k in r if k not in keys]
+        objectives = self.metric_names()
+        header = ["rank", "spec", *objectives, *keys]
+        body = [[d["rank"], d["spec"], *(d["objectives"][m] for m in objectives), *(r.get(k) for k in keys)]
+                for d, r in zip(self.designs, rows)]
+        return csv_text(header, body)
+
+    def table_text(self, width: int = 100) -> str:
+        """The ranked designs as a text table, the caveat underneath."""
+        from ..cautions import CAVEAT
+        from ..tables import text_table
+
+        names = self.metric_names()
+        rows = [[d["rank"], *(_cell(d["objectives"][m]) for m in names), "yes", d["spec"]] for d in self.designs]
+        for r in self.references:
+            rows.append(["ref", *(_cell(r["objectives"][m]) for m in names),
+                         "yes" if r["meets_requirements"] else "no", r["spec"]])
+        text = text_table(["rank", *names, "meets", "design"], rows, width=width)
+        return text + "\n" + CAVEAT + "\n"
+
+    def curve_csv(self, d: dict) -> str:
+        """A design's curve file: wavelength (nm) and transmittance (fraction), comment lines first."""
+        from ..cautions import CAVEAT
+
+        wl = self.problem.space.grid.wavelengths
+        lines = [f"# cvdfilter design, rank {d['rank']}: {d['spec'] if self.problem.space.kind == 'notch' else ''}"
+                 .rstrip(": "),
+                 f"# {self.inputs['command']}",
+                 f"# {CAVEAT}",
+                 "wavelength_nm,transmittance_fraction"]
+        lines += [f"{w:g},{v:.{CURVE_DIGITS}f}" for w, v in zip(wl.tolist(), d["curve"].tolist())]
+        return "\n".join(lines) + "\n"
+
+    def pareto_figure(self, **kwargs):
+        """The objectives of every candidate scored, the designs and the references (FigureResult)."""
+        from ..figures.pareto import pareto_figure
+
+        return pareto_figure(self, **kwargs)
+
+    def spectrum_figure(self, n: int = 4, **kwargs):
+        """Transmittance of the best ``n`` designs over the illuminant and cone fundamentals."""
+        from ..figures import figure
+
+        fs = _designs_filterset(self, self.designs[:n])
+        kwargs.setdefault("width", "double")
+        return figure("spectrum", fs, title=f"The best designs, ranks 1-{len(fs)}", **kwargs)
+
+    def write(self, folder, *, inputs=(), formats=("png",), dpi: float = 300.0) -> list:
+        """Write every output into ``folder`` (atomically, file by file; never over an input)."""
+        import pathlib
+
+        from ..io.atomic import check_outputs, write_text
+
+        out = pathlib.Path(folder)
+        names = ["designs.json", "designs.csv", *(f"curves/design-{d['rank']:02d}.csv" for d in self.designs),
+                 *(f"pareto.{f}" for f in formats), *(f"spectra.{f}" for f in formats)]
+        check_outputs([out / n for n in names], inputs)
+        texts = {"designs.json": self.to_json(), "designs.csv": self.csv_text(),
+                 **{f"curves/design-{d['rank']:02d}.csv": self.curve_csv(d) for d in self.designs}}
+        figures = [("pareto", self.pareto_figure()), ("spectra", self.spectrum_figure())]
+        blobs = {f"{name}.{f}": fig.to_bytes(f, dpi=dpi) for name, fig in figures for f in formats}
+        for fig in figures:
+            fig[1].close()
+        written = []
+        for name, text in texts.items():
+            written.append(write_text(out / name, text, inputs=inputs))
+        from ..io.atomic import write_bytes
+
+        for name, data in blobs.items():
+            written.append(write_bytes(out / name, data, inputs=inputs))
+        return written
+
+
+def _cell(v) -> str:
+    if v is None:
+        return "-"
+    return f"{v:.4g}" if isinstance(v, float) else str(v)
+
+
+def _flatten_entry(entry: dict) -> dict:
+    """A scorecard entry as {column: scalar}: nested keys joined by dots; per observer KEY[SPEC], a
+    population's statistics STAT:KEY[SPEC] and shares helped share:KEY[SPEC] (the metric syntax)."""
+    from ..score_population import STATS
+
+    out: dict = {}
+
+    def walk(node, prefix, spec):
+        for k, v in node.items():
+            key = f"{prefix}{k}"
+            if isinstance(v, dict) and set(STATS) <= set(v):
+                for s in STATS:
+                    out[f"{s}:{key}[{spec}]"] = v[s]
+            elif isinstance(v, dict):
+                walk(v, key + ".", spec)
+            elif isinstance(v, list):
+                if k == "reasons":
+                    out[key if spec is None else f"{key}[{spec}]"] = "; ".join(map(str, v))
+            elif k not in ("observer",):
+                out[key if spec is None else f"{key}[{spec}]"] = v
+
+    top = {k: v for k, v in entry.items() if k not in ("observers",)}
+    walk(top, "", None)
+    for o in entry.get("observers", []):
+        spec = o["observer"]
+        helped = o.get("helped", {})
+        walk({k: v for k, v in o.items() if k not in ("helped", "population", "members")}, "", spec)
+        for k, h in helped.items():
+            out[f"share:{k}[{spec}]"] = h["share"]
+    return out
+
+
+def _designs_filterset(result: DesignResult, designs: list):
+    """The designs as a FilterSet named by spec (notches) or curve name (free-form)."""
+    from ..spectra.filters import FilterSet
+
+    grid = result.problem.space.grid
+    names = tuple(d["spec"] if result.problem.space.kind == "notch" else f"design-{d['rank']:02d}" for d in designs)
+    t = np.vstack([d["curve"] for d in designs])
+    return FilterSet(names, t, grid, ("spec",) * len(names), tuple({"spec": d["spec"]} for d in designs))
+
+
+def _as_list(x) -> list:
+    if x is None:
+        return []
+    return [x] if isinstance(x, str) else list(x)
+
+
+def _command(observers, maximise, minimise, require, family, budget, seed, top, references, illuminant,
+             surfaces, adaptation, output, metrics="all") -> str:
+    parts = ["cvdfilter", "design"]
+    for o in observers:
+        parts += ["--observer", o]
+    for m in maximise:
+        parts += ["--maximise", m]
+    for m in minimise:
+        parts += ["--minimise", m]
+    for r in require:
+        parts += ["--require", r]
+    parts += ["--family", family, "--budget", str(budget), "--seed", str(seed), "--top", str(top)]
+    if references is not None:
+        for r in references:
+            parts += ["--reference", r]
+        if not references:
+            parts += ["--no-references"]
+    if illuminant != "D65":
+        parts += ["--illuminant", str(illuminant)]
+    if surfaces != "ces99":
+        parts += ["--surfaces", str(surfaces)]
+    if str(adaptation) != "full":
+        parts += ["--adaptation", str(adaptation)]
+    if metrics != "all":
+        parts += ["--metrics", metrics if isinstance(metrics, str) else ",".join(metrics)]
+    parts += ["-o", str(output or "DIR")]
+    return " ".join(shlex.quote(p) for p in parts)
+
+
+def design(observer, *, maximise=(), minimise=(), require=(), family: str = "notch:k=1",
+           budget: int = DEFAULT_BUDGET, seed: int = 0, top: int = DEFAULT_TOP, references=None,
+           illuminant: str = "D65", surfaces: str = "ces99", adaptation="full", time_limit: float | None = None,
+           metrics="all", progress=None, output: str | None = None) -> DesignResult:
+    """Search a family of filters for the best designs for an observer, under requirements.
+
+    Parameters
+    ----------
+    observer : str or sequence of str
+        The observer designed for (a spec; ``n=N`` makes it a population); further specs are scored too
+        (metrics name them in brackets: ``discriminable_pairs.lost[normal]``).
+    maximise, minimise : str or sequence of str
+        Metrics (scorecard keys, :mod:`cvdfilter.designing.objectives`); one gives the best designs, two
+        or more a Pareto set.
+    require : str or sequence of str
+        Requirements, e.g. ``luminous_transmittance>=0.43``, ``road_use.suitable``, ``white_shift<=0.01``.
+    family : str
+        ``notch:k=1..3[,...]`` or ``spline:k=K`` (:mod:`cvdfilter.designing.spaces`).
+    budget : int
+        Most candidates scored.
+    seed : int
+        Seed of the optimiser (the same seed gives the same designs).
+    top : int
+        Most designs reported.
+    references : sequence of str, optional
+        Filters scored beside the designs for comparison; default the bundled (invented) examples.
+    illuminant, surfaces, adaptation
+        As for :func:`cvdfilter.score`.
+    metrics : str or sequence
+        The scorer's metric groups in each design's scorecard entry (``all``, ``core`` or names), besides
+        those the objectives and requirements need (``rendition`` costs about 0.3 s per filter).
+    time_limit : float, optional
+        Stop the search after this many seconds (the result then depends on the machine's speed).
+    progress : callable, optional
+        ``progress(evaluations, budget)`` after every generation.
+    output : str, optional
+        The folder the result will be written to (named in the reproducing command and in the specs
+        of free-form designs' curve files).
+
+    Returns
+    -------
+    DesignResult
+
+    Raises
+    ------
+    cvdfilter.errors.InputError
+        For a bad observer, metric, requirement, family or option (before any search), or when no
+        design meets every requirement.
+
+    Examples
+    --------
+    >>> r = design("deuteranomalous", maximise="red_green_gain", require="luminous_transmittance>=0.5",
+    ...            budget=200, seed=1, references=[])   # doctest: +SKIP
+    >>> r.designs[0]["spec"]                             # doctest: +SKIP
+    'notch:center=...'
+    """
+    from ..observers.observer import observer as make_observer
+    from ..observers.population import is_population_spec
+    from ..observers.population import population as make_population
+    from ..spectra.filters import example_names
+
+    observers = [str(o).strip() for o in _as_list(observer)]
+    if not observers or not observers[0]:
+        raise InputError("design needs an observer", hint="e.g. --observer deuteranomalous")
+    maximise, minimise, require = _as_list(maximise), _as_list(minimise), _as_list(require)
+    if not maximise and not minimise:
+        raise InputError("nothing to optimise", hint="give --maximise METRIC, e.g. --maximise red_green_gain")
+    try:
+        budget = int(budget)
+        seed = int(seed)
+        top = int(top)
+    except (TypeError, ValueError):
+        raise InputError("budget, seed and top must be whole numbers") from None
+    if not 10 <= budget <= MAX_BUDGET:
+        raise InputError(f"budget {budget} is outside 10-{MAX_BUDGET:,} evaluations")
+    if seed < 0:
+        raise InputError(f"seed {seed} must be 0 or more")
+    if not 1 <= top <= 50:
+        raise InputError(f"top {top} is outside 1-50")
+    if time_limit is not None and not time_limit > 0:
+        raise InputError(f"time limit {time_limit} must be a positive number of seconds")
+    space = parse_family(family)
+    primary = observers[0]
+    objectives = [(parse_metric(m, primary), +1) for m in maximise] + [(parse_metric(m, primary), -1)
+                                                                      for m in minimise]
+    names = [m.text for m, _ in objectives]
+    if len(set(names)) != len(names):
+        raise InputError("the same metric is given twice as an objective")
+    requirements = [parse_requirement(r, primary) for r in require]
+    for m in [m for m, _ in objectives] + [r.metric for r in requirements]:
+        if m.observer is not None and m.observer not in observers:
+            observers.append(m.observer)
+    for o in observers:  # every observer checked before the search
+        (make_population if is_population_spec(o) else make_observer)(o)
+    groups = groups_needed([m for m, _ in objectives] + [r.metric for r in requirements])
+    score_kwargs = {"illuminant": illuminant, "surfaces": surfaces, "adaptation": adaptation}
+    problem = DesignProblem(space, observers, objectives, requirements, score_kwargs, groups)
+    ref_specs = list(example_names()) if references is None else [str(r) for r in references]
+    # checks the scorer's own inputs (illuminant, surfaces, adaptation) and the references before searching
+    ref_card = score_batch(ref_specs, problem, metrics=_union(metrics, groups)) if ref_specs else None
+
+    archive, run = search(problem, budget=budget, seed=seed, time_limit=time_limit, progress=progress)
+    candidates = select(problem, archive, top=top)
+    designs, header = _rescore(problem, candidates, top=top, output=output, metrics=metrics)
+    if not designs:
+        raise InputError("no design kept its requirements when re-scored from its spec string "
+                         f"({len(candidates)} tried)", hint="loosen a requirement slightly: the rounding of the "
+                                                            "spec moved every candidate across a bound")
+    references_out = []
+    if ref_card is not None:
+        for i in range(len(ref_card)):
+            entry = ref_card.filter_dict(i)
+            references_out.append(_summary(problem, entry, ref_specs[i]))
+    run["reported"] = len(designs)
+    inputs = {
+        "observers": observers, "maximise": maximise, "minimise": minimise, "require": require,
+        "requirements": [{"expression": r.text, "metric": r.metric.text, "op": r.op, "value": r.value}
+                         for r in requirements],
+        "family": space.describe(), "budget": budget, "seed": seed, "top": top,
+        "illuminant": str(illuminant), "surfaces": str(surfaces), "adaptation": str(adaptation),
+        "references": ref_specs, "metric_groups_searched": groups,
+        "metric_groups_reported": _union(metrics, groups),
+        "command": _command(observers[:1] if len(observers) == 1 else _as_list(observer), maximise, minimise,
+                            require, space.family, budget, seed, top, references, illuminant, surfaces,
+                            adaptation, output, metrics),
+    }
+    return DesignResult(designs, references_out, problem, archive, run, inputs, header)
+
+
+def _summary(problem: DesignProblem, entry: dict, spec: str) -> dict:
+    objectives = {m.text: _value(entry_value(entry, m, problem.observer_index(m))) for m, _ in problem.objectives}
+    reqs = {r.text: _value(entry_value(entry, r.metric, problem.observer_index(r.metric)))
+            for r in problem.requirements}
+    meets = all(bool(r.satisfied(entry_value(entry, r.metric, problem.observer_index(r.metric))))
+                for r in problem.requirements)
+    return {"spec": spec, "objectives": objectives, "requirements": reqs, "meets_requirements": meets}
+
+
+def _value(v: float):
+    return None if v != v else (int(v) if float(v).is_integer() and abs(v) < 2**53 else float(v))
+
+
+def _union(metrics, groups) -> list:
+    """The scorer's groups named by ``metrics`` (all, core or a list) together with ``groups``."""
+    from ..score_plan import METRIC_GROUPS, parse_metrics
+
+    wanted = set(parse_metrics(metrics)) | set(groups)
+    return [g for g in METRIC_GROUPS if g in wanted]
+
+
+def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output: str | None, metrics="all"):
+    """Re-score the candidates with the ordinary scorer (every metric group) from their spec strings
+    (notch families) or curves; keep those whose re-score meets every requirement, best first."""
+    from ..spectra.filters import FilterSet
+
+    space = problem.space
+    curves = np.vstack([space.curve(x) for x in candidates])
+    folder = (output.rstrip("/\\") + "/") if output else ""
+    specs: list[str] = [space.spec(x) or "" for x in candidates]
+    names = tuple(f"candidate-{i + 1}" for i in range(len(candidates)))
+    filters: Any = specs
+    if space.kind != "notch":
+        filters = FilterSet(tuple(f"candidate-{i + 1}" for i in range(len(candidates))), curves, space.grid,
+                            ("file",) * len(candidates), tuple({} for _ in candidates))
+
+    def meets(entry):
+        return all(bool(r.satisfied(entry_value(entry, r.metric, problem.observer_index(r.metric))))
+                   for r in problem.requirements)
+
+    # 1. every candidate re-scored with the metric groups the search used (fast), requirements checked
+    card = score_batch(filters, problem)
+    kept = [(i, card.filter_dict(i)) for i in range(len(candidates))]
+    kept = [(i, e) for i, e in kept if meets(e)]
+    first, sense = problem.objectives[0]
+    k0 = problem.observer_index(first)
+
+    def order(item):
+        v = entry_value(item[1], first, k0)
+        return (v != v, -sense * (v if v == v else 0.0), item[0])
+
+    kept.sort(key=order)
+    if len(problem.objectives) > 1 and len(kept) > top:  # thin the front evenly along the first objective
+        pick = np.unique(np.round(np.linspace(0, len(kept) - 1, top)).astype(int))
+        kept = [kept[j] for j in pick]
+    kept = kept[:top]
+    # 2. the designs kept, re-scored with every group asked for (the scorecard entry written), checked again
+    idx = [i for i, _ in kept]
+    final: Any = [specs[i] for i in idx] if space.kind == "notch" else FilterSet(
+        tuple(names[i] for i in idx), curves[idx], space.grid, ("file",) * len(idx),
+        tuple({} for _ in idx))
+    card = score_batch(final, problem, metrics=_union(metrics, problem.groups)) if idx else card
+    kept = [(i, card.filter_dict(j)) for j, i in enumerate(idx)]
+    kept = [(i, e) for i, e in kept if meets(e)]
+    designs = []
+    for rank, (i, entry) in enumerate(kept, start=1):
+        spec = specs[i] if space.kind == "notch" else f"{folder}curves/design-{rank:02d}.csv"
+        entry = dict(entry)
+        if space.kind != "notch":
+            entry.update({"name": f"design-{rank:02d}", "source": "file", "input": spec})
+        s = _summary(problem, entry, spec)
+        designs.append({"rank": rank, "spec": spec, "parameters": space.parameters(candidates[i]),
+                        "objectives": s["objectives"], "requirements": s["requirements"],
+                        "scorecard": entry, "curve": curves[i]})
+    return designs, card.header()
