@@ -139,8 +139,7 @@ class ScoreInputs:
                  bandwidth: float | None = None, sensitivity: bool = False) -> ScoreInputs:
         """Check and load every input; raises InputError before any heavy work.
 
-        An observer spec with ``n=N`` becomes a :class:`~cvdfilter.observers.population.Population`
-        (not with ``sensitivity``).
+        An observer spec with ``n=N`` becomes a :class:`~cvdfilter.observers.population.Population`.
         """
         from .metrics.discrimination import receptor_noise
         from .metrics.road_use import parse_signal_limits
@@ -176,9 +175,6 @@ class ScoreInputs:
 
         obs = [o if isinstance(o, Population) else make_population(o, grid) if is_population_spec(o)
                else make_observer(o, grid) for o in observers]
-        if sensitivity and any(isinstance(o, Population) for o in obs):
-            raise InputError("sensitivity is not available for population observers yet",
-                             hint="score the population without --sensitivity, or its centre observer with it")
         cmfs = cie1931_cmfs(grid)
         d65 = make_illuminant("D65", grid).spd
         lights = signal_lights(signal_spectra, grid, cmfs[:, 1]) if "road_use" in groups else []
