@@ -46,8 +46,8 @@ def score_populations(inp, per_obs: list, groups, progress=None) -> None:
 #: near 60 MB, so memory is bounded whatever the population size.
 MEMBER_BLOCK = 64
 #: Point sets (filter x member) per chunk of the filter loop: the chunk's all-pair distances (float32)
-#: stay near 40 MB per thread.
-SETS_PER_CHUNK = 2048
+#: stay near 12 MB per thread.
+SETS_PER_CHUNK = 640
 
 
 def population_scores(inp, pop, groups, progress=None) -> dict:

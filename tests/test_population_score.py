@@ -69,7 +69,8 @@ def test_spread_matches_numpy_and_skips_undefined_members():
 # ------------------------------------------------------------------------------------------ scoring
 
 @pytest.mark.parametrize("spec", ["normal:n=6,seed=2", "deuteranomalous:n=6,seed=2", "protanomalous:n=6,seed=3",
-                                  "tritanomalous:n=4,seed=1", "deuteranope:n=5,seed=4", "tritanope:n=4"])
+                                  "tritanomalous:n=4,seed=1", "deuteranope:n=5,seed=4", "tritanope:n=4",
+                                  "protanomalous:severity=0.5,model=machado2009,n=4,seed=2"])
 def test_neutral_filter_gives_gain_one_and_no_pair_changed_for_every_member(spec):
     # Invariant (issue 13, CONVENTIONS section 5): a neutral-density filter with full adaptation changes no
     # contrast and no pair, for every member; so no member is "helped".

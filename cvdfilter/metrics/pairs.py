@@ -522,12 +522,13 @@ def median_of_kept(values, keep) -> np.ndarray:
     if p == 0:
         return np.full(v.shape[:-1], np.nan)
     below = rank_left < low
-    if left.any():
-        fill = np.where(below, np.float32(0.0), np.float32(np.inf)).astype(np.float32)
-        np.copyto(v, np.broadcast_to(fill, v.shape), where=np.broadcast_to(left, v.shape))
+    flat = v.reshape(-1, keep.size)  # (rows of groups, G * P): the left-out columns are few, set them alone
+    cols = np.flatnonzero(left)
+    if cols.size:
+        flat[:, cols] = np.where(below.ravel()[cols], np.float32(0.0), np.float32(np.inf))
     nonneg = bool(v.min() >= 0)  # False with a NaN or a negative value
     if not nonneg and (left & below).any():
-        np.copyto(v, np.float32(-np.inf), where=np.broadcast_to(left & below, v.shape))
+        flat[:, np.flatnonzero(left & below)] = -np.inf
     if nonneg:
         part = np.partition(v.view(np.int32), big, axis=-1).view(np.float32)
     else:
@@ -537,7 +538,8 @@ def median_of_kept(values, keep) -> np.ndarray:
     even = (count % 2 == 0) & (count > 0)
     if even.any() and big >= 1:
         lower = part[..., :big].max(axis=-1).astype(float)
-        out = np.where(even, 0.5 * (upper + lower), upper)
+        with np.errstate(invalid="ignore"):
+            out = np.where(even, 0.5 * (upper + lower), upper)
     return np.where(count > 0, out, np.nan)
 
 
@@ -650,7 +652,9 @@ def dense_close_counts(d2, planes, radius: float, masks=()) -> tuple:
         among.append(np.add.reduce(both.view(np.uint8), axis=-1, dtype=acc).astype(np.int64).reshape(b))
     tie = d2 == r32
     if tie.any():
-        rows, cols = np.nonzero(tie)
+        some = np.flatnonzero(tie.any(axis=1))  # the few rows with a tie, then their columns
+        sub, cols = np.nonzero(tie[some])
+        rows = some[sub]
         oi, oj = offset_pairs(n)
         i, j = oi[cols], oj[cols]
         d2u = None
