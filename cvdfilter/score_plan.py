@@ -454,10 +454,11 @@ class ChunkRunner:
         from .metrics.confusion import confusion_from_points
         from .metrics.discrimination import dense_changes, discriminable_from_points
 
-        store = plan.store
+        store, masks = plan.store, plan.masks
+        assert masks is not None  # made by _pair_plan with the references
         # One pass over every pair's distance gives the median and, exactly, every count.
-        more = (plan.confusion["deficient_threshold"], plan.masks["lists"]) if plan.confusion is not None else ()
-        changes, among, med = dense_changes(points, plan.rnl, plan.masks, more)
+        more = (plan.confusion["deficient_threshold"], masks["lists"]) if plan.confusion is not None else ()
+        changes, among, med = dense_changes(points, plan.rnl, masks, more)
         if "discrimination" in self.groups:
             d = discriminable_from_points(points, plan.rnl, changes, median=med)
             for key in PAIR_KEYS:
