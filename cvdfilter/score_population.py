@@ -43,11 +43,14 @@ def score_populations(inp, per_obs: list, groups, progress=None) -> None:
 
 
 #: Members per block: the block's cone basis (wavelengths x members x 3 x (surfaces + 1), float64) stays
-#: near 60 MB, so memory is bounded whatever the population size.
-MEMBER_BLOCK = 64
-#: Point sets (filter x member) per chunk of the filter loop: the chunk's all-pair distances (float32)
-#: stay near 12 MB per thread.
-SETS_PER_CHUNK = 640
+#: near 30 MB, so memory is bounded whatever the population size.
+MEMBER_BLOCK = 32
+#: Point sets (filter x member) per chunk of the filter loop: the chunk's cone catches, logs and points
+#: (float64) stay near 8 MB each per thread; large enough for an efficient matrix product.
+SETS_PER_CHUNK = 3200
+#: Point sets per block of the pair statistics inside a chunk (whole filters): their float32 all-pair
+#: distances (about 2.5 MB) stay in the CPU cache from the distances through the counts to the median.
+BLOCK_ROWS = 128
 
 
 def population_scores(inp, pop, groups, progress=None) -> dict:
@@ -214,16 +217,32 @@ class MemberBlock:
         logs = log_catches(S)
         y = np.matmul(self.t[None], logs)  # (filters, members, k, surfaces): y = P ln q per member
         flat = [np.ascontiguousarray(y[:, :, r, :]).reshape(nf * mb, n_s) for r in range(self.k)]
-        # Every pair's distance once (float32, for the median); the counts come from it exactly.
-        dm = all_pair_sq_distances(flat)
+        # Every pair's distance once (float32, for the median); the counts come from it exactly. Done in
+        # blocks of whole filters (rows of every member) small enough to stay in the CPU cache meanwhile.
+        n_rows = nf * mb
+        finite = all(bool(np.isfinite(p).all()) for p in flat)  # then every squared distance is >= 0
+        close_all = {r: np.empty(n_rows, dtype=np.int64) for r in self.close}
+        among_all = {r: [np.empty(n_rows, dtype=np.int64) for _ in range(3 if self.with_confusion and r == self.td
+                                                                          else 1)] for r in self.close}
+        med = np.empty(n_rows)
+        step = mb * max(1, BLOCK_ROWS // mb)
+        for a in range(0, n_rows, step):
+            b = min(n_rows, a + step)
+            sub = [p[a:b] for p in flat]
+            dm = all_pair_sq_distances(sub)
+            for r, mask in self.close.items():
+                more = [self.unseen, self.unseen_close] if len(among_all[r]) == 3 else []
+                close1, among = dense_close_counts(dm, sub, r, [mask, *more])
+                close_all[r][a:b] = close1
+                for dst, src in zip(among_all[r], among):
+                    dst[a:b] = src
+            med[a:b] = median_of_kept(dm.reshape(-1, mb, dm.shape[1]), self.keep, nonnegative=finite).ravel()
+        med = np.sqrt(med).reshape(nf, mb)
         counts, extra = {}, []
         for r, mask in self.close.items():
-            more = [self.unseen, self.unseen_close] if self.with_confusion and r == self.td else []
-            close1, among = dense_close_counts(dm, flat, r, [mask, *more])
-            counts[r] = (mask.sum(axis=1), close1.reshape(nf, mb), among[0].reshape(nf, mb))
-            if more:
-                extra = [a.reshape(nf, mb) for a in among[1:]]
-        med = np.sqrt(median_of_kept(dm.reshape(nf, mb, -1), self.keep))
+            counts[r] = (mask.sum(axis=1), close_all[r].reshape(nf, mb), among_all[r][0].reshape(nf, mb))
+            if len(among_all[r]) == 3:
+                extra = [x.reshape(nf, mb) for x in among_all[r][1:]]
         with np.errstate(divide="ignore", invalid="ignore"):
             ratio = np.where(self.m0 > 0, med / self.m0, np.nan)
         cols = (slice(f_lo, f_hi), slice(lo, hi))

@@ -358,8 +358,9 @@ def dense_changes(points, reference: dict, masks: dict, more=()) -> tuple:
         if further:
             extra = among[1:]
     n_f = points[0].shape[0]
-    med = np.sqrt(median_of_kept(d2[:, None, :], masks["keep"]))[:, 0] if reference["median_count"] else \
-        np.full(n_f, np.nan)
+    finite = all(bool(np.isfinite(p).all()) for p in points)  # then every squared distance is >= 0
+    med = np.sqrt(median_of_kept(d2[:, None, :], masks["keep"], nonnegative=finite))[:, 0] \
+        if reference["median_count"] else np.full(n_f, np.nan)
     return changes, extra, _median_dict(med, reference)
 
 

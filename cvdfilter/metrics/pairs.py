@@ -56,6 +56,8 @@ __all__ = ["pair_count", "close_pair_matrix", "close_pairs", "count_close_pairs"
 
 #: Points per chunk of point sets: small enough for the CPU cache (a few hundred kB per array).
 _CHUNK_POINTS = 50_000
+#: Rows per selection (median) and per block of all-pair distances: about 2 MB of float32, in the CPU cache.
+_SELECT_ROWS = 128
 
 
 def pair_count(n: int) -> int:
@@ -431,16 +433,18 @@ def all_pair_sq_distances(planes, *, dtype=np.float32, exclude=None) -> np.ndarr
     planes = [np.asarray(c, dtype=float) for c in planes]
     b, n = planes[0].shape
     out = np.empty((b, pair_count(n)), dtype=dtype)
-    pos = 0
-    for off in range(1, n):
-        m = n - off
-        acc = None
-        for c in planes:
-            d = c[:, off:] - c[:, :m]
-            d *= d
-            acc = d if acc is None else np.add(acc, d, out=acc)
-        out[:, pos:pos + m] = acc
-        pos += m
+    for lo in range(0, b, _SELECT_ROWS):  # blocks of rows that stay in the CPU cache
+        hi = min(b, lo + _SELECT_ROWS)
+        pos = 0
+        for off in range(1, n):
+            m = n - off
+            acc = None
+            for c in planes:
+                d = c[lo:hi, off:] - c[lo:hi, :m]
+                d *= d
+                acc = d if acc is None else np.add(acc, d, out=acc)
+            out[lo:hi, pos:pos + m] = acc
+            pos += m
     if exclude is not None and len(exclude):
         out[:, np.asarray(exclude, dtype=np.intp)] = np.inf
     return out
@@ -478,7 +482,7 @@ def median_rows(values, count: int | None = None) -> np.ndarray:
     return 0.5 * (upper + part[:, :k].max(axis=1).astype(float))
 
 
-def median_of_kept(values, keep) -> np.ndarray:
+def median_of_kept(values, keep, *, nonnegative: bool = False) -> np.ndarray:
     """Median of each row over the columns it keeps, for groups of rows with different kept columns.
 
     The exact middle order statistic (the mean of the two middle ones for an even count), as
@@ -497,6 +501,9 @@ def median_of_kept(values, keep) -> np.ndarray:
         left-out columns when it is a float32 array already.
     keep : array_like of bool
         Shape (G, P): the columns each group of rows keeps.
+    nonnegative : bool
+        The caller knows every value is >= 0 and none is NaN (squared distances of finite points): skips
+        the pass that checks it.
 
     Returns
     -------
@@ -526,18 +533,26 @@ def median_of_kept(values, keep) -> np.ndarray:
     cols = np.flatnonzero(left)
     if cols.size:
         flat[:, cols] = np.where(below.ravel()[cols], np.float32(0.0), np.float32(np.inf))
-    nonneg = bool(v.min() >= 0)  # False with a NaN or a negative value
+    nonneg = nonnegative or bool(v.min() >= 0)  # False with a NaN or a negative value
     if not nonneg and (left & below).any():
         flat[:, np.flatnonzero(left & below)] = -np.inf
-    if nonneg:
-        part = np.partition(v.view(np.int32), big, axis=-1).view(np.float32)
-    else:
-        part = np.partition(v, big, axis=-1)
-    upper = part[..., big].astype(float)
+    rows = v.reshape(-1, p)
+    upper_rows = np.empty(rows.shape[0], dtype=np.float32)
+    lower_rows = np.empty(rows.shape[0], dtype=np.float32)
+    for lo in range(0, rows.shape[0], _SELECT_ROWS):  # blocks of rows that stay in the CPU cache
+        block = rows[lo:lo + _SELECT_ROWS]
+        if nonneg:
+            part = np.partition(block.view(np.int32), big, axis=-1).view(np.float32)
+        else:
+            part = np.partition(block, big, axis=-1)
+        upper_rows[lo:lo + _SELECT_ROWS] = part[:, big]
+        if big >= 1:
+            lower_rows[lo:lo + _SELECT_ROWS] = part[:, :big].max(axis=-1)
+    upper = upper_rows.reshape(v.shape[:-1]).astype(float)
     out = upper
     even = (count % 2 == 0) & (count > 0)
     if even.any() and big >= 1:
-        lower = part[..., :big].max(axis=-1).astype(float)
+        lower = lower_rows.reshape(v.shape[:-1]).astype(float)
         with np.errstate(invalid="ignore"):
             out = np.where(even, 0.5 * (upper + lower), upper)
     return np.where(count > 0, out, np.nan)
@@ -642,18 +657,26 @@ def dense_close_counts(d2, planes, radius: float, masks=()) -> tuple:
     b, n = planes[0].shape
     r2 = radius * radius
     r32 = np.float32(r2)
-    lt = d2 < r32
     acc = np.uint16 if d2.shape[1] < 65536 else np.int64  # uint16 sums are the fastest that cannot overflow
-    close = np.add.reduce(lt.view(np.uint8), axis=1, dtype=acc).astype(np.int64)
-    among = []
-    for m in masks:
-        g = m.shape[0]
-        both = np.logical_and(lt.reshape(b // g, g, -1), m)
-        among.append(np.add.reduce(both.view(np.uint8), axis=-1, dtype=acc).astype(np.int64).reshape(b))
-    tie = d2 == r32
-    if tie.any():
-        some = np.flatnonzero(tie.any(axis=1))  # the few rows with a tie, then their columns
-        sub, cols = np.nonzero(tie[some])
+    close = np.zeros(b, dtype=np.int64)
+    among = [np.zeros(b, dtype=np.int64) for _ in masks]
+    step = int(np.lcm.reduce([m.shape[0] for m in masks] or [1]))
+    step *= max(1, _SELECT_ROWS // step)  # blocks of whole groups that stay in the CPU cache
+    tied = []
+    for lo in range(0, b, step):
+        hi = min(b, lo + step)
+        lt = d2[lo:hi] < r32
+        close[lo:hi] = np.add.reduce(lt.view(np.uint8), axis=1, dtype=acc)
+        for m, a in zip(masks, among):
+            g = m.shape[0]
+            both = np.logical_and(lt.reshape((hi - lo) // g, g, -1), m)
+            a[lo:hi] = np.add.reduce(both.view(np.uint8), axis=-1, dtype=acc).reshape(hi - lo)
+        tie = d2[lo:hi] == r32
+        if tie.any():
+            tied.append(lo + np.flatnonzero(tie.any(axis=1)))
+    if tied:
+        some = np.concatenate(tied)  # the few rows with a tie, then their columns
+        sub, cols = np.nonzero(d2[some] == r32)
         rows = some[sub]
         oi, oj = offset_pairs(n)
         i, j = oi[cols], oj[cols]
