@@ -147,8 +147,7 @@ class ScoreInputs:
                  bandwidth: float | None = None, sensitivity: bool = False) -> ScoreInputs:
         """Check and load every input; raises InputError before any heavy work.
 
-        An observer spec with ``n=N`` becomes a :class:`~cvdfilter.observers.population.Population`
-        (not with ``sensitivity``).
+        An observer spec with ``n=N`` becomes a :class:`~cvdfilter.observers.population.Population`.
         """
         from .metrics.discrimination import receptor_noise
         from .metrics.road_use import parse_signal_limits
@@ -184,9 +183,6 @@ class ScoreInputs:
 
         obs = [o if isinstance(o, Population) else make_population(o, grid) if is_population_spec(o)
                else make_observer(o, grid) for o in observers]
-        if sensitivity and any(isinstance(o, Population) for o in obs):
-            raise InputError("sensitivity is not available for population observers yet",
-                             hint="score the population without --sensitivity, or its centre observer with it")
         cmfs = cie1931_cmfs(grid)
         d65 = make_illuminant("D65", grid).spd
         lights = signal_lights(signal_spectra, grid, cmfs[:, 1]) if "road_use" in groups else []
@@ -325,6 +321,9 @@ class ObserverPlan:
         Confused-pair reference (``confusion_reference``) for deficient observers with a normal base.
     store : dict of numpy.ndarray
         The result arrays over filters (``Scorecard.per_observer`` entry); a chunk writes its own slice.
+    masks : dict or None
+        The references' pair sets as masks over all pairs (``discrimination.pair_masks``), for the counts
+        and the median taken from one pass over every pair's distance.
     """
 
     observer: Any
@@ -335,6 +334,7 @@ class ObserverPlan:
     rnl: Any = None
     confusion: dict | None = None
     store: dict = field(default_factory=dict)
+    masks: dict | None = None
 
 
 def _pair_plan(plan: ObserverPlan, inp: ScoreInputs, q0: np.ndarray, stimuli: np.ndarray, n_f: int) -> None:
@@ -372,6 +372,10 @@ def _pair_plan(plan: ObserverPlan, inp: ScoreInputs, q0: np.ndarray, stimuli: np
         store["discriminable_median_without"] = plan.rnl["median"]
         store["discriminable_median_with"] = np.full(n_f, np.nan)
         store["discriminable_median_ratio"] = np.full(n_f, np.nan)
+    from .metrics.discrimination import pair_masks
+
+    plan.masks = pair_masks(plan.rnl, [plan.confusion["unseen"], plan.confusion["unseen_close"]]
+                            if plan.confusion is not None else [])
 
 
 def plan_observers(inp: ScoreInputs, observers=None) -> tuple[list[ObserverPlan], ChunkRunner]:
@@ -428,7 +432,7 @@ class ChunkRunner:
     whites: np.ndarray
 
     def __call__(self, lo: int, hi: int) -> int:
-        from .metrics.discrimination import close_changes, log_catches, rnl_points
+        from .metrics.discrimination import log_catches, rnl_points
 
         n_s = self.n_samples
         Q = (self.transmittance[lo:hi] @ self.B).reshape(hi - lo, self.k_cols, n_s + 1)
@@ -442,7 +446,7 @@ class ChunkRunner:
                 self._contrast(plan, [S[:, i, :] for i in c], white[:, c], lo, hi)
             if need_logs:
                 points = rnl_points(logs[:, c, :], plan.rnl)  # y = P ln q: Delta S is their distance
-                self._pairs(plan, points, close_changes(points, plan.rnl), lo, hi)
+                self._pairs(plan, points, lo, hi)
         return hi
 
     def _contrast(self, plan: ObserverPlan, planes: list, white: np.ndarray, lo: int, hi: int) -> None:
@@ -454,15 +458,17 @@ class ChunkRunner:
         store["red_green_gain"][lo:hi] = g[:, 1]
         store["blue_yellow_gain"][lo:hi] = g[:, 2]
 
-    def _pairs(self, plan: ObserverPlan, points, changes, lo: int, hi: int) -> None:
+    def _pairs(self, plan: ObserverPlan, points, lo: int, hi: int) -> None:
         from .metrics.confusion import confusion_from_points
-        from .metrics.discrimination import discriminable_from_points
+        from .metrics.discrimination import dense_changes, discriminable_from_points
 
-        store = plan.store
-        med = None
+        store, masks = plan.store, plan.masks
+        assert masks is not None  # made by _pair_plan with the references
+        # One pass over every pair's distance gives the median and, exactly, every count.
+        more = (plan.confusion["deficient_threshold"], masks["lists"]) if plan.confusion is not None else ()
+        changes, among, med = dense_changes(points, plan.rnl, masks, more)
         if "discrimination" in self.groups:
-            d = discriminable_from_points(points, plan.rnl, changes)
-            med = d
+            d = discriminable_from_points(points, plan.rnl, changes, median=med)
             for key in PAIR_KEYS:
                 store[f"discriminable_{key}"][lo:hi] = d[key]
             for t, counts in d["at"].items():
@@ -471,7 +477,7 @@ class ChunkRunner:
             store["discriminable_median_with"][lo:hi] = d["median_with"]
             store["discriminable_median_ratio"][lo:hi] = d["median_ratio"]
         if plan.confusion is not None:
-            d = confusion_from_points(points, plan.confusion, changes, median=med)
+            d = confusion_from_points(points, plan.confusion, changes, median=med, among=among)
             for key in CONFUSION_KEYS:
                 store[f"confusion_{key}"][lo:hi] = d[key]
             store["confusion_median_with"][lo:hi] = d["median_with"]

@@ -1,22 +1,26 @@
-"""Populations in the scorecard: members scored in batches, then summarised per metric.
+"""Populations in the scorecard: members scored as arrays over (filters, members), then summarised per metric.
 
-A population (:class:`~cvdfilter.observers.population.Population`, a spec with ``n=N``) is scored member by
-member through :func:`cvdfilter.score`'s per-observer path (:func:`population_scores`); its JSON entry
+A population (:class:`~cvdfilter.observers.population.Population`, a spec with ``n=N``) is scored in blocks
+of members, every metric vectorised over filters and members with the fixed-observer path's arithmetic
+(:func:`population_scores`, :class:`MemberBlock`); its JSON entry
 (:func:`population_entry`) gives every per-observer metric as ``{mean, sd, p2_5, p50, p97_5}`` over the
 members and the share of members helped with a Wilson 95 % interval (:mod:`cvdfilter.metrics.population_stats`).
 
 Public: :func:`is_population`, :func:`score_populations`, :func:`population_scores`, :func:`population_summaries`,
-:func:`population_entry`, :data:`STATS`, :data:`CONTRAST_KEYS`.
+:func:`population_entry`, :class:`MemberBlock`, :data:`MEMBER_BLOCK`, :data:`SETS_PER_CHUNK`, :data:`STATS`,
+:data:`CONTRAST_KEYS`.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .score_plan import CONFUSION_KEYS as _CONFUSION_KEYS, PAIR_KEYS as _PAIR_KEYS
+from .score_plan import CONFUSION_KEYS, PAIR_KEYS
+
+_CONFUSION_KEYS, _PAIR_KEYS = CONFUSION_KEYS, PAIR_KEYS
 
 __all__ = ["is_population", "score_populations", "population_scores", "population_summaries", "population_entry",
-           "STATS", "CONTRAST_KEYS"]
+           "MemberBlock", "MEMBER_BLOCK", "SETS_PER_CHUNK", "STATS", "CONTRAST_KEYS"]
 
 #: Statistics of a population metric (JSON keys), from metrics.population_stats.STATISTICS.
 STATS = ("mean", "sd", "p2_5", "p50", "p97_5")
@@ -33,32 +37,242 @@ def is_population(o) -> bool:
 def score_populations(inp, per_obs: list, groups, progress=None) -> None:
     """Fill ``per_obs[k]`` for every population among ``inp.observers`` (a
     :class:`~cvdfilter.score_plan.ScoreInputs`) with :func:`population_scores`, with the run's settings."""
-    kwargs = dict(illuminant=inp.illuminant, surfaces=inp.surfaces, adaptation=inp.adaptation, grid=inp.grid,
-                  weber_fraction=inp.weber_fraction, cone_ratios=inp.cone_ratios,
-                  discrimination_threshold=inp.discrimination_threshold,
-                  distribution_thresholds=inp.distribution_thresholds, normal_threshold=inp.normal_threshold,
-                  deficient_threshold=inp.deficient_threshold)
     for k, pop in enumerate(inp.observers):
         if is_population(pop):
-            per_obs[k] = population_scores(inp.filters, pop, groups, kwargs, progress)
+            per_obs[k] = population_scores(inp, pop, groups, progress)
 
 
-def population_scores(fs, pop, groups, kwargs: dict, progress=None, batch: int = 64) -> dict:
+#: Members per block: the block's cone basis (wavelengths x members x 3 x (surfaces + 1), float64) stays
+#: near 30 MB, so memory is bounded whatever the population size.
+MEMBER_BLOCK = 32
+#: Point sets (filter x member) per chunk of the filter loop: the chunk's cone catches, logs and points
+#: (float64) stay near 8 MB each per thread; large enough for an efficient matrix product.
+SETS_PER_CHUNK = 3200
+#: Point sets per block of the pair statistics inside a chunk (whole filters): their float32 all-pair
+#: distances (about 2.5 MB) stay in the CPU cache from the distances through the counts to the median.
+BLOCK_ROWS = 128
+
+
+def population_scores(inp, pop, groups, progress=None) -> dict:
     """Per-observer arrays of every member of ``pop``: (filters, members), or (members,) for values that do
-    not depend on the filter. Members are scored in batches through :func:`score`'s per-observer path."""
-    from .scorecard import score
+    not depend on the filter.
 
-    parts = []
-    for lo in range(0, pop.n, batch):
-        sub = score(fs, observers=pop.members(lo, lo + batch), metrics=list(groups), **kwargs)
-        parts.append(sub.per_observer)
+    Vectorised over members: members are taken in blocks of :data:`MEMBER_BLOCK`; per block the
+    no-filter references of every member are made at once (:class:`MemberBlock`) and the filters run in
+    chunks through :func:`~cvdfilter.score_plan.run_chunks`, every metric an array over (filters, members).
+    The arithmetic per member is the fixed-observer path's (:class:`~cvdfilter.score_plan.ChunkRunner`),
+    so a member scores exactly as the same observer scored alone.
+    """
+    from .score_plan import run_chunks
+
+    n_f = len(inp.filters)
+    store: dict = {}
+    chunk = max(1, SETS_PER_CHUNK // MEMBER_BLOCK)
+    for lo in range(0, pop.n, MEMBER_BLOCK):
+        hi = min(pop.n, lo + MEMBER_BLOCK)
+        block = MemberBlock(inp, pop, lo, hi, groups, store)
+        run_chunks(block, n_f, chunk=chunk)
+        block.finish()
         if progress is not None:
-            progress("members", min(pop.n, lo + batch), pop.n)
-    out = {}
-    for key in parts[0][0]:
-        vals = [np.asarray(p[key]) for part in parts for p in part]
-        out[key] = np.stack(vals, axis=-1)
-    return out
+            progress("members", hi, pop.n)
+    return store
+
+
+class MemberBlock:
+    """Scores members ``lo:hi`` of a population for a range of filters: ``block(f_lo, f_hi)``.
+
+    Made once per block: the cone basis of its members, and per member the references without a filter
+    (contrast RMS, the receptor-noise transform rotated to the member's own points, its close pairs at
+    every radius, the normally discriminable pairs of its own normal observer and the median over them).
+    A call writes rows ``f_lo:f_hi`` and columns ``lo:hi`` of the population's arrays.
+    """
+
+    def __init__(self, inp, pop, lo: int, hi: int, groups, store: dict) -> None:
+        from .metrics.contrast import contrast_rms, opponent_channels
+        from .metrics.discrimination import log_catches, receptor_noise, rnl_transform
+        from .metrics.pairs import (all_pair_sq_distances, median_of_kept, offset_order, pair_count, pair_indices,
+                                    pair_sq_distances, principal_rotations)
+        from .observers.spaces import von_kries_gains
+
+        self.inp, self.pop, self.lo, self.hi, self.groups, self.store = inp, pop, lo, hi, groups, store
+        n_f, n, mb = len(inp.filters), pop.n, hi - lo
+        grid, n_s = inp.grid, len(inp.surfaces)
+        self.n_s, self.mb = n_s, mb
+        stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance,
+                                                                np.ones((grid.size, 1))], axis=1)
+        fund = np.asarray(pop.fundamentals[lo:hi], dtype=float)
+        # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member.
+        self.B = (fund.transpose(1, 0, 2)[:, :, :, None] * stimuli[:, None, None, :]).reshape(grid.size, -1)
+        q0all = self.B.sum(axis=0).reshape(mb, 3, n_s + 1)
+        q0 = np.ascontiguousarray(q0all[:, :, :n_s].transpose(0, 2, 1))  # (members, surfaces, 3)
+        self.w0 = np.ascontiguousarray(q0all[:, :, n_s])  # (members, 3)
+        self.contrast = "contrast" in groups
+        self.pairs = "discrimination" in groups or "confusion" in groups
+        self.discrimination = "discrimination" in groups
+        self.with_confusion = "confusion" in groups and pop.kind != "normal"
+        self.missing = pop.missing_cone
+
+        def arr(key, dtype=float, fill=np.nan, per_filter=True):
+            if key not in store:
+                store[key] = np.full((n_f, n) if per_filter else (n,), fill, dtype=dtype)
+
+        if self.contrast:
+            self.channels = opponent_channels(pop.kind, pop.deficiency, pop.luminance_weights)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                g0 = von_kries_gains(self.w0, adaptation=1.0)
+            self.rms0 = contrast_rms([q0[:, :, c] for c in range(3)], self.w0, self.channels, gains=g0)
+            for key in CONTRAST_KEYS:
+                arr(key)
+        if self.pairs:
+            noise = receptor_noise(self.missing, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
+            normal_noise = receptor_noise(None, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
+            i_all, j_all = pair_indices(n_s)
+            self.total = pair_count(n_s)
+            # The pairs each member's own normal observer tells apart without a filter (row-major pairs).
+            base = np.asarray(pop.base_fundamentals[lo:hi], dtype=float)
+            nq0 = np.matmul(stimuli[:, :n_s].T, base)
+            yn = log_catches(nq0) @ rnl_transform(normal_noise).T
+            seen = pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], i_all, j_all) >= \
+                float(inp.normal_threshold) ** 2
+            # The receptor-noise transform, rotated per member so that its first coordinate has the
+            # largest spread (as pair_reference does for one observer).
+            t = rnl_transform(noise)
+            logs0 = log_catches(q0)
+            rot = principal_rotations(np.matmul(logs0, t.T))
+            self.t = np.matmul(t.T[None], rot).transpose(0, 2, 1)  # (members, k, 3)
+            y0 = np.matmul(logs0, self.t.transpose(0, 2, 1))  # (members, surfaces, k)
+            self.k = self.t.shape[1]
+            d2 = np.sum((y0[:, :, None, :] - y0[:, None, :, :]) ** 2, axis=-1)[:, i_all, j_all]
+            t0, td = float(inp.discrimination_threshold), float(inp.deficient_threshold)
+            radii = {t0} | (set(float(x) for x in inp.distribution_thresholds) if self.discrimination else set())
+            if self.with_confusion:
+                radii.add(td)
+            # Masks over pairs in the all-pair (offset) layout of the chunks' distances.
+            where = offset_order(i_all, j_all, n_s)
+
+            def layout(mask):
+                out = np.zeros((mb, self.total), dtype=bool)
+                out[:, where] = mask
+                return out
+
+            self.close = {}
+            with np.errstate(invalid="ignore"):
+                for r in sorted(radii):
+                    self.close[r] = layout(d2 < r * r)
+            # The median's pairs: the normally discriminable ones.
+            self.keep = layout(seen)
+            dm = all_pair_sq_distances([y0[:, :, r] for r in range(self.k)])
+            self.m0 = np.sqrt(median_of_kept(dm, self.keep))
+            self.t0, self.td = t0, td
+            if self.with_confusion:
+                unseen = ~seen
+                near = unseen & (pair_sq_distances([y0[:, :, r] for r in range(self.k)], i_all, j_all) < td * td)
+                self.unseen = layout(unseen)
+                self.unseen_close = layout(near)
+                for key in CONFUSION_KEYS:
+                    arr(f"confusion_{key}", np.int64, 0)
+                arr("confusion_normally_discriminable", np.int64, 0, per_filter=False)
+                arr("confusion_median_without", per_filter=False)
+                arr("confusion_median_with")
+                arr("confusion_median_ratio")
+                store["confusion_normally_discriminable"][lo:hi] = seen.sum(axis=1)
+                store["confusion_median_without"][lo:hi] = self.m0
+            if self.discrimination:
+                for key in PAIR_KEYS:
+                    arr(f"discriminable_{key}", np.int64, 0)
+                for x in inp.distribution_thresholds:
+                    for key in PAIR_KEYS:
+                        arr(f"discriminable_at_{x:g}_{key}", np.int64, 0)
+                arr("discriminable_median_without", per_filter=False)
+                arr("discriminable_median_with")
+                arr("discriminable_median_ratio")
+                store["discriminable_median_without"][lo:hi] = self.m0
+        arr("undefined", bool, False)
+
+    def __call__(self, f_lo: int, f_hi: int) -> int:
+        from .metrics.contrast import contrast_rms
+        from .metrics.discrimination import log_catches
+        from .metrics.pairs import all_pair_sq_distances, dense_close_counts, median_of_kept
+        from .observers.spaces import von_kries_gains
+
+        lo, hi, mb, n_s, store = self.lo, self.hi, self.mb, self.n_s, self.store
+        nf = f_hi - f_lo
+        Q = (self.inp.filters.transmittance[f_lo:f_hi] @ self.B).reshape(nf, mb, 3, n_s + 1)
+        S, white = Q[..., :n_s], Q[..., n_s]
+        present = [c for c in range(3) if c != self.missing]
+        store["undefined"][f_lo:f_hi, lo:hi] = ~np.all(white[:, :, present] > 0, axis=2)
+        if self.contrast:
+            w1 = white.reshape(nf * mb, 3)
+            w0 = np.broadcast_to(self.w0, (nf, mb, 3)).reshape(nf * mb, 3)
+            rms0 = np.broadcast_to(self.rms0, (nf, mb, 3)).reshape(nf * mb, 3)
+            planes = [np.ascontiguousarray(S[:, :, c, :]).reshape(nf * mb, n_s) for c in range(3)]
+            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+                g1 = von_kries_gains(w1, w0, adaptation=self.inp.adaptation)
+                g = contrast_rms(planes, w1, self.channels, gains=g1) / rms0
+            g = np.where(np.isfinite(g), g, np.nan).reshape(nf, mb, 3)
+            for c, key in enumerate(CONTRAST_KEYS):
+                store[key][f_lo:f_hi, lo:hi] = g[:, :, c]
+        if not self.pairs:
+            return f_hi
+        logs = log_catches(S)
+        y = np.matmul(self.t[None], logs)  # (filters, members, k, surfaces): y = P ln q per member
+        flat = [np.ascontiguousarray(y[:, :, r, :]).reshape(nf * mb, n_s) for r in range(self.k)]
+        # Every pair's distance once (float32, for the median); the counts come from it exactly. Done in
+        # blocks of whole filters (rows of every member) small enough to stay in the CPU cache meanwhile.
+        n_rows = nf * mb
+        finite = all(bool(np.isfinite(p).all()) for p in flat)  # then every squared distance is >= 0
+        close_all = {r: np.empty(n_rows, dtype=np.int64) for r in self.close}
+        among_all = {r: [np.empty(n_rows, dtype=np.int64) for _ in range(3 if self.with_confusion and r == self.td
+                                                                          else 1)] for r in self.close}
+        med = np.empty(n_rows)
+        step = mb * max(1, BLOCK_ROWS // mb)
+        for a in range(0, n_rows, step):
+            b = min(n_rows, a + step)
+            sub = [p[a:b] for p in flat]
+            dm = all_pair_sq_distances(sub)
+            for r, mask in self.close.items():
+                more = [self.unseen, self.unseen_close] if len(among_all[r]) == 3 else []
+                close1, among = dense_close_counts(dm, sub, r, [mask, *more])
+                close_all[r][a:b] = close1
+                for dst, src in zip(among_all[r], among):
+                    dst[a:b] = src
+            med[a:b] = median_of_kept(dm.reshape(-1, mb, dm.shape[1]), self.keep, nonnegative=finite).ravel()
+        med = np.sqrt(med).reshape(nf, mb)
+        counts, extra = {}, []
+        for r, mask in self.close.items():
+            counts[r] = (mask.sum(axis=1), close_all[r].reshape(nf, mb), among_all[r][0].reshape(nf, mb))
+            if len(among_all[r]) == 3:
+                extra = [x.reshape(nf, mb) for x in among_all[r][1:]]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            ratio = np.where(self.m0 > 0, med / self.m0, np.nan)
+        cols = (slice(f_lo, f_hi), slice(lo, hi))
+        total = self.total
+        if self.discrimination:
+            for prefix, r in [("discriminable", self.t0)] + [(f"discriminable_at_{x:g}", float(x))
+                                                            for x in self.inp.distribution_thresholds]:
+                close0, close1, both = counts[r]
+                store[f"{prefix}_without"][cols] = total - close0
+                store[f"{prefix}_with"][cols] = total - close1
+                store[f"{prefix}_gained"][cols] = close0 - both
+                store[f"{prefix}_lost"][cols] = close1 - both
+            store["discriminable_median_with"][cols] = med
+            store["discriminable_median_ratio"][cols] = ratio
+        if self.with_confusion:
+            close0, close1, both = counts[self.td]
+            without = close0 - self.unseen_close.sum(axis=1)
+            with_ = close1 - extra[0]
+            both_set = both - extra[1]
+            store["confusion_without"][cols] = without
+            store["confusion_with"][cols] = with_
+            store["confusion_resolved"][cols] = without - both_set
+            store["confusion_created"][cols] = with_ - both_set
+            store["confusion_median_with"][cols] = med
+            store["confusion_median_ratio"][cols] = ratio
+        return f_hi
+
+    def finish(self) -> None:
+        """Free the block's basis (the arrays it filled stay in the population's store)."""
+        self.B = np.empty((0, 0))
 
 
 def population_summaries(card) -> dict:

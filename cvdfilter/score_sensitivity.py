@@ -2,6 +2,8 @@
 
 Each variation of :data:`SENSITIVITY_RANGES` rescores the filters with one setting changed, the others at
 their values of the run; a verdict is robust when the sign of its change is the same in every variation.
+For a population every member's verdict is followed through the variations: each value is the share of
+members helped, ``robust_share`` the share whose sign never changes, and ``robust`` that none changes.
 
 Public: :data:`SENSITIVITY_RANGES`, :func:`sensitivity_variants`, :func:`sensitivity`.
 """
@@ -10,6 +12,9 @@ from __future__ import annotations
 
 from typing import Any
 
+import numpy as np
+
+from .score_population import is_population
 from .scorecard_views import median_ratio
 
 __all__ = ["SENSITIVITY_RANGES", "sensitivity_variants", "sensitivity"]
@@ -49,6 +54,51 @@ def _sign(x) -> int:
     return 0 if x is None or x == 0 else (1 if x > 0 else -1)
 
 
+def _member_measures(o: dict) -> dict:
+    """A population's verdict measures per (filter, member), float, NaN where undefined."""
+    out = {}
+    if "discriminable_gained" in o:
+        out["discriminable_net"] = (np.asarray(o["discriminable_gained"]) - np.asarray(o["discriminable_lost"]))
+    if "confusion_resolved" in o:
+        out["confused_net_resolved"] = (np.asarray(o["confusion_resolved"]) - np.asarray(o["confusion_created"]))
+    ratio = o.get("confusion_median_ratio", o.get("discriminable_median_ratio"))
+    if ratio is not None and out:
+        out["median_delta_s_ratio"] = ratio
+    undefined = o.get("undefined")
+    for key, v in out.items():
+        v = np.asarray(v, dtype=float).copy()
+        if undefined is not None:
+            v[np.asarray(undefined)] = np.nan
+        out[key] = v
+    return out
+
+
+def _population_rows(measures: list, i: int, names: list) -> dict:
+    """Per verdict of filter ``i``: the share of members helped under each variation, and how many keep
+    the sign of their change in every variation."""
+    rows = {}
+    for key in measures[0]:
+        ref = 1.0 if key.startswith("median") else 0.0
+        vals = np.stack([m[key][i] for m in measures])  # (variations, members), default first
+        defined = np.isfinite(vals)
+        with np.errstate(invalid="ignore"):
+            signs = np.sign(vals - ref)
+        shares = {}
+        for name, v, d in zip(["default", *names], vals, defined):
+            shares[name] = round(float(np.mean(v[d] > ref)), 6) if d.any() else None
+        seen = defined.any(axis=0)
+        lo = np.where(defined, signs, np.inf).min(axis=0)
+        hi = np.where(defined, signs, -np.inf).max(axis=0)
+        same = (lo == hi) & seen
+        nums = [v for v in shares.values() if v is not None]
+        n = int(seen.sum())
+        rows[key] = {"statistic": "share of members helped", "values": shares,
+                     "min": min(nums) if nums else None, "max": max(nums) if nums else None,
+                     "robust": bool(n and same[seen].all()),
+                     "robust_share": round(float(same[seen].mean()), 6) if n else None, "members": n}
+    return rows
+
+
 def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
     """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section)."""
     from .scorecard import score
@@ -61,10 +111,12 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
             "distribution_thresholds": st["distribution_thresholds"],
             "normal_threshold": st["normal_threshold"], "deficient_threshold": st["deficient_threshold"],
             "signal_limits": st["signal_limits"]}
-    variants = []
+    variants, variant_cards = [], []
     if pair_groups:
         for name, kw in sensitivity_variants(st):
-            variants.append((name, kw, score(fs, metrics=pair_groups, **{**base, **kw}).to_dict()))
+            v = score(fs, metrics=pair_groups, **{**base, **kw})
+            variants.append((name, kw, v.to_dict()))
+            variant_cards.append(v)
     road = []
     if "road_use" in card.metrics:
         for reading in SENSITIVITY_RANGES["signal_limits"]:
@@ -86,6 +138,10 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
             out["median_delta_s_ratio"] = median_ratio(o)
         return out
 
+    # Populations: every member's verdict under every variation, summarised as shares of members.
+    populations = {k: [_member_measures(card.per_observer[k])] + [_member_measures(v.per_observer[k])
+                                                                   for v in variant_cards]
+                   for k, o in enumerate(card.observers) if is_population(o)}
     filters = []
     for i, f in enumerate(own):
         entry = {"name": f["name"], "observers": []}
@@ -94,6 +150,10 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
                       **{name: d["filters"][i]["road_use"]["suitable"] for name, d in road}}
             entry["road_use_suitable"] = {"values": values, "robust": len(set(values.values())) == 1}
         for k, o in enumerate(f["observers"]):
+            if k in populations:
+                entry["observers"].append({"observer": o["observer"],
+                                           **_population_rows(populations[k], i, [n for n, _, _ in variants])})
+                continue
             m0 = measures(o)
             rows = {}
             for key, v0 in m0.items():
@@ -110,7 +170,9 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
     return {
         "what": "each verdict recomputed with one constant or threshold moved at a time over a documented range; "
                 "'robust' means the sign of the change (net pairs, median ratio - 1, or the road-use verdict) is "
-                "the same in every variation",
+                "the same in every variation; for a population each value is the share of members helped (change "
+                "above 0, or median ratio above 1), 'robust_share' the share of members whose sign is the same "
+                "in every variation, and 'robust' that every member's is",
         "ranges": {"weber_fraction_factors": list(SENSITIVITY_RANGES["weber_fraction"]),
                    "cone_ratios_lm": [list(x) for x in SENSITIVITY_RANGES["cone_ratios_lm"]],
                    "threshold_factors": list(SENSITIVITY_RANGES["threshold_factor"]),

@@ -244,6 +244,8 @@ def _sensitivity_rows(sens: dict):
             for key, label in _SENSITIVITY_LABELS.items():
                 if key in o:
                     r = o[key]
+                    if "statistic" in r:  # a population: shares of members (score_sensitivity._population_rows)
+                        label = f"{label}: {r['statistic']}"
                     rows.append([o["observer"], label, show(r["values"]["default"]),
                                  f"{show(r['min'])} .. {show(r['max'])}", _yes(r["robust"])])
         yield f["name"], rows

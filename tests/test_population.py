@@ -52,7 +52,9 @@ def _luxpy_lms(age, field, p=None, i=None):
 
 @pytest.mark.parametrize("spec", ["normal", "normal:age=70,field=10", "deuteranomalous", "protanomalous:shift=8",
                                   "protanomalous:separation=3,age=25,field=5", "tritanomalous",
-                                  "deuteranope:age=50", "protanope", "tritanope:field=10"])
+                                  "deuteranope:age=50", "protanope", "tritanope:field=10",
+                                  "deuteranomalous:severity=0.6,model=machado2009",
+                                  "tritanomalous:severity=0.7,model=machado2009,age=60"])
 @pytest.mark.parametrize("step", [1.0, 5.0])
 def test_zero_variation_reproduces_the_fixed_observer_exactly(spec, step):
     # Invariant: with variation=none (and no pigment spread) every member is the fixed observer, bit for bit.
@@ -335,7 +337,7 @@ def test_canonical_spec_round_trips():
     ("normal:n=5,age=10..30", "outside"),
     ("normal:n=5,age=70..20", "rise"),
     ("normal:n=5,seed=-1", "outside"),
-    ("deuteranomalous:n=5,model=machado2009,severity=0.5", "machado2009"),
+    ("deuteranomalous:n=5,model=machado2009,severity=0.5,separation_sd=2", "machado2009"),
     ("normal:n=5,data=ss2", "CIE 2006"),
     ("normal:n=5,separation_sd=2", "anomalous"),
     ("deuteranomalous:n=5,separation_sd=x", "not a number"),

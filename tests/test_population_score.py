@@ -13,7 +13,6 @@ from hypothesis import strategies as st
 from typer.testing import CliRunner
 
 from cvdfilter.cli.app import app
-from cvdfilter.errors import InputError
 from cvdfilter.metrics.population_stats import STATISTICS, share_helped, spread, wilson_interval
 from cvdfilter.observers.population import population
 from cvdfilter.scorecard import score
@@ -70,7 +69,8 @@ def test_spread_matches_numpy_and_skips_undefined_members():
 # ------------------------------------------------------------------------------------------ scoring
 
 @pytest.mark.parametrize("spec", ["normal:n=6,seed=2", "deuteranomalous:n=6,seed=2", "protanomalous:n=6,seed=3",
-                                  "tritanomalous:n=4,seed=1", "deuteranope:n=5,seed=4", "tritanope:n=4"])
+                                  "tritanomalous:n=4,seed=1", "deuteranope:n=5,seed=4", "tritanope:n=4",
+                                  "protanomalous:severity=0.5,model=machado2009,n=4,seed=2"])
 def test_neutral_filter_gives_gain_one_and_no_pair_changed_for_every_member(spec):
     # Invariant (issue 13, CONVENTIONS section 5): a neutral-density filter with full adaptation changes no
     # contrast and no pair, for every member; so no member is "helped".
@@ -153,9 +153,35 @@ def test_csv_has_one_row_per_filter_population_statistic():
     assert all(r["statistic"] == "" for r in rows if not r["population.n"])
 
 
-def test_sensitivity_with_populations_is_refused():
-    with pytest.raises(InputError, match="population"):
-        score([NOTCH], observers=["normal:n=3"], metrics="core", sensitivity=True)
+def test_sensitivity_with_a_population_follows_every_member():
+    # Each member's verdict under every variation equals that member scored alone as a fixed observer with
+    # --sensitivity; the population rows are the share helped per variation and the share whose sign holds.
+    pop = population("deuteranomalous:n=5,seed=3")
+    filters = [NOTCH, "longpass:edge=500,width=10"]
+    card = score(filters, observers=[pop.spec], metrics="core", sensitivity=True)
+    each = score(filters, observers=pop.members(), metrics="core", sensitivity=True)
+    for i in range(len(filters)):
+        rows = card.sensitivity["filters"][i]["observers"][0]
+        ref = each.sensitivity["filters"][i]["observers"]
+        assert rows["observer"] == pop.spec
+        for key in ("discriminable_net", "confused_net_resolved", "median_delta_s_ratio"):
+            r = rows[key]
+            centre = 1.0 if key.startswith("median") else 0
+            for name, share in r["values"].items():
+                vals = [m[key]["values"][name] for m in ref]
+                assert share == pytest.approx(np.mean([v > centre for v in vals]), abs=1e-6), (key, name)
+            robust = [m[key]["robust"] for m in ref]
+            assert r["robust_share"] == pytest.approx(np.mean(robust), abs=1e-6)
+            assert r["robust"] == all(robust) and r["members"] == 5
+            assert 0 <= r["min"] <= r["max"] <= 1
+
+
+def test_sensitivity_neutral_filter_helps_no_member_in_any_variation():
+    card = score(["nd:t=0.4"], observers=["protanope:n=4,seed=2"], metrics="core", sensitivity=True)
+    rows = card.sensitivity["filters"][0]["observers"][0]
+    for key in ("discriminable_net", "confused_net_resolved"):
+        assert set(rows[key]["values"].values()) == {0.0} and rows[key]["robust_share"] == 1.0
+    assert "share" in card.to_dict()["sensitivity"]["what"]
 
 
 def test_score_cli_with_a_population():

@@ -134,7 +134,8 @@ def confusion_reference(catches_without, noise, normal_catches_without, normal_n
             "normal_threshold": float(normal_threshold), "deficient_threshold": td}
 
 
-def confusion_from_points(points, reference: dict, changes: dict | None = None, median: dict | None = None) -> dict:
+def confusion_from_points(points, reference: dict, changes: dict | None = None, median: dict | None = None,
+                          among=None) -> dict:
     """Confused-pair statistics from the deficient observer's points with the filter.
 
     Parameters
@@ -147,6 +148,9 @@ def confusion_from_points(points, reference: dict, changes: dict | None = None, 
         :func:`cvdfilter.metrics.discrimination.close_changes` of these points, if already made.
     median : dict, optional
         :func:`cvdfilter.metrics.discrimination.median_changes` of these points, if already made.
+    among : (numpy.ndarray, numpy.ndarray), optional
+        How many of ``unseen`` and of ``unseen_close`` are closer than the deficient threshold with the
+        filter (F,) each, if already counted (:func:`cvdfilter.metrics.discrimination.dense_changes`).
 
     Returns
     -------
@@ -164,8 +168,10 @@ def confusion_from_points(points, reference: dict, changes: dict | None = None, 
     ui, uj = reference["unseen"]
     ci, cj = reference["unseen_close"]
     without = close0 - len(ci)
-    with_ = close1 - count_close_among(points, ui, uj, td)
-    both_set = both - count_close_among(points, ci, cj, td)
+    if among is None:
+        among = (count_close_among(points, ui, uj, td), count_close_among(points, ci, cj, td))
+    with_ = close1 - among[0]
+    both_set = both - among[1]
     out = {"without": np.int64(without), "with": with_, "resolved": without - both_set,
            "created": with_ - both_set, "normally_discriminable": reference["count"]}
     m = median_changes(points, rnl) if median is None else median

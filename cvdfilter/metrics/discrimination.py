@@ -60,7 +60,8 @@ is selected in float32 from the dense pair distances.
 Public: :data:`WEBER_FRACTION`, :data:`CONE_RATIOS`, :data:`DISCRIMINATION_THRESHOLD`,
 :data:`DISTRIBUTION_THRESHOLDS`, :func:`receptor_noise`, :func:`rnl_transform`, :func:`rnl_distance`,
 :func:`log_catches`, :func:`rnl_coordinates`, :func:`rnl_reference`, :func:`rnl_points`,
-:func:`close_changes`, :func:`median_changes`, :func:`discriminable_from_points`,
+:func:`close_changes`, :func:`median_changes`, :func:`dense_changes`, :func:`pair_masks`,
+:func:`discriminable_from_points`,
 :func:`discriminable_from_logs`, :func:`discriminable_pairs`.
 """
 
@@ -73,7 +74,8 @@ from .pairs import (all_pair_sq_distances, close_pairs, count_close_among, count
 
 __all__ = ["WEBER_FRACTION", "CONE_RATIOS", "DISCRIMINATION_THRESHOLD", "DISTRIBUTION_THRESHOLDS", "receptor_noise",
            "rnl_transform", "rnl_distance", "log_catches", "rnl_coordinates", "rnl_reference", "rnl_points",
-           "close_changes", "median_changes", "discriminable_from_points", "discriminable_from_logs",
+           "close_changes", "median_changes", "dense_changes", "pair_masks", "discriminable_from_points",
+           "discriminable_from_logs",
            "discriminable_pairs"]
 
 #: Weber fraction of the L-cone channel of the normal trichromat (from memory; see the module docstring).
@@ -315,7 +317,8 @@ def _at(total: int, close0: int, close1, both) -> dict:
             "lost": close1 - both}
 
 
-def discriminable_from_points(points, reference: dict, changes: dict | None = None) -> dict:
+def discriminable_from_points(points, reference: dict, changes: dict | None = None,
+                              median: dict | None = None) -> dict:
     """Discriminable-pair statistics from the points of :func:`rnl_points`.
 
     Returns
@@ -330,8 +333,52 @@ def discriminable_from_points(points, reference: dict, changes: dict | None = No
     total = pair_count(reference["n"])
     out = _at(total, *changes[reference["threshold"]])
     out["at"] = {t: _at(total, *changes[t]) for t in reference["thresholds"]}
-    out.update(median_changes(points, reference))
+    out.update(median_changes(points, reference) if median is None else median)
     return out
+
+
+def dense_changes(points, reference: dict, masks: dict, more=()) -> tuple:
+    """:func:`close_changes` and :func:`median_changes` from one pass over every pair's distance.
+
+    The float32 distances of all pairs (:func:`~cvdfilter.metrics.pairs.all_pair_sq_distances`) give the
+    median and, exactly, every count (:func:`~cvdfilter.metrics.pairs.dense_close_counts`); ``masks``
+    holds the reference's close pairs per radius as (1, P) masks of that layout (:func:`pair_masks`).
+    ``more`` = (radius, [masks]): further masked counts at one radius (the confused-pair sets).
+
+    Returns (changes, the further counts, the median dict).
+    """
+    from .pairs import dense_close_counts, median_of_kept
+
+    d2 = all_pair_sq_distances(points)
+    changes, extra = {}, []
+    for r, m in masks["close"].items():
+        further = list(more[1]) if more and r == more[0] else []
+        close1, among = dense_close_counts(d2, points, r, [m, *further])
+        changes[r] = (len(reference["close"][r][0]), close1, among[0])
+        if further:
+            extra = among[1:]
+    n_f = points[0].shape[0]
+    finite = all(bool(np.isfinite(p).all()) for p in points)  # then every squared distance is >= 0
+    med = np.sqrt(median_of_kept(d2[:, None, :], masks["keep"], nonnegative=finite))[:, 0] \
+        if reference["median_count"] else np.full(n_f, np.nan)
+    return changes, extra, _median_dict(med, reference)
+
+
+def pair_masks(reference: dict, lists=()) -> dict:
+    """The reference's close pairs per radius, its median's pairs and further pair lists ``lists`` as (1, P)
+    masks in the layout of :func:`~cvdfilter.metrics.pairs.all_pair_sq_distances` (for :func:`dense_changes`)."""
+    n = reference["n"]
+    total = pair_count(n)
+
+    def mask(i, j):
+        m = np.zeros((1, total), dtype=bool)
+        m[0, offset_order(i, j, n)] = True
+        return m
+
+    keep = np.ones((1, total), dtype=bool)
+    keep[0, reference["median_exclude"]] = False
+    return {"close": {r: mask(i, j) for r, (i, j) in reference["close"].items()}, "keep": keep,
+            "lists": [mask(i, j) for i, j in lists]}
 
 
 def median_changes(points, reference: dict) -> dict:
@@ -342,6 +389,11 @@ def median_changes(points, reference: dict) -> dict:
     else:
         d2 = all_pair_sq_distances(points, exclude=reference["median_exclude"])
         med = np.sqrt(median_rows(d2, count=reference["median_count"]))
+    return _median_dict(med, reference)
+
+
+def _median_dict(med, reference: dict) -> dict:
+    n_f = med.shape[0]
     m0 = reference["median"]
     with np.errstate(divide="ignore", invalid="ignore"):
         ratio = med / m0 if m0 > 0 else np.full(n_f, np.nan)

@@ -79,7 +79,8 @@ def machado_shifted(fundamentals, wavelengths, deficiency: str, severity: float)
     Parameters
     ----------
     fundamentals : array_like
-        Normal L, M, S fundamentals (n_wl, 3) on ``wavelengths``.
+        Normal L, M, S fundamentals (n_wl, 3) on ``wavelengths``, or (..., n_wl, 3) for many observers
+        at once (each blended with its own areas).
     wavelengths : array_like
         Evenly spaced wavelengths, nm (n_wl,).
     deficiency : str
@@ -104,13 +105,13 @@ def machado_shifted(fundamentals, wavelengths, deficiency: str, severity: float)
 
         x = wl - machado_shift_nm(deficiency, severity)
         inside = (x >= wl[0]) & (x <= wl[-1])
-        f[:, 2] = np.where(inside, CubicSpline(wl, f[:, 2])(np.clip(x, wl[0], wl[-1])), 0.0)
+        f[..., 2] = np.where(inside, CubicSpline(wl, f[..., 2], axis=-1)(np.clip(x, wl[0], wl[-1])), 0.0)
         return f
     alpha = 1.0 - float(severity)
-    area = np.trapezoid(f[:, :2], wl, axis=0)
+    area = np.trapezoid(f[..., :2], wl, axis=-2)
     other = 1 - k
-    ratio = _FACTOR * area[0] / area[1] if k == 0 else area[1] / area[0] / _FACTOR
-    f[:, k] = alpha * f[:, k] + ratio * (1.0 - alpha) * f[:, other]
+    ratio = _FACTOR * area[..., 0] / area[..., 1] if k == 0 else area[..., 1] / area[..., 0] / _FACTOR
+    f[..., k] = alpha * f[..., k] + np.asarray(ratio)[..., None] * (1.0 - alpha) * f[..., other]
     return f
 
 

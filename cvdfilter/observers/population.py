@@ -115,7 +115,7 @@ def _draws(ps: PopulationSpec, centre: Observer) -> dict:
     else:
         choices = np.asarray(ps.age[1:])
         out["age_years"] = choices[ages.integers(0, len(choices), n)]
-    if centre.kind == "anomalous":
+    if centre.kind == "anomalous" and centre.params.get("model") != "machado2009":
         full = centre.params["normal_separation"]
         if ps.separation_sd:
             mu, s = centre.params["separation"], ps.separation_sd
@@ -193,10 +193,20 @@ class Population:
                       density_pct=np.column_stack([p["l_density_pct"], p["m_density_pct"], p["s_density_pct"]]),
                       peak_shift_nm=np.column_stack([p["l_peak_shift_nm"], p["m_peak_shift_nm"],
                                                      p["s_peak_shift_nm"]]))
-        if anomalous:
+        machado = anomalous and self.centre.params.get("model") == "machado2009"
+        if anomalous and not machado:
             d = str(self.deficiency)
             kwargs["anomalous"] = (CONE_INDEX[d], TOWARD[d], p["pigment_shift_nm"])
-        values = members_to_grid(individual_fundamentals(**kwargs), self.grid)
+        values = individual_fundamentals(**kwargs)
+        if machado:
+            # Machado et al. (2009)'s construction applied to each member's own normal fundamentals, as the
+            # fixed observer applies it to the CIE 2006 ones (observer._machado), peaks normalised to 1.
+            from .machado2009 import machado_shifted
+
+            values = machado_shifted(values, cie2006.table_wavelengths(), str(self.deficiency),
+                                     self.centre.params["severity"])
+            values = values / values.max(axis=1, keepdims=True)
+        values = members_to_grid(values, self.grid)
         values.flags.writeable = False
         return values
 
@@ -242,7 +252,10 @@ class Population:
         p = {k: float(v[i]) for k, v in self.parameters.items()}
         out = {"age": p["age_years"], "field": self.field, "data": "cie2006", "population": self.spec,
                "member": i, **p}
-        if self.kind == "anomalous":
+        if self.kind == "anomalous" and self.centre.params.get("model") == "machado2009":
+            out.update(model="machado2009", severity=self.centre.params["severity"],
+                       shift=self.centre.params["shift"])
+        elif self.kind == "anomalous":
             out.update(model="shift", shift=p["shift_nm"], separation=p["separation_nm"],
                        normal_separation=self.centre.params["normal_separation"],
                        shift_measure=self.centre.params["shift_measure"], pigment_shift=p["pigment_shift_nm"])
@@ -255,7 +268,7 @@ class Population:
         params = self._member_params(i)
         c = self.centre
         base_params = {k: v for k, v in params.items()
-                       if k not in ("model", "shift", "separation", "normal_separation", "shift_measure",
+                       if k not in ("model", "shift", "severity", "separation", "normal_separation", "shift_measure",
                                     "pigment_shift", "separation_nm", "shift_nm", "pigment_shift_nm")}
         base_weights = c.base.luminance_weights if c.base is not None else c.luminance_weights
         base = Observer(f"{self.spec}#{i} (normal)", "normal", None, self.wavelengths, self.base_fundamentals[i],

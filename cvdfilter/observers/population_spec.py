@@ -135,11 +135,12 @@ def parse_population_spec(spec: str) -> PopulationSpec:
     centre = _make_observer(centre_text)
     if centre.params.get("data", "cie2006") != "cie2006":
         raise InputError("populations are built on the CIE 2006 model (data=cie2006)", source=text)
-    if centre.params.get("model") == "machado2009":
-        raise InputError("populations are built on the shifted-pigment model, not model=machado2009", source=text,
-                         hint="drop model=machado2009 (give shift=, separation= or severity=)")
     sep_sd = None
-    if centre.kind == "anomalous":
+    if centre.params.get("model") == "machado2009":
+        if "separation_sd" in params:
+            raise InputError("separation_sd goes with the shifted-pigment model, not model=machado2009",
+                             source=text, hint="the severity is one for the whole population")
+    elif centre.kind == "anomalous":
         deficiency = str(centre.deficiency)  # every anomalous observer names its deficiency
         if "separation_sd" in params:
             try:
