@@ -309,7 +309,7 @@ def display_names(fs) -> list[str]:
 
 def filter_labels(names, limit: int = 34) -> list[str]:
     """Legend labels for filters: for a sweep, only the parameters that vary (``center=530``)."""
-    from .sweep import swept_parameters
+    from .scorecard_values import swept_parameters
 
     names = [str(n) for n in names]
     if len(names) >= 2 and all("=" in n for n in names):
