@@ -226,15 +226,31 @@ def swept_parameters(records) -> tuple[list[str], dict[str, np.ndarray]]:
     return varying, values
 
 
-def _records_of_specs(specs: list) -> list:
-    """Filter records of spec strings, read by the spec parser (no records for strings that are not specs)."""
-    from ..scorecard_arrays import FilterRecord, filter_records
-    from ..spectra.filters import load_filters
+def _records_of_specs(names: list) -> list:
+    """Filter records of names that carry no record (a JSON document, a legend): each name read as the spec
+    grammar writes it (``kind:key=value,...``, stacked with ``*``; numeric values only)."""
+    from ..scorecard_arrays import FilterRecord
 
-    try:
-        return filter_records(load_filters(specs))
-    except InputError:
-        return [FilterRecord(s, "name") for s in specs]
+    out = []
+    for name in names:
+        params: dict[str, float] = {}
+        for term in str(name).split("*"):
+            for part in term.partition(":")[2].split(","):
+                key, eq, value = part.partition("=")
+                key = key.strip().lower()
+                try:
+                    number = float(value)
+                except ValueError:
+                    continue
+                if not eq or not key or not np.isfinite(number):
+                    continue
+                k, n = key, 2
+                while k in params:
+                    k = f"{key}#{n}"
+                    n += 1
+                params[k] = number
+        out.append(FilterRecord(str(name), "name", parameters=params))
+    return out
 
 
 # --- the JSON-document adapter ---------------------------------------------------------------------
