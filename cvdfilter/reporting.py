@@ -322,7 +322,7 @@ def report(filters, *, illuminant: str = "D65", observers=None, surfaces: str = 
     cvdfilter.errors.InputError
         For bad input, before anything is written.
     """
-    from .figures.common import load_filters_checked
+    from .figures.inputs import load_filters_checked
     from .figures.style import Style, parse_style
     from .scorecard import DEFAULT_OBSERVERS, score
 

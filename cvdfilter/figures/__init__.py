@@ -54,7 +54,7 @@ _KIND_TABLE = {
     "gains": ("gains", "gains_figure", True),
     "hues": ("hues", "hues_figure", True),
     "swatches": ("swatches", "swatches_figure", True),
-    "images": ("images", "images_figure", True),
+    "images": ("render_panels", "images_figure", True),
     "sweep": ("sweep", "sweep_figure", True),
     "tasks": ("tasks", "tasks_figure", True),
     "population": ("population", "population_figure", True),

@@ -34,7 +34,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import display_names, ensure_axes_height, legend_axes, legend_columns, legend_labels, load_inputs, observer_label, pad_lines, wrap_to_width
+from .inputs import load_inputs
+from .labelling import (display_names, ensure_axes_height, legend_axes, legend_columns, legend_labels,
+                        observer_label, pad_lines, wrap_to_width)
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style

@@ -22,7 +22,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..observers.labels import table_labels
-from .common import filter_labels, legend_axes, legend_columns
+from .labelling import filter_labels, legend_axes, legend_columns
 from .scorecard_values import figure_results, score_for_figure
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series

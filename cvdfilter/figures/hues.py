@@ -16,8 +16,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import (ensure_axes_height, filter_labels, legend_axes, legend_columns, legend_labels,
-                     load_filters_checked, wrap_to_width)
+from .inputs import load_filters_checked
+from .labelling import ensure_axes_height, filter_labels, legend_axes, legend_columns, legend_labels, wrap_to_width
 from .scorecard_values import figure_results
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series

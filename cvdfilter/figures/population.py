@@ -20,7 +20,7 @@ import numpy as np
 from ..errors import InputError
 from ..observers.labels import table_labels
 from ..observers.population import is_population_spec
-from .common import filter_labels, legend_axes, legend_columns
+from .labelling import filter_labels, legend_axes, legend_columns
 from .scorecard_values import figure_results, score_for_figure
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series

@@ -14,8 +14,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import (callouts_fit, display_names, ensure_axes_height, filter_labels, legend_below, legend_columns,
-                     legend_labels, load_inputs, observer_label, spread_callouts)
+from .inputs import load_inputs
+from .labelling import (callouts_fit, display_names, ensure_axes_height, filter_labels, legend_below, legend_columns,
+                        legend_labels, observer_label, spread_callouts)
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style

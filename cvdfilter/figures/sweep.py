@@ -22,8 +22,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import (ensure_axes_height, legend_below, legend_columns, legend_labels, load_filters_checked,
-                     text_width_pt, wrap_to_width)
+from .inputs import load_filters_checked
+from .labelling import ensure_axes_height, legend_below, legend_columns, legend_labels, text_width_pt, wrap_to_width
 from .scorecard_values import RATIO_METRICS, figure_results, metric_label, score_for_figure, swept_parameters
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO, SeriesStyle, series

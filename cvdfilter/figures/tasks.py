@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import filter_labels, legend_axes, observer_label
+from .labelling import filter_labels, legend_axes, observer_label
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style

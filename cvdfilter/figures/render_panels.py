@@ -18,7 +18,8 @@ import pathlib
 import numpy as np
 
 from ..errors import InputError
-from .common import display_names, load_filters_checked, observer_label, pad_lines, wrap_to_width
+from .inputs import load_filters_checked
+from .labelling import display_names, observer_label, pad_lines, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .style import Style
 
