@@ -19,6 +19,7 @@ Public: :class:`FigureResults`, :func:`figure_results`, :func:`metric_label`, :d
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -92,8 +93,8 @@ class FigureResults:
     observers: list
     populations: list
     context: dict
-    _card: object = None
-    _doc: dict | None = None
+    _card: Any = None     # the Scorecard, or None for a document
+    _doc: Any = None      # the JSON document (dict), or None for a Scorecard
     _observer_objects: list | None = None
     _cache: dict = field(default_factory=dict)
 
