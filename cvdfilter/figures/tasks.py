@@ -97,15 +97,10 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
 
     ill = make_illuminant(illuminant)
     colours = _srgb(caps(task)[2], ill.spd, ill.grid)
-    records = result.results()
-    rows = [(o, t) for o in result.observers for t in result.tasks]
-    verdicts = [[next(r["verdict"] for r in records if r["filter"] == f and r["observer"] == o and r["task"] == t)
-                 for f in result.filters] for o, t in rows]
+    rows, verdicts = _verdicts(result)
     labels_o = {o: observer_label(o) for o in result.observers}
-    n_o = len(result.observers)
     wide = width_mm >= 120
-    grid_h = 42 + 5.5 * n_o  # rotated task names, two-line filter names and the key take about 40 mm
-    path_h = 62.0 if wide else width_mm * 0.78
+    path_h, grid_h = _heights(width_mm, len(result.observers))
     height_mm = height_mm or (max(path_h, grid_h) + 22 if wide else path_h + grid_h + 22)
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
@@ -126,6 +121,22 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
               "observers": list(result.observers), "task": task, "trials": result.settings["trials"],
               "seed": result.settings["seed"]}
     return FigureResult("tasks", fig, data, style, inputs)
+
+
+def _heights(width_mm: float, n_observers: int) -> tuple[float, float]:
+    """Heights (mm) of the path panel and of the verdict grids."""
+    grid_h = 42 + 5.5 * n_observers  # rotated task names, two-line filter names and the key take about 40 mm
+    path_h = 62.0 if width_mm >= 120 else width_mm * 0.78
+    return path_h, grid_h
+
+
+def _verdicts(result):
+    """(observer, task) rows and, per row, each filter's verdict."""
+    records = result.results()
+    rows = [(o, t) for o in result.observers for t in result.tasks]
+    verdicts = [[next(r["verdict"] for r in records if r["filter"] == f and r["observer"] == o and r["task"] == t)
+                 for f in result.filters] for o, t in rows]
+    return rows, verdicts
 
 
 def _path_panel(fig, path_spec, legend_spec, uv, colours, orders, ell, with_label: str, title: str, style) -> None:
