@@ -145,3 +145,17 @@ def test_metric_array_checks_its_axes():
     a = MetricArray("x", "ratio", "a ratio", ("filter", "observer"), np.arange(6.0).reshape(3, 2),
                     {"filter": ("a", "b", "c"), "observer": ("normal", "protanope")}, 6)
     assert a.along("observer", "protanope").tolist() == [1.0, 3.0, 5.0]
+
+
+def test_sweep_draws_a_population_at_its_median_member():
+    # Before the typed results, a sweep given a scorecard with a population (as the report gives it) stopped on
+    # the population's statistics dict; it now draws the median member, labelled so.
+    import cvdfilter
+    from cvdfilter.figures.sweep import sweep_figure
+
+    spec = ["notch:center=540..580/20,fwhm=30,depth=0.8"]
+    card = cvdfilter.score(spec, observers=["normal", "deuteranomalous:n=8,seed=1"], metrics="core")
+    r = sweep_figure(spec, card=card)
+    line = next(a for a in r.figure.findobj() if getattr(a, "get_gid", lambda: None)() == "sweep-red_green_gain-1")
+    p50 = card.metric_statistics("red_green_gain")["p50"].rounded()[:, 1]
+    assert np.allclose(line.get_ydata(), p50) and "median member" in line.get_label()

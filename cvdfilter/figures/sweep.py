@@ -117,7 +117,7 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
         axes = np.atleast_1d(fig.subplots(len(panels), 1, sharex=True, squeeze=False)[:, 0])
-        labels = dict(zip(res.observers, res.observer_labels()))
+        labels = _observer_labels(res)
         for ax, panel in zip(axes, panels):
             _draw_panel(ax, panel, series(n_lines), labels, style, width_mm)
         axes[-1].set_xlabel(_axis_label(x))
@@ -133,6 +133,12 @@ def sweep_figure(filters, *, illuminant="D65", observers=None, surfaces=None, ad
     data = {"x_key": x, "x": values[x], "parameters": values, "varying": varying, "panels": panels,
             "filters": list(fs.names)}
     return FigureResult("sweep", fig, data, style, _inputs(fs, res, metrics))
+
+
+def _observer_labels(res) -> dict:
+    """Observer spec -> readable label; a population is drawn at its median member, and says so."""
+    return {spec: lab + (", median member" if pop else "")
+            for spec, lab, pop in zip(res.observers, res.observer_labels(), res.populations)}
 
 
 def _metric_series(res, metric: str) -> dict:
@@ -263,7 +269,7 @@ def _heatmap(fs, res, metrics, x, y, values, varying, *, style, width_mm, height
 
 def _heatmap_rows(res, metrics, xs, ys, ix, iy) -> list[dict]:
     """Per metric: its label and one cell (a z grid over ys x xs, display units) per observer."""
-    labels = dict(zip(res.observers, res.observer_labels()))
+    labels = _observer_labels(res)
     rows = []
     for metric in metrics:
         label, scale = metric_label(metric)
