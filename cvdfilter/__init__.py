@@ -11,7 +11,8 @@ Observers
     observer, Observer, cone_fundamentals (CIE 2006 by age and field), simulate, simulation,
     population, Population (individual observers, Asano et al. 2016: any observer spec plus n=N)
 Main jobs
-    score, Scorecard (issue-defined JSON via .to_dict()), render, render_views, figure, report,
+    score, Scorecard (issue-defined JSON via .to_dict()), MetricArray (Scorecard.metric(name): one metric
+    over named axes with its unit and definition), render, render_views, figure, report,
     tasks, TaskResult (colour-vision tasks of our own design for model observers),
     discernible_colours, DiscernibleColours (number of discernible colours, Linhares et al. 2008),
     design, DesignResult (the best filters of a family under requirements)
@@ -57,6 +58,7 @@ _LAZY = {
     "simulation": "cvdfilter.observers.simulate",
     "score": "cvdfilter.scorecard",
     "Scorecard": "cvdfilter.scorecard",
+    "MetricArray": "cvdfilter.metric_registry",
     "render": "cvdfilter.rendering",
     "render_views": "cvdfilter.rendering",
     "render_spectra": "cvdfilter.rendering",

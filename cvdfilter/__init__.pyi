@@ -28,6 +28,7 @@ from .observers.cie2006 import cone_fundamentals as cone_fundamentals
 from .observers.simulate import simulate as simulate, simulation as simulation
 from .observers.population import population as population, Population as Population
 from .scorecard import score as score, Scorecard as Scorecard
+from .metric_registry import MetricArray as MetricArray
 from .rendering import (
     render as render,
     render_views as render_views,
@@ -46,7 +47,7 @@ __all__ = [
     "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density", "illuminant", "Illuminant",
     "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra",
     "inspect_filters", "catalog", "observer", "Observer",
-    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render",
-    "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult", "InputError", "CAVEAT",
-    "design", "DesignResult"
+    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard",
+    "MetricArray", "render", "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult",
+    "InputError", "CAVEAT", "design", "DesignResult"
 ]

@@ -333,6 +333,35 @@ class Scorecard:
     def to_json(self) -> str:
         return json.dumps(self.to_dict(), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
+    # -- typed results (cvdfilter.scorecard_arrays) -------------------------------
+
+    def metric(self, name: str, *, population=None):
+        """One metric as a :class:`~cvdfilter.metric_registry.MetricArray` over (filter[, observer]), or
+        (filter, member) for ``population`` (:func:`cvdfilter.scorecard_arrays.metric`)."""
+        from .scorecard_arrays import metric
+
+        return metric(self, name, population=population)
+
+    def metric_statistics(self, name: str) -> dict:
+        """An observer metric over every observer, populations as statistics over their members
+        (:func:`cvdfilter.scorecard_arrays.metric_statistics`)."""
+        from .scorecard_arrays import metric_statistics
+
+        return metric_statistics(self, name)
+
+    def population_helped(self, population) -> dict:
+        """Shares of a population's members helped, arrays over filters
+        (:func:`cvdfilter.scorecard_arrays.population_helped`)."""
+        from .scorecard_arrays import population_helped
+
+        return population_helped(self, population)
+
+    def filter_records(self) -> list:
+        """How each filter was made (:class:`cvdfilter.scorecard_arrays.FilterRecord`)."""
+        from .scorecard_arrays import filter_records
+
+        return filter_records(self.filters)
+
     # -- views (cvdfilter.scorecard_views) ---------------------------------------
 
     def csv_rows(self) -> tuple[list, list]:

@@ -649,7 +649,7 @@ def test_hue_bin_colours_lie_in_their_bins():
 
 
 def test_one_observer_label_everywhere():
-    from cvdfilter.figures.common import observer_label as in_figures
+    from cvdfilter.figures.labelling import observer_label as in_figures
     from cvdfilter.observers.labels import observer_label
 
     assert in_figures is observer_label

@@ -69,44 +69,40 @@ def register(app: typer.Typer) -> None:
 
         Example: cvdfilter figure population larkhill-notch-575 --observer deuteranomalous:n=200,seed=7 -o pop.pdf
         """
-        import pathlib
+        options = {k: v for k, v in (("space", space), ("metrics", list(metric) if metric else None), ("x", x),
+                                     ("image", image), ("chart", chart), ("arrows", arrows)) if v is not None}
+        _make_figure(kind, filters, output, data=data, dpi=dpi, units=units, bandwidth=bandwidth, style=style,
+                     image=image, options=options, illuminant=illuminant, observers=observer or None,
+                     surfaces=surfaces, adaptation=adaptation, width=width, height=height, title=title,
+                     caveat=not no_caveat)
 
-        from ..errors import InputError
 
-        options = {}
-        if space is not None:
-            options["space"] = space
-        if metric:
-            options["metrics"] = list(metric)
-        if x is not None:
-            options["x"] = x
-        if image is not None:
-            options["image"] = image
-        if chart is not None:
-            options["chart"] = chart
-        if arrows is not None:
-            options["arrows"] = arrows
-        try:
-            from ..figures import figure as make_figure
-            from ..figures.output import format_of
+def _make_figure(kind: str, filters, output: str, *, data, dpi: float, units, bandwidth, style, image,
+                 options: dict, **figure_args) -> None:
+    """Check the output names, make the figure, write it (and its data CSV); one line and exit 2 on bad input."""
+    import pathlib
 
-            format_of(pathlib.Path(output), None)
-            if data is not None:
-                if not data.lower().endswith(".csv"):
-                    raise InputError(f"--data {data}: the data file is CSV", hint="end its name in .csv")
-                if pathlib.Path(data).resolve() == pathlib.Path(output).resolve():
-                    raise InputError(f"--data {data} is the figure's own output file", hint="give another name")
-            filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
-            result = make_figure(kind, filter_specs, illuminant=illuminant, observers=observer or None,
-                                 surfaces=surfaces, adaptation=adaptation, width=width, height=height,
-                                 style=style or None, title=title, caveat=not no_caveat, **options)
-            inputs = input_files(filters)
-            inputs += [p for p in (style or []) if pathlib.Path(p).exists()]
-            if image:
-                inputs.append(image)
-            result.save(output, dpi=dpi, inputs=inputs)
-            if data is not None:
-                result.save_data(data, inputs=inputs)
-        except InputError as exc:
-            fail(exc)
-        typer.echo(f"wrote {output}" + (f" and {data}" if data is not None else ""), err=True)
+    from ..errors import InputError
+
+    try:
+        from ..figures import figure as make_figure
+        from ..figures.output import format_of
+
+        format_of(pathlib.Path(output), None)
+        if data is not None:
+            if not data.lower().endswith(".csv"):
+                raise InputError(f"--data {data}: the data file is CSV", hint="end its name in .csv")
+            if pathlib.Path(data).resolve() == pathlib.Path(output).resolve():
+                raise InputError(f"--data {data} is the figure's own output file", hint="give another name")
+        filter_specs = file_options(filters, units, bandwidth)  # file reading: --units/--bandwidth
+        result = make_figure(kind, filter_specs, style=style or None, **figure_args, **options)
+        inputs = input_files(filters)
+        inputs += [p for p in (style or []) if pathlib.Path(p).exists()]
+        if image:
+            inputs.append(image)
+        result.save(output, dpi=dpi, inputs=inputs)
+        if data is not None:
+            result.save_data(data, inputs=inputs)
+    except InputError as exc:
+        fail(exc)
+    typer.echo(f"wrote {output}" + (f" and {data}" if data is not None else ""), err=True)

@@ -54,7 +54,7 @@ _KIND_TABLE = {
     "gains": ("gains", "gains_figure", True),
     "hues": ("hues", "hues_figure", True),
     "swatches": ("swatches", "swatches_figure", True),
-    "images": ("images", "images_figure", True),
+    "images": ("render_panels", "images_figure", True),
     "sweep": ("sweep", "sweep_figure", True),
     "tasks": ("tasks", "tasks_figure", True),
     "population": ("population", "population_figure", True),
@@ -132,6 +132,22 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
         raise InputError(f"unknown figure kind '{kind}'", hint=f"use one of {', '.join(KINDS)}")
     module, function, carries_metrics = _KIND_TABLE[key]
     fn = getattr(importlib.import_module(f"{__name__}.{module}"), function)
+    filters, kwargs = _options(key, filters, observers, surfaces, adaptation, height, options)
+    try:
+        return fn(filters, illuminant=illuminant, style=parse_style(style), width_mm=width_mm(width),
+                  height_mm=None if height is None else float(height),
+                  title=DEFAULT_TITLES[key] if title is None else (title or None),
+                  caveat=CAVEAT if (caveat and carries_metrics) else None, **kwargs)
+    except TypeError as exc:
+        if "unexpected keyword argument" in str(exc):
+            bad = str(exc).rsplit("'", 2)[-2] if "'" in str(exc) else str(exc)
+            raise InputError(f"option '{bad}' does not apply to the {key} figure") from None
+        raise
+
+
+def _options(key: str, filters, observers, surfaces, adaptation, height, options: dict):
+    """The filters with their file options applied, and the keyword arguments of kind ``key``'s function;
+    InputError for a population given to a kind that draws single observers, or a height out of range."""
     from ..spectra.filters import with_file_options
 
     kwargs = dict(options)
@@ -153,13 +169,4 @@ def figure(kind: str, filters=None, *, illuminant: str = "D65", observers=None, 
         kwargs["adaptation"] = adaptation
     if height is not None and not 20.0 <= float(height) <= 500.0:
         raise InputError(f"--height {float(height):g} mm is outside 20-500 mm")
-    try:
-        return fn(filters, illuminant=illuminant, style=parse_style(style), width_mm=width_mm(width),
-                  height_mm=None if height is None else float(height),
-                  title=DEFAULT_TITLES[key] if title is None else (title or None),
-                  caveat=CAVEAT if (caveat and carries_metrics) else None, **kwargs)
-    except TypeError as exc:
-        if "unexpected keyword argument" in str(exc):
-            bad = str(exc).rsplit("'", 2)[-2] if "'" in str(exc) else str(exc)
-            raise InputError(f"option '{bad}' does not apply to the {key} figure") from None
-        raise
+    return filters, kwargs

@@ -62,7 +62,7 @@ def _wrap(text: str, width_mm: float, size_pt: float, *, weight: str = "normal")
     """Wrap to the figure width, measuring each line in the current font (2 % margin each side)."""
     import matplotlib
 
-    from .common import wrap_to_width
+    from .labelling import wrap_to_width
 
     with matplotlib.rc_context({"font.weight": weight}):
         return wrap_to_width(text, 0.93 * width_mm / MM_PER_INCH * 72, size_pt)

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import ensure_axes_height, legend_below, legend_columns, short_name, wrap_to_width
+from .labelling import ensure_axes_height, legend_below, legend_columns, short_name, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, series
 from .style import Style

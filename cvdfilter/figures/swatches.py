@@ -18,7 +18,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import InputError
-from .common import display_names, load_inputs, observer_label, wrap_to_width
+from .inputs import load_inputs
+from .labelling import display_names, observer_label, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .layout import MIN_PRINT_PT
 from .style import Style

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .common import filter_labels, legend_axes, observer_label
+from .labelling import filter_labels, legend_axes, observer_label
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style
@@ -88,26 +88,19 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
     obs = next((o for o in result.observers if not o.startswith("normal")), result.observers[0])
     s = result.scores[(task, obs)]
     uv = result.cap_uv(task)
-    centre = uv.mean(axis=0)
     i0, i1 = _median_trial(s["tes"][0]), _median_trial(s["tes"][1])
     order0 = s["order"][0].reshape(-1, uv.shape[0])[i0]
     order1 = s["order"][1].reshape(-1, uv.shape[0])[i1]
     ell = {state: tuple(float(np.median(s[k][idx])) for k in ("r_major", "r_minor", "confusion_angle_deg"))
            for state, idx in (("without", 0), ("with", 1))}
-    from ..observers.observer import observer as make_observer
     from ..spectra.illuminants import illuminant as make_illuminant
 
     ill = make_illuminant(illuminant)
     colours = _srgb(caps(task)[2], ill.spd, ill.grid)
-    records = result.results()
-    rows = [(o, t) for o in result.observers for t in result.tasks]
-    verdicts = [[next(r["verdict"] for r in records if r["filter"] == f and r["observer"] == o and r["task"] == t)
-                 for f in result.filters] for o, t in rows]
-    labels_o = {o: observer_label(make_observer(o)) for o in result.observers}
-    n_o, n_t, n_f = len(result.observers), len(result.tasks), len(result.filters)
+    rows, verdicts = _verdicts(result)
+    labels_o = {o: observer_label(o) for o in result.observers}
     wide = width_mm >= 120
-    grid_h = 42 + 5.5 * n_o  # rotated task names, two-line filter names and the key take about 40 mm
-    path_h = 62.0 if wide else width_mm * 0.78
+    path_h, grid_h = _heights(width_mm, len(result.observers))
     height_mm = height_mm or (max(path_h, grid_h) + 22 if wide else path_h + grid_h + 22)
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
@@ -117,50 +110,10 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
         else:
             outer = fig.add_gridspec(3, 1, height_ratios=[path_h, 0.001, grid_h])
             path_spec, legend_spec, grid_spec = outer[0], outer[1], outer[2]
-        ax = fig.add_subplot(path_spec)
-        ax.scatter(uv[:, 0], uv[:, 1], s=style.marker_size ** 2 * 2.2, c=colours, edgecolors=NEUTRAL["line"],
-                   linewidths=0.4, zorder=3, gid="caps")
-        ax.plot(*uv[0], marker="o", markersize=style.marker_size * 2.2, markerfacecolor="none",
-                markeredgecolor="black", linestyle="none", zorder=4, gid="first-cap")
-        h0, = ax.plot(uv[order0, 0], uv[order0, 1], color="black", lw=0.9, zorder=2, gid="path-without",
-                      label="without filter")
-        h1, = ax.plot(uv[order1, 0], uv[order1, 1], color=OKABE_ITO["vermillion"], lw=0.9, ls=(0, (4, 1.5)),
-                      zorder=2, gid="path-with", label=f"with {filter_labels([result.filters[0]], 24)[0]}")
-        for state, colour, ls in (("without", "black", "-"), ("with", OKABE_ITO["vermillion"], (0, (4, 1.5)))):
-            e = _ellipse_points(*ell[state], centre)
-            ax.plot(e[:, 0], e[:, 1], color=colour, lw=0.6, ls=ls, alpha=0.8, gid=f"ellipse-{state}")
-        ax.set_aspect("equal", adjustable="box")
-        ax.set_xlabel("u*")
-        ax.set_ylabel("v*")
-        ax.set_title(f"{labels_o[obs]}\n{task}, median-TES trials", fontsize=style.font_size)
-        legend_axes(fig, legend_spec, [h0, h1], [h0.get_label(), h1.get_label()], ncols=1, handlelength=2.0,
-                    title="arrangement path and moment ellipse", title_fontsize=style.font_size)
-        # verdict grids: one per filter, observers down, tasks across
-        short = {"arrangement": "arrange", "arrangement-fine": "fine", "plates": "plates", "rayleigh": "Rayleigh"}
-        sub = grid_spec.subgridspec(1, n_f)
-        axes = [fig.add_subplot(sub[0, j]) for j in range(n_f)]
-        # filter names cut to the width of their grid (0.62 em per character, as in common.legend_columns)
-        room_mm = ((width_mm / 2 if wide else width_mm) - 40.0) / n_f
-        limit = max(6, int(room_mm / (0.62 * style.tick_size * 25.4 / 72)))
-        for j, axv in enumerate(axes):
-            for k in range(n_o):
-                y = n_o - 1 - k
-                for i in range(n_t):
-                    v = verdicts[k * n_t + i][j]
-                    colour, sign = VERDICT_STYLE[v]
-                    axv.add_patch(_rect(i, y, colour, f"verdict-{k * n_t + i}-{j}"))
-                    axv.text(i + 0.5, y + 0.5, sign, ha="center", va="center", fontsize=style.tick_size)
-            axv.set_xlim(0, n_t)
-            axv.set_ylim(0, n_o)
-            axv.set_xticks(np.arange(n_t) + 0.5, [short.get(t, t) for t in result.tasks], rotation=90)
-            ylabels = [labels_o[o].replace(" (", "\n(") for o in result.observers][::-1]
-            axv.set_yticks(np.arange(n_o) + 0.5, ylabels if j == 0 else [])
-            axv.tick_params(length=0)
-            for side in axv.spines.values():
-                side.set_visible(False)
-            axv.set_title(_two_lines(result.filters[j], limit), fontsize=style.tick_size)
-            if j == 0:
-                axv.set_xlabel("+ easier, \u2212 harder, 0 no change", fontsize=style.tick_size, loc="left")
+        _path_panel(fig, path_spec, legend_spec, uv, colours, (order0, order1), ell,
+                    f"with {filter_labels([result.filters[0]], 24)[0]}",
+                    f"{labels_o[obs]}\n{task}, median-TES trials", style)
+        _verdict_grids(fig, grid_spec, result, verdicts, labels_o, style, width_mm / 2 if wide else width_mm)
         finish(fig, style, title=title, caveat=caveat)
     data = {"uv": uv, "order_without": order0, "order_with": order1, "ellipse_without": ell["without"],
             "ellipse_with": ell["with"], "verdicts": verdicts, "rows": rows, "filters": list(result.filters)}
@@ -168,6 +121,76 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
               "observers": list(result.observers), "task": task, "trials": result.settings["trials"],
               "seed": result.settings["seed"]}
     return FigureResult("tasks", fig, data, style, inputs)
+
+
+def _heights(width_mm: float, n_observers: int) -> tuple[float, float]:
+    """Heights (mm) of the path panel and of the verdict grids."""
+    grid_h = 42 + 5.5 * n_observers  # rotated task names, two-line filter names and the key take about 40 mm
+    path_h = 62.0 if width_mm >= 120 else width_mm * 0.78
+    return path_h, grid_h
+
+
+def _verdicts(result):
+    """(observer, task) rows and, per row, each filter's verdict."""
+    records = result.results()
+    rows = [(o, t) for o in result.observers for t in result.tasks]
+    verdicts = [[next(r["verdict"] for r in records if r["filter"] == f and r["observer"] == o and r["task"] == t)
+                 for f in result.filters] for o, t in rows]
+    return rows, verdicts
+
+
+def _path_panel(fig, path_spec, legend_spec, uv, colours, orders, ell, with_label: str, title: str, style) -> None:
+    """The caps in their colours, the arrangement paths without and with the filter and their moment ellipses."""
+    order0, order1 = orders
+    centre = uv.mean(axis=0)
+    ax = fig.add_subplot(path_spec)
+    ax.scatter(uv[:, 0], uv[:, 1], s=style.marker_size ** 2 * 2.2, c=colours, edgecolors=NEUTRAL["line"],
+               linewidths=0.4, zorder=3, gid="caps")
+    ax.plot(*uv[0], marker="o", markersize=style.marker_size * 2.2, markerfacecolor="none",
+            markeredgecolor="black", linestyle="none", zorder=4, gid="first-cap")
+    h0, = ax.plot(uv[order0, 0], uv[order0, 1], color="black", lw=0.9, zorder=2, gid="path-without",
+                  label="without filter")
+    h1, = ax.plot(uv[order1, 0], uv[order1, 1], color=OKABE_ITO["vermillion"], lw=0.9, ls=(0, (4, 1.5)),
+                  zorder=2, gid="path-with", label=with_label)
+    for state, colour, ls in (("without", "black", "-"), ("with", OKABE_ITO["vermillion"], (0, (4, 1.5)))):
+        e = _ellipse_points(*ell[state], centre)
+        ax.plot(e[:, 0], e[:, 1], color=colour, lw=0.6, ls=ls, alpha=0.8, gid=f"ellipse-{state}")
+    ax.set_aspect("equal", adjustable="box")
+    ax.set_xlabel("u*")
+    ax.set_ylabel("v*")
+    ax.set_title(title, fontsize=style.font_size)
+    legend_axes(fig, legend_spec, [h0, h1], [h0.get_label(), h1.get_label()], ncols=1, handlelength=2.0,
+                title="arrangement path and moment ellipse", title_fontsize=style.font_size)
+
+
+def _verdict_grids(fig, grid_spec, result, verdicts, labels_o: dict, style, column_mm: float) -> None:
+    """Verdict grids: one per filter, observers down, tasks across."""
+    short = {"arrangement": "arrange", "arrangement-fine": "fine", "plates": "plates", "rayleigh": "Rayleigh"}
+    n_o, n_t, n_f = len(result.observers), len(result.tasks), len(result.filters)
+    sub = grid_spec.subgridspec(1, n_f)
+    axes = [fig.add_subplot(sub[0, j]) for j in range(n_f)]
+    # filter names cut to the width of their grid (0.62 em per character, as in labelling.legend_columns)
+    room_mm = (column_mm - 40.0) / n_f
+    limit = max(6, int(room_mm / (0.62 * style.tick_size * 25.4 / 72)))
+    for j, axv in enumerate(axes):
+        for k in range(n_o):
+            y = n_o - 1 - k
+            for i in range(n_t):
+                v = verdicts[k * n_t + i][j]
+                colour, sign = VERDICT_STYLE[v]
+                axv.add_patch(_rect(i, y, colour, f"verdict-{k * n_t + i}-{j}"))
+                axv.text(i + 0.5, y + 0.5, sign, ha="center", va="center", fontsize=style.tick_size)
+        axv.set_xlim(0, n_t)
+        axv.set_ylim(0, n_o)
+        axv.set_xticks(np.arange(n_t) + 0.5, [short.get(t, t) for t in result.tasks], rotation=90)
+        ylabels = [labels_o[o].replace(" (", "\n(") for o in result.observers][::-1]
+        axv.set_yticks(np.arange(n_o) + 0.5, ylabels if j == 0 else [])
+        axv.tick_params(length=0)
+        for side in axv.spines.values():
+            side.set_visible(False)
+        axv.set_title(_two_lines(result.filters[j], limit), fontsize=style.tick_size)
+        if j == 0:
+            axv.set_xlabel("+ easier, \u2212 harder, 0 no change", fontsize=style.tick_size, loc="left")
 
 
 def _rect(x, y, colour, gid):

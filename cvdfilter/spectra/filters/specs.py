@@ -143,7 +143,9 @@ def _build_parametric(kind, keys, values, words, spec, grid) -> FilterSet:
         kv = [f"{k}={_fmt(p[k][i])}" for k in keys]
         kv += [f"{k}={w}" for k, w in words.items()]
         names.append(f"{kind}:" + ",".join(kv))
-    info = tuple({"spec": n} for n in names)
+    # the record keeps the parsed parameters (as the spec string writes them), so nothing re-parses names
+    info = tuple({"spec": n, "kind": kind, "parameters": {k: float(_fmt(p[k][i])) for k in keys}}
+                 for i, n in enumerate(names))
     return FilterSet(tuple(names), np.clip(t, 0.0, 1.0), grid, ("spec",) * len(names), info)
 
 

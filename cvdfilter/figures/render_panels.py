@@ -18,7 +18,8 @@ import pathlib
 import numpy as np
 
 from ..errors import InputError
-from .common import display_names, load_filters_checked, observer_label, pad_lines, wrap_to_width
+from .inputs import load_filters_checked
+from .labelling import display_names, observer_label, pad_lines, wrap_to_width
 from .output import FigureResult, finish, new_figure, style_context
 from .style import Style
 
@@ -95,22 +96,11 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
     from ..rendering import VIEW_TITLES, VIEWS, render_views
 
     style = style or Style()
-    observers = list(observers or ["deuteranope"])
-    if len(observers) != 1:
-        raise InputError("the images figure shows one observer", hint="give --observer once")
-    fs = load_filters_checked(filters)
-    if len(fs) != 1:
-        raise InputError(f"{len(fs)} filters: the images figure shows one filter",
-                         hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
-    from .chromaticity import check_adaptable
-
-    check_adaptable(fs, illuminant=illuminant, observer=observers[0], adaptation=adaptation)
+    fs, observers = _one_filter_one_observer(filters, observers, illuminant, adaptation)
     source = default_image() if image is None else image
     rendered = render_views(source if not isinstance(source, pathlib.Path) else str(source), filter=fs,
                             observer=observers[0], illuminant=illuminant, adaptation=adaptation, views=VIEWS)
-    from ..observers.observer import observer as make_observer
-
-    obs_text = observer_label(make_observer(observers[0]))
+    obs_text = observer_label(observers[0])
     filt_text = display_names(fs)[0]
     panel_mm = (width_mm - 4) / 2
     max_pixels = min(MAX_FIGURE_PIXELS, int(np.ceil(panel_mm / 25.4 * FIGURE_DPI)))
@@ -150,3 +140,19 @@ def images_figure(filters, *, illuminant="D65", observers=("deuteranope",), surf
     inputs = {"filters": [fs.names[0]], "illuminant": illuminant, "observer": observers[0],
               "image": data["image"], "adaptation": adaptation}
     return FigureResult("images", fig, data, style, inputs)
+
+
+def _one_filter_one_observer(filters, observers, illuminant, adaptation):
+    """The one filter (a FilterSet) and the one observer spec the figure shows; InputError otherwise, or when
+    the filter leaves a cone no light to adapt to."""
+    observers = list(observers or ["deuteranope"])
+    if len(observers) != 1:
+        raise InputError("the images figure shows one observer", hint="give --observer once")
+    fs = load_filters_checked(filters)
+    if len(fs) != 1:
+        raise InputError(f"{len(fs)} filters: the images figure shows one filter",
+                         hint="one figure per filter; pick one column of a file with FILE:COLUMN or FILE:N")
+    from .chromaticity import check_adaptable
+
+    check_adaptable(fs, illuminant=illuminant, observer=observers[0], adaptation=adaptation)
+    return fs, observers

@@ -1,93 +1,24 @@
-"""Shared helpers for the figure kinds: inputs, labels and small layout aids."""
+"""Labels and text placement for the figure kinds: filter and observer labels, legends, callouts, wrapping
+text to a measured width, and keeping axes tall enough.
+
+Public: the names in ``__all__``.
+"""
 
 from __future__ import annotations
 
 import numpy as np
 
 from ..observers.labels import observer_label
-from ..spectra.grid import DEFAULT_GRID
 
-__all__ = ["load_inputs", "short_name", "spread_labels", "observer_label", "declutter", "spread_callouts", "legend_below", "legend_axes", "legend_columns",
-           "filter_labels", "callouts_fit", "legend_labels", "text_width_pt", "wrap_to_width", "display_names", "pad_lines", "ensure_axes_height"]
-
-
-def load_filters_checked(filters, grid=DEFAULT_GRID):
-    from ..errors import InputError
-    from ..spectra.filters import load_filters
-
-    if filters is None or (isinstance(filters, (list, tuple)) and not filters):
-        raise InputError("no filters given", hint="give a filter file, an example name or a spec")
-    return load_filters(filters, grid=grid)
-
-
-def load_inputs(filters=None, *, illuminant="D65", observers=None, surfaces=None, grid=DEFAULT_GRID):
-    """Resolve the usual inputs; returns a dict with the loaded objects (None where not asked)."""
-    from ..observers.observer import observer
-    from ..spectra.illuminants import illuminant as make_illuminant
-    from ..spectra.surfaces import surface_set
-
-    out = {"grid": grid}
-    out["filters"] = None if filters is None else load_filters_checked(filters, grid)
-    out["illuminant"] = make_illuminant(illuminant, grid)
-    if observers is not None:
-        if isinstance(observers, str) or not hasattr(observers, "__iter__"):
-            observers = [observers]
-        out["observers"] = [observer(o, grid) for o in observers]
-    if surfaces is not None:
-        out["surfaces"] = surface_set(surfaces, grid)
-    return out
+__all__ = ["short_name", "observer_label", "spread_callouts", "legend_below", "legend_axes", "legend_columns",
+           "filter_labels", "callouts_fit", "legend_labels", "text_width_pt", "wrap_to_width", "display_names",
+           "pad_lines", "ensure_axes_height"]
 
 
 def short_name(name: str, limit: int = 28) -> str:
     """A filter or observer name shortened for a legend (full names go in the report)."""
     name = str(name)
     return name if len(name) <= limit else name[: limit - 1] + "\u2026"
-
-
-def spread_labels(positions, min_gap: float) -> np.ndarray:
-    """Stack levels (0, 1, 2, ...) so labels closer than ``min_gap`` never share a level."""
-    positions = np.asarray(positions, dtype=float)
-    order = np.argsort(positions, kind="stable")
-    levels = np.zeros(len(positions), dtype=int)
-    last_at_level: dict[int, float] = {}
-    for i in order:
-        level = 0
-        while level in last_at_level and positions[i] - last_at_level[level] < min_gap:
-            level += 1
-        levels[i] = level
-        last_at_level[level] = positions[i]
-    return levels
-
-
-def declutter(fig, annotations, *, pad_pt: float = 1.0) -> None:
-    """Move annotations up (in points) until none overlaps another; they keep their anchors.
-
-    Works on the laid-out figure (draws it once without rendering), so the
-    true text extents are used rather than an estimate.
-    """
-    if len(annotations) < 2:
-        return
-    fig.draw_without_rendering()
-    renderer = fig.canvas.get_renderer()
-    dpi_scale = fig.dpi / 72.0
-    boxes = [a.get_window_extent(renderer) for a in annotations]
-    order = sorted(range(len(annotations)), key=lambda i: boxes[i].x0)
-    placed = []
-    for i in order:
-        box = boxes[i]
-        shift = 0.0
-        moved = True
-        while moved:
-            moved = False
-            for other in placed:
-                if box.x0 < other.x1 + pad_pt * dpi_scale and other.x0 < box.x1 + pad_pt * dpi_scale and \
-                        box.y0 + shift < other.y1 + pad_pt * dpi_scale and other.y0 < box.y1 + shift:
-                    shift = other.y1 + pad_pt * dpi_scale - box.y0
-                    moved = True
-        if shift:
-            x, y = annotations[i].xyann
-            annotations[i].xyann = (x, y + shift / dpi_scale)
-        placed.append(box.translated(0, shift))
 
 
 def spread_callouts(fig, ax, annotations, anchors_x, *, pad_pt: float = 3.0, lift_pt: float = 7.0) -> None:
@@ -309,7 +240,7 @@ def display_names(fs) -> list[str]:
 
 def filter_labels(names, limit: int = 34) -> list[str]:
     """Legend labels for filters: for a sweep, only the parameters that vary (``center=530``)."""
-    from .sweep import swept_parameters
+    from .scorecard_values import swept_parameters
 
     names = [str(n) for n in names]
     if len(names) >= 2 and all("=" in n for n in names):
