@@ -363,7 +363,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
           distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
           deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
           members: bool = False, progress=None, units: str | None = None,
-          bandwidth: float | None = None) -> Scorecard:
+          bandwidth: float | None = None, scheduler=None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -422,6 +422,9 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         Units (``fraction``, ``percent``, ``od``) and instrument bandwidth (nm) of
         filter files that do not set their own (``FILE@units=od``); see
         :func:`cvdfilter.load_filters`.
+    scheduler : str or Executor, optional
+        Where the chunks of filters run (:mod:`cvdfilter.execution`): ``local`` (default, threads in this
+        process), ``local:N`` (a Dask LocalCluster) or a Dask scheduler address; the results are the same.
 
     Returns
     -------
@@ -457,7 +460,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     fixed = [k for k, o in enumerate(inp.observers) if not is_population(o)]
     if per_observer_groups and fixed:
         plans, runner = plan_observers(inp, [inp.observers[k] for k in fixed])
-        run_chunks(runner, n_f, chunk=_CHUNK_FILTERS, progress=progress)
+        run_chunks(runner, n_f, chunk=_CHUNK_FILTERS, progress=progress, scheduler=scheduler)
         runner.mark_undefined()
         for k, plan in zip(fixed, plans):
             per_obs[k] = plan.store
