@@ -56,6 +56,7 @@ _LAZY = {
     "simulation": "cvdfilter.observers.simulate",
     "score": "cvdfilter.scorecard",
     "Scorecard": "cvdfilter.scorecard",
+    "score_to_file": "cvdfilter.score_stream",
     "render": "cvdfilter.rendering",
     "render_views": "cvdfilter.rendering",
     "render_spectra": "cvdfilter.rendering",

@@ -28,6 +28,7 @@ from .observers.cie2006 import cone_fundamentals as cone_fundamentals
 from .observers.simulate import simulate as simulate, simulation as simulation
 from .observers.population import population as population, Population as Population
 from .scorecard import score as score, Scorecard as Scorecard
+from .score_stream import score_to_file as score_to_file
 from .rendering import (
     render as render,
     render_views as render_views,
@@ -45,6 +46,7 @@ __all__ = [
     "gaussian_notch", "flat_notch", "longpass", "shortpass", "neutral_density", "illuminant", "Illuminant",
     "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra",
     "inspect_filters", "catalog", "observer", "Observer",
-    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard", "render",
+    "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard",
+    "score_to_file", "render",
     "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult", "InputError", "CAVEAT"
 ]

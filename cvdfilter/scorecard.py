@@ -349,6 +349,18 @@ class Scorecard:
 
         return to_table(self, width)
 
+    def to_dataframe(self):
+        """pandas DataFrame: one row per filter x observer (x statistic), full precision (scorecard_frames)."""
+        from .scorecard_frames import to_dataframe
+
+        return to_dataframe(self)
+
+    def to_xarray(self):
+        """xarray Dataset over (filter, observer, member, metric) (scorecard_frames)."""
+        from .scorecard_frames import to_xarray
+
+        return to_xarray(self)
+
 
 def _at_key(t: float) -> str:
     """JSON key of a distribution threshold: 1 -> ``at_1_jnd``, 0.8 -> ``at_0_8_jnd``."""
