@@ -27,6 +27,7 @@ from typing import Any
 import numpy as np
 
 from .errors import InputError
+from .score_plan import CONFUSION_KEYS, PAIR_KEYS
 
 __all__ = ["score_to_file", "StreamTask", "STREAM_CHUNK"]
 
@@ -95,35 +96,42 @@ class StreamTask:
         return Scorecard(fs, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups, inp.signal_lights,
                          results, per_obs, inp.settings(), self.record)
 
-    def rows(self, fs) -> tuple[list, list]:
-        """Columns and rows of the chunk (the CSV view's)."""
-        return self.card(fs).csv_rows()
+    #: Use :func:`_fast_rows` (checked equal to the CSV view on the probe by :func:`score_to_file`).
+    fast: bool = False
+
+    def columns_of(self, fs) -> dict:
+        """The chunk's cells, column by column in :attr:`columns` (the CSV view's)."""
+        assert self.columns is not None
+        card = self.card(fs)
+        if self.fast:
+            return _fast_columns(card, self.columns)
+        columns, rows = card.csv_rows()
+        extra = [c for c in columns if c not in self.columns]
+        if extra:
+            raise InputError(f"filters {fs.names[0]} to {fs.names[-1]} give columns the first filters do not "
+                             f"({', '.join(extra[:3])})", hint="score these filters in a separate run")
+        at = {c: j for j, c in enumerate(columns)}
+        return {c: ([r[at[c]] for r in rows] if c in at else [None] * len(rows)) for c in self.columns}
 
     def __call__(self, lo: int, hi: int) -> tuple[bytes, int]:
-        columns, rows = self.rows(self.source.chunk(lo, hi))
-        assert self.columns is not None and self.types is not None
-        if columns != self.columns:
-            extra = [c for c in columns if c not in self.columns]
-            if extra:
-                raise InputError(f"filters {lo}-{hi - 1} give columns the first filters do not "
-                                 f"({', '.join(extra[:3])})", hint="score these filters in a separate run")
-            at = [columns.index(c) if c in columns else None for c in self.columns]
-            rows = [[r[j] if j is not None else None for j in at] for r in rows]
-        return self.encode(rows), len(rows)
+        cols = self.columns_of(self.source.chunk(lo, hi))
+        n_rows = len(next(iter(cols.values()))) if cols else 0
+        return self.encode(cols), n_rows
 
-    def encode(self, rows: list) -> bytes:
+    def encode(self, cols: dict) -> bytes:
+        assert self.columns is not None and self.types is not None
         if self.fmt == "csv":
             from .tables import csv_text
 
+            rows = zip(*(cols[c] for c in self.columns))
             text = csv_text([], [[("true" if v is True else "false" if v is False else v) for v in r] for r in rows])
             return text[1:].encode("utf-8")  # csv_text starts with the (empty) header line
         import pyarrow as pa
         import pyarrow.parquet as pq
 
-        assert self.columns is not None and self.types is not None
         arrays = []
         for j, t in enumerate(self.types):
-            vals = [r[j] for r in rows]
+            vals = cols[self.columns[j]]
             if t == "string":
                 vals = [None if v is None else v if isinstance(v, str) else str(v) for v in vals]
             try:
@@ -134,6 +142,88 @@ class StreamTask:
         buf = io.BytesIO()
         pq.write_table(pa.Table.from_arrays(arrays, names=self.columns), buf, compression="zstd")
         return buf.getvalue()
+
+
+def _nums(values, digits: int = 6) -> list:
+    """``scorecard._num`` over a sequence: rounded floats, None for NaN and infinities."""
+    inf = float("inf")
+    return [None if x != x or x == inf or x == -inf else round(x, digits) + 0.0
+            for x in np.asarray(values, dtype=float).tolist()]
+
+
+def _observer_columns(card, k: int) -> dict:
+    """The flattened CSV cells of fixed observer ``k`` over the filters, column by column (the keys of
+    ``Scorecard._observer_dict`` flattened; pair statistics None where the filter leaves a cone no light)."""
+    from .scorecard import _at_key, _num
+
+    o, n, st, groups = card.per_observer[k], len(card), card.settings, card.metrics
+
+    def ints(key):
+        return np.asarray(o[key]).astype(np.int64).tolist()
+
+    cols: dict = {"observer": [card.observers[k].spec] * n}
+    if "contrast" in groups:
+        for key in ("red_green_gain", "blue_yellow_gain", "luminance_contrast_gain"):
+            cols[key] = _nums(o[key])
+    masked: dict = {}
+    if "discrimination" in groups:
+        masked["discriminable_pairs.threshold_jnd"] = [st["discrimination_threshold"]] * n
+        for key in PAIR_KEYS:
+            masked[f"discriminable_pairs.{key}"] = ints(f"discriminable_{key}")
+        for t in st["distribution_thresholds"]:
+            for key in PAIR_KEYS:
+                masked[f"delta_s_distribution.{_at_key(t)}.{key}"] = ints(f"discriminable_at_{t:g}_{key}")
+        masked["delta_s_distribution.median_without"] = [_num(o["discriminable_median_without"], 4)] * n
+        masked["delta_s_distribution.median_with"] = _nums(o["discriminable_median_with"], 4)
+        masked["delta_s_distribution.median_ratio"] = _nums(o["discriminable_median_ratio"])
+    if "confusion" in groups and o.get("confusion_with") is not None:
+        masked["confusion_pairs.normal_threshold_jnd"] = [st["normal_threshold"]] * n
+        masked["confusion_pairs.deficient_threshold_jnd"] = [st["deficient_threshold"]] * n
+        masked["confusion_pairs.normally_discriminable"] = [int(o["confusion_normally_discriminable"])] * n
+        for key in CONFUSION_KEYS:
+            masked[f"confusion_pairs.{key}"] = ints(f"confusion_{key}")
+        masked["confusion_pairs.median_delta_s_without"] = [_num(o["confusion_median_without"], 4)] * n
+        masked["confusion_pairs.median_delta_s_with"] = _nums(o["confusion_median_with"], 4)
+        masked["confusion_pairs.median_delta_s_ratio"] = _nums(o["confusion_median_ratio"])
+    if "undefined" in o and np.any(o["undefined"]):
+        undefined = np.asarray(o["undefined"], dtype=bool).tolist()
+        masked = {c: [None if u else v for u, v in zip(undefined, vals)] for c, vals in masked.items()}
+    cols.update(masked)
+    return cols
+
+
+def _fast_columns(card, columns: list) -> dict:
+    """The CSV view's cells of a card of fixed observers, column by column (rows filter-major, as
+    ``Scorecard.csv_rows``): the per-filter cells from ``Scorecard.filter_dict`` without observers, the
+    observers' from :func:`_observer_columns`."""
+    from .scorecard_views import _flatten
+
+    head = card.header()
+    run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
+           "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
+           "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
+    if "road_use" in card.metrics:
+        ru = head["models"]["road_use"]
+        run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
+        run["signal_limits_reading"] = ru["signal_limits_reading"]
+    bare = dataclasses.replace(card, observers=[], per_observer=[])
+    flat = []
+    for i in range(len(card)):
+        f = bare.filter_dict(i)
+        f.pop("observers")
+        flat.append(_flatten(f))
+    per_obs = [_observer_columns(card, k) for k in range(len(card.observers))]
+    n_obs, n = len(per_obs), len(card)
+    out = {}
+    for c in columns:
+        if c in run:
+            out[c] = [run[c]] * (n * n_obs)
+        elif any(c in o for o in per_obs):
+            lists = [o.get(c) or [None] * n for o in per_obs]
+            out[c] = [x for tup in zip(*lists) for x in tup]
+        else:
+            out[c] = [x for f in flat for x in [f.get(c)] * n_obs]
+    return out
 
 
 def _run_chunk(task: StreamTask, lo: int, hi: int) -> tuple[bytes, int]:
@@ -217,6 +307,11 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     probe_card = task.card(probe)
     columns, rows = probe_card.csv_rows()
     task.columns, task.types = columns, _column_types(columns, rows)
+    try:  # the column-by-column rows where they are the CSV view's rows (checked on the probe)
+        fast = _fast_columns(probe_card, columns)
+        task.fast = len(fixed) == len(inp.observers) and [list(r) for r in zip(*fast.values())] == rows
+    except Exception:  # noqa: BLE001 - a layout the fast path does not know: the CSV view's own rows
+        task.fast = False
     header = probe_card.header()
     n = len(source)
     bounds = chunk_bounds(n, chunk)
@@ -236,6 +331,9 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
         if progress is not None:
             progress("filters", filters_done, n)
 
+    import pickle
+
+    shipped = len(pickle.dumps(task, protocol=pickle.HIGHEST_PROTOCOL))  # sent once to each worker of a cluster
     ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
     try:
         todo_bounds = [bounds[i] for i in todo]
@@ -251,5 +349,5 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     manifest = out.finalise(header=csv_text(columns, []), metadata=meta,
                             extra={"tool": "cvdfilter", "version": header["version"], "caveat": header["caveat"],
                                    "filters": n, "chunk_filters": chunk, "columns": columns, "types": task.types,
-                                   "resumed_chunks": out.resumed})
+                                   "resumed_chunks": out.resumed, "shipped_bytes": shipped})
     return manifest

@@ -109,7 +109,8 @@ class ChunkedOutput:
     def write(self, i: int, data: bytes, *, lo: int, hi: int, rows: int) -> None:
         """Chunk ``i`` (filters ``lo:hi``, ``rows`` rows) as a part: the data, then its record."""
         _write_atomic(self._part(i), data)
-        _write_atomic(self._record(i), json.dumps({"chunk": i, "filters": [lo, hi], "rows": rows}).encode())
+        record = {"chunk": i, "filters": [lo, hi], "rows": rows, "bytes": len(data)}
+        _write_atomic(self._record(i), json.dumps(record).encode())
 
     def finalise(self, *, header: str | None = None, metadata: dict | None = None, extra: dict | None = None) -> dict:
         """Join the parts in chunk order into the output (atomically), write the manifest, drop the parts.
