@@ -126,8 +126,8 @@ def main() -> None:
         return
     clu = _child(["stream", str(args.filters), str(out_dir / "cluster.parquet"), f"local:{args.workers}"])
     same = (out_dir / "local.parquet").read_bytes() == (out_dir / "cluster.parquet").read_bytes()
-    print(f"streamed, LocalCluster of {args.workers}: {clu['wall_s']:.1f} s (cluster start {clu['cluster_start_s']:.1f} s)"
-          f" = {clu['filters_per_s']:,.0f} filters/s, {clu['filters_per_s'] / loc['filters_per_s']:.2f}x the local "
+    print(f"streamed, LocalCluster of {args.workers}: {clu['wall_s']:.1f} s "
+          f"(cluster start {clu['cluster_start_s']:.1f} s) = {clu['filters_per_s']:,.0f} filters/s, {clu['filters_per_s'] / loc['filters_per_s']:.2f}x the local "
           f"streamed run; client peak RSS {clu['peak_rss_mb']:,.0f} MB, workers "
           f"{', '.join(f'{r:,.0f}' for r in clu['worker_peak_rss_mb'])} MB; same bytes as local: {same}")
     print(f"  per chunk on the cluster: {clu['wall_s'] * clu['slots'] / clu['chunks']:.2f} s per chunk per worker, "

@@ -231,8 +231,9 @@ class DaskExecutor(Executor):
                 raise InputError(f"cannot reach the Dask scheduler at {address}: {exc}",
                                  hint="start it with 'dask scheduler' or use --scheduler local") from None
         else:
+            where = {"host": "127.0.0.1"} if processes else {}  # loopback only; in-process needs no address
             self._cluster = LocalCluster(n_workers=n_workers or 1, threads_per_worker=1, processes=processes,
-                                         host="127.0.0.1", dashboard_address=None)
+                                         dashboard_address=None, **where)
             self.client = Client(self._cluster)
 
     def slots(self) -> int:

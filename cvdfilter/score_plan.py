@@ -556,9 +556,9 @@ def run_chunks(runner: Callable[[int, int], int], n_filters: int, *, chunk: int,
         return
     ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
     try:
-        local = isinstance(ex, LocalExecutor)
-        if local and ex.threads > len(bounds):
+        if isinstance(ex, LocalExecutor) and ex.threads > len(bounds):
             ex = LocalExecutor(max(1, len(bounds)))
+        local = isinstance(ex, LocalExecutor)
         runner._templates()  # once, before the threads share the runner
         shared = runner if local else runner.light()
         for (lo, hi), part in zip(bounds, ex.map(_compute_chunk, shared, bounds, progress=tick)):
