@@ -317,3 +317,24 @@ def test_dataframe_and_xarray_views():
     got = ds["value"].isel(observer=2).sel(metric="red_green_gain").values
     assert np.array_equal(got, card.per_observer[2]["red_green_gain"], equal_nan=True)
     assert np.isnan(ds["value"].sel(observer="normal", member=1).values).all()
+
+
+def test_render_batch_on_a_cluster_writes_the_same_files(tmp_path, cluster):
+    import pathlib
+
+    from cvdfilter.cli.render_cmd import _batch
+    from cvdfilter.rendering import Renderer
+
+    stimuli = str(pathlib.Path(__file__).resolve().parent.parent / "examples" / "stimuli")
+    r = subprocess.run([sys.executable, "-m", "cvdfilter", "render", stimuli, "--filter", "larkhill-notch-575",
+                        "--observer", "deuteranope", "--out", str(tmp_path / "local"), "-q"],
+                       capture_output=True, text=True)
+    assert r.returncode == 0, r.stderr
+    options = {"fmt": "auto", "cube_kind": None, "wavelengths": None, "max_megapixels": 150.0}
+    _batch([stimuli], Renderer("larkhill-notch-575", observer="deuteranope"), options,
+           views=["original", "filtered", "observer", "observer-filtered"], panel=False, out=str(tmp_path / "dask"),
+           jobs=1, force=False, quiet=True, scheduler=cluster)
+    local = sorted(p.relative_to(tmp_path / "local") for p in (tmp_path / "local").rglob("*.png"))
+    assert len(local) == 12
+    for rel in local:
+        assert (tmp_path / "local" / rel).read_bytes() == (tmp_path / "dask" / rel).read_bytes(), rel

@@ -289,6 +289,9 @@ def register(app: typer.Typer) -> None:
         panel: bool = typer.Option(False, "--panel", help="Also write a labelled 2x2 panel (PNG) per input."),
         out: str = typer.Option("rendered", "--out", help="Output folder."),
         jobs: int = typer.Option(1, "--jobs", help="Worker processes."),
+        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=(
+            "local (default: this process, or --jobs worker processes), local:N or tcp://HOST:PORT: the files "
+            "are rendered on Dask workers, which must see the same folders (docs/scale.md).")),
         force: bool = typer.Option(False, "--force", help="Render again even where the outputs exist."),
         max_megapixels: Optional[float] = typer.Option(None, "--max-megapixels",
                                                        help="Refuse larger inputs (default 150)."),
@@ -346,14 +349,18 @@ def register(app: typer.Typer) -> None:
                                 method=method, normalisation=normalisation, scene=scene, gamut=gamut)
             if gamut == "none" and format not in ("tiff", "tiff-float", "auto"):
                 raise InputError("--gamut none needs float output (--format tiff-float)")
+            from ..execution import parse_scheduler
+
+            on_dask = parse_scheduler(scheduler)[0] != "local"
         except InputError as exc:
             fail(exc)
         options = {"fmt": format, "cube_kind": cube_kind, "wavelengths": wl, "max_megapixels": mp}
-        _batch(inputs, renderer, options, views=views, panel=panel, out=out, jobs=jobs, force=force, quiet=quiet)
+        _batch(inputs, renderer, options, views=views, panel=panel, out=out, jobs=jobs, force=force, quiet=quiet,
+               scheduler=scheduler if on_dask else None)
 
 
 def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, jobs: int, force: bool,
-           quiet: bool) -> None:
+           quiet: bool, scheduler: str | None = None) -> None:
     """Plan, check, resume, run, record and summarise one batch (see the module docstring)."""
     from ..cautions import CAVEAT
     from ..errors import InputError
@@ -384,7 +391,10 @@ def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, job
     started = _now()
     unreadable = [j for j in todo if "unreadable" in j]
     todo = [j for j in todo if "unreadable" not in j]
-    records = _run(todo, renderer, {**options, "inputs": all_inputs}, jobs, quiet)
+    if scheduler is not None:  # Dask workers (cvdfilter.execution)
+        records = _run_scheduled(todo, renderer, {**options, "inputs": all_inputs}, scheduler, quiet)
+    else:
+        records = _run(todo, renderer, {**options, "inputs": all_inputs}, jobs, quiet)
     records += [{"input": j["input"], "status": "failed", "error": j["unreadable"]} for j in unreadable]
     remove_stale_temporaries(out_dir)  # those of workers that died during this run
     failed = [r for r in records if r["status"] != "rendered"]
@@ -627,4 +637,38 @@ def _run(todo: list, renderer, options: dict, jobs: int, quiet: bool) -> list:
                                                 "error": f"{j['input']}: " + lost.format(why=why or "unknown")})
     return [records[j["input"]] for j in todo]
 
+
+def _render_chunk(shared: tuple, lo: int, hi: int) -> list:
+    """Jobs ``lo:hi`` on a Dask worker (one thread per worker): records, never raises for a job."""
+    renderer, options, todo = shared
+    _WORKER.update(renderer=renderer, options=options, parent=None)
+    return [_task(j) for j in todo[lo:hi]]
+
+
+def _run_scheduled(todo: list, renderer, options: dict, scheduler: str, quiet: bool) -> list:
+    """Render every job on the Dask scheduler ``scheduler`` through the execution layer, one file per chunk."""
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from ..errors import InputError
+    from ..execution import chunk_bounds, map_chunks
+
+    if not todo:
+        return []
+    progress = Progress(TextColumn("rendering"), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                        console=Console(file=sys.stderr), disable=quiet or not sys.stderr.isatty(), transient=True)
+    records: list = []
+    with progress:
+        task = progress.add_task("render", total=len(todo))
+        try:
+            for part in map_chunks(_render_chunk, (renderer, options, todo), chunk_bounds(len(todo), 1),
+                                   scheduler=scheduler, progress=lambda done, total, i: progress.update(
+                                       task, completed=done)):
+                records += part
+        except (InputError, KeyboardInterrupt, OSError) as exc:
+            why = "interrupted" if isinstance(exc, KeyboardInterrupt) else " ".join(str(exc).split())
+            records += [{"input": j["input"], "status": "failed",
+                         "error": f"{j['input']}: not finished: {why}; rerun the same command to render what is "
+                                  "missing"} for j in todo[len(records):]]
+    return records
 
