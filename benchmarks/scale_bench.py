@@ -11,8 +11,10 @@ subprocess so that its peak RSS is its own. Prints
 
 * the reference: ``cvdfilter.score`` in memory on ``--memory-filters`` filters of the same sweep (at most
   50,000 per spec in memory): filters/s;
-* the streamed run in this process (threads): wall time, rows/s, filters/s, the ratio to the reference
-  (target >= 0.8), peak RSS (target < 1 GB whatever the sweep length);
+* the ratio streamed / in memory on ``--memory-filters`` filters, both alternated ``--rounds`` times in one
+  process so that they share the machine's load (target >= 0.8);
+* the streamed run of ``--filters`` in this process (threads): wall time, rows/s, filters/s, peak RSS
+  (target < 1 GB whatever the sweep length);
 * the same on a LocalCluster of ``--workers`` worker processes (one thread each): wall time including the
   cluster's start, filters/s, the ratio to the local streamed run, the client's and each worker's peak RSS;
 * per chunk: the Parquet part's size, the mean chunk time (wall x slots / chunks) and the bytes shipped to
@@ -85,6 +87,27 @@ def phase_stream(n: int, out: str, scheduler: str | None) -> dict:
     return res
 
 
+def phase_ratio(n: int, rounds: int, out_dir: str) -> dict:
+    """In-memory and streamed runs of the same ``n`` filters, alternated ``rounds`` times in one process (the
+    machine is shared: alternating puts both under the same load); per round, streamed / in memory."""
+    import cvdfilter as cf
+
+    spec = sweep(n)
+    cf.score(sweep(200), observers=OBSERVERS, metrics="core")
+    cf.score_to_file(sweep(200), pathlib.Path(out_dir) / "warm.parquet", observers=OBSERVERS, metrics="core")
+    fs = cf.load_filters(spec)
+    mem, streamed = [], []
+    for r in range(rounds):
+        t = time.perf_counter()
+        cf.score(fs, observers=OBSERVERS, metrics="core")
+        mem.append(len(fs) / (time.perf_counter() - t))
+        t = time.perf_counter()
+        cf.score_to_file(spec, pathlib.Path(out_dir) / f"round{r}.parquet", observers=OBSERVERS, metrics="core")
+        streamed.append(len(fs) / (time.perf_counter() - t))
+    return {"filters": len(fs), "memory": mem, "streamed": streamed,
+            "ratios": [s / m for s, m in zip(streamed, mem)]}
+
+
 def _child(args: list) -> dict:
     cmd = [sys.executable, __file__, "--phase", *args]
     out = subprocess.run(cmd, check=True, capture_output=True, text=True)
@@ -96,6 +119,7 @@ def main() -> None:
     ap.add_argument("--filters", type=int, default=1_000_000)
     ap.add_argument("--memory-filters", type=int, default=20_000)
     ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--rounds", type=int, default=3)
     ap.add_argument("--skip-cluster", action="store_true")
     ap.add_argument("--out-dir", default=None)
     ap.add_argument("--phase", nargs="+", help=argparse.SUPPRESS)
@@ -104,6 +128,8 @@ def main() -> None:
         kind, *rest = args.phase
         if kind == "memory":
             res = phase_memory(int(rest[0]))
+        elif kind == "ratio":
+            res = phase_ratio(int(rest[0]), int(rest[1]), rest[2])
         else:
             res = phase_stream(int(rest[0]), rest[1], rest[2] if len(rest) > 2 else None)
         print(json.dumps(res))
@@ -111,16 +137,19 @@ def main() -> None:
 
     out_dir = pathlib.Path(args.out_dir or tempfile.mkdtemp(prefix="cvdfilter-scale-"))
     print(f"sweep: {sweep(args.filters)} ({os.cpu_count()} CPUs, load {os.getloadavg()[0]:.1f})")
+    rat = _child(["ratio", str(args.memory_filters), str(args.rounds), str(out_dir)])
+    ratios = sorted(rat["ratios"])
+    print(f"streamed / in memory, {rat['filters']:,} filters, {args.rounds} alternated rounds in one process: "
+          f"ratios {', '.join(f'{r:.2f}' for r in rat['ratios'])} (median {ratios[len(ratios) // 2]:.2f}; "
+          f"target >= 0.8); in memory {', '.join(f'{x:,.0f}' for x in rat['memory'])} filters/s, streamed "
+          f"{', '.join(f'{x:,.0f}' for x in rat['streamed'])} filters/s")
     mem = _child(["memory", str(args.memory_filters)])
     print(f"in memory: {mem['filters']:,} filters in {mem['wall_s']:.1f} s = {mem['filters_per_s']:,.0f} filters/s, "
           f"peak RSS {mem['peak_rss_mb']:,.0f} MB")
     loc = _child(["stream", str(args.filters), str(out_dir / "local.parquet")])
-    mem2 = _child(["memory", str(args.memory_filters)])  # again after: the machine is shared, bracket the run
-    print(f"in memory, after the streamed run: {mem2['filters_per_s']:,.0f} filters/s")
-    mem = {**mem, "filters_per_s": (mem["filters_per_s"] + mem2["filters_per_s"]) / 2}
     print(f"streamed, local: {loc['filters']:,} filters, {loc['rows']:,} rows in {loc['wall_s']:.1f} s = "
           f"{loc['rows_per_s']:,.0f} rows/s, {loc['filters_per_s']:,.0f} filters/s "
-          f"({loc['filters_per_s'] / mem['filters_per_s']:.2f}x the mean of the two in-memory runs; target >= 0.8), "
+          f"({loc['filters_per_s'] / mem['filters_per_s']:.2f}x the in-memory run above, at another moment), "
           f"peak RSS {loc['peak_rss_mb']:,.0f} MB (target < 1,000), file {loc['file_mb']:.1f} MB")
     print(f"  per chunk: {loc['filters'] // loc['chunks'] if loc['chunks'] else 0:,} filters, Parquet part "
           f"{loc['part_kb_mean']:.0f} kB, {loc['wall_s'] * (loc['slots'] or 2) / loc['chunks']:.2f} s per chunk "
