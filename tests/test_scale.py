@@ -338,3 +338,10 @@ def test_render_batch_on_a_cluster_writes_the_same_files(tmp_path, cluster):
     assert len(local) == 12
     for rel in local:
         assert (tmp_path / "local" / rel).read_bytes() == (tmp_path / "dask" / rel).read_bytes(), rel
+
+
+def test_tasks_on_a_cluster_give_the_same_document(cluster):
+    from cvdfilter import tasks
+
+    kw = dict(observers=["normal", "deuteranope"], tasks=["plates", "rayleigh"], trials=5, seed=1)
+    assert tasks("larkhill-notch-575", **kw).to_json() == tasks("larkhill-notch-575", scheduler=cluster, **kw).to_json()
