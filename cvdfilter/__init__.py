@@ -59,6 +59,7 @@ _LAZY = {
     "score": "cvdfilter.scorecard",
     "Scorecard": "cvdfilter.scorecard",
     "MetricArray": "cvdfilter.metric_registry",
+    "score_to_file": "cvdfilter.score_stream",
     "render": "cvdfilter.rendering",
     "render_views": "cvdfilter.rendering",
     "render_spectra": "cvdfilter.rendering",

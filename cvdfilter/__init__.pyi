@@ -29,6 +29,7 @@ from .observers.simulate import simulate as simulate, simulation as simulation
 from .observers.population import population as population, Population as Population
 from .scorecard import score as score, Scorecard as Scorecard
 from .metric_registry import MetricArray as MetricArray
+from .score_stream import score_to_file as score_to_file
 from .rendering import (
     render as render,
     render_views as render_views,
@@ -48,6 +49,6 @@ __all__ = [
     "surface_set", "SurfaceSet", "synthetic_scene", "discernible_colours", "DiscernibleColours", "read_spectra",
     "inspect_filters", "catalog", "observer", "Observer",
     "cone_fundamentals", "population", "Population", "simulate", "simulation", "score", "Scorecard",
-    "MetricArray", "render", "render_views", "render_spectra", "Renderer", "figure", "report", "tasks", "TaskResult",
-    "InputError", "CAVEAT", "design", "DesignResult"
+    "MetricArray", "score_to_file", "render", "render_views", "render_spectra", "Renderer", "figure", "report",
+    "tasks", "TaskResult", "InputError", "CAVEAT", "design", "DesignResult"
 ]

@@ -8,8 +8,10 @@ The scorecard's computation in three typed steps:
    :func:`plan_observers`: per observer an :class:`ObserverPlan` (cone columns, no-filter references) and the
    result arrays it fills.
 3. :class:`ChunkRunner`: one call ``runner(lo, hi)`` scores filters ``lo:hi`` and writes only that slice of
-   the result arrays; :func:`run_chunks` runs the chunks (in this process, on threads). This is where an
-   executor for larger runs plugs in: anything that calls the runner once per chunk range.
+   the result arrays; ``runner.compute(lo, hi)`` returns that slice instead (a pure chunk function) and
+   ``runner.assemble(lo, hi, part)`` copies it in. :func:`run_chunks` maps ``compute`` over the chunks on an
+   executor of :mod:`cvdfilter.execution` (threads in this process, or a Dask cluster) and assembles the
+   results in chunk order, so the numbers are the same bits wherever the chunks ran.
 
 Public: :class:`ScoreInputs`, :class:`ObserverPlan`, :class:`ChunkRunner`, :func:`filter_results`,
 :func:`plan_observers`, :func:`run_chunks`, :func:`parse_metrics`, :data:`METRIC_GROUPS`,
@@ -18,6 +20,7 @@ Public: :class:`ScoreInputs`, :class:`ObserverPlan`, :class:`ChunkRunner`, :func
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import pathlib
 from collections.abc import Callable
@@ -430,6 +433,9 @@ class ChunkRunner:
     groups: tuple
     adaptation: float
     whites: np.ndarray
+    #: Per plan: the per-filter result keys and how to allocate them (dtype, fill, trailing shape);
+    #: taken from the full-size stores on first use (:meth:`light` keeps them when it drops the stores).
+    templates: list | None = None
 
     def __call__(self, lo: int, hi: int) -> int:
         from .metrics.discrimination import log_catches, rnl_points
@@ -483,6 +489,43 @@ class ChunkRunner:
             store["confusion_median_with"][lo:hi] = d["median_with"]
             store["confusion_median_ratio"][lo:hi] = d["median_ratio"]
 
+    # -- chunks as pure functions (the execution layer, cvdfilter.execution) --------------------------------
+
+    def _templates(self) -> list:
+        if self.templates is None:
+            n_f = self.transmittance.shape[0]
+            self.templates = [{k: (v.dtype, v.flat[0] if v.size else 0, v.shape[1:]) for k, v in p.store.items()
+                               if isinstance(v, np.ndarray) and v.ndim >= 1 and v.shape[0] == n_f}
+                              for p in self.plans]
+        return self.templates
+
+    def compute(self, lo: int, hi: int) -> dict:
+        """Scores filters ``lo:hi`` and returns them, writing nothing shared: ``{"whites": (n, K) array,
+        "stores": per plan {key: (n,) array}}`` (the per-filter result keys only)."""
+        n = hi - lo
+        templates = self._templates()
+        plans = [dataclasses.replace(p, store={**p.store, **{k: np.full((n, *shape), fill, dtype=dtype)
+                                                             for k, (dtype, fill, shape) in t.items()}})
+                 for p, t in zip(self.plans, templates)]
+        part = dataclasses.replace(self, transmittance=self.transmittance[lo:hi], plans=plans,
+                                   whites=np.empty((n, self.k_cols)), templates=templates)
+        part(0, n)
+        return {"whites": part.whites, "stores": [{k: p.store[k] for k in t} for p, t in zip(plans, templates)]}
+
+    def assemble(self, lo: int, hi: int, part: dict) -> None:
+        """Copies a :meth:`compute` result into rows ``lo:hi`` of the result arrays."""
+        self.whites[lo:hi] = part["whites"]
+        for plan, store in zip(self.plans, part["stores"]):
+            for k, v in store.items():
+                plan.store[k][lo:hi] = v
+
+    def light(self) -> ChunkRunner:
+        """A copy without the full-size result arrays (what a cluster's workers need: ship it once)."""
+        templates = self._templates()
+        plans = [dataclasses.replace(p, store={k: v for k, v in p.store.items() if k not in t})
+                 for p, t in zip(self.plans, templates)]
+        return dataclasses.replace(self, plans=plans, whites=np.empty((0, self.k_cols)), templates=templates)
+
     def mark_undefined(self) -> None:
         """After every chunk: a filter that leaves some cone no light (a black filter) has no defined pair
         statistics (``store["undefined"]``)."""
@@ -491,28 +534,49 @@ class ChunkRunner:
             plan.store["undefined"] = ~np.all(self.whites[:, present] > 0, axis=1)
 
 
+def _compute_chunk(runner: ChunkRunner, lo: int, hi: int) -> dict:
+    return runner.compute(lo, hi)
+
+
+def _call_chunk(runner: Callable[[int, int], int], lo: int, hi: int) -> None:
+    runner(lo, hi)
+
+
 def run_chunks(runner: Callable[[int, int], int], n_filters: int, *, chunk: int,
-               progress: Progress | None = None) -> None:
-    """Call ``runner(lo, hi)`` for every chunk of ``chunk`` filters, on threads when there are several.
+               progress: Progress | None = None, scheduler=None) -> None:
+    """Score every chunk of ``chunk`` filters on the executor ``scheduler`` names (default: this process,
+    threads; see :mod:`cvdfilter.execution`) and assemble the results in chunk order.
 
-    Chunks are independent and numpy releases the GIL in its array loops, so threads share the work;
-    each writes its own slice of the result arrays. ``progress("filters", done, total)`` after each.
+    A :class:`ChunkRunner` is mapped with :meth:`ChunkRunner.compute` (a pure function: the same bits on
+    threads or on a cluster) and :meth:`ChunkRunner.assemble`; any other callable ``runner(lo, hi)`` that
+    writes its own slice runs on local threads. ``progress("filters", done, total)`` after each chunk.
     """
-    bounds = [(lo, min(n_filters, lo + chunk)) for lo in range(0, n_filters, chunk)]
-    n_workers = min(workers(), len(bounds))
-    if n_workers <= 1:
-        for lo, hi in bounds:
-            runner(lo, hi)
-            if progress is not None:
-                progress("filters", hi, n_filters)
-        return
-    from concurrent.futures import ThreadPoolExecutor, as_completed
+    from .execution import LocalExecutor, chunk_bounds, executor, map_chunks
 
+    bounds = chunk_bounds(n_filters, chunk)
+    sizes = [hi - lo for lo, hi in bounds]
     done = 0
-    with ThreadPoolExecutor(max_workers=n_workers) as pool:
-        futures = [pool.submit(runner, lo, hi) for lo, hi in bounds]
-        for fut in as_completed(futures):
-            fut.result()
-            done += 1
-            if progress is not None:
-                progress("filters", min(n_filters, done * chunk), n_filters)
+
+    def tick(n_done: int, n_total: int, i: int) -> None:
+        nonlocal done
+        done += sizes[i]
+        if progress is not None:
+            progress("filters", done, n_filters)
+
+    if not isinstance(runner, ChunkRunner):
+        for _ in map_chunks(_call_chunk, runner, bounds, scheduler=LocalExecutor(min(workers(), len(bounds) or 1)),
+                            progress=tick):
+            pass
+        return
+    ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
+    try:
+        if isinstance(ex, LocalExecutor) and ex.threads > len(bounds):
+            ex = LocalExecutor(max(1, len(bounds)))
+        local = isinstance(ex, LocalExecutor)
+        runner._templates()  # once, before the threads share the runner
+        shared = runner if local else runner.light()
+        for (lo, hi), part in zip(bounds, ex.map(_compute_chunk, shared, bounds, progress=tick)):
+            runner.assemble(lo, hi, part)
+    finally:
+        if ex is not scheduler:
+            ex.close()

@@ -387,6 +387,18 @@ class Scorecard:
 
         return to_table(self, width)
 
+    def to_dataframe(self):
+        """pandas DataFrame: one row per filter x observer (x statistic), full precision (scorecard_frames)."""
+        from .scorecard_frames import to_dataframe
+
+        return to_dataframe(self)
+
+    def to_xarray(self):
+        """xarray Dataset over (filter, observer, member, metric) (scorecard_frames)."""
+        from .scorecard_frames import to_xarray
+
+        return to_xarray(self)
+
 
 def _at_key(t: float) -> str:
     """JSON key of a distribution threshold: 1 -> ``at_1_jnd``, 0.8 -> ``at_0_8_jnd``."""
@@ -401,7 +413,8 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
           distribution_thresholds=DISTRIBUTION_THRESHOLDS, normal_threshold: float = NORMAL_THRESHOLD,
           deficient_threshold: float = DEFICIENT_THRESHOLD, signal_limits=None, sensitivity: bool = False,
           members: bool = False, progress=None, units: str | None = None,
-          bandwidth: float | None = None, scenes=None, discernible_method: str = "cielab") -> Scorecard:
+          bandwidth: float | None = None, scenes=None, discernible_method: str = "cielab",
+          scheduler=None) -> Scorecard:
     """Score filters: photometry and road use, rendition, and per-observer contrast and pair counts.
 
     Parameters
@@ -466,6 +479,9 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     discernible_method : str
         ``cielab`` (Linhares et al. 2008, default), ``cam16ucs`` or ``rnl``
         (:data:`cvdfilter.score_discernible.DISCERNIBLE_METHODS`).
+    scheduler : str or Executor, optional
+        Where the chunks of filters run (:mod:`cvdfilter.execution`): ``local`` (default, threads in this
+        process), ``local:N`` (a Dask LocalCluster) or a Dask scheduler address; the results are the same.
 
     Returns
     -------
@@ -510,7 +526,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     fixed = [k for k, o in enumerate(inp.observers) if not is_population(o)]
     if per_observer_groups and fixed:
         plans, runner = plan_observers(inp, [inp.observers[k] for k in fixed])
-        run_chunks(runner, n_f, chunk=_CHUNK_FILTERS, progress=progress)
+        run_chunks(runner, n_f, chunk=_CHUNK_FILTERS, progress=progress, scheduler=scheduler)
         runner.mark_undefined()
         for k, plan in zip(fixed, plans):
             per_obs[k] = plan.store

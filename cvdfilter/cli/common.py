@@ -22,7 +22,7 @@ __all__ = ["fail", "warn", "emit", "to_json", "table_text", "csv_text", "markdow
 FORMATS = ("table", "json", "csv", "markdown")
 #: Output formats told by the -o file's extension (shared/CONVENTIONS.md: --format, else the extension).
 FORMAT_SUFFIXES = {".json": "json", ".csv": "csv", ".md": "markdown", ".markdown": "markdown",
-                   ".txt": "table", ".text": "table"}
+                   ".txt": "table", ".text": "table", ".parquet": "parquet"}
 
 UNITS_HELP = ("Units of filter files that do not name them: fraction, percent or od (optical density). Default: "
               "the header's unit word, else the values if only one reading fits, else an error. Per file: "

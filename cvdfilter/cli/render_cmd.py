@@ -25,7 +25,7 @@ import typer
 from .common import BANDWIDTH_HELP, UNITS_HELP, fail, file_options, warn
 from .render_batch import conflict_message, existing_state, expand_inputs, plan_outputs
 from .render_manifest import MANIFEST, manifest_item, now, update_manifest
-from .render_workers import run_jobs
+from .render_workers import run_jobs, run_scheduled
 
 
 def register(app: typer.Typer) -> None:
@@ -45,6 +45,9 @@ def register(app: typer.Typer) -> None:
         panel: bool = typer.Option(False, "--panel", help="Also write a labelled 2x2 panel (PNG) per input."),
         out: str = typer.Option("rendered", "--out", help="Output folder."),
         jobs: int = typer.Option(1, "--jobs", help="Worker processes."),
+        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=(
+            "local (default: this process, or --jobs worker processes), local:N or tcp://HOST:PORT: the files "
+            "are rendered on Dask workers, which must see the same folders (docs/scale.md).")),
         force: bool = typer.Option(False, "--force", help="Render again even where the outputs exist."),
         max_megapixels: Optional[float] = typer.Option(None, "--max-megapixels",
                                                        help="Refuse larger inputs (default 150)."),
@@ -103,14 +106,18 @@ def register(app: typer.Typer) -> None:
                                 method=method, normalisation=normalisation, scene=scene, gamut=gamut)
             if gamut == "none" and format not in ("tiff", "tiff-float", "auto"):
                 raise InputError("--gamut none needs float output (--format tiff-float)")
+            from ..execution import parse_scheduler
+
+            on_dask = parse_scheduler(scheduler)[0] != "local"
         except InputError as exc:
             fail(exc)
         options = {"fmt": format, "cube_kind": cube_kind, "wavelengths": wl, "max_megapixels": mp}
-        _batch(inputs, renderer, options, views=views, panel=panel, out=out, jobs=jobs, force=force, quiet=quiet)
+        _batch(inputs, renderer, options, views=views, panel=panel, out=out, jobs=jobs, force=force, quiet=quiet,
+               scheduler=scheduler if on_dask else None)
 
 
 def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, jobs: int, force: bool,
-           quiet: bool) -> None:
+           quiet: bool, scheduler: str | None = None) -> None:
     """Plan, check, resume, run, record and summarise one batch (see the module docstring)."""
     from ..cautions import CAVEAT
     from ..errors import InputError
@@ -141,7 +148,10 @@ def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, job
     started = now()
     unreadable = [j for j in todo if "unreadable" in j]
     todo = [j for j in todo if "unreadable" not in j]
-    records = run_jobs(todo, renderer, {**options, "inputs": all_inputs}, jobs, quiet)
+    if scheduler is not None:  # Dask workers (cvdfilter.execution)
+        records = run_scheduled(todo, renderer, {**options, "inputs": all_inputs}, scheduler, quiet)
+    else:
+        records = run_jobs(todo, renderer, {**options, "inputs": all_inputs}, jobs, quiet)
     records += [{"input": j["input"], "status": "failed", "error": j["unreadable"]} for j in unreadable]
     remove_stale_temporaries(out_dir)  # those of workers that died during this run
     failed = [r for r in records if r["status"] != "rendered"]

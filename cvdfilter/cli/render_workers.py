@@ -146,3 +146,38 @@ def run_jobs(todo: list, renderer, options: dict, jobs: int, quiet: bool) -> lis
     return [records[j["input"]] for j in todo]
 
 
+
+
+def _render_chunk(shared: tuple, lo: int, hi: int) -> list:
+    """Jobs ``lo:hi`` on a Dask worker (one thread per worker): records, never raises for a job."""
+    renderer, options, todo = shared
+    _WORKER.update(renderer=renderer, options=options, parent=None)
+    return [render_task(j) for j in todo[lo:hi]]
+
+
+def run_scheduled(todo: list, renderer, options: dict, scheduler: str, quiet: bool) -> list:
+    """Render every job on the Dask scheduler ``scheduler`` through the execution layer, one file per chunk."""
+    from rich.console import Console
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeRemainingColumn
+
+    from ..errors import InputError
+    from ..execution import chunk_bounds, map_chunks
+
+    if not todo:
+        return []
+    progress = Progress(TextColumn("rendering"), BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(),
+                        console=Console(file=sys.stderr), disable=quiet or not sys.stderr.isatty(), transient=True)
+    records: list = []
+    with progress:
+        task = progress.add_task("render", total=len(todo))
+        try:
+            for part in map_chunks(_render_chunk, (renderer, options, todo), chunk_bounds(len(todo), 1),
+                                   scheduler=scheduler, progress=lambda done, total, i: progress.update(
+                                       task, completed=done)):
+                records += part
+        except (InputError, KeyboardInterrupt, OSError) as exc:
+            why = "interrupted" if isinstance(exc, KeyboardInterrupt) else " ".join(str(exc).split())
+            records += [{"input": j["input"], "status": "failed",
+                         "error": f"{j['input']}: not finished: {why}; rerun the same command to render what is "
+                                  "missing"} for j in todo[len(records):]]
+    return records

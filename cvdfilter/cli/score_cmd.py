@@ -7,6 +7,7 @@ from typing import List, Optional
 
 import typer
 
+from ..execution import SCHEDULER_HELP
 from .common import BANDWIDTH_HELP, FORMATS, UNITS_HELP, emit, fail, file_options, input_files, resolve_format
 
 #: Show a progress bar only once the work has taken this long (seconds).
@@ -94,6 +95,11 @@ def register(app: typer.Typer) -> None:
             "Space the discernible colours are counted in: cielab (unit CIELAB cubes, Linhares et al. 2008), "
             "cam16ucs (unit CAM16-UCS cubes, the Euclidean stand-in for CIEDE2000) or rnl (1-JND cubes of the "
             "observer's receptor-noise space).")),
+        # -- where the work runs and streamed output (issue 17; docs/scale.md) --
+        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=SCHEDULER_HELP),
+        stream: bool = typer.Option(False, "--stream", help=(
+            "Write the rows chunk by chunk (CSV with -o; --format parquet always streams): any number of "
+            "filters in bounded memory; a rerun after an interruption resumes from the chunks written.")),
     ) -> None:
         """Score filters: photometry and road use, colour rendition, and for each observer the contrast
         gains and the surface pairs gained, lost, resolved or created.
@@ -105,13 +111,18 @@ def register(app: typer.Typer) -> None:
         Example: cvdfilter score larkhill-notch-575 --observer deuteranomalous:n=200,seed=7 --metrics core
 
         Example: cvdfilter score larkhill-notch-575 --metrics discernible --surfaces munsell
+
+        Example: cvdfilter score "notch:center=450..650/0.1,fwhm=20..60/5,depth=0.8" --metrics core -o sweep.parquet
         """
         from ..errors import InputError
         from ..scorecard import DEFAULT_OBSERVERS, score
 
         # -- file reading and output format --
         try:
-            format = resolve_format(format, output, FORMATS)
+            format = resolve_format(format, output, (*FORMATS, "parquet"))
+            from ..execution import parse_scheduler
+
+            parse_scheduler(scheduler)
             filter_specs = file_options(filters, units, bandwidth)
         except InputError as exc:
             fail(exc)
@@ -123,13 +134,21 @@ def register(app: typer.Typer) -> None:
         if len(ratios) != 3:
             fail(f"--cone-ratios {cone_ratios}: give three positive numbers L:M:S, e.g. 10:5:1")
         progress = _LazyProgress()
+        if format == "parquet" or stream:
+            _stream(filter_specs, output, format, progress, scheduler, sensitivity=sensitivity, members=members,
+                    inputs=input_files(filters) + ([signal_spectra] if signal_spectra else []) + [surfaces],
+                    illuminant=illuminant, observers=observer or list(DEFAULT_OBSERVERS), surfaces=surfaces,
+                    adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
+                    weber_fraction=weber_fraction, cone_ratios=ratios, discrimination_threshold=jnd_threshold,
+                    normal_threshold=jnd_threshold, deficient_threshold=jnd_threshold, signal_limits=signal_limits)
+            return
         try:
             card = score(filter_specs, illuminant=illuminant, observers=observer or list(DEFAULT_OBSERVERS),
                          surfaces=surfaces, adaptation=adaptation, metrics=metrics, signal_spectra=signal_spectra,
                          weber_fraction=weber_fraction, cone_ratios=ratios, discrimination_threshold=jnd_threshold,
                          normal_threshold=jnd_threshold, deficient_threshold=jnd_threshold,
                          signal_limits=signal_limits, sensitivity=sensitivity, members=members, progress=progress,
-                         scenes=scene or None, discernible_method=discernible_method)
+                         scenes=scene or None, discernible_method=discernible_method, scheduler=scheduler)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)
@@ -149,3 +168,26 @@ def register(app: typer.Typer) -> None:
             emit(text, output, inputs=inputs)
         except InputError as exc:
             fail(exc)
+
+
+def _stream(filter_specs, output, format, progress, scheduler, *, inputs, **kwargs) -> None:
+    """``--format parquet`` or ``--stream``: rows written chunk by chunk (cvdfilter.score_stream)."""
+    from ..errors import InputError
+
+    if format not in ("parquet", "csv"):
+        fail(f"--stream writes csv or parquet, not {format}")
+    if not output:
+        fail(f"streamed {format} output goes to a file: give -o FILE.{format}")
+    from ..score_stream import score_to_file
+
+    try:
+        manifest = score_to_file(filter_specs, output, fmt=format, scheduler=scheduler, progress=progress,
+                                 inputs=inputs, **kwargs)
+    except (InputError, ValueError) as exc:
+        progress.close()
+        fail(exc)
+    progress.close()
+    resumed = manifest.get("resumed_chunks", 0)
+    typer.echo(f"wrote {output}: {manifest['rows']:,} rows in {len(manifest['chunks'])} chunks"
+               + (f" ({resumed} resumed from an earlier run)" if resumed else "")
+               + f"; manifest {output}.manifest.json", err=True)

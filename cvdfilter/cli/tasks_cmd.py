@@ -7,6 +7,7 @@ from typing import List, Optional
 
 import typer
 
+from ..execution import SCHEDULER_HELP
 from .common import BANDWIDTH_HELP, FORMATS, UNITS_HELP, emit, fail, file_options, input_files, resolve_format
 
 _TASK_CHOICES = ("arrangement", "arrangement-fine", "plates", "rayleigh")
@@ -37,6 +38,7 @@ def register(app: typer.Typer) -> None:
         export_stimuli: Optional[str] = typer.Option(None, "--export-stimuli", help=(
             "Also write the task designs into this folder: cap reflectances, plates as PNG and CSV, the "
             "Rayleigh primaries.")),
+        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=SCHEDULER_HELP),
     ) -> None:
         """Predict how model observers would do on hue-circle arrangement, figure-ground plate and Rayleigh
         match tasks of our own design, without and with each filter, with a verdict per task (easier, harder,
@@ -72,7 +74,7 @@ def register(app: typer.Typer) -> None:
                 check_writable(export_stimuli, folder=True)
             result = tasks(filters, observers=observer or list(DEFAULT_OBSERVERS),
                            tasks=task or list(_TASK_CHOICES), trials=trials, seed=seed, illuminant=illuminant,
-                           trial_noise=trial_noise)
+                           trial_noise=trial_noise, scheduler=scheduler)
             text = {"json": result.to_json, "csv": result.to_csv, "markdown": result.to_markdown,
                     "table": lambda: result.to_table(width=110)}[fmt]()
             inputs = input_files(filters)

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import json
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -381,9 +382,47 @@ def arrangement_scores(task: str, fundamentals, noise, weights, uv, z, *, trial_
     return out
 
 
+@dataclass(frozen=True, eq=False)
+class _TaskWork:
+    """What every observer's chunk of :func:`tasks` needs (shipped once to a cluster's workers)."""
+
+    members: list
+    task_list: tuple
+    weights: np.ndarray
+    transmittance: np.ndarray
+    uv_by_task: dict
+    z_by_task: dict
+    plates: tuple
+    calibration: Any
+    grid: Grid
+    weber_fraction: float
+    cone_ratios: Any
+    trial_noise: float
+
+
+def _member_scores(w: _TaskWork, lo: int, hi: int) -> dict:
+    """Scores of observers ``lo:hi`` on every task: {(task, observer name): scores}."""
+    scores: dict = {}
+    for m in w.members[lo:hi]:
+        e = receptor_noise(m.missing_cone, weber=w.weber_fraction, cone_ratios=w.cone_ratios)
+        fund = np.asarray(m.fundamentals, dtype=float)
+        for t in w.task_list:
+            if t in ARRANGEMENT_DESIGNS:
+                scores[(t, m.name)] = arrangement_scores(t, fund, e, w.weights, w.uv_by_task[t], w.z_by_task[t],
+                                                         trial_noise=w.trial_noise, grid=w.grid)
+            elif t == "plates":
+                scores[(t, m.name)] = _plate_scores(w.plates, w.weights, fund, e)
+            else:
+                # the filter sits in front of the instrument: it scales the primaries, not the room light
+                r = rayleigh_match(fund[None], w.grid.wavelengths, e, transmittance=w.transmittance[:, None, :],
+                                   calibration=w.calibration)
+                scores[(t, m.name)] = r
+    return scores
+
+
 def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: int = 500, seed: int = 0,
           illuminant: str = "D65", trial_noise: float = TRIAL_NOISE, weber_fraction: float = WEBER_FRACTION,
-          cone_ratios=CONE_RATIOS, grid: Grid = DEFAULT_GRID) -> TaskResult:
+          cone_ratios=CONE_RATIOS, grid: Grid = DEFAULT_GRID, scheduler=None) -> TaskResult:
     """How model observers would do on our colour-vision tasks, without and with each filter.
 
     Parameters
@@ -405,6 +444,9 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
         Per-cap noise of the arrangement trials in units of the receptor noise (> 0).
     weber_fraction, cone_ratios
         Receptor-noise model constants (:mod:`cvdfilter.metrics.discrimination`).
+    scheduler : str or Executor, optional
+        Where the observers' work runs (:mod:`cvdfilter.execution`: ``local``, ``local:N``, a Dask
+        address); one chunk per observer, the same numbers wherever they ran.
 
     Returns
     -------
@@ -434,20 +476,12 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
             z_by_task[t] = rng.standard_normal((int(trials), refl.shape[0], 3))
     plates = plate_designs(grid) if "plates" in task_list else ()
     calibration = reference_calibration(grid.wavelengths) if "rayleigh" in task_list else None
-    for m in members:
-        e = receptor_noise(m.missing_cone, weber=weber_fraction, cone_ratios=cone_ratios)
-        fund = np.asarray(m.fundamentals, dtype=float)
-        for t in task_list:
-            if t in ARRANGEMENT_DESIGNS:
-                scores[(t, m.name)] = arrangement_scores(t, fund, e, weights, uv_by_task[t], z_by_task[t],
-                                                         trial_noise=trial_noise, grid=grid)
-            elif t == "plates":
-                scores[(t, m.name)] = _plate_scores(plates, weights, fund, e)
-            else:
-                # the filter sits in front of the instrument: it scales the primaries, not the room light
-                r = rayleigh_match(fund[None], grid.wavelengths, e, transmittance=transmittance[:, None, :],
-                                   calibration=calibration)
-                scores[(t, m.name)] = r
+    from ..execution import chunk_bounds, map_chunks
+
+    shared = _TaskWork(members, task_list, weights, transmittance, uv_by_task, z_by_task, plates, calibration,
+                       grid, weber_fraction, cone_ratios, trial_noise)
+    for part in map_chunks(_member_scores, shared, chunk_bounds(len(members), 1), scheduler=scheduler):
+        scores.update(part)  # in observer order, whatever order the chunks finished in
     info = tuple({"source": s, **{k: v for k, v in i.items() if k in ("spec", "path", "units", "sha256")}}
                  for s, i in zip(fs.sources or ("",) * len(fs), fs.info or ({},) * len(fs)))
     settings = _settings(trials, seed, ill.name, uv_by_task, weber_fraction, cone_ratios, trial_noise, calibration)

@@ -137,15 +137,23 @@ def _build_parametric(kind, keys, values, words, spec, grid) -> FilterSet:
     combos = np.array(list(itertools.product(*(values[k] for k in keys))), dtype=float).reshape(-1, len(keys))
     p = {k: combos[:, i] for i, k in enumerate(keys)}
     _check_ranges(p, spec)
+    return parametric_filters(kind, keys, p, words, grid)
+
+
+def parametric_filters(kind: str, keys, p: dict, words: dict, grid: Grid) -> FilterSet:
+    """The filters of shape ``kind`` with parameter arrays ``p`` (one value per filter, checked ranges),
+    named by their spec strings; the one construction of parametric filters (sweeps streamed by
+    :mod:`cvdfilter.filter_source` build their chunks with it too)."""
     t = np.atleast_2d(FILTER_SHAPES[kind].build(grid.wavelengths, p, words))
+    n = t.shape[0]
     names = []
-    for i in range(len(combos)):
+    for i in range(n):
         kv = [f"{k}={_fmt(p[k][i])}" for k in keys]
         kv += [f"{k}={w}" for k, w in words.items()]
         names.append(f"{kind}:" + ",".join(kv))
     # the record keeps the parsed parameters (as the spec string writes them), so nothing re-parses names
-    info = tuple({"spec": n, "kind": kind, "parameters": {k: float(_fmt(p[k][i])) for k in keys}}
-                 for i, n in enumerate(names))
+    info = tuple({"spec": nm, "kind": kind, "parameters": {k: float(_fmt(p[k][i])) for k in keys}}
+                 for i, nm in enumerate(names))
     return FilterSet(tuple(names), np.clip(t, 0.0, 1.0), grid, ("spec",) * len(names), info)
 
 

@@ -1,0 +1,171 @@
+"""A sweep streamed to Parquet, in this process and on a Dask LocalCluster, against the in-memory scorer.
+
+    .venv/bin/python benchmarks/scale_bench.py [--filters 1000000] [--memory-filters 20000] [--workers 2]
+                                               [--skip-cluster] [--out-dir DIR]
+
+Work: a notch sweep (centre x FWHM, depth 0.8) of ``--filters`` filters x the 99 CES surfaces x 4 observers
+(normal, protanomalous, deuteranomalous, deuteranope), ``metrics="core"`` (photometry, road use, contrast
+gains, discriminable and confused pairs), written as one Parquet row per filter x observer
+(:func:`cvdfilter.score_to_file`, chunks of 1,024 filters built on the fly). Each phase runs in its own
+subprocess so that its peak RSS is its own. Prints
+
+* the reference: ``cvdfilter.score`` in memory on ``--memory-filters`` filters of the same sweep (at most
+  50,000 per spec in memory): filters/s;
+* the ratio streamed / in memory on ``--memory-filters`` filters, both alternated ``--rounds`` times in one
+  process so that they share the machine's load (target >= 0.8);
+* the streamed run of ``--filters`` in this process (threads): wall time, rows/s, filters/s, peak RSS
+  (target < 1 GB whatever the sweep length);
+* the same on a LocalCluster of ``--workers`` worker processes (one thread each): wall time including the
+  cluster's start, filters/s, the ratio to the local streamed run, the client's and each worker's peak RSS;
+* per chunk: the Parquet part's size, the mean chunk time (wall x slots / chunks) and the bytes shipped to
+  each worker once (the pickled chunk task).
+
+The machine is shared: read the ratios, measured in the same run. No test asserts any of this.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import pathlib
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+
+OBSERVERS = ["normal", "protanomalous", "deuteranomalous", "deuteranope"]
+N_FWHM = 100
+
+
+def sweep(n: int) -> str:
+    """A notch sweep of about ``n`` filters: ``N_FWHM`` FWHMs (10-109 nm) x n / N_FWHM centres in 400-700 nm."""
+    n_c = max(1, round(n / N_FWHM))
+    step = 300.0 / n_c
+    return f"notch:center=400..{400 + step * (n_c - 1):.6f}/{step:.6f},fwhm=10..{10 + N_FWHM - 1}/1,depth=0.8"
+
+
+def _rss_mb() -> float:
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+
+
+def phase_memory(n: int) -> dict:
+    import cvdfilter as cf
+
+    fs = cf.load_filters(sweep(n))
+    cf.score(sweep(200), observers=OBSERVERS, metrics="core")  # warm the caches
+    t = time.perf_counter()
+    card = cf.score(fs, observers=OBSERVERS, metrics="core")
+    wall = time.perf_counter() - t
+    return {"filters": len(card), "wall_s": wall, "filters_per_s": len(card) / wall, "peak_rss_mb": _rss_mb()}
+
+
+def phase_stream(n: int, out: str, scheduler: str | None) -> dict:
+    import cvdfilter as cf
+
+    cf.score(sweep(200), observers=OBSERVERS, metrics="core")  # warm the reference caches, as the reference
+    t = time.perf_counter()
+    ex = None
+    if scheduler:
+        from cvdfilter.execution import executor
+
+        ex = executor(scheduler)
+    t_start = time.perf_counter() - t
+    manifest = cf.score_to_file(sweep(n), out, observers=OBSERVERS, metrics="core", scheduler=ex)
+    wall = time.perf_counter() - t
+    res = {"filters": manifest["filters"], "rows": manifest["rows"], "chunks": len(manifest["chunks"]),
+           "wall_s": wall, "cluster_start_s": t_start if scheduler else 0.0,
+           "filters_per_s": manifest["filters"] / wall, "rows_per_s": manifest["rows"] / wall,
+           "peak_rss_mb": _rss_mb(), "file_mb": pathlib.Path(out).stat().st_size / 1e6,
+           "part_kb_mean": sum(c["bytes"] for c in manifest["chunks"]) / len(manifest["chunks"]) / 1e3,
+           "shipped_kb": manifest["shipped_bytes"] / 1e3, "slots": ex.slots() if ex else None}
+    if ex is not None:
+        res["worker_peak_rss_mb"] = sorted(v / 1024 for v in ex.client.run(
+            lambda: resource.getrusage(resource.RUSAGE_SELF).ru_maxrss).values())
+        ex.close()
+    return res
+
+
+def phase_ratio(n: int, rounds: int, out_dir: str) -> dict:
+    """In-memory and streamed runs of the same ``n`` filters, alternated ``rounds`` times in one process (the
+    machine is shared: alternating puts both under the same load); per round, streamed / in memory."""
+    import cvdfilter as cf
+
+    spec = sweep(n)
+    cf.score(sweep(200), observers=OBSERVERS, metrics="core")
+    cf.score_to_file(sweep(200), pathlib.Path(out_dir) / "warm.parquet", observers=OBSERVERS, metrics="core")
+    fs = cf.load_filters(spec)
+    mem, streamed = [], []
+    for r in range(rounds):
+        t = time.perf_counter()
+        cf.score(fs, observers=OBSERVERS, metrics="core")
+        mem.append(len(fs) / (time.perf_counter() - t))
+        t = time.perf_counter()
+        cf.score_to_file(spec, pathlib.Path(out_dir) / f"round{r}.parquet", observers=OBSERVERS, metrics="core")
+        streamed.append(len(fs) / (time.perf_counter() - t))
+    return {"filters": len(fs), "memory": mem, "streamed": streamed,
+            "ratios": [s / m for s, m in zip(streamed, mem)]}
+
+
+def _child(args: list) -> dict:
+    cmd = [sys.executable, __file__, "--phase", *args]
+    out = subprocess.run(cmd, check=True, capture_output=True, text=True)
+    return json.loads(out.stdout.strip().splitlines()[-1])
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--filters", type=int, default=1_000_000)
+    ap.add_argument("--memory-filters", type=int, default=20_000)
+    ap.add_argument("--workers", type=int, default=2)
+    ap.add_argument("--rounds", type=int, default=3)
+    ap.add_argument("--skip-cluster", action="store_true")
+    ap.add_argument("--out-dir", default=None)
+    ap.add_argument("--phase", nargs="+", help=argparse.SUPPRESS)
+    args = ap.parse_args()
+    if args.phase:
+        kind, *rest = args.phase
+        if kind == "memory":
+            res = phase_memory(int(rest[0]))
+        elif kind == "ratio":
+            res = phase_ratio(int(rest[0]), int(rest[1]), rest[2])
+        else:
+            res = phase_stream(int(rest[0]), rest[1], rest[2] if len(rest) > 2 else None)
+        print(json.dumps(res))
+        return
+
+    out_dir = pathlib.Path(args.out_dir or tempfile.mkdtemp(prefix="cvdfilter-scale-"))
+    print(f"sweep: {sweep(args.filters)} ({os.cpu_count()} CPUs, load {os.getloadavg()[0]:.1f})")
+    rat = _child(["ratio", str(args.memory_filters), str(args.rounds), str(out_dir)])
+    ratios = sorted(rat["ratios"])
+    print(f"streamed / in memory, {rat['filters']:,} filters, {args.rounds} alternated rounds in one process: "
+          f"ratios {', '.join(f'{r:.2f}' for r in rat['ratios'])} (median {ratios[len(ratios) // 2]:.2f}; "
+          f"target >= 0.8); in memory {', '.join(f'{x:,.0f}' for x in rat['memory'])} filters/s, streamed "
+          f"{', '.join(f'{x:,.0f}' for x in rat['streamed'])} filters/s")
+    mem = _child(["memory", str(args.memory_filters)])
+    print(f"in memory: {mem['filters']:,} filters in {mem['wall_s']:.1f} s = {mem['filters_per_s']:,.0f} filters/s, "
+          f"peak RSS {mem['peak_rss_mb']:,.0f} MB")
+    loc = _child(["stream", str(args.filters), str(out_dir / "local.parquet")])
+    print(f"streamed, local: {loc['filters']:,} filters, {loc['rows']:,} rows in {loc['wall_s']:.1f} s = "
+          f"{loc['rows_per_s']:,.0f} rows/s, {loc['filters_per_s']:,.0f} filters/s "
+          f"({loc['filters_per_s'] / mem['filters_per_s']:.2f}x the in-memory run above, at another moment), "
+          f"peak RSS {loc['peak_rss_mb']:,.0f} MB (target < 1,000), file {loc['file_mb']:.1f} MB")
+    print(f"  per chunk: {loc['filters'] // loc['chunks'] if loc['chunks'] else 0:,} filters, Parquet part "
+          f"{loc['part_kb_mean']:.0f} kB, {loc['wall_s'] * (loc['slots'] or 2) / loc['chunks']:.2f} s per chunk "
+          f"per thread; chunk task {loc['shipped_kb']:.0f} kB (shipped once per worker on a cluster)")
+    if args.skip_cluster:
+        return
+    clu = _child(["stream", str(args.filters), str(out_dir / "cluster.parquet"), f"local:{args.workers}"])
+    same = (out_dir / "local.parquet").read_bytes() == (out_dir / "cluster.parquet").read_bytes()
+    print(f"streamed, LocalCluster of {args.workers}: {clu['wall_s']:.1f} s "
+          f"(cluster start {clu['cluster_start_s']:.1f} s) = {clu['filters_per_s']:,.0f} filters/s, "
+          f"{clu['filters_per_s'] / loc['filters_per_s']:.2f}x the local streamed run; "
+          f"client peak RSS {clu['peak_rss_mb']:,.0f} MB, workers "
+          f"{', '.join(f'{r:,.0f}' for r in clu['worker_peak_rss_mb'])} MB; same bytes as local: {same}")
+    print(f"  per chunk on the cluster: {clu['wall_s'] * clu['slots'] / clu['chunks']:.2f} s per chunk per worker, "
+          f"{clu['part_kb_mean']:.0f} kB back to the client")
+
+
+if __name__ == "__main__":
+    main()

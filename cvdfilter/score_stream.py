@@ -1,0 +1,353 @@
+"""Scores streamed to a file: ``cvdfilter score --format parquet -o sweep.parquet`` (and chunked CSV).
+
+:func:`score_to_file` scores any number of filters chunk by chunk and writes the rows of each chunk as it
+comes, so a sweep of millions of filters never holds its results (nor its transmittances: sweeps are built
+per chunk, :class:`~cvdfilter.filter_source.FilterSource`) in memory. Each chunk is a pure function of its
+filter range (:class:`StreamTask`), mapped by the execution layer (:mod:`cvdfilter.execution`) on threads
+or a Dask cluster; its rows are the CSV view's rows (``Scorecard.csv_rows``: one row per filter x observer,
+one per statistic for a population) in a fixed column layout taken from a probe (the first filter of each
+part of the filter list). Parts, resume, atomic finalisation and the manifest: :mod:`cvdfilter.io.chunked`.
+
+The Parquet file has the CSV's columns (dotted names, in the same order) typed as ``string``, ``double``,
+``int64`` or ``bool`` (nulls where the CSV cell is empty), one row group per chunk, and in its key-value
+metadata ``cvdfilter`` = the run's header (tool, version, caveat, models and thresholds, inputs) as JSON.
+
+Public: :func:`score_to_file`, :class:`StreamTask`, :data:`STREAM_CHUNK`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import io
+import json
+import pathlib
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from .errors import InputError
+from .score_plan import CONFUSION_KEYS, PAIR_KEYS
+
+__all__ = ["score_to_file", "StreamTask", "STREAM_CHUNK"]
+
+#: Filters per chunk of a streamed run (the in-memory scorer's chunk: the same numbers, bit for bit).
+STREAM_CHUNK = 1024
+
+
+def _column_types(columns: list, rows: list) -> list:
+    """Per column ``string``, ``double``, ``int64`` or ``bool`` from the probe's values (all empty: string)."""
+    types = []
+    for j, _ in enumerate(columns):
+        vals = [r[j] for r in rows if r[j] is not None]
+        if vals and all(isinstance(v, bool) for v in vals):
+            types.append("bool")
+        elif vals and all(isinstance(v, int) and not isinstance(v, bool) for v in vals):
+            types.append("int64")
+        elif vals and all(isinstance(v, (int, float)) and not isinstance(v, bool) for v in vals):
+            types.append("double")
+        else:
+            types.append("string")
+    return types
+
+
+@dataclass(eq=False)
+class StreamTask:
+    """What every chunk of a streamed run needs, shipped to the workers once: ``task(lo, hi) -> (bytes, rows)``.
+
+    ``bytes`` is the chunk's part file (CSV rows without the header, or a Parquet file of one row group).
+    """
+
+    source: Any  # FilterSource
+    inp: Any  # ScoreInputs (filters: the probe)
+    runner: Any  # ChunkRunner.light() of the fixed observers, or None
+    fixed: list
+    plans: list
+    record: dict
+    fmt: str
+    columns: list | None = None
+    types: list | None = None
+
+    def card(self, fs) -> Any:
+        """The Scorecard of the filters ``fs`` (one chunk), computed as :func:`cvdfilter.score` does."""
+        from .score_plan import filter_results
+        from .scorecard import Scorecard
+
+        inp = dataclasses.replace(self.inp, filters=fs)
+        groups, n = inp.groups, len(fs)
+        results = filter_results(inp)
+        per_obs: list = [dict() for _ in inp.observers]
+        if self.runner is not None:
+            part = dataclasses.replace(self.runner, transmittance=fs.transmittance).compute(0, n)
+            for k, plan, store in zip(self.fixed, self.plans, part["stores"]):
+                d = {**plan.store, **store}
+                present = [c for i, c in enumerate(plan.cols) if i != plan.observer.missing_cone]
+                d["undefined"] = ~np.all(part["whites"][:, present] > 0, axis=1)
+                per_obs[k] = d
+        per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
+        if per_observer_groups and len(self.fixed) < len(inp.observers):
+            from .score_population import score_populations
+
+            score_populations(inp, per_obs, per_observer_groups, None)
+        if "rendition" in groups:
+            from .metrics.rendition import rendition_many
+
+            results.update(rendition_many(fs.transmittance * inp.illuminant.spd, inp.grid.wavelengths))
+        return Scorecard(fs, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups, inp.signal_lights,
+                         results, per_obs, inp.settings(), self.record)
+
+    #: Use :func:`_fast_rows` (checked equal to the CSV view on the probe by :func:`score_to_file`).
+    fast: bool = False
+
+    def columns_of(self, fs) -> dict:
+        """The chunk's cells, column by column in :attr:`columns` (the CSV view's)."""
+        assert self.columns is not None
+        card = self.card(fs)
+        if self.fast:
+            return _fast_columns(card, self.columns)
+        columns, rows = card.csv_rows()
+        extra = [c for c in columns if c not in self.columns]
+        if extra:
+            raise InputError(f"filters {fs.names[0]} to {fs.names[-1]} give columns the first filters do not "
+                             f"({', '.join(extra[:3])})", hint="score these filters in a separate run")
+        at = {c: j for j, c in enumerate(columns)}
+        return {c: ([r[at[c]] for r in rows] if c in at else [None] * len(rows)) for c in self.columns}
+
+    def __call__(self, lo: int, hi: int) -> tuple[bytes, int]:
+        cols = self.columns_of(self.source.chunk(lo, hi))
+        n_rows = len(next(iter(cols.values()))) if cols else 0
+        return self.encode(cols), n_rows
+
+    def encode(self, cols: dict) -> bytes:
+        assert self.columns is not None and self.types is not None
+        if self.fmt == "csv":
+            from .tables import csv_text
+
+            rows = zip(*(cols[c] for c in self.columns))
+            text = csv_text([], [[("true" if v is True else "false" if v is False else v) for v in r] for r in rows])
+            return text[1:].encode("utf-8")  # csv_text starts with the (empty) header line
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        arrays = []
+        for j, t in enumerate(self.types):
+            vals = cols[self.columns[j]]
+            if t == "string":
+                vals = [None if v is None else v if isinstance(v, str) else str(v) for v in vals]
+            try:
+                arrays.append(pa.array(vals, type=getattr(pa, {"double": "float64", "bool": "bool_"}.get(t, t))()))
+            except (pa.ArrowInvalid, pa.ArrowTypeError, TypeError) as exc:
+                raise InputError(f"column {self.columns[j]}: a value does not fit the column type {t} ({exc})",
+                                 hint="score these filters in a separate run") from None
+        buf = io.BytesIO()
+        pq.write_table(pa.Table.from_arrays(arrays, names=self.columns), buf, compression="zstd")
+        return buf.getvalue()
+
+
+def _nums(values, digits: int = 6) -> list:
+    """``scorecard._num`` over a sequence: rounded floats, None for NaN and infinities."""
+    inf = float("inf")
+    return [None if x != x or x == inf or x == -inf else round(x, digits) + 0.0
+            for x in np.asarray(values, dtype=float).tolist()]
+
+
+def _observer_columns(card, k: int) -> dict:
+    """The flattened CSV cells of fixed observer ``k`` over the filters, column by column (the keys of
+    ``Scorecard._observer_dict`` flattened; pair statistics None where the filter leaves a cone no light)."""
+    from .scorecard import _at_key, _num
+
+    o, n, st, groups = card.per_observer[k], len(card), card.settings, card.metrics
+
+    def ints(key):
+        return np.asarray(o[key]).astype(np.int64).tolist()
+
+    cols: dict = {"observer": [card.observers[k].spec] * n}
+    if "contrast" in groups:
+        for key in ("red_green_gain", "blue_yellow_gain", "luminance_contrast_gain"):
+            cols[key] = _nums(o[key])
+    masked: dict = {}
+    if "discrimination" in groups:
+        masked["discriminable_pairs.threshold_jnd"] = [st["discrimination_threshold"]] * n
+        for key in PAIR_KEYS:
+            masked[f"discriminable_pairs.{key}"] = ints(f"discriminable_{key}")
+        for t in st["distribution_thresholds"]:
+            for key in PAIR_KEYS:
+                masked[f"delta_s_distribution.{_at_key(t)}.{key}"] = ints(f"discriminable_at_{t:g}_{key}")
+        masked["delta_s_distribution.median_without"] = [_num(o["discriminable_median_without"], 4)] * n
+        masked["delta_s_distribution.median_with"] = _nums(o["discriminable_median_with"], 4)
+        masked["delta_s_distribution.median_ratio"] = _nums(o["discriminable_median_ratio"])
+    if "confusion" in groups and o.get("confusion_with") is not None:
+        masked["confusion_pairs.normal_threshold_jnd"] = [st["normal_threshold"]] * n
+        masked["confusion_pairs.deficient_threshold_jnd"] = [st["deficient_threshold"]] * n
+        masked["confusion_pairs.normally_discriminable"] = [int(o["confusion_normally_discriminable"])] * n
+        for key in CONFUSION_KEYS:
+            masked[f"confusion_pairs.{key}"] = ints(f"confusion_{key}")
+        masked["confusion_pairs.median_delta_s_without"] = [_num(o["confusion_median_without"], 4)] * n
+        masked["confusion_pairs.median_delta_s_with"] = _nums(o["confusion_median_with"], 4)
+        masked["confusion_pairs.median_delta_s_ratio"] = _nums(o["confusion_median_ratio"])
+    if "undefined" in o and np.any(o["undefined"]):
+        undefined = np.asarray(o["undefined"], dtype=bool).tolist()
+        masked = {c: [None if u else v for u, v in zip(undefined, vals)] for c, vals in masked.items()}
+    cols.update(masked)
+    return cols
+
+
+def _fast_columns(card, columns: list) -> dict:
+    """The CSV view's cells of a card of fixed observers, column by column (rows filter-major, as
+    ``Scorecard.csv_rows``): the per-filter cells from ``Scorecard.filter_dict`` without observers, the
+    observers' from :func:`_observer_columns`."""
+    from .scorecard_views import _flatten
+
+    head = card.header()
+    run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
+           "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
+           "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
+    if "road_use" in card.metrics:
+        ru = head["models"]["road_use"]
+        run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
+        run["signal_limits_reading"] = ru["signal_limits_reading"]
+    bare = dataclasses.replace(card, observers=[], per_observer=[])
+    flat = []
+    for i in range(len(card)):
+        f = bare.filter_dict(i)
+        f.pop("observers")
+        flat.append(_flatten(f))
+    per_obs = [_observer_columns(card, k) for k in range(len(card.observers))]
+    n_obs, n = len(per_obs), len(card)
+    out = {}
+    for c in columns:
+        if c in run:
+            out[c] = [run[c]] * (n * n_obs)
+        elif any(c in o for o in per_obs):
+            lists = [o.get(c) or [None] * n for o in per_obs]
+            out[c] = [x for tup in zip(*lists) for x in tup]
+        else:
+            out[c] = [x for f in flat for x in [f.get(c)] * n_obs]
+    return out
+
+
+def _run_chunk(task: StreamTask, lo: int, hi: int) -> tuple[bytes, int]:
+    return task(lo, hi)
+
+
+def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREAM_CHUNK, scheduler=None,
+                  progress=None, inputs=(), units: str | None = None, bandwidth: float | None = None,
+                  **kwargs) -> dict:
+    """Score ``filters`` chunk by chunk into ``output`` (``.parquet`` or ``.csv``); returns the manifest.
+
+    Parameters
+    ----------
+    filters
+        As :func:`cvdfilter.score`; a parametric sweep spec may describe more than
+        :data:`~cvdfilter.spectra.filters.MAX_SWEEP_MEMBERS` filters (it is built chunk by chunk).
+    output : path
+        The file to write (atomically); ``output.manifest.json`` is written beside it when it is complete.
+    fmt : str, optional
+        ``parquet`` or ``csv``; default from the suffix.
+    chunk : int
+        Filters per chunk (part of the run's fingerprint).
+    scheduler : str or Executor, optional
+        Where the chunks run (:mod:`cvdfilter.execution`); the file's bytes do not depend on it.
+    progress : callable, optional
+        ``progress("filters", done, total)``.
+    inputs : sequence of paths
+        Files the run reads (never overwritten).
+    **kwargs
+        The other arguments of :func:`cvdfilter.score` (observers, metrics, thresholds...); not
+        ``sensitivity`` or ``members``.
+
+    A run interrupted (killed, a worker lost for good) leaves its finished chunks in
+    ``.NAME.cvdfilter-parts/``; the same call again computes only the missing chunks and writes a file
+    equal, byte for byte, to an uninterrupted run's.
+
+    >>> import tempfile, pathlib
+    >>> out = pathlib.Path(tempfile.mkdtemp()) / "nd.csv"
+    >>> score_to_file("nd:t=0.2..0.8/0.2", out, observers=["normal"], metrics="photometry")["rows"]
+    4
+    """
+    from .execution import chunk_bounds, executor
+    from .filter_source import FilterSource
+    from .io.atomic import check_outputs
+    from .io.chunked import FORMATS, ChunkedOutput
+    from .score_plan import ScoreInputs, plan_observers
+    from .score_population import is_population
+    from .scorecard import _describe_inputs
+
+    path = pathlib.Path(output)
+    fmt = (fmt or path.suffix.lstrip(".")).lower()
+    if fmt not in FORMATS:
+        raise InputError(f"streamed output must be {' or '.join(FORMATS)}, got '{fmt}'", source=str(output))
+    if kwargs.get("sensitivity") or kwargs.get("members"):
+        raise InputError("--sensitivity and --members are not available for a streamed output",
+                         hint="score those filters to JSON without streaming")
+    kwargs.pop("sensitivity", None)
+    kwargs.pop("members", None)
+    if fmt == "parquet":
+        try:
+            import pyarrow  # noqa: F401
+        except ImportError:
+            raise InputError("Parquet output needs pyarrow", hint="pip install 'cvdfilter[frames]'") from None
+    check_outputs([path], list(inputs))
+    source = FilterSource.from_specs(filters, grid=kwargs.get("grid"), units=units, bandwidth=bandwidth)
+    probe = source.probe()
+    inp = ScoreInputs.validate(probe, **kwargs)
+    fixed = [k for k, o in enumerate(inp.observers) if not is_population(o)]
+    per_observer = any(g in inp.groups for g in ("contrast", "discrimination", "confusion"))
+    plans, runner = plan_observers(inp, [inp.observers[k] for k in fixed]) if per_observer and fixed else ([], None)
+    light = runner.light() if runner is not None else None
+    light_plans = light.plans if light is not None else []
+    signal = kwargs.get("signal_spectra")
+    record = {"filters": _describe_inputs(filters), "illuminant": inp.illuminant.name,
+              "observers": [o.spec for o in inp.observers], "surfaces": inp.surfaces.name,
+              "adaptation": {1.0: "full", 0.0: "none"}.get(inp.adaptation, f"{inp.adaptation:g}"),
+              "metrics": list(inp.groups),
+              "signal_spectra": None if signal is None else (
+                  str(signal) if isinstance(signal, (str, pathlib.Path)) else "given as arrays")}
+    task = StreamTask(source, inp, light, fixed, light_plans, record, fmt)
+    probe_card = task.card(probe)
+    columns, rows = probe_card.csv_rows()
+    task.columns, task.types = columns, _column_types(columns, rows)
+    try:  # the column-by-column rows where they are the CSV view's rows (checked on the probe)
+        fast = _fast_columns(probe_card, columns)
+        task.fast = len(fixed) == len(inp.observers) and [list(r) for r in zip(*fast.values())] == rows
+    except Exception:  # noqa: BLE001 - a layout the fast path does not know: the CSV view's own rows
+        task.fast = False
+    header = probe_card.header()
+    n = len(source)
+    bounds = chunk_bounds(n, chunk)
+    fingerprint = {"format": fmt, "chunk": chunk, "filters": n, "parts": source.describe(), "columns": columns,
+                   "types": task.types, "header": header}
+    out = ChunkedOutput(path, fmt, fingerprint, len(bounds))
+    done = out.open()
+    todo = [i for i in range(len(bounds)) if i not in done]
+    filters_done = sum(bounds[i][1] - bounds[i][0] for i in done)
+    if progress is not None:
+        progress("filters", filters_done, n)
+
+    def tick(n_done: int, n_total: int, i: int) -> None:
+        nonlocal filters_done
+        lo, hi = bounds[todo[i]]
+        filters_done += hi - lo
+        if progress is not None:
+            progress("filters", filters_done, n)
+
+    import pickle
+
+    shipped = len(pickle.dumps(task, protocol=pickle.HIGHEST_PROTOCOL))  # sent once to each worker of a cluster
+    ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
+    try:
+        todo_bounds = [bounds[i] for i in todo]
+        for i, (data, n_rows) in zip(todo, ex.map(_run_chunk, task, todo_bounds, progress=tick)):
+            lo, hi = bounds[i]
+            out.write(i, data, lo=lo, hi=hi, rows=n_rows)
+    finally:
+        if ex is not scheduler:
+            ex.close()
+    from .tables import csv_text
+
+    meta = {"cvdfilter": json.dumps(header, ensure_ascii=False, allow_nan=False)}
+    manifest = out.finalise(header=csv_text(columns, []), metadata=meta,
+                            extra={"tool": "cvdfilter", "version": header["version"], "caveat": header["caveat"],
+                                   "filters": n, "chunk_filters": chunk, "columns": columns, "types": task.types,
+                                   "resumed_chunks": out.resumed, "shipped_bytes": shipped})
+    return manifest
