@@ -153,7 +153,7 @@ def _nums(values, digits: int = 6) -> list:
 
 def _observer_columns(card, k: int) -> dict:
     """The flattened CSV cells of fixed observer ``k`` over the filters, column by column (the keys of
-    ``Scorecard._observer_dict`` flattened; pair statistics None where the filter leaves a cone no light)."""
+    ``scorecard_json.observer_entry`` flattened; pair statistics None where the filter leaves a cone no light)."""
     from .scorecard import _at_key, _num
 
     o, n, st, groups = card.per_observer[k], len(card), card.settings, card.metrics
