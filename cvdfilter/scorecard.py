@@ -346,11 +346,7 @@ def _score_validated(inp, discern, progress, scheduler) -> tuple[dict, list]:
 def _scorecard(inp, filters, signal_spectra, discern, results: dict, per_obs: list, members: bool,
                sensitivity: bool) -> Scorecard:
     """The Scorecard with the record of its inputs and the settings used (and the sensitivity section)."""
-    record = {"filters": _describe_inputs(filters), "illuminant": inp.illuminant.name,
-              "observers": [o.spec for o in inp.observers], "surfaces": inp.surfaces.name,
-              "adaptation": _adaptation_text(inp.adaptation), "metrics": list(inp.groups),
-              "signal_spectra": None if signal_spectra is None else (
-                  str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
+    record = _input_record(filters, inp, signal_spectra)
     settings = inp.settings()
     if discern is not None:
         record["scenes"] = list(discern.sources)
@@ -364,6 +360,15 @@ def _scorecard(inp, filters, signal_spectra, discern, results: dict, per_obs: li
         card.sensitivity = _sensitivity(card, inp.filters, inp.illuminant, inp.surfaces, inp.observers,
                                         inp.adaptation, inp.signal_spectra, inp.grid)
     return card
+
+
+def _input_record(filters, inp, signal_spectra) -> dict:
+    """The ``inputs`` record of a run (also the streamed run's, :mod:`cvdfilter.score_stream`)."""
+    return {"filters": _describe_inputs(filters), "illuminant": inp.illuminant.name,
+            "observers": [o.spec for o in inp.observers], "surfaces": inp.surfaces.name,
+            "adaptation": _adaptation_text(inp.adaptation), "metrics": list(inp.groups),
+            "signal_spectra": None if signal_spectra is None else (
+                str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
 
 
 def _describe_inputs(filters) -> list:
