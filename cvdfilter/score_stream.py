@@ -196,16 +196,9 @@ def _fast_columns(card, columns: list) -> dict:
     """The CSV view's cells of a card of fixed observers, column by column (rows filter-major, as
     ``Scorecard.csv_rows``): the per-filter cells from ``Scorecard.filter_dict`` without observers, the
     observers' from :func:`_observer_columns`."""
-    from .scorecard_views import _flatten
+    from .scorecard_views import _flatten, run_columns
 
-    head = card.header()
-    run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
-           "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
-           "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
-    if "road_use" in card.metrics:
-        ru = head["models"]["road_use"]
-        run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
-        run["signal_limits_reading"] = ru["signal_limits_reading"]
+    run = run_columns(card)
     bare = dataclasses.replace(card, observers=[], per_observer=[])
     flat = []
     for i in range(len(card)):
@@ -274,17 +267,18 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     fmt = _check_stream_args(output, fmt, kwargs)
     check_outputs([path], list(inputs))
     task, header = _stream_task(filters, fmt, kwargs, units, bandwidth)
+    columns: list = task.columns or []
     n = len(task.source)
     bounds = chunk_bounds(n, chunk)
     fingerprint = {"format": fmt, "chunk": chunk, "filters": n, "parts": task.source.describe(),
-                   "columns": task.columns, "types": task.types, "header": header}
+                   "columns": columns, "types": task.types, "header": header}
     out = ChunkedOutput(path, fmt, fingerprint, len(bounds))
     done = out.open()
     shipped = _write_chunks(task, out, bounds, done, progress, scheduler)
     meta = {"cvdfilter": json.dumps(header, ensure_ascii=False, allow_nan=False)}
-    return out.finalise(header=csv_text(task.columns, []), metadata=meta,
+    return out.finalise(header=csv_text(columns, []), metadata=meta,
                         extra={"tool": "cvdfilter", "version": header["version"], "caveat": header["caveat"],
-                               "filters": n, "chunk_filters": chunk, "columns": task.columns, "types": task.types,
+                               "filters": n, "chunk_filters": chunk, "columns": columns, "types": task.types,
                                "resumed_chunks": out.resumed, "shipped_bytes": shipped})
 
 
