@@ -535,7 +535,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     if per_observer_groups and len(fixed) < len(inp.observers):
         from .score_population import score_populations
 
-        score_populations(inp, per_obs, per_observer_groups, progress)
+        score_populations(inp, per_obs, per_observer_groups, progress, scheduler=scheduler)
     if discern is not None:
         from .score_discernible import score_discernible
 

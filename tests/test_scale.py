@@ -345,3 +345,40 @@ def test_tasks_on_a_cluster_give_the_same_document(cluster):
 
     kw = dict(observers=["normal", "deuteranope"], tasks=["plates", "rayleigh"], trials=5, seed=1)
     assert tasks("larkhill-notch-575", **kw).to_json() == tasks("larkhill-notch-575", scheduler=cluster, **kw).to_json()
+
+
+# --- populations through the layer --------------------------------------------------------------------
+
+def test_population_on_a_cluster_gives_the_same_document(cluster, monkeypatch):
+    # Populations go through the execution layer: small member blocks and chunks so that the run has several
+    # blocks of several chunks, some in parallel; JSON bytes equal locally and on the cluster.
+    import cvdfilter.score_population as sp
+    from cvdfilter import score
+
+    monkeypatch.setattr(sp, "MEMBER_BLOCK", 4)
+    monkeypatch.setattr(sp, "SETS_PER_CHUNK", 20)  # 5 filters per chunk
+    kw = dict(observers=["deuteranomalous:n=7,seed=3", "protanope:n=3,seed=1", "normal"], metrics="core",
+              members=True)
+    a = score(SPECS, **kw)
+    b = score(SPECS, scheduler=cluster, **kw)
+    assert a.to_json() == b.to_json()
+
+
+def test_member_block_pickles_for_process_workers():
+    # What a cluster of worker processes receives (the light block) computes the same bits after a pickle.
+    import pickle
+
+    from cvdfilter.observers.population import population
+    from cvdfilter.score_plan import ScoreInputs
+    from cvdfilter.score_population import MemberBlock
+
+    inp = ScoreInputs.validate(SPECS, observers=["deuteranomalous:n=3,seed=2"], metrics="core")
+    pop = inp.observers[0]
+    assert isinstance(pop, type(population("deuteranomalous:n=3,seed=2")))
+    block = MemberBlock(inp, pop, 0, pop.n, ("contrast", "discrimination", "confusion"), {})
+    light = pickle.loads(pickle.dumps(block.light()))
+    assert light.store == {}
+    a, b = block.compute(3, 9), light.compute(3, 9)
+    assert a.keys() == b.keys()
+    for key in a:
+        assert np.array_equal(a[key], b[key], equal_nan=True), key
