@@ -539,7 +539,7 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     if discern is not None:
         from .score_discernible import score_discernible
 
-        score_discernible(inp, discern, per_obs, progress)
+        score_discernible(inp, discern, per_obs, progress, scheduler=scheduler)
     if "rendition" in groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 

@@ -382,3 +382,35 @@ def test_member_block_pickles_for_process_workers():
     assert a.keys() == b.keys()
     for key in a:
         assert np.array_equal(a[key], b[key], equal_nan=True), key
+
+
+# --- the discernible-colours measure through the layer -------------------------------------------------
+
+def test_discernible_over_scenes_on_a_cluster_gives_the_same_document(cluster, monkeypatch):
+    # Two scenes (pooled counts), a normal observer counted first and reused as a base, a dichromat, a
+    # population; small chunks so each observer has several; JSON bytes equal locally and on the cluster.
+    import pickle
+
+    import cvdfilter.score_discernible as sd
+    from cvdfilter import score
+    from cvdfilter.spectra.scenes import synthetic_scene
+
+    monkeypatch.setattr(sd, "CHUNK_PIXEL_STATES", 3 * 48 * 64)  # 3 rows per chunk
+    scenes = [synthetic_scene(seed=5, shape=(48, 64)), synthetic_scene(seed=6, shape=(40, 40))]
+    kw = dict(scenes=scenes, metrics="discernible", members=True,
+              observers=["normal", "deuteranope", "deuteranomalous:n=3,seed=2", "normal"])
+    a = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], **kw)
+    b = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], scheduler=cluster, **kw)
+    assert a.to_json() == b.to_json()
+    shipped = []
+    import cvdfilter.execution as execution
+
+    real = execution.map_chunks
+
+    def spy(fn, shared, bounds, **k):
+        shipped.append(pickle.loads(pickle.dumps(shared)))  # what a worker process receives
+        return real(fn, shipped[-1], bounds, **k)
+
+    monkeypatch.setattr(execution, "map_chunks", spy)
+    c = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], **kw)
+    assert len(shipped) == 1 and c.to_json() == a.to_json()
