@@ -500,6 +500,14 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     >>> f["luminous_transmittance"], f["iso12312_category"], f["observers"][0]["red_green_gain"]
     (0.5, 1, 1.0)
     """
+    args = dict(locals())  # the arguments (first, before any other name is bound here)
+    from .execution import opens_cluster
+
+    if opens_cluster(scheduler):  # one cluster for the run: fixed observers, populations, scenes
+        from .execution import executor
+
+        with executor(scheduler) as ex:
+            return score(**{**args, "scheduler": ex})
     from .score_plan import ScoreInputs, filter_results, plan_observers, run_chunks
 
     inp = ScoreInputs.validate(

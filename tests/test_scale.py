@@ -414,3 +414,26 @@ def test_discernible_over_scenes_on_a_cluster_gives_the_same_document(cluster, m
     monkeypatch.setattr(execution, "map_chunks", spy)
     c = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], **kw)
     assert len(shipped) == 1 and c.to_json() == a.to_json()
+
+
+def test_score_opens_one_cluster_for_fixed_observers_populations_and_scenes(monkeypatch):
+    # local:N given as a name: one executor for the whole score() call, closed after it; same document.
+    pytest.importorskip("distributed")
+    import cvdfilter.execution as execution
+    from cvdfilter import score
+    from cvdfilter.spectra.scenes import synthetic_scene
+
+    opened = []
+
+    def on_cluster(scheduler=None):  # what local:2 opens, with threads for workers
+        assert scheduler == "local:2"
+        opened.append(DaskExecutor(n_workers=2, processes=False))
+        return opened[-1]
+
+    kw = dict(observers=["normal", "deuteranomalous:n=3,seed=1"], metrics=["contrast", "discernible"],
+              scenes=[synthetic_scene(seed=5, shape=(24, 24))])
+    a = score(SPECS, **kw)
+    monkeypatch.setattr(execution, "executor", on_cluster)
+    b = score(SPECS, scheduler="local:2", **kw)
+    assert len(opened) == 1 and opened[0].client.status == "closed"
+    assert a.to_json() == b.to_json()
