@@ -37,6 +37,7 @@ import numpy as np
 
 from .metrics.confusion import DEFICIENT_THRESHOLD, NORMAL_THRESHOLD
 from .metrics.discrimination import CONE_RATIOS, DISCRIMINATION_THRESHOLD, DISTRIBUTION_THRESHOLDS, WEBER_FRACTION
+from .execution import opens_cluster
 from .score_plan import CORE_METRICS, DEFAULT_OBSERVERS, METRIC_GROUPS, parse_metrics
 from .score_population import is_population
 from .scorecard_json import _adaptation_text, _at_key, _num  # noqa: F401  (used by score_population, score_stream)
@@ -237,24 +238,21 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     surfaces : str or SurfaceSet
         ``ces99`` (default), ``chart24``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
-        ``full`` (default: von Kries adaptation to the filtered light), ``none`` (adapted to the unfiltered
-        light) or a degree 0-1.
+        ``full`` (default: von Kries to the filtered light), ``none`` (to the unfiltered light) or a degree 0-1.
     metrics : str or sequence
         ``all`` (default), ``core`` (all but rendition) or group names from :data:`METRIC_GROUPS`.
     signal_spectra : str, pathlib.Path or dict, optional
-        Measured signal-light spectra: a file whose value columns are named by colour (``red``,
-        ``yellow``/``amber``, ``green``, ``blue``, any suffix), or a dict name -> spectrum on the grid or
-        (wavelengths, values). They replace the modelled lights of their colours.
+        Measured signal-light spectra replacing the modelled lights of their colours: a file whose value columns
+        are named by colour (``red``, ``yellow``/``amber``, ``green``, ``blue``, any suffix), or a dict name ->
+        spectrum on the grid or (wavelengths, values).
     grid : Grid, optional
         Default: the FilterSet's grid, else 380-780 nm at 1 nm.
-    weber_fraction, cone_ratios, discrimination_threshold, distribution_thresholds, normal_threshold, \
-    deficient_threshold, signal_limits
-        Model constants and thresholds (:meth:`cvdfilter.score_inputs.ScoreInputs.validate` says each).
-    sensitivity : bool
-        Also score every filter under the documented variations of :data:`SENSITIVITY_RANGES` and report how
-        the verdicts move (``Scorecard.sensitivity``, JSON key ``sensitivity``).
-    members : bool
-        With populations: also carry every member's values in the JSON (``members``).
+    weber_fraction, cone_ratios, discrimination_threshold, distribution_thresholds, signal_limits
+        Model constants and thresholds, with ``normal_threshold`` and ``deficient_threshold``
+        (:meth:`cvdfilter.score_inputs.ScoreInputs.validate` says each).
+    sensitivity, members : bool
+        Also report how the verdicts move under the variations of :data:`SENSITIVITY_RANGES` (JSON key
+        ``sensitivity``); with populations, also carry every member's values in the JSON (``members``).
     progress : callable, optional
         ``progress(stage, done, total)``; stages ``filters``, ``members`` (populations) and ``rendition``.
     units, bandwidth : optional
@@ -281,6 +279,9 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     >>> f["luminous_transmittance"], f["iso12312_category"], f["observers"][0]["red_green_gain"]
     (0.5, 1, 1.0)
     """
+    args = dict(locals())  # the arguments (first, before any other name is bound here)
+    if opens_cluster(scheduler):  # one cluster for the run: fixed observers, populations, scenes
+        return _score_on_cluster(args)
     from .score_plan import ScoreInputs
 
     inp = ScoreInputs.validate(
@@ -293,6 +294,14 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     discern = _discernible_inputs(inp, scenes, discernible_method)  # checked before the heavy work
     results, per_obs = _score_validated(inp, discern, progress, scheduler)
     return _scorecard(inp, filters, signal_spectra, discern, results, per_obs, members, sensitivity)
+
+
+def _score_on_cluster(args: dict) -> Scorecard:
+    """:func:`score` with one executor (a Dask cluster) opened for the whole run and closed after it."""
+    from .execution import executor
+
+    with executor(args["scheduler"]) as ex:
+        return score(**{**args, "scheduler": ex})
 
 
 def _discernible_inputs(inp, scenes, method: str):
@@ -329,11 +338,11 @@ def _score_validated(inp, discern, progress, scheduler) -> tuple[dict, list]:
     if per_observer_groups and len(fixed) < len(inp.observers):
         from .score_population import score_populations
 
-        score_populations(inp, per_obs, per_observer_groups, progress)
+        score_populations(inp, per_obs, per_observer_groups, progress, scheduler=scheduler)
     if discern is not None:
         from .score_discernible import score_discernible
 
-        score_discernible(inp, discern, per_obs, progress)
+        score_discernible(inp, discern, per_obs, progress, scheduler=scheduler)
     if "rendition" in groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 

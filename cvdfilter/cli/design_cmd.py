@@ -6,6 +6,7 @@ from typing import Any, List, Optional
 
 import typer
 
+from ..execution import SCHEDULER_HELP
 from .common import fail, input_files
 
 
@@ -66,6 +67,7 @@ def register(app: typer.Typer) -> None:
         dpi: float = typer.Option(300.0, "--dpi", help="Resolution of PNG figures, dots per inch."),
         output: str = typer.Option(..., "--output", "-o", help="Folder for designs.json, designs.csv, curves/ "
                                                                 "and the figures."),
+        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=SCHEDULER_HELP),
     ) -> None:
         """Search a family of filters for the designs that best meet objectives under requirements; write
         the ranked designs (JSON, CSV, curve files), a Pareto figure and the spectra of the best designs.
@@ -88,7 +90,8 @@ def register(app: typer.Typer) -> None:
             result = design(observer, maximise=maximise or [], minimise=minimise or [], require=require or [],
                             family=family, budget=budget, seed=seed, top=top, references=refs,
                             illuminant=illuminant, surfaces=surfaces, adaptation=adaptation,
-                            time_limit=time_limit, metrics=metrics, progress=progress, output=output)
+                            time_limit=time_limit, metrics=metrics, progress=progress, output=output,
+                            scheduler=scheduler)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)

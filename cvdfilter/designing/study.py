@@ -255,7 +255,7 @@ def _command(observers, maximise, minimise, require, family, budget, seed, top, 
 def design(observer, *, maximise=(), minimise=(), require=(), family: str = "notch:k=1",
            budget: int = DEFAULT_BUDGET, seed: int = 0, top: int = DEFAULT_TOP, references=None,
            illuminant: str = "D65", surfaces: str = "ces99", adaptation="full", time_limit: float | None = None,
-           metrics="all", progress=None, output: str | None = None) -> DesignResult:
+           metrics="all", progress=None, output: str | None = None, scheduler=None) -> DesignResult:
     """Search a family of filters for the best designs for an observer, under requirements.
 
     Parameters
@@ -290,6 +290,10 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
     output : str, optional
         The folder the result will be written to (named in the reproducing command and in the specs
         of free-form designs' curve files).
+    scheduler : str or Executor, optional
+        Where each generation's chunks run (:mod:`cvdfilter.execution`): ``local`` (default; or
+        ``$CVDFILTER_SCHEDULER``), ``local:N`` (one Dask LocalCluster for the whole run) or a Dask scheduler
+        address; an open :class:`~cvdfilter.execution.Executor` is used as given. The designs are the same.
 
     Returns
     -------
@@ -308,6 +312,12 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
     >>> r.designs[0]["spec"]                             # doctest: +SKIP
     'notch:center=...'
     """
+    if not hasattr(scheduler, "map"):  # one executor (one LocalCluster) for the whole run, not one per batch
+        args = dict(locals())  # the arguments (first, before any other name is bound here)
+        from ..execution import executor
+
+        with executor(scheduler) as ex:
+            return design(**{**args, "scheduler": ex})
     from ..observers.observer import observer as make_observer
     from ..observers.population import is_population_spec
     from ..observers.population import population as make_population
@@ -349,6 +359,7 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
     groups = groups_needed([m for m, _ in objectives] + [r.metric for r in requirements])
     score_kwargs = {"illuminant": illuminant, "surfaces": surfaces, "adaptation": adaptation}
     problem = DesignProblem(space, observers, objectives, requirements, score_kwargs, groups)
+    problem.scheduler = scheduler
     ref_specs = list(example_names()) if references is None else [str(r) for r in references]
     # checks the scorer's own inputs (illuminant, surfaces, adaptation) and the references before searching
     ref_card = score_batch(ref_specs, problem, metrics=_union(metrics, groups)) if ref_specs else None
