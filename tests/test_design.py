@@ -110,6 +110,8 @@ def test_the_fast_reader_agrees_with_the_json_entry_for_every_key():
             assert np.allclose(metric_values(card, m, None)[i], entry_value(entry, m, None), atol=tol, rtol=0,
                                equal_nan=True), key
         for key in OBSERVER_KEYS:
+            if key.startswith("tasks."):  # read from cvdfilter.tasks, not the scorecard (test_design_tasks.py)
+                continue
             m = parse_metric(key, "deuteranomalous")
             tol = 1.01 * 10.0 ** -DIGITS.get(key, 6)
             assert np.allclose(metric_values(card, m, 0)[i], entry_value(entry, m, 0), atol=tol, rtol=0,

@@ -62,6 +62,10 @@ def register(app: typer.Typer) -> None:
         metrics: str = typer.Option("all", "--metrics", help=(
             "Metric groups in each design's scorecard entry: all, core (no colour rendition: faster) or a "
             "list; the groups the objectives and requirements need are always there.")),
+        task_trials: int = typer.Option(50, "--task-trials", help=(
+            "Arrangement trials per candidate for task metrics (tasks.TASK.KEY); the design's seed fixes them.")),
+        resume: bool = typer.Option(False, "--resume", help=(
+            "Continue the interrupted design whose checkpoint is in the output folder (same options).")),
         figure_format: str = typer.Option("png", "--figure-format", help="pdf, svg or png (figures)."),
         dpi: float = typer.Option(300.0, "--dpi", help="Resolution of PNG figures, dots per inch."),
         output: str = typer.Option(..., "--output", "-o", help="Folder for designs.json, designs.csv, curves/ "
@@ -69,14 +73,17 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Search a family of filters for the designs that best meet objectives under requirements; write
         the ranked designs (JSON, CSV, curve files), a Pareto figure and the spectra of the best designs.
-        Ctrl-C stops the search and writes the best designs found so far.
+        Ctrl-C stops the search and writes the best designs found so far; the candidates scored are kept in
+        DIR/design-checkpoint.npz, and --resume continues from there.
 
         Example: cvdfilter design --observer deuteranomalous --maximise red_green_gain
         --require 'luminous_transmittance>=0.43' --family notch:k=1 --budget 1000 --seed 1 -o design-out
         """
+        import os
         import time
 
         from ..designing import design
+        from ..designing.checkpoint import CHECKPOINT_NAME
         from ..errors import InputError
 
         if figure_format not in ("pdf", "svg", "png"):
@@ -88,7 +95,9 @@ def register(app: typer.Typer) -> None:
             result = design(observer, maximise=maximise or [], minimise=minimise or [], require=require or [],
                             family=family, budget=budget, seed=seed, top=top, references=refs,
                             illuminant=illuminant, surfaces=surfaces, adaptation=adaptation,
-                            time_limit=time_limit, metrics=metrics, progress=progress, output=output)
+                            time_limit=time_limit, metrics=metrics, progress=progress, output=output,
+                            task_trials=task_trials, resume=resume,
+                            checkpoint=os.path.join(output, CHECKPOINT_NAME))
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)
