@@ -292,7 +292,9 @@ def test_outputs_never_overwrite_an_input(tmp_path):
 
     (tmp_path / "out" / "curves").mkdir(parents=True)
     ref = tmp_path / "out" / "curves" / "design-01.csv"
-    shutil.copy(cvdfilter.spectra.filters.example_path("larkhill-notch-575"), ref)
+    from cvdfilter.spectra.filters import example_path
+
+    shutil.copy(example_path("larkhill-notch-575"), ref)
     before = ref.read_bytes()
     r = _cli("design", "--observer", "deuteranomalous", "--maximise", "red_green_gain", "--budget", "60",
              "--metrics", "core", "--reference", str(ref), "-o", str(tmp_path / "out"))

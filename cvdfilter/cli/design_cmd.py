@@ -91,13 +91,15 @@ def register(app: typer.Typer) -> None:
         refs = [] if no_references else (reference or None)
         progress = _Progress()
         start = time.perf_counter()
+        checkpoint = os.path.join(output, CHECKPOINT_NAME)
+        had_checkpoint = os.path.exists(checkpoint)
         try:
             result = design(observer, maximise=maximise or [], minimise=minimise or [], require=require or [],
                             family=family, budget=budget, seed=seed, top=top, references=refs,
                             illuminant=illuminant, surfaces=surfaces, adaptation=adaptation,
                             time_limit=time_limit, metrics=metrics, progress=progress, output=output,
                             task_trials=task_trials, resume=resume,
-                            checkpoint=os.path.join(output, CHECKPOINT_NAME))
+                            checkpoint=checkpoint)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)
@@ -107,6 +109,8 @@ def register(app: typer.Typer) -> None:
             written = result.write(output, formats=(figure_format,), dpi=dpi,
                                    inputs=input_files(reference or []) + [surfaces])
         except InputError as exc:
+            if not had_checkpoint:  # no partial output: the checkpoint this run wrote goes too
+                os.remove(checkpoint)
             fail(exc)
         typer.echo(result.table_text(width=100), nl=False)
         run = result.run

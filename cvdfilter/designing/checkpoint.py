@@ -64,6 +64,9 @@ class Checkpoint:
         self.reused = 0
         self.resumed: dict | None = None
         self.last_save = time.perf_counter()
+        # what this run creates, removed again by discard() when the design fails (no partial output)
+        self.existed = self.path.exists()
+        self.new_folders = [d for d in (self.path.parent, *self.path.parent.parents) if not d.exists()]
         if resume:
             self._read()
 
@@ -120,6 +123,14 @@ class Checkpoint:
         self.path.parent.mkdir(parents=True, exist_ok=True)
         write_bytes(self.path, buf.getvalue())
         self.last_save = time.perf_counter()
+
+    def discard(self) -> None:
+        """Remove the checkpoint and the folders this run created (a design that failed writes nothing)."""
+        if not self.existed:
+            self.path.unlink(missing_ok=True)
+        for d in self.new_folders:
+            if d.is_dir() and not any(d.iterdir()):
+                d.rmdir()
 
     def record(self) -> dict:
         """The run record's ``checkpoint`` and ``resumed`` entries (``resumed`` null for a fresh run)."""

@@ -288,9 +288,8 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
         The folder the result will be written to (named in the reproducing command and curve files).
     task_trials : int
         Arrangement trials per candidate for task metrics (:mod:`cvdfilter.designing.task_scores`).
-    checkpoint : path, optional
-        Where the archive of scored candidates is kept during the search
-        (:mod:`cvdfilter.designing.checkpoint`); ``resume=True`` continues the search it holds.
+    checkpoint, resume : path, bool
+        Where the scored candidates are kept (:mod:`~cvdfilter.designing.checkpoint`); resume its search.
 
     Returns
     -------
@@ -315,32 +314,53 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
     budget, seed, top, task_trials = _check_numbers(budget, seed, top, task_trials, time_limit)
     problem = _problem(observer, maximise, minimise, require, family, illuminant, surfaces, adaptation,
                        task_trials, seed)
-    if resume and checkpoint is None:
-        raise InputError("resume needs the checkpoint of the interrupted run", hint="give -o DIR of that run")
     ref_specs = list(example_names()) if references is None else [str(r) for r in references]
     # checks the scorer's own inputs (illuminant, surfaces, adaptation) and the references before searching
     ref_card = score_batch(ref_specs, problem, metrics=_union(metrics, problem.groups)) if ref_specs else None
-    saver = None
-    if checkpoint is not None:
-        from .checkpoint import Checkpoint
-
-        saver = Checkpoint(checkpoint, problem, seed, resume=resume)
+    saver = _checkpoint(checkpoint, problem, seed, resume)
     archive, run = search(problem, budget=budget, seed=seed, time_limit=time_limit, progress=progress,
                           checkpoint=saver)
+    try:
+        designs, header = _designs(problem, archive, top, output, metrics)
+    except InputError:
+        if saver is not None:
+            saver.discard()
+        raise
+    references_out = _references(problem, ref_card, ref_specs)
+    run["reported"] = len(designs)
+    inputs = _inputs(problem, observer, maximise, minimise, require, budget, seed, top, references, ref_specs,
+                     illuminant, surfaces, adaptation, output, metrics)
+    return DesignResult(designs, references_out, problem, archive, run, inputs, header)
+
+
+def _designs(problem: DesignProblem, archive, top: int, output, metrics) -> tuple[list, dict]:
+    """The designs chosen from the archive and re-scored; InputError when none is left."""
     candidates = select(problem, archive, top=top)
     designs, header = _rescore(problem, candidates, top=top, output=output, metrics=metrics)
     if not designs:
         raise InputError("no design kept its requirements when re-scored from its spec string "
                          f"({len(candidates)} tried)", hint="loosen a requirement slightly: the rounding of the "
                                                             "spec moved every candidate across a bound")
-    references_out = []
-    if ref_card is not None:
-        entries = attach_task_scores([ref_card.filter_dict(i) for i in range(len(ref_card))], ref_specs, problem)
-        references_out = [_summary(problem, e, spec) for e, spec in zip(entries, ref_specs)]
-    run["reported"] = len(designs)
-    inputs = _inputs(problem, observer, maximise, minimise, require, budget, seed, top, references, ref_specs,
-                     illuminant, surfaces, adaptation, output, metrics)
-    return DesignResult(designs, references_out, problem, archive, run, inputs, header)
+    return designs, header
+
+
+def _references(problem: DesignProblem, card, specs: list) -> list:
+    """The references summarised as the designs are (their task scores included)."""
+    if card is None:
+        return []
+    entries = attach_task_scores([card.filter_dict(i) for i in range(len(card))], specs, problem)
+    return [_summary(problem, e, spec) for e, spec in zip(entries, specs)]
+
+
+def _checkpoint(path, problem: DesignProblem, seed: int, resume: bool):
+    """The search's :class:`~cvdfilter.designing.checkpoint.Checkpoint` (None without a path)."""
+    if path is None:
+        if resume:
+            raise InputError("resume needs the checkpoint of the interrupted run", hint="give -o DIR of that run")
+        return None
+    from .checkpoint import Checkpoint
+
+    return Checkpoint(path, problem, seed, resume=resume)
 
 
 def _check_numbers(budget, seed, top, task_trials, time_limit) -> tuple[int, int, int, int]:
