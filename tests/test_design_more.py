@@ -122,3 +122,20 @@ def test_the_command_resumes_from_its_output_folder(tmp_path):
     other = [("2" if a == "1" and args[i - 1] == "--seed" else a) for i, a in enumerate(args)]
     wrong = subprocess.run([*other, "--resume"], capture_output=True, text=True, timeout=600)
     assert wrong.returncode == 2 and "differs in seed" in wrong.stderr and "Traceback" not in wrong.stderr
+
+
+@pytest.mark.parametrize("metric, group", [("share:discernible_colours.ratio", "discernible"),
+                                           ("share:confusion_pairs_net", "confusion"),
+                                           ("share:discriminable_pairs_net", "discrimination"),
+                                           ("mean:discernible_colours.ratio", "discernible"),
+                                           ("share:red_green_gain", "contrast")])
+def test_population_metrics_ask_the_scorer_for_their_group(metric, group):
+    from cvdfilter.designing.objectives import groups_needed, parse_metric
+
+    assert groups_needed([parse_metric(metric, "deuteranomalous:n=4,seed=1")]) == [group]
+
+
+def test_a_robust_discernible_design_has_numbers():
+    r = cvdfilter.design("deuteranomalous:n=3,seed=1", maximise="share:discernible_colours.ratio",
+                         surfaces="munsell", budget=12, seed=1, top=1, **FAST)
+    assert r.designs[0]["objectives"]["share:discernible_ratio"] is not None

@@ -81,6 +81,10 @@ HELPED_KEYS = {"red_green_gain": "red_green_gain", "blue_yellow_gain": "blue_yel
                "confusion_pairs_net": "confusion_pairs_net", "confusion_pairs.net": "confusion_pairs_net",
                "median_delta_s_ratio": "median_delta_s_ratio", "discernible_ratio": "discernible_ratio",
                "discernible_colours.ratio": "discernible_ratio"}
+#: The scorer's group behind each ``share:`` key (score_population.population_summaries).
+_HELPED_GROUPS = {"red_green_gain": "contrast", "blue_yellow_gain": "contrast",
+                  "discriminable_pairs_net": "discrimination", "confusion_pairs_net": "confusion",
+                  "median_delta_s_ratio": "confusion", "discernible_ratio": "discernible"}
 _OPS = (">=", "<=", "==", ">", "<")
 _METRIC_HELP = ("a scorecard key such as red_green_gain, confusion_pairs.net, luminous_transmittance, "
                 "rendition.rf; for a population mean:KEY, p2_5:KEY or share:KEY; another observer as KEY[SPEC]")
@@ -102,6 +106,8 @@ class Metric:
 
     @property
     def group(self) -> str:
+        if self.stat == "share":
+            return _HELPED_GROUPS[self.key]
         return FILTER_KEYS.get(self.key) or OBSERVER_KEYS.get(self.key) or "contrast"
 
     @property
