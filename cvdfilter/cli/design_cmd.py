@@ -39,7 +39,8 @@ def register(app: typer.Typer) -> None:
             "The observer designed for (a spec; n=N makes it a population). Repeat to score more observers; "
             "a metric names them in brackets, e.g. discriminable_pairs.lost[normal].")),
         maximise: Optional[List[str]] = typer.Option(None, "--maximise", help=(
-            "A scorecard key to maximise (red_green_gain, confusion_pairs.net, luminous_transmittance; for a "
+            "A scorecard key to maximise (red_green_gain, confusion_pairs.net, luminous_transmittance, "
+            "discernible_colours.ratio with --surfaces munsell, a task score tasks.arrangement.effect; for a "
             "population mean:KEY, p2_5:KEY or share:KEY). Two or more give a Pareto set.")),
         minimise: Optional[List[str]] = typer.Option(None, "--minimise", help="A scorecard key to minimise."),
         require: Optional[List[str]] = typer.Option(None, "--require", help=(
