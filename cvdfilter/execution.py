@@ -23,7 +23,7 @@ stays bounded however many chunks a run has. A worker lost mid-run is retried by
 by a chunk (an :class:`~cvdfilter.errors.InputError` on bad input) ends the run and is raised here.
 
 Public: :func:`executor`, :func:`map_chunks`, :func:`chunk_bounds`, :func:`parse_scheduler`,
-:class:`Executor`, :class:`LocalExecutor`, :class:`DaskExecutor`, :data:`SCHEDULER_ENV`.
+:func:`opens_cluster`, :class:`Executor`, :class:`LocalExecutor`, :class:`DaskExecutor`, :data:`SCHEDULER_ENV`.
 """
 
 from __future__ import annotations
@@ -36,8 +36,8 @@ from typing import Any
 
 from .errors import InputError
 
-__all__ = ["executor", "map_chunks", "chunk_bounds", "parse_scheduler", "Executor", "LocalExecutor",
-           "DaskExecutor", "SCHEDULER_ENV", "SCHEDULER_HELP"]
+__all__ = ["executor", "map_chunks", "chunk_bounds", "parse_scheduler", "opens_cluster", "Executor",
+           "LocalExecutor", "DaskExecutor", "SCHEDULER_ENV", "SCHEDULER_HELP"]
 
 #: Environment variable with the default scheduler.
 SCHEDULER_ENV = "CVDFILTER_SCHEDULER"
@@ -232,8 +232,11 @@ class DaskExecutor(Executor):
                                  hint="start it with 'dask scheduler' or use --scheduler local") from None
         else:
             where = {"host": "127.0.0.1"} if processes else {}  # loopback only; in-process needs no address
+            # no dashboard; the scheduler's HTTP routes (health) on a free loopback port, not on 8787 of
+            # every interface (another cluster may hold it)
             self._cluster = LocalCluster(n_workers=n_workers or 1, threads_per_worker=1, processes=processes,
-                                         dashboard_address=None, **where)
+                                         dashboard_address=None, scheduler_kwargs={"dashboard_address": "127.0.0.1:0"},
+                                         **where)
             self.client = Client(self._cluster)
 
     def slots(self) -> int:
@@ -303,6 +306,16 @@ def executor(scheduler: str | None = None) -> Executor:
     if kind == "cluster":
         return DaskExecutor(n_workers=arg)
     return DaskExecutor(arg)
+
+
+def opens_cluster(scheduler: str | Executor | None) -> bool:
+    """True when ``scheduler`` names a Dask scheduler (not an open executor, not local threads): a caller
+    that runs several maps then opens one executor for them all (one LocalCluster per run, not per map).
+
+    >>> opens_cluster("local"), opens_cluster("local:2"), opens_cluster(LocalExecutor(1))
+    (False, True, False)
+    """
+    return not hasattr(scheduler, "map") and parse_scheduler(scheduler)[0] != "local"
 
 
 def map_chunks(fn: Callable, shared: Any, bounds: Iterable[tuple[int, int]], *,

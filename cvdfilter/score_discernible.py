@@ -304,100 +304,168 @@ def _pool(counts: np.ndarray, parts: list) -> float:
     return float(count_union(parts, 1)[0]) if len(parts) > 1 else float(counts[0])
 
 
-def _observer_counts(cond: _Condition, reference: tuple | None, T: np.ndarray, d: DiscernibleInputs,
-                     e: np.ndarray, a: float, progress=None) -> dict:
-    """Arrays of one observer: per stimulus and pooled, without / with / normal_without / excluded.
+@dataclass
+class _Unit:
+    """One observer (or population member) to count: its condition, whether its no-filter state is still to
+    count (``own``: then its rows are the no-filter row and the filters), and where its normal base's
+    counts without a filter come from (``ref``: a unit index, or ``(condition, _without(...))``)."""
 
-    ``reference`` is ``(condition, _without(...))`` of the normal base observer (shared by the observers
-    with one base); None for a normal observer not counted yet: it is its own reference, and its state
-    without a filter is then counted in the first chunk with the filters (``out["reference"]``).
-    """
+    k: int
+    cond: _Condition
+    own: bool
+    ref: Any
+    n_rows: int
+
+
+@dataclass
+class _Shared:
+    """What every chunk needs (shipped once per run): the stimuli, the light, the filters, and per chunk
+    ``(unit, lo, hi)`` over its unit's rows."""
+
+    d: DiscernibleInputs
+    e: np.ndarray
+    a: float
+    T: np.ndarray
+    units: list
+    chunks: list
+
+    def rows(self, unit: _Unit, lo: int, hi: int) -> np.ndarray:
+        """Rows ``lo:hi`` of the unit's transmittances: for an ``own`` unit the no-filter row, then the filters."""
+        if not unit.own:
+            return self.T[lo:hi]
+        if lo > 0:
+            return self.T[lo - 1:hi - 1]
+        return np.vstack([np.ones((1, self.T.shape[1])), self.T[:hi - 1]])
+
+
+def _chunk_counts(sh: _Shared, c: int, _c1: int) -> dict:
+    """Chunk ``c`` (a pure function): counts per stimulus, pooled, undefined colours for its rows, and the
+    no-filter state's occupied cubes when the chunk holds it (first chunk of an ``own`` unit)."""
     from .metrics.discernible import count_union
 
-    n_f, n_wl = T.shape
-    n_s = len(d.stimuli)
-    pooled = n_s > 1
-    own = reference is None or reference[0] is not cond  # the no-filter state still to count
-    rows = np.vstack([np.ones((1, n_wl)), T]) if own else T
-    first = 1 if own else 0
-    n_r = rows.shape[0]
-    scene = np.full((n_s, n_r), np.nan)
-    excluded = np.zeros(n_r)
-    with_ = np.full(n_r, np.nan)
-    parts0: list = []
-    size = _chunk(max(s.samples.shape[1] for s in d.stimuli))
-    for lo in range(0, n_r, size):  # chunks of filters, each vectorised over its filters and pixels
-        hi = min(n_r, lo + size)
-        parts = []
-        defined = np.ones(hi - lo, dtype=bool)
-        for j, stim in enumerate(d.stimuli):
-            coords, ok = _coordinates(cond, rows[lo:hi], stim, e, a, d.method)
-            got, x = _count(coords, d.cube_size, pooled)
-            counts = got[0] if pooled else got
-            defined &= ok
-            scene[j, lo:hi] = np.where(ok, counts, np.nan)
-            excluded[lo:hi] += x
-            if pooled:
-                parts.append(got[1])
-                if own and lo == 0:
-                    r, k = got[1]
-                    parts0.append((r[r == 0], k[r == 0]))
+    u, lo, hi = sh.chunks[c]
+    unit, d = sh.units[u], sh.d
+    rows = sh.rows(unit, lo, hi)
+    pooled = len(d.stimuli) > 1
+    scene = np.full((len(d.stimuli), hi - lo), np.nan)
+    excluded = np.zeros(hi - lo)
+    parts, parts0 = [], []
+    defined = np.ones(hi - lo, dtype=bool)
+    for j, stim in enumerate(d.stimuli):
+        coords, ok = _coordinates(unit.cond, rows, stim, sh.e, sh.a, d.method)
+        got, x = _count(coords, d.cube_size, pooled)
+        counts = got[0] if pooled else got
+        defined &= ok
+        scene[j] = np.where(ok, counts, np.nan)
+        excluded += x
         if pooled:
-            with_[lo:hi] = np.where(defined, count_union(parts, hi - lo), np.nan)
-        else:
-            with_[lo:hi] = scene[0, lo:hi]
-        if progress is not None:
-            progress(max(0, hi - first))
+            parts.append(got[1])
+            if unit.own and lo == 0:
+                r, k = got[1]
+                parts0.append((r[r == 0], k[r == 0]))
+    with_ = np.where(defined, count_union(parts, hi - lo), np.nan) if pooled else scene[0].copy()
+    return {"scene": scene, "excluded": excluded, "with": with_, "parts0": parts0}
+
+
+def _observer_counts(unit: _Unit, parts: list, reference: tuple | None) -> dict:
+    """Arrays of one observer from its chunks' results (in order): per stimulus and pooled, without / with /
+    normal_without / excluded.
+
+    ``reference`` is ``(condition, _without(...))`` of the normal base observer; None for a normal observer
+    counted here for the first time: it is its own reference, its no-filter state counted in its first chunk
+    with the filters (``out["reference"]``).
+    """
+    scene = np.concatenate([p["scene"] for p in parts], axis=1)
+    excluded = np.concatenate([p["excluded"] for p in parts])
+    with_ = np.concatenate([p["with"] for p in parts])
+    first = 1 if unit.own else 0
     mine: tuple
-    if own:
+    if unit.own:
         s0, x0 = scene[:, 0].copy(), float(excluded[0])
-        mine = (cond, (s0, parts0, x0))
+        mine = (unit.cond, (s0, parts[0]["parts0"], x0))
     else:
         assert reference is not None
-        s0, parts0, x0 = reference[1]
         mine = reference
+        s0, parts0, x0 = reference[1]
     ref = mine if reference is None else reference
     sn, parts_n, _ = ref[1]
     return {"scene_without": s0, "scene_with": scene[:, first:], "scene_normal": sn,
-            "without": _pool(s0, parts0), "normal_without": _pool(sn, parts_n),
+            "without": _pool(s0, mine[1][1]), "normal_without": _pool(sn, parts_n),
             "with": with_[first:], "excluded": excluded[first:] + x0, "reference": mine}
 
 
-def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None) -> None:
+def _units(inp, d: DiscernibleInputs, e: np.ndarray, a: float) -> list:
+    """Every observer and member to count, in order, with its condition and its normal reference: a normal
+    observer is its own reference (shared with those it is the base of, and with its own later copies)."""
+    from .score_population import is_population
+
+    n_wl = inp.grid.size
+    noise_args = {"weber": inp.weber_fraction, "cone_ratios": inp.cone_ratios}
+    references: dict = {}  # normal observer spec -> unit index (counted there) or (condition, its counts)
+    units: list = []
+    for k, o in enumerate(inp.observers):
+        for m in (o.members() if is_population(o) else [o]):  # per member only the 3x3 maps differ
+            if m.base is None:
+                ref = references.get(m.spec)
+                if ref is None:
+                    cond, own = _condition(m, d, e, noise_args), True
+                    references[m.spec] = len(units)
+                else:
+                    cond = (units[ref].cond if isinstance(ref, int) else ref[0])
+                    own = False
+            else:
+                cond, own = _condition(m, d, e, noise_args), True
+                if m.base.spec not in references:
+                    base_cond = _condition(m.base, d, e, noise_args)
+                    references[m.base.spec] = (base_cond, _without(base_cond, d, e, a, n_wl))
+                ref = references[m.base.spec]
+            units.append(_Unit(k, cond, own, ref, len(inp.filters) + (1 if own else 0)))
+    return units
+
+
+def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None, scheduler="local") -> None:
     """Fill every observer's ``discernible_*`` arrays in ``per_obs`` (the scorecard's ``per_observer``).
 
     ``inp`` is the run's :class:`~cvdfilter.score_plan.ScoreInputs`. A fixed observer gets arrays over
     filters (and scalars for the no-filter counts); a population gets (filters, members) and (members,),
-    which the population summaries turn into statistics.
+    which the population summaries turn into statistics. The chunks (an observer or member x a range of
+    filters, every stimulus) run on the executor ``scheduler`` names or is (:mod:`cvdfilter.execution`;
+    default this process) and are assembled in order: the same counts wherever they ran.
     """
+    from .execution import map_chunks
     from .score_population import is_population
 
     e = np.asarray(inp.illuminant.spd, dtype=float)
     T = np.asarray(inp.filters.transmittance, dtype=float)
     a = float(inp.adaptation)
-    noise_args = {"weber": inp.weber_fraction, "cone_ratios": inp.cone_ratios}
-    n_f = T.shape[0]
-    references: dict = {}  # normal observer spec -> (condition, its counts without a filter)
+    units = _units(inp, d, e, a)
+    size = _chunk(max(s.samples.shape[1] for s in d.stimuli))
+    chunks = [(u, lo, min(unit.n_rows, lo + size)) for u, unit in enumerate(units)
+              for lo in range(0, unit.n_rows, size)]
+    shared = _Shared(d, e, a, T, units, chunks)
+    total, done = sum(unit.n_rows for unit in units), 0
+
+    def tick(n_done: int, n_total: int, c: int) -> None:
+        nonlocal done
+        done += chunks[c][2] - chunks[c][1]
+        if progress is not None:
+            progress("discernible", done, total)
+
+    results: list = []  # per unit, its counts (assembled in unit order)
+    parts: list = []
+    for c, part in enumerate(map_chunks(_chunk_counts, shared, [(c, c + 1) for c in range(len(chunks))],
+                                        scheduler=scheduler, progress=tick)):
+        parts.append(part)
+        u = chunks[c][0]
+        if chunks[c][2] < units[u].n_rows:
+            continue
+        ref = units[u].ref
+        reference = results[ref]["reference"] if isinstance(ref, int) else ref
+        results.append(_observer_counts(units[u], parts, reference))
+        parts = []
     for k, o in enumerate(inp.observers):
-        members = o.members() if is_population(o) else [o]
-        results = []
-        for i, m in enumerate(members):  # per member only the 3x3 maps differ; pixels stay vectorised
-            if m.base is None:  # a normal observer is its own reference (shared with those it is the base of)
-                reference = references.get(m.spec)
-                cond = reference[0] if reference is not None else _condition(m, d, e, noise_args)
-            else:
-                cond = _condition(m, d, e, noise_args)
-                if m.base.spec not in references:
-                    base_cond = _condition(m.base, d, e, noise_args)
-                    references[m.base.spec] = (base_cond, _without(base_cond, d, e, a, T.shape[1]))
-                reference = references[m.base.spec]
-            cb = None if progress is None else (lambda done, i=i, n=len(members): progress(
-                "discernible", i * n_f + done, n * n_f))
-            r = _observer_counts(cond, reference, T, d, e, a, cb)
-            if m.base is None:
-                references.setdefault(m.spec, r["reference"])
-            results.append(r)
-        per_obs[k].update(_store(results, len(d.stimuli), is_population(o)))
+        mine = [r for r, unit in zip(results, units) if unit.k == k]
+        per_obs[k].update(_store(mine, len(d.stimuli), is_population(o)))
 
 
 def _ratios(without, with_, normal):

@@ -13,6 +13,8 @@ Public: :func:`is_population`, :func:`score_populations`, :func:`population_scor
 
 from __future__ import annotations
 
+import copy
+
 import numpy as np
 
 from .score_plan import CONFUSION_KEYS, PAIR_KEYS
@@ -34,12 +36,20 @@ def is_population(o) -> bool:
     return type(o).__name__ == "Population"
 
 
-def score_populations(inp, per_obs: list, groups, progress=None) -> None:
+def score_populations(inp, per_obs: list, groups, progress=None, scheduler="local") -> None:
     """Fill ``per_obs[k]`` for every population among ``inp.observers`` (a
-    :class:`~cvdfilter.score_plan.ScoreInputs`) with :func:`population_scores`, with the run's settings."""
-    for k, pop in enumerate(inp.observers):
-        if is_population(pop):
-            per_obs[k] = population_scores(inp, pop, groups, progress)
+    :class:`~cvdfilter.score_plan.ScoreInputs`) with :func:`population_scores`, with the run's settings,
+    on one executor (``scheduler``: a name or an :class:`~cvdfilter.execution.Executor`; default this process)."""
+    from .execution import executor
+
+    ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
+    try:
+        for k, pop in enumerate(inp.observers):
+            if is_population(pop):
+                per_obs[k] = population_scores(inp, pop, groups, progress, scheduler=ex)
+    finally:
+        if ex is not scheduler:
+            ex.close()
 
 
 #: Members per block: the block's cone basis (wavelengths x members x 3 x (surfaces + 1), float64) stays
@@ -53,167 +63,226 @@ SETS_PER_CHUNK = 3200
 BLOCK_ROWS = 128
 
 
-def population_scores(inp, pop, groups, progress=None) -> dict:
+def population_scores(inp, pop, groups, progress=None, scheduler="local") -> dict:
     """Per-observer arrays of every member of ``pop``: (filters, members), or (members,) for values that do
     not depend on the filter.
 
     Vectorised over members: members are taken in blocks of :data:`MEMBER_BLOCK`; per block the
     no-filter references of every member are made at once (:class:`MemberBlock`) and the filters run in
-    chunks through :func:`~cvdfilter.score_plan.run_chunks`, every metric an array over (filters, members).
-    The arithmetic per member is the fixed-observer path's (:class:`~cvdfilter.score_plan.ChunkRunner`),
-    so a member scores exactly as the same observer scored alone.
+    chunks on the executor ``scheduler`` names or is (:mod:`cvdfilter.execution`; default this process),
+    every metric an array over (filters, members), assembled in chunk order: the same bits wherever the
+    chunks ran. One executor serves every block. The arithmetic per member is the fixed-observer path's
+    (:class:`~cvdfilter.score_plan.ChunkRunner`), so a member scores exactly as the same observer scored alone.
     """
-    from .score_plan import run_chunks
+    from .execution import executor
 
-    n_f = len(inp.filters)
+    ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
     store: dict = {}
-    chunk = max(1, SETS_PER_CHUNK // MEMBER_BLOCK)
-    for lo in range(0, pop.n, MEMBER_BLOCK):
-        hi = min(pop.n, lo + MEMBER_BLOCK)
-        block = MemberBlock(inp, pop, lo, hi, groups, store)
-        run_chunks(block, n_f, chunk=chunk)
-        block.finish()
-        if progress is not None:
-            progress("members", hi, pop.n)
+    try:
+        for lo in range(0, pop.n, MEMBER_BLOCK):
+            hi = min(pop.n, lo + MEMBER_BLOCK)
+            block = MemberBlock(inp, pop, lo, hi, groups, store)
+            block.run(ex)
+            if progress is not None:
+                progress("members", hi, pop.n)
+    finally:
+        if ex is not scheduler:
+            ex.close()
     return store
 
 
+def _compute_block_chunk(block: MemberBlock, f_lo: int, f_hi: int) -> dict:
+    return block.compute(f_lo, f_hi)
+
+
+def _layout(mask: np.ndarray, where: np.ndarray, total: int) -> np.ndarray:
+    """A (members, pairs) mask in the all-pair (offset) layout of the chunks' distances."""
+    out = np.zeros((mask.shape[0], total), dtype=bool)
+    out[:, where] = mask
+    return out
+
+
 class MemberBlock:
-    """Scores members ``lo:hi`` of a population for a range of filters: ``block(f_lo, f_hi)``.
+    """Scores members ``lo:hi`` of a population for ranges of filters.
 
     Made once per block: the cone basis of its members, and per member the references without a filter
     (contrast RMS, the receptor-noise transform rotated to the member's own points, its close pairs at
     every radius, the normally discriminable pairs of its own normal observer and the median over them).
-    A call writes rows ``f_lo:f_hi`` and columns ``lo:hi`` of the population's arrays.
+    :meth:`compute` scores filters ``f_lo:f_hi`` and returns the results, writing nothing shared (a pure
+    chunk function, run on any executor); :meth:`assemble` copies them into rows ``f_lo:f_hi`` and
+    columns ``lo:hi`` of the population's arrays; :meth:`light` is the copy a cluster's workers get.
     """
 
     def __init__(self, inp, pop, lo: int, hi: int, groups, store: dict) -> None:
-        from .metrics.contrast import contrast_rms, opponent_channels
-        from .metrics.discrimination import log_catches, receptor_noise, rnl_transform
-        from .metrics.pairs import (all_pair_sq_distances, median_of_kept, offset_order, pair_count, pair_indices,
-                                    pair_sq_distances, principal_rotations)
-        from .observers.spaces import von_kries_gains
-
-        self.inp, self.pop, self.lo, self.hi, self.groups, self.store = inp, pop, lo, hi, groups, store
-        n_f, n, mb = len(inp.filters), pop.n, hi - lo
-        grid, n_s = inp.grid, len(inp.surfaces)
-        self.n_s, self.mb = n_s, mb
-        stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance,
-                                                                np.ones((grid.size, 1))], axis=1)
-        fund = np.asarray(pop.fundamentals[lo:hi], dtype=float)
-        # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member.
-        self.B = (fund.transpose(1, 0, 2)[:, :, :, None] * stimuli[:, None, None, :]).reshape(grid.size, -1)
-        q0all = self.B.sum(axis=0).reshape(mb, 3, n_s + 1)
-        q0 = np.ascontiguousarray(q0all[:, :, :n_s].transpose(0, 2, 1))  # (members, surfaces, 3)
-        self.w0 = np.ascontiguousarray(q0all[:, :, n_s])  # (members, 3)
+        self.lo, self.hi, self.store = lo, hi, store
+        self.transmittance = inp.filters.transmittance
+        self.adaptation = inp.adaptation
+        self.distribution_thresholds = tuple(float(x) for x in inp.distribution_thresholds)
+        self.n_s, self.mb = len(inp.surfaces), hi - lo
         self.contrast = "contrast" in groups
         self.pairs = "discrimination" in groups or "confusion" in groups
         self.discrimination = "discrimination" in groups
         self.with_confusion = "confusion" in groups and pop.kind != "normal"
         self.missing = pop.missing_cone
+        stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance,
+                                                                np.ones((inp.grid.size, 1))], axis=1)
+        fund = np.asarray(pop.fundamentals[lo:hi], dtype=float)
+        # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member.
+        self.B = (fund.transpose(1, 0, 2)[:, :, :, None] * stimuli[:, None, None, :]).reshape(inp.grid.size, -1)
+        q0all = self.B.sum(axis=0).reshape(self.mb, 3, self.n_s + 1)
+        q0 = np.ascontiguousarray(q0all[:, :, :self.n_s].transpose(0, 2, 1))  # (members, surfaces, 3)
+        self.w0 = np.ascontiguousarray(q0all[:, :, self.n_s])  # (members, 3)
+        if self.contrast:
+            self._contrast_references(pop, q0)
+        if self.pairs:
+            self._pair_references(inp, pop, stimuli, q0)
+        self._allocate(len(inp.filters), pop.n)
+
+    def _contrast_references(self, pop, q0: np.ndarray) -> None:
+        from .metrics.contrast import contrast_rms, opponent_channels
+        from .observers.spaces import von_kries_gains
+
+        self.channels = opponent_channels(pop.kind, pop.deficiency, pop.luminance_weights)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            g0 = von_kries_gains(self.w0, adaptation=1.0)
+        self.rms0 = contrast_rms([q0[:, :, c] for c in range(3)], self.w0, self.channels, gains=g0)
+
+    def _pair_references(self, inp, pop, stimuli: np.ndarray, q0: np.ndarray) -> None:
+        from .metrics.discrimination import log_catches, receptor_noise, rnl_transform
+        from .metrics.pairs import (all_pair_sq_distances, median_of_kept, offset_order, pair_count, pair_indices,
+                                    pair_sq_distances, principal_rotations)
+
+        n_s = self.n_s
+        noise = receptor_noise(self.missing, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
+        normal_noise = receptor_noise(None, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
+        i_all, j_all = pair_indices(n_s)
+        self.total = pair_count(n_s)
+        # The pairs each member's own normal observer tells apart without a filter (row-major pairs).
+        base = np.asarray(pop.base_fundamentals[self.lo:self.hi], dtype=float)
+        nq0 = np.matmul(stimuli[:, :n_s].T, base)
+        yn = log_catches(nq0) @ rnl_transform(normal_noise).T
+        self.seen = pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], i_all, j_all) >= \
+            float(inp.normal_threshold) ** 2
+        # The receptor-noise transform, rotated per member so that its first coordinate has the
+        # largest spread (as pair_reference does for one observer).
+        t = rnl_transform(noise)
+        logs0 = log_catches(q0)
+        rot = principal_rotations(np.matmul(logs0, t.T))
+        self.t = np.matmul(t.T[None], rot).transpose(0, 2, 1)  # (members, k, 3)
+        y0 = np.matmul(logs0, self.t.transpose(0, 2, 1))  # (members, surfaces, k)
+        self.k = self.t.shape[1]
+        d2 = np.sum((y0[:, :, None, :] - y0[:, None, :, :]) ** 2, axis=-1)[:, i_all, j_all]
+        self.t0, self.td = float(inp.discrimination_threshold), float(inp.deficient_threshold)
+        radii = {self.t0} | (set(self.distribution_thresholds) if self.discrimination else set())
+        if self.with_confusion:
+            radii.add(self.td)
+        where = offset_order(i_all, j_all, n_s)  # masks over pairs in the chunks' all-pair layout
+        with np.errstate(invalid="ignore"):
+            self.close = {r: _layout(d2 < r * r, where, self.total) for r in sorted(radii)}
+        self.keep = _layout(self.seen, where, self.total)  # the median's pairs: the normally discriminable ones
+        dm = all_pair_sq_distances([y0[:, :, r] for r in range(self.k)])
+        self.m0 = np.sqrt(median_of_kept(dm, self.keep))
+        if self.with_confusion:
+            unseen = ~self.seen
+            near = unseen & (pair_sq_distances([y0[:, :, r] for r in range(self.k)], i_all, j_all)
+                             < self.td * self.td)
+            self.unseen = _layout(unseen, where, self.total)
+            self.unseen_close = _layout(near, where, self.total)
+
+    def _allocate(self, n_f: int, n: int) -> None:
+        """The population's arrays (made by the first block) and this block's filter-independent columns."""
+        store, lo, hi = self.store, self.lo, self.hi
 
         def arr(key, dtype=float, fill=np.nan, per_filter=True):
             if key not in store:
                 store[key] = np.full((n_f, n) if per_filter else (n,), fill, dtype=dtype)
 
         if self.contrast:
-            self.channels = opponent_channels(pop.kind, pop.deficiency, pop.luminance_weights)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                g0 = von_kries_gains(self.w0, adaptation=1.0)
-            self.rms0 = contrast_rms([q0[:, :, c] for c in range(3)], self.w0, self.channels, gains=g0)
             for key in CONTRAST_KEYS:
                 arr(key)
-        if self.pairs:
-            noise = receptor_noise(self.missing, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
-            normal_noise = receptor_noise(None, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
-            i_all, j_all = pair_indices(n_s)
-            self.total = pair_count(n_s)
-            # The pairs each member's own normal observer tells apart without a filter (row-major pairs).
-            base = np.asarray(pop.base_fundamentals[lo:hi], dtype=float)
-            nq0 = np.matmul(stimuli[:, :n_s].T, base)
-            yn = log_catches(nq0) @ rnl_transform(normal_noise).T
-            seen = pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], i_all, j_all) >= \
-                float(inp.normal_threshold) ** 2
-            # The receptor-noise transform, rotated per member so that its first coordinate has the
-            # largest spread (as pair_reference does for one observer).
-            t = rnl_transform(noise)
-            logs0 = log_catches(q0)
-            rot = principal_rotations(np.matmul(logs0, t.T))
-            self.t = np.matmul(t.T[None], rot).transpose(0, 2, 1)  # (members, k, 3)
-            y0 = np.matmul(logs0, self.t.transpose(0, 2, 1))  # (members, surfaces, k)
-            self.k = self.t.shape[1]
-            d2 = np.sum((y0[:, :, None, :] - y0[:, None, :, :]) ** 2, axis=-1)[:, i_all, j_all]
-            t0, td = float(inp.discrimination_threshold), float(inp.deficient_threshold)
-            radii = {t0} | (set(float(x) for x in inp.distribution_thresholds) if self.discrimination else set())
-            if self.with_confusion:
-                radii.add(td)
-            # Masks over pairs in the all-pair (offset) layout of the chunks' distances.
-            where = offset_order(i_all, j_all, n_s)
-
-            def layout(mask):
-                out = np.zeros((mb, self.total), dtype=bool)
-                out[:, where] = mask
-                return out
-
-            self.close = {}
-            with np.errstate(invalid="ignore"):
-                for r in sorted(radii):
-                    self.close[r] = layout(d2 < r * r)
-            # The median's pairs: the normally discriminable ones.
-            self.keep = layout(seen)
-            dm = all_pair_sq_distances([y0[:, :, r] for r in range(self.k)])
-            self.m0 = np.sqrt(median_of_kept(dm, self.keep))
-            self.t0, self.td = t0, td
-            if self.with_confusion:
-                unseen = ~seen
-                near = unseen & (pair_sq_distances([y0[:, :, r] for r in range(self.k)], i_all, j_all) < td * td)
-                self.unseen = layout(unseen)
-                self.unseen_close = layout(near)
-                for key in CONFUSION_KEYS:
-                    arr(f"confusion_{key}", np.int64, 0)
-                arr("confusion_normally_discriminable", np.int64, 0, per_filter=False)
-                arr("confusion_median_without", per_filter=False)
-                arr("confusion_median_with")
-                arr("confusion_median_ratio")
-                store["confusion_normally_discriminable"][lo:hi] = seen.sum(axis=1)
-                store["confusion_median_without"][lo:hi] = self.m0
-            if self.discrimination:
+        if self.pairs and self.with_confusion:
+            for key in CONFUSION_KEYS:
+                arr(f"confusion_{key}", np.int64, 0)
+            arr("confusion_normally_discriminable", np.int64, 0, per_filter=False)
+            arr("confusion_median_without", per_filter=False)
+            arr("confusion_median_with")
+            arr("confusion_median_ratio")
+            store["confusion_normally_discriminable"][lo:hi] = self.seen.sum(axis=1)
+            store["confusion_median_without"][lo:hi] = self.m0
+        if self.pairs and self.discrimination:
+            for key in PAIR_KEYS:
+                arr(f"discriminable_{key}", np.int64, 0)
+            for x in self.distribution_thresholds:
                 for key in PAIR_KEYS:
-                    arr(f"discriminable_{key}", np.int64, 0)
-                for x in inp.distribution_thresholds:
-                    for key in PAIR_KEYS:
-                        arr(f"discriminable_at_{x:g}_{key}", np.int64, 0)
-                arr("discriminable_median_without", per_filter=False)
-                arr("discriminable_median_with")
-                arr("discriminable_median_ratio")
-                store["discriminable_median_without"][lo:hi] = self.m0
+                    arr(f"discriminable_at_{x:g}_{key}", np.int64, 0)
+            arr("discriminable_median_without", per_filter=False)
+            arr("discriminable_median_with")
+            arr("discriminable_median_ratio")
+            store["discriminable_median_without"][lo:hi] = self.m0
         arr("undefined", bool, False)
 
-    def __call__(self, f_lo: int, f_hi: int) -> int:
-        from .metrics.contrast import contrast_rms
-        from .metrics.discrimination import log_catches
-        from .metrics.pairs import all_pair_sq_distances, dense_close_counts, median_of_kept
-        from .observers.spaces import von_kries_gains
+    # -- chunks as pure functions (the execution layer, cvdfilter.execution) --------------------------------
 
-        lo, hi, mb, n_s, store = self.lo, self.hi, self.mb, self.n_s, self.store
+    def run(self, ex) -> None:
+        """Every chunk of filters on the executor ``ex``, assembled in chunk order; then frees the basis."""
+        from .execution import LocalExecutor, chunk_bounds
+
+        bounds = chunk_bounds(self.transmittance.shape[0], max(1, SETS_PER_CHUNK // MEMBER_BLOCK))
+        if isinstance(ex, LocalExecutor) and ex.threads > len(bounds):
+            ex = LocalExecutor(max(1, len(bounds)))
+        shared = self if isinstance(ex, LocalExecutor) else self.light()
+        for (f_lo, f_hi), part in zip(bounds, ex.map(_compute_block_chunk, shared, bounds)):
+            self.assemble(f_lo, f_hi, part)
+        self.B = np.empty((0, 0))  # the arrays it filled stay in the population's store
+
+    def light(self) -> MemberBlock:
+        """A copy without the population's arrays (what a cluster's workers need: shipped once per block)."""
+        part = copy.copy(self)
+        part.store = {}
+        return part
+
+    def assemble(self, f_lo: int, f_hi: int, part: dict) -> None:
+        """Copies a :meth:`compute` result into rows ``f_lo:f_hi``, columns ``lo:hi`` of the arrays."""
+        cols = (slice(f_lo, f_hi), slice(self.lo, self.hi))
+        for key, v in part.items():
+            self.store[key][cols] = v
+
+    def compute(self, f_lo: int, f_hi: int) -> dict:
+        """Scores filters ``f_lo:f_hi`` for the block's members: ``{key: (filters, members) array}``."""
+        mb, n_s = self.mb, self.n_s
         nf = f_hi - f_lo
-        Q = (self.inp.filters.transmittance[f_lo:f_hi] @ self.B).reshape(nf, mb, 3, n_s + 1)
+        Q = (self.transmittance[f_lo:f_hi] @ self.B).reshape(nf, mb, 3, n_s + 1)
         S, white = Q[..., :n_s], Q[..., n_s]
         present = [c for c in range(3) if c != self.missing]
-        store["undefined"][f_lo:f_hi, lo:hi] = ~np.all(white[:, :, present] > 0, axis=2)
+        out = {"undefined": ~np.all(white[:, :, present] > 0, axis=2)}
         if self.contrast:
-            w1 = white.reshape(nf * mb, 3)
-            w0 = np.broadcast_to(self.w0, (nf, mb, 3)).reshape(nf * mb, 3)
-            rms0 = np.broadcast_to(self.rms0, (nf, mb, 3)).reshape(nf * mb, 3)
-            planes = [np.ascontiguousarray(S[:, :, c, :]).reshape(nf * mb, n_s) for c in range(3)]
-            with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-                g1 = von_kries_gains(w1, w0, adaptation=self.inp.adaptation)
-                g = contrast_rms(planes, w1, self.channels, gains=g1) / rms0
-            g = np.where(np.isfinite(g), g, np.nan).reshape(nf, mb, 3)
-            for c, key in enumerate(CONTRAST_KEYS):
-                store[key][f_lo:f_hi, lo:hi] = g[:, :, c]
-        if not self.pairs:
-            return f_hi
+            out.update(self._contrast(S, white))
+        if self.pairs:
+            out.update(self._pair_results(*self._pair_counts(S)))
+        return out
+
+    def _contrast(self, S: np.ndarray, white: np.ndarray) -> dict:
+        from .metrics.contrast import contrast_rms
+        from .observers.spaces import von_kries_gains
+
+        nf, mb, n_s = S.shape[0], self.mb, self.n_s
+        w1 = white.reshape(nf * mb, 3)
+        w0 = np.broadcast_to(self.w0, (nf, mb, 3)).reshape(nf * mb, 3)
+        rms0 = np.broadcast_to(self.rms0, (nf, mb, 3)).reshape(nf * mb, 3)
+        planes = [np.ascontiguousarray(S[:, :, c, :]).reshape(nf * mb, n_s) for c in range(3)]
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            g1 = von_kries_gains(w1, w0, adaptation=self.adaptation)
+            g = contrast_rms(planes, w1, self.channels, gains=g1) / rms0
+        g = np.where(np.isfinite(g), g, np.nan).reshape(nf, mb, 3)
+        return {key: g[:, :, c] for c, key in enumerate(CONTRAST_KEYS)}
+
+    def _pair_counts(self, S: np.ndarray) -> tuple:
+        """Per radius (close without, close with, close both) and, for confusion, the counts among the
+        unseen pairs; the median Delta S with the filter. Each (filters, members)."""
+        from .metrics.discrimination import log_catches
+        from .metrics.pairs import all_pair_sq_distances, dense_close_counts, median_of_kept
+
+        nf, mb, n_s = S.shape[0], self.mb, self.n_s
         logs = log_catches(S)
         y = np.matmul(self.t[None], logs)  # (filters, members, k, surfaces): y = P ln q per member
         flat = [np.ascontiguousarray(y[:, :, r, :]).reshape(nf * mb, n_s) for r in range(self.k)]
@@ -243,36 +312,35 @@ class MemberBlock:
             counts[r] = (mask.sum(axis=1), close_all[r].reshape(nf, mb), among_all[r][0].reshape(nf, mb))
             if len(among_all[r]) == 3:
                 extra = [x.reshape(nf, mb) for x in among_all[r][1:]]
+        return counts, extra, med
+
+    def _pair_results(self, counts: dict, extra: list, med: np.ndarray) -> dict:
+        out = {}
         with np.errstate(divide="ignore", invalid="ignore"):
             ratio = np.where(self.m0 > 0, med / self.m0, np.nan)
-        cols = (slice(f_lo, f_hi), slice(lo, hi))
         total = self.total
         if self.discrimination:
-            for prefix, r in [("discriminable", self.t0)] + [(f"discriminable_at_{x:g}", float(x))
-                                                            for x in self.inp.distribution_thresholds]:
+            for prefix, r in [("discriminable", self.t0)] + [(f"discriminable_at_{x:g}", x)
+                                                            for x in self.distribution_thresholds]:
                 close0, close1, both = counts[r]
-                store[f"{prefix}_without"][cols] = total - close0
-                store[f"{prefix}_with"][cols] = total - close1
-                store[f"{prefix}_gained"][cols] = close0 - both
-                store[f"{prefix}_lost"][cols] = close1 - both
-            store["discriminable_median_with"][cols] = med
-            store["discriminable_median_ratio"][cols] = ratio
+                out[f"{prefix}_without"] = total - close0
+                out[f"{prefix}_with"] = total - close1
+                out[f"{prefix}_gained"] = close0 - both
+                out[f"{prefix}_lost"] = close1 - both
+            out["discriminable_median_with"] = med
+            out["discriminable_median_ratio"] = ratio
         if self.with_confusion:
             close0, close1, both = counts[self.td]
             without = close0 - self.unseen_close.sum(axis=1)
             with_ = close1 - extra[0]
             both_set = both - extra[1]
-            store["confusion_without"][cols] = without
-            store["confusion_with"][cols] = with_
-            store["confusion_resolved"][cols] = without - both_set
-            store["confusion_created"][cols] = with_ - both_set
-            store["confusion_median_with"][cols] = med
-            store["confusion_median_ratio"][cols] = ratio
-        return f_hi
-
-    def finish(self) -> None:
-        """Free the block's basis (the arrays it filled stay in the population's store)."""
-        self.B = np.empty((0, 0))
+            out["confusion_without"] = without
+            out["confusion_with"] = with_
+            out["confusion_resolved"] = without - both_set
+            out["confusion_created"] = with_ - both_set
+            out["confusion_median_with"] = med
+            out["confusion_median_ratio"] = ratio
+        return out
 
 
 def population_summaries(card) -> dict:

@@ -500,6 +500,14 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     >>> f["luminous_transmittance"], f["iso12312_category"], f["observers"][0]["red_green_gain"]
     (0.5, 1, 1.0)
     """
+    args = dict(locals())  # the arguments (first, before any other name is bound here)
+    from .execution import opens_cluster
+
+    if opens_cluster(scheduler):  # one cluster for the run: fixed observers, populations, scenes
+        from .execution import executor
+
+        with executor(scheduler) as ex:
+            return score(**{**args, "scheduler": ex})
     from .score_plan import ScoreInputs, filter_results, plan_observers, run_chunks
 
     inp = ScoreInputs.validate(
@@ -535,11 +543,11 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     if per_observer_groups and len(fixed) < len(inp.observers):
         from .score_population import score_populations
 
-        score_populations(inp, per_obs, per_observer_groups, progress)
+        score_populations(inp, per_obs, per_observer_groups, progress, scheduler=scheduler)
     if discern is not None:
         from .score_discernible import score_discernible
 
-        score_discernible(inp, discern, per_obs, progress)
+        score_discernible(inp, discern, per_obs, progress, scheduler=scheduler)
     if "rendition" in groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 

@@ -206,6 +206,7 @@ def test_impossible_requirement_is_one_line_and_exit_2(tmp_path):
     (["--family", "notchh:k=1"], "unknown design family"),
     (["--require", "luminous_transmittanse>=0.4"], "unknown scorecard key"),
     (["--budget", "5"], "budget"),
+    (["--scheduler", "nowhere"], "is not a scheduler"),
 ])
 def test_bad_input_exit_2(tmp_path, args, words):
     r = _cli("design", "--observer", "deuteranomalous", "--maximise", "red_green_gain", *args,
@@ -301,3 +302,28 @@ def test_outputs_never_overwrite_an_input(tmp_path):
     assert r.returncode == 2 and "overwrite an input" in r.stderr
     assert ref.read_bytes() == before and sorted(p.name for p in (tmp_path / "out").rglob("*")) == ["curves",
                                                                                                      "design-01.csv"]
+
+
+# --- where the generations are scored (the execution layer) --------------------------------------------------
+
+def test_a_design_on_a_cluster_writes_the_same_designs_json(tmp_path, monkeypatch):
+    # Same seed, local threads vs a Dask LocalCluster (in this process, no network): identical designs.json;
+    # design() opens one executor for the whole run (one cluster, not one per generation).
+    pytest.importorskip("distributed")
+    import cvdfilter.execution as execution
+
+    kw = dict(maximise=["p2_5:red_green_gain"], require=["luminous_transmittance>=0.4"], family="notch:k=1",
+              budget=40, seed=2, top=2, **FAST)
+    observers = ["deuteranomalous:n=5,seed=1", "normal"]
+    cvdfilter.design(observers, **kw).write(str(tmp_path / "local"), formats=("png",), dpi=40)
+    opened = []
+
+    def on_cluster(scheduler=None):  # what local:2 opens, with threads for workers (closed by design())
+        assert scheduler == "local:2"
+        opened.append(execution.DaskExecutor(n_workers=2, processes=False))
+        return opened[-1]
+
+    monkeypatch.setattr(execution, "executor", on_cluster)
+    cvdfilter.design(observers, scheduler="local:2", **kw).write(str(tmp_path / "dask"), formats=("png",), dpi=40)
+    assert len(opened) == 1 and opened[0].client.status == "closed"
+    assert (tmp_path / "local" / "designs.json").read_bytes() == (tmp_path / "dask" / "designs.json").read_bytes()

@@ -345,3 +345,95 @@ def test_tasks_on_a_cluster_give_the_same_document(cluster):
 
     kw = dict(observers=["normal", "deuteranope"], tasks=["plates", "rayleigh"], trials=5, seed=1)
     assert tasks("larkhill-notch-575", **kw).to_json() == tasks("larkhill-notch-575", scheduler=cluster, **kw).to_json()
+
+
+# --- populations through the layer --------------------------------------------------------------------
+
+def test_population_on_a_cluster_gives_the_same_document(cluster, monkeypatch):
+    # Populations go through the execution layer: small member blocks and chunks so that the run has several
+    # blocks of several chunks, some in parallel; JSON bytes equal locally and on the cluster.
+    import cvdfilter.score_population as sp
+    from cvdfilter import score
+
+    monkeypatch.setattr(sp, "MEMBER_BLOCK", 4)
+    monkeypatch.setattr(sp, "SETS_PER_CHUNK", 20)  # 5 filters per chunk
+    kw = dict(observers=["deuteranomalous:n=7,seed=3", "protanope:n=3,seed=1", "normal"], metrics="core",
+              members=True)
+    a = score(SPECS, **kw)
+    b = score(SPECS, scheduler=cluster, **kw)
+    assert a.to_json() == b.to_json()
+
+
+def test_member_block_pickles_for_process_workers():
+    # What a cluster of worker processes receives (the light block) computes the same bits after a pickle.
+    import pickle
+
+    from cvdfilter.observers.population import population
+    from cvdfilter.score_plan import ScoreInputs
+    from cvdfilter.score_population import MemberBlock
+
+    inp = ScoreInputs.validate(SPECS, observers=["deuteranomalous:n=3,seed=2"], metrics="core")
+    pop = inp.observers[0]
+    assert isinstance(pop, type(population("deuteranomalous:n=3,seed=2")))
+    block = MemberBlock(inp, pop, 0, pop.n, ("contrast", "discrimination", "confusion"), {})
+    light = pickle.loads(pickle.dumps(block.light()))
+    assert light.store == {}
+    a, b = block.compute(3, 9), light.compute(3, 9)
+    assert a.keys() == b.keys()
+    for key in a:
+        assert np.array_equal(a[key], b[key], equal_nan=True), key
+
+
+# --- the discernible-colours measure through the layer -------------------------------------------------
+
+def test_discernible_over_scenes_on_a_cluster_gives_the_same_document(cluster, monkeypatch):
+    # Two scenes (pooled counts), a normal observer counted first and reused as a base, a dichromat, a
+    # population; small chunks so each observer has several; JSON bytes equal locally and on the cluster.
+    import pickle
+
+    import cvdfilter.score_discernible as sd
+    from cvdfilter import score
+    from cvdfilter.spectra.scenes import synthetic_scene
+
+    monkeypatch.setattr(sd, "CHUNK_PIXEL_STATES", 3 * 48 * 64)  # 3 rows per chunk
+    scenes = [synthetic_scene(seed=5, shape=(48, 64)), synthetic_scene(seed=6, shape=(40, 40))]
+    kw = dict(scenes=scenes, metrics="discernible", members=True,
+              observers=["normal", "deuteranope", "deuteranomalous:n=3,seed=2", "normal"])
+    a = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], **kw)
+    b = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], scheduler=cluster, **kw)
+    assert a.to_json() == b.to_json()
+    shipped = []
+    import cvdfilter.execution as execution
+
+    real = execution.map_chunks
+
+    def spy(fn, shared, bounds, **k):
+        shipped.append(pickle.loads(pickle.dumps(shared)))  # what a worker process receives
+        return real(fn, shipped[-1], bounds, **k)
+
+    monkeypatch.setattr(execution, "map_chunks", spy)
+    c = score(["notch:center=540..600/20,fwhm=30,depth=0.8", "nd:t=0.5", "nd:t=0"], **kw)
+    assert len(shipped) == 1 and c.to_json() == a.to_json()
+
+
+def test_score_opens_one_cluster_for_fixed_observers_populations_and_scenes(monkeypatch):
+    # local:N given as a name: one executor for the whole score() call, closed after it; same document.
+    pytest.importorskip("distributed")
+    import cvdfilter.execution as execution
+    from cvdfilter import score
+    from cvdfilter.spectra.scenes import synthetic_scene
+
+    opened = []
+
+    def on_cluster(scheduler=None):  # what local:2 opens, with threads for workers
+        assert scheduler == "local:2"
+        opened.append(DaskExecutor(n_workers=2, processes=False))
+        return opened[-1]
+
+    kw = dict(observers=["normal", "deuteranomalous:n=3,seed=1"], metrics=["contrast", "discernible"],
+              scenes=[synthetic_scene(seed=5, shape=(24, 24))])
+    a = score(SPECS, **kw)
+    monkeypatch.setattr(execution, "executor", on_cluster)
+    b = score(SPECS, scheduler="local:2", **kw)
+    assert len(opened) == 1 and opened[0].client.status == "closed"
+    assert a.to_json() == b.to_json()

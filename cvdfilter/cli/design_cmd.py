@@ -6,6 +6,7 @@ from typing import Any, List, Optional
 
 import typer
 
+from ..execution import SCHEDULER_HELP
 from .common import fail, input_files
 
 
@@ -71,6 +72,7 @@ def register(app: typer.Typer) -> None:
         dpi: float = typer.Option(300.0, "--dpi", help="Resolution of PNG figures, dots per inch."),
         output: str = typer.Option(..., "--output", "-o", help="Folder for designs.json, designs.csv, curves/ "
                                                                 "and the figures."),
+        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=SCHEDULER_HELP),
     ) -> None:
         """Search a family of filters for the designs that best meet objectives under requirements; write
         the ranked designs (JSON, CSV, curve files), a Pareto figure and the spectra of the best designs.
@@ -100,7 +102,7 @@ def register(app: typer.Typer) -> None:
                             illuminant=illuminant, surfaces=surfaces, adaptation=adaptation,
                             time_limit=time_limit, metrics=metrics, progress=progress, output=output,
                             task_trials=task_trials, resume=resume,
-                            checkpoint=checkpoint)
+                            checkpoint=checkpoint, scheduler=scheduler)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
+from typing import Any
 
 import numpy as np
 
@@ -55,6 +56,9 @@ class DesignProblem:
     groups: list
     task_trials: int = 50
     task_seed: int = 0
+    #: Where each generation's chunks run: a ``--scheduler`` value or an open
+    #: :class:`~cvdfilter.execution.Executor` (design() opens one for the whole run).
+    scheduler: Any = None
 
     def observer_index(self, metric: Metric) -> int | None:
         return None if metric.observer is None else self.observers.index(metric.observer)
@@ -66,11 +70,11 @@ class DesignProblem:
 
 def score_batch(filters, problem: DesignProblem, metrics=None):
     """Score one batch of filters with the problem's observers and settings: the one place a
-    generation is scored (an execution layer for larger runs plugs in here)."""
+    generation is scored, on the problem's executor (:mod:`cvdfilter.execution`)."""
     from ..scorecard import score
 
     groups = metrics if isinstance(metrics, str) else list(metrics or problem.groups)
-    return score(filters, observers=list(problem.observers), metrics=groups,
+    return score(filters, observers=list(problem.observers), metrics=groups, scheduler=problem.scheduler,
                  **problem.score_kwargs)
 
 

@@ -257,7 +257,7 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
            budget: int = DEFAULT_BUDGET, seed: int = 0, top: int = DEFAULT_TOP, references=None,
            illuminant: str = "D65", surfaces: str = "ces99", adaptation="full", time_limit: float | None = None,
            metrics="all", progress=None, output: str | None = None, task_trials: int = DEFAULT_TASK_TRIALS,
-           checkpoint=None, resume: bool = False) -> DesignResult:
+           checkpoint=None, resume: bool = False, scheduler=None) -> DesignResult:
     """Search a family of filters for the best designs for an observer, under requirements.
 
     Parameters
@@ -290,6 +290,10 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
         Arrangement trials per candidate for task metrics (:mod:`cvdfilter.designing.task_scores`).
     checkpoint, resume : path, bool
         Where the scored candidates are kept (:mod:`~cvdfilter.designing.checkpoint`); resume its search.
+    scheduler : str or Executor, optional
+        Where each generation's chunks run (:mod:`cvdfilter.execution`): ``local`` (default; or
+        ``$CVDFILTER_SCHEDULER``), ``local:N`` (one Dask LocalCluster for the whole run) or a Dask scheduler
+        address; an open :class:`~cvdfilter.execution.Executor` is used as given. The designs are the same.
 
     Returns
     -------
@@ -308,12 +312,25 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
     >>> r.designs[0]["spec"]                             # doctest: +SKIP
     'notch:center=...'
     """
+    if not hasattr(scheduler, "map"):  # one executor (one LocalCluster) for the whole run, not one per batch
+        args = dict(locals())  # the arguments (first, before any other name is bound here)
+        from ..execution import executor
+
+        with executor(scheduler) as ex:
+            return design(**{**args, "scheduler": ex})
+    return _run(**locals())
+
+
+def _run(observer, *, maximise, minimise, require, family, budget, seed, top, references, illuminant, surfaces,
+         adaptation, time_limit, metrics, progress, output, task_trials, checkpoint, resume, scheduler):
+    """:func:`design` once its executor is open."""
     from ..spectra.filters import example_names
 
     maximise, minimise, require = _as_list(maximise), _as_list(minimise), _as_list(require)
     budget, seed, top, task_trials = _check_numbers(budget, seed, top, task_trials, time_limit)
     problem = _problem(observer, maximise, minimise, require, family, illuminant, surfaces, adaptation,
                        task_trials, seed)
+    problem.scheduler = scheduler
     ref_specs = list(example_names()) if references is None else [str(r) for r in references]
     # checks the scorer's own inputs (illuminant, surfaces, adaptation) and the references before searching
     ref_card = score_batch(ref_specs, problem, metrics=_union(metrics, problem.groups)) if ref_specs else None

@@ -63,7 +63,8 @@ def task_values(filters, problem) -> dict:
     names = sorted({TASK_KEYS[m.key][0] for m in metrics})
     observers = list(dict.fromkeys(m.observer for m in metrics))
     r = run_tasks(filters, observers=observers, tasks=names, trials=problem.task_trials, seed=problem.task_seed,
-                  illuminant=problem.score_kwargs.get("illuminant", "D65"))
+                  illuminant=problem.score_kwargs.get("illuminant", "D65"),
+                  scheduler=getattr(problem, "scheduler", None))
     out = {}
     for m in metrics:
         task, key = TASK_KEYS[m.key]
