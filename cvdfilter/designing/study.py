@@ -209,11 +209,12 @@ def _flatten_entry(entry: dict) -> dict:
 
 
 def _designs_filterset(result: DesignResult, designs: list):
-    """The designs as a FilterSet named by spec (notches) or curve name (free-form)."""
+    """The designs as a FilterSet named as their curve files (``design-01``...; the spec strings of the
+    notch designs stay in the records): a legend of full spec strings would repeat every parameter."""
     from ..spectra.filters import FilterSet
 
     grid = result.problem.space.grid
-    names = tuple(d["spec"] if result.problem.space.kind == "notch" else f"design-{d['rank']:02d}" for d in designs)
+    names = tuple(f"design-{d['rank']:02d}" for d in designs)
     t = np.vstack([d["curve"] for d in designs])
     return FilterSet(names, t, grid, ("spec",) * len(names), tuple({"spec": d["spec"]} for d in designs))
 
