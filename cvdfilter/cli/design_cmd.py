@@ -40,7 +40,8 @@ def register(app: typer.Typer) -> None:
             "The observer designed for (a spec; n=N makes it a population). Repeat to score more observers; "
             "a metric names them in brackets, e.g. discriminable_pairs.lost[normal].")),
         maximise: Optional[List[str]] = typer.Option(None, "--maximise", help=(
-            "A scorecard key to maximise (red_green_gain, confusion_pairs.net, luminous_transmittance; for a "
+            "A scorecard key to maximise (red_green_gain, confusion_pairs.net, luminous_transmittance, "
+            "discernible_colours.ratio with --surfaces munsell, a task score tasks.arrangement.effect; for a "
             "population mean:KEY, p2_5:KEY or share:KEY). Two or more give a Pareto set.")),
         minimise: Optional[List[str]] = typer.Option(None, "--minimise", help="A scorecard key to minimise."),
         require: Optional[List[str]] = typer.Option(None, "--require", help=(
@@ -63,6 +64,10 @@ def register(app: typer.Typer) -> None:
         metrics: str = typer.Option("all", "--metrics", help=(
             "Metric groups in each design's scorecard entry: all, core (no colour rendition: faster) or a "
             "list; the groups the objectives and requirements need are always there.")),
+        task_trials: int = typer.Option(50, "--task-trials", help=(
+            "Arrangement trials per candidate for task metrics (tasks.TASK.KEY); the design's seed fixes them.")),
+        resume: bool = typer.Option(False, "--resume", help=(
+            "Continue the interrupted design whose checkpoint is in the output folder (same options).")),
         figure_format: str = typer.Option("png", "--figure-format", help="pdf, svg or png (figures)."),
         dpi: float = typer.Option(300.0, "--dpi", help="Resolution of PNG figures, dots per inch."),
         output: str = typer.Option(..., "--output", "-o", help="Folder for designs.json, designs.csv, curves/ "
@@ -71,14 +76,17 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Search a family of filters for the designs that best meet objectives under requirements; write
         the ranked designs (JSON, CSV, curve files), a Pareto figure and the spectra of the best designs.
-        Ctrl-C stops the search and writes the best designs found so far.
+        Ctrl-C stops the search and writes the best designs found so far; the candidates scored are kept in
+        DIR/design-checkpoint.npz, and --resume continues from there.
 
         Example: cvdfilter design --observer deuteranomalous --maximise red_green_gain
         --require 'luminous_transmittance>=0.43' --family notch:k=1 --budget 1000 --seed 1 -o design-out
         """
+        import os
         import time
 
         from ..designing import design
+        from ..designing.checkpoint import CHECKPOINT_NAME
         from ..errors import InputError
 
         if figure_format not in ("pdf", "svg", "png"):
@@ -86,12 +94,15 @@ def register(app: typer.Typer) -> None:
         refs = [] if no_references else (reference or None)
         progress = _Progress()
         start = time.perf_counter()
+        checkpoint = os.path.join(output, CHECKPOINT_NAME)
+        had_checkpoint = os.path.exists(checkpoint)
         try:
             result = design(observer, maximise=maximise or [], minimise=minimise or [], require=require or [],
                             family=family, budget=budget, seed=seed, top=top, references=refs,
                             illuminant=illuminant, surfaces=surfaces, adaptation=adaptation,
                             time_limit=time_limit, metrics=metrics, progress=progress, output=output,
-                            scheduler=scheduler)
+                            task_trials=task_trials, resume=resume,
+                            checkpoint=checkpoint, scheduler=scheduler)
         except (InputError, ValueError) as exc:
             progress.close()
             fail(exc)
@@ -101,6 +112,8 @@ def register(app: typer.Typer) -> None:
             written = result.write(output, formats=(figure_format,), dpi=dpi,
                                    inputs=input_files(reference or []) + [surfaces])
         except InputError as exc:
+            if not had_checkpoint:  # no partial output: the checkpoint this run wrote goes too
+                os.remove(checkpoint)
             fail(exc)
         typer.echo(result.table_text(width=100), nl=False)
         run = result.run

@@ -54,12 +54,18 @@ class DesignProblem:
     requirements: list
     score_kwargs: dict
     groups: list
+    task_trials: int = 50
+    task_seed: int = 0
     #: Where each generation's chunks run: a ``--scheduler`` value or an open
     #: :class:`~cvdfilter.execution.Executor` (design() opens one for the whole run).
     scheduler: Any = None
 
     def observer_index(self, metric: Metric) -> int | None:
         return None if metric.observer is None else self.observers.index(metric.observer)
+
+    def metrics(self) -> list:
+        """Every metric of the objectives and requirements."""
+        return [m for m, _ in self.objectives] + [r.metric for r in self.requirements]
 
 
 def score_batch(filters, problem: DesignProblem, metrics=None):
@@ -95,8 +101,10 @@ class _Evaluator:
     """Scores batches of candidates (one :func:`score_batch` call each), keeps the archive, counts
     evaluations and says when to stop."""
 
-    def __init__(self, problem: DesignProblem, budget: int, time_limit: float | None, progress) -> None:
+    def __init__(self, problem: DesignProblem, budget: int, time_limit: float | None, progress,
+                 checkpoint=None) -> None:
         self.problem = problem
+        self.checkpoint = checkpoint  # a designing.checkpoint.Checkpoint: earlier scores, saved as it goes
         self.budget = budget
         self.time_limit = time_limit
         self.progress = progress
@@ -107,24 +115,20 @@ class _Evaluator:
         self.use_cache = len(problem.objectives) == 1
 
     def __call__(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Objective values (n, objectives) and violations (n, requirements) of candidates x (n, variables)."""
-        from ..spectra.filters import FilterSet
-
+        """Objective values (n, objectives) and violations (n, requirements) of candidates x (n, variables);
+        candidates a resumed checkpoint holds are answered from it, the others scored in one batch."""
         p = self.problem
         x = np.clip(np.atleast_2d(np.asarray(x, dtype=float)), p.space.lower, p.space.upper)
-        t = p.space.transmittance(x)
-        n = len(x)
-        fs = FilterSet(tuple(f"candidate {i + 1}" for i in range(n)), t, p.space.grid, ("array",) * n,
-                       tuple({} for _ in range(n)))
-        card = score_batch(fs, p)
-        values = np.column_stack([metric_values(card, m, p.observer_index(m)) for m, _ in p.objectives]) \
-            if p.objectives else np.zeros((n, 0))
-        viol = np.column_stack([r.violation(metric_values(card, r.metric, p.observer_index(r.metric)))
-                                for r in p.requirements]) if p.requirements else np.zeros((n, 0))
+        if self.checkpoint is None:
+            values, viol = self._score(x)
+        else:
+            values, viol = self.checkpoint.answer(x, self._score)
         self.archive.x.append(x)
         self.archive.values.append(values)
         self.archive.violations.append(viol)
-        self.evaluations += n
+        self.evaluations += len(x)
+        if self.checkpoint is not None:
+            self.checkpoint.save_every(self.archive, self.evaluations)
         if self.use_cache:  # differential evolution asks for constraints and energies separately
             for row, v, g in zip(x, values, viol):
                 self.cache[row.tobytes()] = (v, g)
@@ -132,6 +136,27 @@ class _Evaluator:
                 self.cache.clear()
         if self.progress is not None:
             self.progress(self.evaluations, self.budget)
+        return values, viol
+
+    def _score(self, x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Score candidates x (n, variables): one scorer batch, and one tasks call when a metric needs it."""
+        from ..spectra.filters import FilterSet
+        from .task_scores import task_values
+
+        p = self.problem
+        t = p.space.transmittance(x)
+        n = len(x)
+        fs = FilterSet(tuple(f"candidate {i + 1}" for i in range(n)), t, p.space.grid, ("array",) * n,
+                       tuple({} for _ in range(n)))
+        card = score_batch(fs, p)
+        tasks = task_values(fs, p)
+
+        def read(m):
+            return tasks[m.text] if m.text in tasks else metric_values(card, m, p.observer_index(m))
+
+        values = np.column_stack([read(m) for m, _ in p.objectives]) if p.objectives else np.zeros((n, 0))
+        viol = np.column_stack([r.violation(read(r.metric)) for r in p.requirements]) \
+            if p.requirements else np.zeros((n, 0))
         return values, viol
 
     def minimised(self, values: np.ndarray) -> np.ndarray:
@@ -163,9 +188,13 @@ def _pop_size(budget: int, n_var: int) -> int:
 
 
 def search(problem: DesignProblem, *, budget: int, seed: int, time_limit: float | None = None,
-           progress=None) -> tuple[Archive, dict]:
-    """Run the optimiser; returns the archive and a record of the run (algorithm, evaluations, stop)."""
-    ev = _Evaluator(problem, budget, time_limit, progress)
+           progress=None, checkpoint=None) -> tuple[Archive, dict]:
+    """Run the optimiser; returns the archive and a record of the run (algorithm, evaluations, stop).
+
+    ``checkpoint`` (:class:`~cvdfilter.designing.checkpoint.Checkpoint`) keeps the archive on disk as the
+    search goes and answers, on a resumed run, the candidates it already holds (the optimiser is replayed
+    from its seed, so a resumed run asks for the same candidates as an uninterrupted one)."""
+    ev = _Evaluator(problem, budget, time_limit, progress, checkpoint)
     n_obj = len(problem.objectives)
     stopped = "budget"
     try:
@@ -177,6 +206,9 @@ def search(problem: DesignProblem, *, budget: int, seed: int, time_limit: float 
         record = {"algorithm": "differential evolution (scipy)" if n_obj == 1 else "NSGA-II (pymoo)"}
         stopped = "interrupted"
     record.update({"evaluations": ev.evaluations, "budget": budget, "stopped": stopped, "seed": seed})
+    if checkpoint is not None:
+        checkpoint.save(ev.archive, ev.evaluations, stopped)
+        record.update(checkpoint.record())
     return ev.archive, record
 
 

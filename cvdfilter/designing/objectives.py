@@ -7,6 +7,8 @@ by dots, optionally for a named observer in brackets::
     confusion_pairs.resolved[protanope]  another observer (scored as well)
     luminous_transmittance               a per-filter key (no observer)
     road_use.suitable                    a yes/no key (1 = yes)
+    discernible_colours.ratio            the literature metric (needs --surfaces munsell or a scene)
+    tasks.arrangement.tes                a task score (cvdfilter.designing.task_scores)
     confusion_pairs.net                  resolved - created (also discriminable_pairs.net: gained - lost)
 
 For a population observer (a spec with ``n=N``) a per-observer key takes a statistic over the members
@@ -37,6 +39,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, clip_text, did_you_mean
+from .task_scores import TASK_KEYS
 
 __all__ = ["Metric", "Requirement", "parse_metric", "parse_requirement", "FILTER_KEYS", "OBSERVER_KEYS",
            "STAT_PREFIXES", "HELPED_KEYS", "groups_needed"]
@@ -64,6 +67,9 @@ OBSERVER_KEYS = {
     **{f"confusion_pairs.{k}": "confusion" for k in (*_CONFUSED, "net", "normally_discriminable",
                                                      "median_delta_s_without", "median_delta_s_with",
                                                      "median_delta_s_ratio")},
+    **{f"discernible_colours.{k}": "discernible" for k in ("without", "with", "ratio", "normal_without",
+                                                            "ratio_to_normal", "ratio_to_normal_with")},
+    **{k: "tasks" for k in TASK_KEYS},
 }
 BOOL_KEYS = ("road_use.suitable", "road_use.night_suitable")
 #: Statistics over a population's members (the population entry's keys).
@@ -73,7 +79,12 @@ HELPED_KEYS = {"red_green_gain": "red_green_gain", "blue_yellow_gain": "blue_yel
                "discriminable_pairs_net": "discriminable_pairs_net",
                "discriminable_pairs.net": "discriminable_pairs_net",
                "confusion_pairs_net": "confusion_pairs_net", "confusion_pairs.net": "confusion_pairs_net",
-               "median_delta_s_ratio": "median_delta_s_ratio"}
+               "median_delta_s_ratio": "median_delta_s_ratio", "discernible_ratio": "discernible_ratio",
+               "discernible_colours.ratio": "discernible_ratio"}
+#: The scorer's group behind each ``share:`` key (score_population.population_summaries).
+_HELPED_GROUPS = {"red_green_gain": "contrast", "blue_yellow_gain": "contrast",
+                  "discriminable_pairs_net": "discrimination", "confusion_pairs_net": "confusion",
+                  "median_delta_s_ratio": "confusion", "discernible_ratio": "discernible"}
 _OPS = (">=", "<=", "==", ">", "<")
 _METRIC_HELP = ("a scorecard key such as red_green_gain, confusion_pairs.net, luminous_transmittance, "
                 "rendition.rf; for a population mean:KEY, p2_5:KEY or share:KEY; another observer as KEY[SPEC]")
@@ -95,6 +106,8 @@ class Metric:
 
     @property
     def group(self) -> str:
+        if self.stat == "share":
+            return _HELPED_GROUPS[self.key]
         return FILTER_KEYS.get(self.key) or OBSERVER_KEYS.get(self.key) or "contrast"
 
     @property
@@ -195,6 +208,9 @@ def parse_metric(text: str, observer: str, *, is_population=None, what: str = "m
                          + (f"; {close}" if close else ""), hint=_METRIC_HELP)
     obs = spec if spec is not None else observer
     population = is_population(obs)
+    if population and key in TASK_KEYS:
+        raise InputError(f"{what} '{clip_text(raw)}': task scores are designed for one observer, and "
+                         f"{clip_text(obs)} is a population", hint="name one observer: KEY[SPEC] without n=N")
     if population and stat is None:
         raise InputError(f"{what} '{clip_text(raw)}': {clip_text(obs)} is a population; say which statistic",
                          hint=f"e.g. mean:{key}, p2_5:{key} or share:{key if key in HELPED_KEYS else 'red_green_gain'}")
@@ -264,7 +280,8 @@ def parse_requirement(text: str, observer: str, *, is_population=None) -> Requir
 
 def groups_needed(metrics) -> list[str]:
     """The scorer's metric groups the given metrics need, in the scorer's order."""
-    from ..score_plan import METRIC_GROUPS
+    from ..score_plan import METRIC_GROUPS, OPTIONAL_GROUPS
 
     wanted = {m.group for m in metrics}
-    return [g for g in METRIC_GROUPS if g in wanted]
+    groups = [g for g in METRIC_GROUPS + OPTIONAL_GROUPS if g in wanted]
+    return groups or ["photometry"]  # task metrics alone: the scorer still gives the photometry

@@ -39,6 +39,8 @@ def _array_name(key: str) -> str:
         if at in _AT:
             return f"discriminable_at_{_AT[at]:g}_{k}"
         return f"discriminable_{tail}"
+    if head == "discernible_colours":
+        return f"discernible_{tail}"
     if head == "confusion_pairs":
         if tail.startswith("median_delta_s_"):
             return "confusion_median_" + tail[len("median_delta_s_"):]

@@ -25,6 +25,7 @@ from .engine import Archive, DesignProblem, score_batch, search, select
 from .objectives import groups_needed, parse_metric, parse_requirement
 from .reading import entry_value
 from .spaces import CURVE_DIGITS, parse_family
+from .task_scores import DEFAULT_TASK_TRIALS, attach_task_scores
 
 __all__ = ["design", "DesignResult", "DEFAULT_BUDGET", "DEFAULT_TOP", "MAX_BUDGET"]
 
@@ -208,11 +209,12 @@ def _flatten_entry(entry: dict) -> dict:
 
 
 def _designs_filterset(result: DesignResult, designs: list):
-    """The designs as a FilterSet named by spec (notches) or curve name (free-form)."""
+    """The designs as a FilterSet named as their curve files (``design-01``...; the spec strings of the
+    notch designs stay in the records): a legend of full spec strings would repeat every parameter."""
     from ..spectra.filters import FilterSet
 
     grid = result.problem.space.grid
-    names = tuple(d["spec"] if result.problem.space.kind == "notch" else f"design-{d['rank']:02d}" for d in designs)
+    names = tuple(f"design-{d['rank']:02d}" for d in designs)
     t = np.vstack([d["curve"] for d in designs])
     return FilterSet(names, t, grid, ("spec",) * len(names), tuple({"spec": d["spec"]} for d in designs))
 
@@ -255,7 +257,8 @@ def _command(observers, maximise, minimise, require, family, budget, seed, top, 
 def design(observer, *, maximise=(), minimise=(), require=(), family: str = "notch:k=1",
            budget: int = DEFAULT_BUDGET, seed: int = 0, top: int = DEFAULT_TOP, references=None,
            illuminant: str = "D65", surfaces: str = "ces99", adaptation="full", time_limit: float | None = None,
-           metrics="all", progress=None, output: str | None = None, scheduler=None) -> DesignResult:
+           metrics="all", progress=None, output: str | None = None, task_trials: int = DEFAULT_TASK_TRIALS,
+           checkpoint=None, resume: bool = False, scheduler=None) -> DesignResult:
     """Search a family of filters for the best designs for an observer, under requirements.
 
     Parameters
@@ -264,32 +267,30 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
         The observer designed for (a spec; ``n=N`` makes it a population); further specs are scored too
         (metrics name them in brackets: ``discriminable_pairs.lost[normal]``).
     maximise, minimise : str or sequence of str
-        Metrics (scorecard keys, :mod:`cvdfilter.designing.objectives`); one gives the best designs, two
-        or more a Pareto set.
+        Metrics (scorecard keys, ``discernible_colours.ratio``, task scores ``tasks.TASK.KEY``;
+        :mod:`cvdfilter.designing.objectives`); one gives the best designs, two or more a Pareto set.
     require : str or sequence of str
         Requirements, e.g. ``luminous_transmittance>=0.43``, ``road_use.suitable``, ``white_shift<=0.01``.
     family : str
         ``notch:k=1..3[,...]`` or ``spline:k=K`` (:mod:`cvdfilter.designing.spaces`).
-    budget : int
-        Most candidates scored.
-    seed : int
-        Seed of the optimiser (the same seed gives the same designs).
-    top : int
-        Most designs reported.
+    budget, seed, top : int
+        Most candidates scored; seed of the optimiser and of the task trials; most designs reported.
     references : sequence of str, optional
         Filters scored beside the designs for comparison; default the bundled (invented) examples.
     illuminant, surfaces, adaptation
-        As for :func:`cvdfilter.score`.
+        As for :func:`cvdfilter.score` (``discernible_colours`` needs ``surfaces="munsell"`` or a scene).
     metrics : str or sequence
-        The scorer's metric groups in each design's scorecard entry (``all``, ``core`` or names), besides
-        those the objectives and requirements need (``rendition`` costs about 0.3 s per filter).
+        The scorer's metric groups in each design's scorecard entry, besides those the objectives need.
     time_limit : float, optional
         Stop the search after this many seconds (the result then depends on the machine's speed).
     progress : callable, optional
         ``progress(evaluations, budget)`` after every generation.
     output : str, optional
-        The folder the result will be written to (named in the reproducing command and in the specs
-        of free-form designs' curve files).
+        The folder the result will be written to (named in the reproducing command and curve files).
+    task_trials : int
+        Arrangement trials per candidate for task metrics (:mod:`cvdfilter.designing.task_scores`).
+    checkpoint, resume : path, bool
+        Where the scored candidates are kept (:mod:`~cvdfilter.designing.checkpoint`); resume its search.
     scheduler : str or Executor, optional
         Where each generation's chunks run (:mod:`cvdfilter.execution`): ``local`` (default; or
         ``$CVDFILTER_SCHEDULER``), ``local:N`` (one Dask LocalCluster for the whole run) or a Dask scheduler
@@ -318,31 +319,98 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
 
         with executor(scheduler) as ex:
             return design(**{**args, "scheduler": ex})
-    from ..observers.observer import observer as make_observer
-    from ..observers.population import is_population_spec
-    from ..observers.population import population as make_population
+    return _run(**locals())
+
+
+def _run(observer, *, maximise, minimise, require, family, budget, seed, top, references, illuminant, surfaces,
+         adaptation, time_limit, metrics, progress, output, task_trials, checkpoint, resume, scheduler):
+    """:func:`design` once its executor is open."""
     from ..spectra.filters import example_names
 
-    observers = [str(o).strip() for o in _as_list(observer)]
-    if not observers or not observers[0]:
-        raise InputError("design needs an observer", hint="e.g. --observer deuteranomalous")
     maximise, minimise, require = _as_list(maximise), _as_list(minimise), _as_list(require)
-    if not maximise and not minimise:
-        raise InputError("nothing to optimise", hint="give --maximise METRIC, e.g. --maximise red_green_gain")
+    budget, seed, top, task_trials = _check_numbers(budget, seed, top, task_trials, time_limit)
+    problem = _problem(observer, maximise, minimise, require, family, illuminant, surfaces, adaptation,
+                       task_trials, seed)
+    problem.scheduler = scheduler
+    ref_specs = list(example_names()) if references is None else [str(r) for r in references]
+    # checks the scorer's own inputs (illuminant, surfaces, adaptation) and the references before searching
+    ref_card = score_batch(ref_specs, problem, metrics=_union(metrics, problem.groups)) if ref_specs else None
+    saver = _checkpoint(checkpoint, problem, seed, resume)
+    archive, run = search(problem, budget=budget, seed=seed, time_limit=time_limit, progress=progress,
+                          checkpoint=saver)
     try:
-        budget = int(budget)
-        seed = int(seed)
-        top = int(top)
+        designs, header = _designs(problem, archive, top, output, metrics)
+    except InputError:
+        if saver is not None:
+            saver.discard()
+        raise
+    references_out = _references(problem, ref_card, ref_specs)
+    run["reported"] = len(designs)
+    inputs = _inputs(problem, observer, maximise, minimise, require, budget, seed, top, references, ref_specs,
+                     illuminant, surfaces, adaptation, output, metrics)
+    return DesignResult(designs, references_out, problem, archive, run, inputs, header)
+
+
+def _designs(problem: DesignProblem, archive, top: int, output, metrics) -> tuple[list, dict]:
+    """The designs chosen from the archive and re-scored; InputError when none is left."""
+    candidates = select(problem, archive, top=top)
+    designs, header = _rescore(problem, candidates, top=top, output=output, metrics=metrics)
+    if not designs:
+        raise InputError("no design kept its requirements when re-scored from its spec string "
+                         f"({len(candidates)} tried)", hint="loosen a requirement slightly: the rounding of the "
+                                                            "spec moved every candidate across a bound")
+    return designs, header
+
+
+def _references(problem: DesignProblem, card, specs: list) -> list:
+    """The references summarised as the designs are (their task scores included)."""
+    if card is None:
+        return []
+    entries = attach_task_scores([card.filter_dict(i) for i in range(len(card))], specs, problem)
+    return [_summary(problem, e, spec) for e, spec in zip(entries, specs)]
+
+
+def _checkpoint(path, problem: DesignProblem, seed: int, resume: bool):
+    """The search's :class:`~cvdfilter.designing.checkpoint.Checkpoint` (None without a path)."""
+    if path is None:
+        if resume:
+            raise InputError("resume needs the checkpoint of the interrupted run", hint="give -o DIR of that run")
+        return None
+    from .checkpoint import Checkpoint
+
+    return Checkpoint(path, problem, seed, resume=resume)
+
+
+def _check_numbers(budget, seed, top, task_trials, time_limit) -> tuple[int, int, int, int]:
+    try:
+        budget, seed, top, task_trials = int(budget), int(seed), int(top), int(task_trials)
     except (TypeError, ValueError):
-        raise InputError("budget, seed and top must be whole numbers") from None
+        raise InputError("budget, seed, top and task trials must be whole numbers") from None
     if not 10 <= budget <= MAX_BUDGET:
         raise InputError(f"budget {budget} is outside 10-{MAX_BUDGET:,} evaluations")
     if seed < 0:
         raise InputError(f"seed {seed} must be 0 or more")
     if not 1 <= top <= 50:
         raise InputError(f"top {top} is outside 1-50")
+    if not 1 <= task_trials <= 10_000:
+        raise InputError(f"task trials {task_trials} is outside 1-10,000")
     if time_limit is not None and not time_limit > 0:
         raise InputError(f"time limit {time_limit} must be a positive number of seconds")
+    return budget, seed, top, task_trials
+
+
+def _problem(observer, maximise, minimise, require, family, illuminant, surfaces, adaptation, task_trials,
+             seed) -> DesignProblem:
+    """The problem, every input checked before any scoring."""
+    from ..observers.observer import observer as make_observer
+    from ..observers.population import is_population_spec
+    from ..observers.population import population as make_population
+
+    observers = [str(o).strip() for o in _as_list(observer)]
+    if not observers or not observers[0]:
+        raise InputError("design needs an observer", hint="e.g. --observer deuteranomalous")
+    if not maximise and not minimise:
+        raise InputError("nothing to optimise", hint="give --maximise METRIC, e.g. --maximise red_green_gain")
     space = parse_family(family)
     primary = observers[0]
     objectives = [(parse_metric(m, primary), +1) for m in maximise] + [(parse_metric(m, primary), -1)
@@ -358,38 +426,31 @@ def design(observer, *, maximise=(), minimise=(), require=(), family: str = "not
         (make_population if is_population_spec(o) else make_observer)(o)
     groups = groups_needed([m for m, _ in objectives] + [r.metric for r in requirements])
     score_kwargs = {"illuminant": illuminant, "surfaces": surfaces, "adaptation": adaptation}
-    problem = DesignProblem(space, observers, objectives, requirements, score_kwargs, groups)
-    problem.scheduler = scheduler
-    ref_specs = list(example_names()) if references is None else [str(r) for r in references]
-    # checks the scorer's own inputs (illuminant, surfaces, adaptation) and the references before searching
-    ref_card = score_batch(ref_specs, problem, metrics=_union(metrics, groups)) if ref_specs else None
+    return DesignProblem(space, observers, objectives, requirements, score_kwargs, groups,
+                         task_trials=task_trials, task_seed=seed)
 
-    archive, run = search(problem, budget=budget, seed=seed, time_limit=time_limit, progress=progress)
-    candidates = select(problem, archive, top=top)
-    designs, header = _rescore(problem, candidates, top=top, output=output, metrics=metrics)
-    if not designs:
-        raise InputError("no design kept its requirements when re-scored from its spec string "
-                         f"({len(candidates)} tried)", hint="loosen a requirement slightly: the rounding of the "
-                                                            "spec moved every candidate across a bound")
-    references_out = []
-    if ref_card is not None:
-        for i in range(len(ref_card)):
-            entry = ref_card.filter_dict(i)
-            references_out.append(_summary(problem, entry, ref_specs[i]))
-    run["reported"] = len(designs)
-    inputs = {
+
+def _inputs(problem, observer, maximise, minimise, require, budget, seed, top, references, ref_specs,
+            illuminant, surfaces, adaptation, output, metrics) -> dict:
+    """The inputs record of designs.json, with the command that reproduces the run."""
+    observers = problem.observers
+    tasks = any(m.group == "tasks" for m in problem.metrics())
+    command = _command(observers[:1] if len(observers) == 1 else _as_list(observer), maximise, minimise,
+                       require, problem.space.family, budget, seed, top, references, illuminant, surfaces,
+                       adaptation, output, metrics)
+    if tasks and problem.task_trials != DEFAULT_TASK_TRIALS:
+        command = command.replace(" -o ", f" --task-trials {problem.task_trials} -o ")
+    return {
         "observers": observers, "maximise": maximise, "minimise": minimise, "require": require,
         "requirements": [{"expression": r.text, "metric": r.metric.text, "op": r.op, "value": r.value}
-                         for r in requirements],
-        "family": space.describe(), "budget": budget, "seed": seed, "top": top,
+                         for r in problem.requirements],
+        "family": problem.space.describe(), "budget": budget, "seed": seed, "top": top,
         "illuminant": str(illuminant), "surfaces": str(surfaces), "adaptation": str(adaptation),
-        "references": ref_specs, "metric_groups_searched": groups,
-        "metric_groups_reported": _union(metrics, groups),
-        "command": _command(observers[:1] if len(observers) == 1 else _as_list(observer), maximise, minimise,
-                            require, space.family, budget, seed, top, references, illuminant, surfaces,
-                            adaptation, output, metrics),
+        "references": ref_specs, "metric_groups_searched": problem.groups,
+        "metric_groups_reported": _union(metrics, problem.groups),
+        **({"task_trials": problem.task_trials, "task_seed": problem.task_seed} if tasks else {}),
+        "command": command,
     }
-    return DesignResult(designs, references_out, problem, archive, run, inputs, header)
 
 
 def _summary(problem: DesignProblem, entry: dict, spec: str) -> dict:
@@ -407,10 +468,10 @@ def _value(v: float):
 
 def _union(metrics, groups) -> list:
     """The scorer's groups named by ``metrics`` (all, core or a list) together with ``groups``."""
-    from ..score_plan import METRIC_GROUPS, parse_metrics
+    from ..score_plan import METRIC_GROUPS, OPTIONAL_GROUPS, parse_metrics
 
     wanted = set(parse_metrics(metrics)) | set(groups)
-    return [g for g in METRIC_GROUPS if g in wanted]
+    return [g for g in METRIC_GROUPS + OPTIONAL_GROUPS if g in wanted]
 
 
 def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output: str | None, metrics="all"):
@@ -434,8 +495,8 @@ def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output
 
     # 1. every candidate re-scored with the metric groups the search used (fast), requirements checked
     card = score_batch(filters, problem)
-    kept = [(i, card.filter_dict(i)) for i in range(len(candidates))]
-    kept = [(i, e) for i, e in kept if meets(e)]
+    entries = attach_task_scores([card.filter_dict(i) for i in range(len(candidates))], filters, problem)
+    kept = [(i, e) for i, e in enumerate(entries) if meets(e)]
     first, sense = problem.objectives[0]
     k0 = problem.observer_index(first)
 
@@ -454,8 +515,8 @@ def _rescore(problem: DesignProblem, candidates: np.ndarray, *, top: int, output
         tuple(names[i] for i in idx), curves[idx], space.grid, ("file",) * len(idx),
         tuple({} for _ in idx))
     card = score_batch(final, problem, metrics=_union(metrics, problem.groups)) if idx else card
-    kept = [(i, card.filter_dict(j)) for j, i in enumerate(idx)]
-    kept = [(i, e) for i, e in kept if meets(e)]
+    entries = attach_task_scores([card.filter_dict(j) for j in range(len(idx))], final, problem) if idx else []
+    kept = [(i, e) for i, e in zip(idx, entries) if meets(e)]
     designs = []
     for rank, (i, entry) in enumerate(kept, start=1):
         spec = specs[i] if space.kind == "notch" else f"{folder}curves/design-{rank:02d}.csv"

@@ -29,6 +29,9 @@ _LABELS = {
     "luminance_contrast_gain": "luminance contrast gain", "luminous_transmittance": "luminous transmittance",
     "white_shift": "white shift (u'v')", "confusion_pairs.net": "confused pairs resolved \u2212 created",
     "discriminable_pairs.net": "discriminable pairs gained \u2212 lost", "rendition.rf": "Rf", "rendition.rg": "Rg",
+    "discernible_colours.ratio": "discernible colours, with / without",
+    "tasks.arrangement.tes": "arrangement TES (median of trials)",
+    "tasks.arrangement.effect": "arrangement: share easier \u2212 share harder",
 }
 
 
@@ -41,6 +44,92 @@ def _axis_label(metric) -> str:
         text += f" [{short_name(metric.observer, 32)}]"
     return text[0].upper() + text[1:]
 
+
+def _front(ax, style, s, problem, metrics, values, feasible, designs, refs, bounds):
+    """Two objectives against each other: candidates, bounds, the designs numbered, the references."""
+    n_req = len(problem.requirements)
+    handles: list = []
+    labels: list = []
+    xs, ys = values[:, 0], values[:, 1]
+    ok = np.isfinite(xs) & np.isfinite(ys)
+    h1, = ax.plot(xs[ok & ~feasible], ys[ok & ~feasible], linestyle="none", marker="x",
+                  markersize=style.marker_size * 0.6, color=NEUTRAL["fill"], markeredgewidth=0.4,
+                  gid="candidates-infeasible", zorder=1)
+    h2, = ax.plot(xs[ok & feasible], ys[ok & feasible], linestyle="none", marker="o",
+                  markersize=style.marker_size * 0.5, color=s[0].color, alpha=0.25, markeredgewidth=0,
+                  gid="candidates-feasible", zorder=2)
+    if n_req:
+        handles += [h1, h2]
+        labels += ["candidate missing a requirement", "candidate meeting every requirement"]
+    else:
+        handles.append(h2)
+        labels.append("candidate")
+    for i, r in enumerate(problem.requirements):
+        for axis, m in enumerate(metrics[:2]):
+            if r.metric == m and r.op != "==":
+                line = ax.axvline if axis == 0 else ax.axhline
+                hb = line(r.value, color=NEUTRAL["line"], linestyle=(0, (4, 2)), lw=0.8,
+                          gid=f"bound-{i}", zorder=3)
+                bounds.append({"metric": m.text, "op": r.op, "value": r.value})
+                if len(bounds) == 1:
+                    handles.append(hb)
+                    labels.append("requirement bound")
+    order = np.argsort(designs[:, 0], kind="stable")
+    hd, = ax.plot(designs[order, 0], designs[order, 1], gid="designs", zorder=5,
+                  **{**s[1].line_kwargs(), "linewidth": style.line_width * 0.8})
+    handles.append(hd)
+    labels.append("designs (re-scored), numbered by rank")
+    finite = designs[np.all(np.isfinite(designs[:, :2]), axis=1), :2]
+    span = np.ptp(np.vstack([finite, values[ok][:, :2]]), axis=0) if len(finite) else np.ones(2)
+    span = np.where(span > 0, span, 1.0)
+    placed: list = []
+    for rank, (x, y) in enumerate(designs[:, :2], start=1):
+        # numbers at least 7 % of the plotted range apart, so that none overlaps another
+        near = any(np.hypot((x - px) / span[0], (y - py) / span[1]) < 0.07 for px, py in placed)
+        if np.isfinite(x) and np.isfinite(y) and not near:
+            placed.append((x, y))
+            ax.annotate(str(rank), (x, y), xytext=(2.5, 2.5), textcoords="offset points",
+                        fontsize=style.tick_size, color=s[1].color, gid=f"design-label-{rank}", zorder=6)
+    if len(refs):
+        hr, = ax.plot(refs[:, 0], refs[:, 1], gid="references", zorder=4,
+                      **{**s[2].marker_kwargs(), "markerfacecolor": "white"})
+        handles.append(hr)
+        labels.append("reference filters")
+    ax.set_xlabel(_axis_label(metrics[0]))
+    ax.set_ylabel(_axis_label(metrics[1]))
+    return handles, labels
+
+def _progress(ax, style, s, problem, metrics, values, feasible, refs, bounds):
+    """One objective against the evaluation number, the best so far, references and bounds."""
+    n_req = len(problem.requirements)
+    handles: list = []
+    labels: list = []
+    n = np.arange(1, len(values) + 1)
+    v = values[:, 0]
+    sense = problem.objectives[0][1]
+    h1, = ax.plot(n[~feasible], v[~feasible], linestyle="none", marker="x", color=NEUTRAL["fill"],
+                  markersize=style.marker_size * 0.6, markeredgewidth=0.4, gid="candidates-infeasible")
+    h2, = ax.plot(n[feasible], v[feasible], linestyle="none", marker="o", color=s[0].color, alpha=0.25,
+                  markersize=style.marker_size * 0.5, markeredgewidth=0, gid="candidates-feasible")
+    best = np.where(feasible & np.isfinite(v), v * sense, -np.inf)
+    running = np.maximum.accumulate(best) * sense
+    hb, = ax.plot(n, np.where(np.isfinite(running), running, np.nan), color=s[1].color,
+                  lw=style.line_width, gid="best-so-far")
+    handles += [h1, h2, hb] if n_req else [h2, hb]
+    labels += (["candidate missing a requirement", "candidate meeting every requirement"] if n_req
+               else ["candidate"]) + ["best so far"]
+    if len(refs):
+        for j, y in enumerate(refs[:, 0]):
+            hr = ax.axhline(y, color=s[2].color, linestyle=(0, (1, 1.5)), lw=0.7, gid=f"reference-{j}")
+        handles.append(hr)
+        labels.append("reference filters")
+    for i, r in enumerate(problem.requirements):
+        if r.metric == metrics[0] and r.op != "==":
+            ax.axhline(r.value, color=NEUTRAL["line"], linestyle=(0, (4, 2)), lw=0.8, gid=f"bound-{i}")
+            bounds.append({"metric": r.metric.text, "op": r.op, "value": r.value})
+    ax.set_xlabel("Evaluation")
+    ax.set_ylabel(_axis_label(metrics[0]))
+    return handles, labels
 
 def pareto_figure(result, *, style: Style | None = None, width_mm: float = 89.0, height_mm: float | None = None,
                   title: str | None = None, caveat: str | None = None) -> FigureResult:
@@ -74,87 +163,16 @@ def pareto_figure(result, *, style: Style | None = None, width_mm: float = 89.0,
                          for r in rows], dtype=float).reshape(len(rows), n_obj)
 
     designs, refs = table(result.designs), table(result.references)
-    bounds = []
+    bounds: list = []
     height_mm = height_mm or (78.0 if width_mm < 120 else 95.0)
     with style_context(style):
         fig = new_figure(style, width_mm, height_mm)
         ax = fig.add_subplot(1, 1, 1)
-        handles, labels = [], []
         s = series(3)
         if n_obj >= 2:
-            xs, ys = values[:, 0], values[:, 1]
-            ok = np.isfinite(xs) & np.isfinite(ys)
-            h1, = ax.plot(xs[ok & ~feasible], ys[ok & ~feasible], linestyle="none", marker="x",
-                          markersize=style.marker_size * 0.6, color=NEUTRAL["fill"], markeredgewidth=0.4,
-                          gid="candidates-infeasible", zorder=1)
-            h2, = ax.plot(xs[ok & feasible], ys[ok & feasible], linestyle="none", marker="o",
-                          markersize=style.marker_size * 0.5, color=s[0].color, alpha=0.25, markeredgewidth=0,
-                          gid="candidates-feasible", zorder=2)
-            if n_req:
-                handles += [h1, h2]
-                labels += ["candidate missing a requirement", "candidate meeting every requirement"]
-            else:
-                handles.append(h2)
-                labels.append("candidate")
-            for i, r in enumerate(problem.requirements):
-                for axis, m in enumerate(metrics[:2]):
-                    if r.metric == m and r.op != "==":
-                        line = ax.axvline if axis == 0 else ax.axhline
-                        hb = line(r.value, color=NEUTRAL["line"], linestyle=(0, (4, 2)), lw=0.8,
-                                  gid=f"bound-{i}", zorder=3)
-                        bounds.append({"metric": m.text, "op": r.op, "value": r.value})
-                        if len(bounds) == 1:
-                            handles.append(hb)
-                            labels.append("requirement bound")
-            order = np.argsort(designs[:, 0], kind="stable")
-            hd, = ax.plot(designs[order, 0], designs[order, 1], gid="designs", zorder=5,
-                          **{**s[1].line_kwargs(), "linewidth": style.line_width * 0.8})
-            handles.append(hd)
-            labels.append("designs (re-scored), numbered by rank")
-            finite = designs[np.all(np.isfinite(designs[:, :2]), axis=1), :2]
-            span = np.ptp(np.vstack([finite, values[ok][:, :2]]), axis=0) if len(finite) else np.ones(2)
-            span = np.where(span > 0, span, 1.0)
-            placed: list = []
-            for rank, (x, y) in enumerate(designs[:, :2], start=1):
-                # numbers at least 7 % of the plotted range apart, so that none overlaps another
-                near = any(np.hypot((x - px) / span[0], (y - py) / span[1]) < 0.07 for px, py in placed)
-                if np.isfinite(x) and np.isfinite(y) and not near:
-                    placed.append((x, y))
-                    ax.annotate(str(rank), (x, y), xytext=(2.5, 2.5), textcoords="offset points",
-                                fontsize=style.tick_size, color=s[1].color, gid=f"design-label-{rank}", zorder=6)
-            if len(refs):
-                hr, = ax.plot(refs[:, 0], refs[:, 1], gid="references", zorder=4,
-                              **{**s[2].marker_kwargs(), "markerfacecolor": "white"})
-                handles.append(hr)
-                labels.append("reference filters")
-            ax.set_xlabel(_axis_label(metrics[0]))
-            ax.set_ylabel(_axis_label(metrics[1]))
+            handles, labels = _front(ax, style, s, problem, metrics, values, feasible, designs, refs, bounds)
         else:
-            n = np.arange(1, len(values) + 1)
-            v = values[:, 0]
-            sense = problem.objectives[0][1]
-            h1, = ax.plot(n[~feasible], v[~feasible], linestyle="none", marker="x", color=NEUTRAL["fill"],
-                          markersize=style.marker_size * 0.6, markeredgewidth=0.4, gid="candidates-infeasible")
-            h2, = ax.plot(n[feasible], v[feasible], linestyle="none", marker="o", color=s[0].color, alpha=0.25,
-                          markersize=style.marker_size * 0.5, markeredgewidth=0, gid="candidates-feasible")
-            best = np.where(feasible & np.isfinite(v), v * sense, -np.inf)
-            running = np.maximum.accumulate(best) * sense
-            hb, = ax.plot(n, np.where(np.isfinite(running), running, np.nan), color=s[1].color,
-                          lw=style.line_width, gid="best-so-far")
-            handles += [h1, h2, hb] if n_req else [h2, hb]
-            labels += (["candidate missing a requirement", "candidate meeting every requirement"] if n_req
-                       else ["candidate"]) + ["best so far"]
-            if len(refs):
-                for j, y in enumerate(refs[:, 0]):
-                    hr = ax.axhline(y, color=s[2].color, linestyle=(0, (1, 1.5)), lw=0.7, gid=f"reference-{j}")
-                handles.append(hr)
-                labels.append("reference filters")
-            for i, r in enumerate(problem.requirements):
-                if r.metric == metrics[0] and r.op != "==":
-                    ax.axhline(r.value, color=NEUTRAL["line"], linestyle=(0, (4, 2)), lw=0.8, gid=f"bound-{i}")
-                    bounds.append({"metric": r.metric.text, "op": r.op, "value": r.value})
-            ax.set_xlabel("Evaluation")
-            ax.set_ylabel(_axis_label(metrics[0]))
+            handles, labels = _progress(ax, style, s, problem, metrics, values, feasible, refs, bounds)
         ax.grid(True, color=NEUTRAL["light"], lw=0.4, zorder=0)
         ax.set_axisbelow(True)
         ncols = legend_columns(labels, width_mm, style.font_size, max_cols=2)
