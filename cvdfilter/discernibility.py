@@ -176,11 +176,8 @@ def discernible_colours(stimulus="munsell", *, filter=None, observers=DEFAULT_OB
     -------
     DiscernibleColours
     """
-    from .metrics.discernible import count_planes, lab_planes
-    from .observers.fundamentals import LMS_TO_XYZ_2DEG
     from .observers.observer import observer as make_observer
-    from .observers.simulate import simulation
-    from .observers.spaces import parse_adaptation, von_kries_gains
+    from .observers.spaces import parse_adaptation
     from .spectra.filters import load_filters
     from .spectra.illuminants import illuminant as make_illuminant
 
@@ -206,6 +203,29 @@ def discernible_colours(stimulus="munsell", *, filter=None, observers=DEFAULT_OB
     # one product for every condition, float64 (so that a model invariance, such as a neutral filter under
     # full adaptation, is not broken by rounding at a cube boundary), laid out (condition x cone, pixel)
     lms_all = (p.T @ weights).T @ samples.T
+    counts, methods = _condition_counts(conds, lms_all, e, t, a, method, cube_size, n_first=len(obs) * len(t))
+    n_o, n_t = len(obs), len(t)
+    per = counts[:n_o * n_t].reshape(n_o, n_t)
+    base_counts = dict(zip((b.spec for b in base_list), counts[n_o * n_t:]))
+    normal_without = np.array([base_counts[(o.base if o.base is not None else o).spec] for o in obs])
+    settings = _settings(name, fs, obs, ill, a, method, cube_size, methods)
+    return DiscernibleColours(stimulus=name, n_colours=int(samples.shape[0]),
+                              observers=tuple(o.spec for o in obs),
+                              filters=() if fs is None else tuple(fs.names),
+                              without=per[:, 0].copy(), with_filter=per[:, 1:].T.copy(),
+                              normal_without=normal_without, methods=tuple(methods), settings=settings)
+
+
+def _condition_counts(conds: list, lms_all: np.ndarray, e: np.ndarray, t: np.ndarray, a: float, method,
+                      cube_size: float, *, n_first: int) -> tuple[np.ndarray, list]:
+    """Discernible colours per condition (observer, filter state) from the cone catches ``lms_all``
+    (condition x cone, pixel), and the simulation method of each observer's first ``n_first`` conditions
+    without a filter."""
+    from .metrics.discernible import count_planes, lab_planes
+    from .observers.fundamentals import LMS_TO_XYZ_2DEG
+    from .observers.simulate import simulation
+    from .observers.spaces import von_kries_gains
+
     counts = np.empty(len(conds), dtype=np.int64)
     methods = []
     sims = {}
@@ -227,13 +247,14 @@ def discernible_colours(stimulus="munsell", *, filter=None, observers=DEFAULT_OB
             side = (sim.separator * gains) @ x >= 0
             xyz = np.where(side, xyz, other)
         counts[c] = count_planes(lab_planes(xyz, LMS_TO_XYZ_2DEG @ w_n, dtype=np.float32), cube_size=cube_size)
-        if c < len(obs) * len(t) and k == 0:
+        if c < n_first and k == 0:
             methods.append(sim.method)
-    n_o, n_t = len(obs), len(t)
-    per = counts[:n_o * n_t].reshape(n_o, n_t)
-    base_counts = dict(zip((b.spec for b in base_list), counts[n_o * n_t:]))
-    normal_without = np.array([base_counts[(o.base if o.base is not None else o).spec] for o in obs])
-    settings = {
+    return counts, methods
+
+
+def _settings(name: str, fs, obs: list, ill, a: float, method, cube_size: float, methods: list) -> dict:
+    """The inputs and model constants of a count (``DiscernibleColours.settings``)."""
+    return {
         "inputs": {"stimulus": name, "filters": [] if fs is None else list(fs.names),
                    "observers": [o.spec for o in obs], "illuminant": ill.name,
                    "adaptation": a, "method": method, "cube_size": cube_size},
@@ -245,8 +266,3 @@ def discernible_colours(stimulus="munsell", *, filter=None, observers=DEFAULT_OB
                       "simulation_reference_white": "the illuminant",
                       "simulations": dict(zip((o.spec for o in obs), methods))},
     }
-    return DiscernibleColours(stimulus=name, n_colours=int(samples.shape[0]),
-                              observers=tuple(o.spec for o in obs),
-                              filters=() if fs is None else tuple(fs.names),
-                              without=per[:, 0].copy(), with_filter=per[:, 1:].T.copy(),
-                              normal_without=normal_without, methods=tuple(methods), settings=settings)

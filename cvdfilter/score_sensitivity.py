@@ -99,6 +99,20 @@ def _population_rows(measures: list, i: int, names: list) -> dict:
     return rows
 
 
+def _measures(o: dict) -> dict:
+    """The measures whose sign is a verdict, from one observer's JSON entry."""
+    out = {}
+    p = o.get("discriminable_pairs")
+    if p is not None:
+        out["discriminable_net"] = p["gained"] - p["lost"]
+    c = o.get("confusion_pairs")
+    if c is not None:
+        out["confused_net_resolved"] = c["resolved"] - c["created"]
+    if p is not None or c is not None:
+        out["median_delta_s_ratio"] = median_ratio(o)
+    return out
+
+
 def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
     """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section)."""
     from .scorecard import score
@@ -126,18 +140,6 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
     doc = card.to_dict() if card.sensitivity is None else None
     own = doc["filters"] if doc else []
 
-    def measures(o: dict) -> dict:
-        out = {}
-        p = o.get("discriminable_pairs")
-        if p is not None:
-            out["discriminable_net"] = p["gained"] - p["lost"]
-        c = o.get("confusion_pairs")
-        if c is not None:
-            out["confused_net_resolved"] = c["resolved"] - c["created"]
-        if p is not None or c is not None:
-            out["median_delta_s_ratio"] = median_ratio(o)
-        return out
-
     # Populations: every member's verdict under every variation, summarised as shares of members.
     populations = {k: [_member_measures(card.per_observer[k])] + [_member_measures(v.per_observer[k])
                                                                    for v in variant_cards]
@@ -154,12 +156,12 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
                 entry["observers"].append({"observer": o["observer"],
                                            **_population_rows(populations[k], i, [n for n, _, _ in variants])})
                 continue
-            m0 = measures(o)
+            m0 = _measures(o)
             rows = {}
             for key, v0 in m0.items():
                 values = {"default": v0}
                 for name, _, d in variants:
-                    values[name] = measures(d["filters"][i]["observers"][k]).get(key)
+                    values[name] = _measures(d["filters"][i]["observers"][k]).get(key)
                 nums = [v for v in values.values() if v is not None]
                 ref = 1.0 if key.startswith("median") else 0
                 signs = {_sign(v - ref) for v in nums}

@@ -153,7 +153,7 @@ def _nums(values, digits: int = 6) -> list:
 
 def _observer_columns(card, k: int) -> dict:
     """The flattened CSV cells of fixed observer ``k`` over the filters, column by column (the keys of
-    ``Scorecard._observer_dict`` flattened; pair statistics None where the filter leaves a cone no light)."""
+    ``scorecard_json.observer_entry`` flattened; pair statistics None where the filter leaves a cone no light)."""
     from .scorecard import _at_key, _num
 
     o, n, st, groups = card.per_observer[k], len(card), card.settings, card.metrics
@@ -196,16 +196,9 @@ def _fast_columns(card, columns: list) -> dict:
     """The CSV view's cells of a card of fixed observers, column by column (rows filter-major, as
     ``Scorecard.csv_rows``): the per-filter cells from ``Scorecard.filter_dict`` without observers, the
     observers' from :func:`_observer_columns`."""
-    from .scorecard_views import _flatten
+    from .scorecard_views import _flatten, run_columns
 
-    head = card.header()
-    run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
-           "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
-           "caveat": head["caveat"], "cautions": " ".join(head["cautions"])}
-    if "road_use" in card.metrics:
-        ru = head["models"]["road_use"]
-        run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
-        run["signal_limits_reading"] = ru["signal_limits_reading"]
+    run = run_columns(card)
     bare = dataclasses.replace(card, observers=[], per_observer=[])
     flat = []
     for i in range(len(card)):
@@ -265,16 +258,35 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     >>> score_to_file("nd:t=0.2..0.8/0.2", out, observers=["normal"], metrics="photometry")["rows"]
     4
     """
-    from .execution import chunk_bounds, executor
-    from .filter_source import FilterSource
+    from .execution import chunk_bounds
     from .io.atomic import check_outputs
-    from .io.chunked import FORMATS, ChunkedOutput
-    from .score_plan import ScoreInputs, plan_observers
-    from .score_population import is_population
-    from .scorecard import _describe_inputs
+    from .io.chunked import ChunkedOutput
+    from .tables import csv_text
 
     path = pathlib.Path(output)
-    fmt = (fmt or path.suffix.lstrip(".")).lower()
+    fmt = _check_stream_args(output, fmt, kwargs)
+    check_outputs([path], list(inputs))
+    task, header = _stream_task(filters, fmt, kwargs, units, bandwidth)
+    columns: list = task.columns or []
+    n = len(task.source)
+    bounds = chunk_bounds(n, chunk)
+    fingerprint = {"format": fmt, "chunk": chunk, "filters": n, "parts": task.source.describe(),
+                   "columns": columns, "types": task.types, "header": header}
+    out = ChunkedOutput(path, fmt, fingerprint, len(bounds))
+    done = out.open()
+    shipped = _write_chunks(task, out, bounds, done, progress, scheduler)
+    meta = {"cvdfilter": json.dumps(header, ensure_ascii=False, allow_nan=False)}
+    return out.finalise(header=csv_text(columns, []), metadata=meta,
+                        extra={"tool": "cvdfilter", "version": header["version"], "caveat": header["caveat"],
+                               "filters": n, "chunk_filters": chunk, "columns": columns, "types": task.types,
+                               "resumed_chunks": out.resumed, "shipped_bytes": shipped})
+
+
+def _check_stream_args(output, fmt: str | None, kwargs: dict) -> str:
+    """The output format; drops ``sensitivity``/``members`` from ``kwargs`` (refused when set)."""
+    from .io.chunked import FORMATS
+
+    fmt = (fmt or pathlib.Path(output).suffix.lstrip(".")).lower()
     if fmt not in FORMATS:
         raise InputError(f"streamed output must be {' or '.join(FORMATS)}, got '{fmt}'", source=str(output))
     if kwargs.get("sensitivity") or kwargs.get("members"):
@@ -287,7 +299,17 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
             import pyarrow  # noqa: F401
         except ImportError:
             raise InputError("Parquet output needs pyarrow", hint="pip install 'cvdfilter[frames]'") from None
-    check_outputs([path], list(inputs))
+    return fmt
+
+
+def _stream_task(filters, fmt: str, kwargs: dict, units, bandwidth) -> tuple[StreamTask, dict]:
+    """The chunk task (inputs validated on a probe of the filters, columns and types from the probe's
+    scorecard) and the JSON header of the run."""
+    from .filter_source import FilterSource
+    from .score_plan import ScoreInputs, plan_observers
+    from .score_population import is_population
+    from .scorecard import _input_record
+
     source = FilterSource.from_specs(filters, grid=kwargs.get("grid"), units=units, bandwidth=bandwidth)
     probe = source.probe()
     inp = ScoreInputs.validate(probe, **kwargs)
@@ -296,13 +318,7 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     plans, runner = plan_observers(inp, [inp.observers[k] for k in fixed]) if per_observer and fixed else ([], None)
     light = runner.light() if runner is not None else None
     light_plans = light.plans if light is not None else []
-    signal = kwargs.get("signal_spectra")
-    record = {"filters": _describe_inputs(filters), "illuminant": inp.illuminant.name,
-              "observers": [o.spec for o in inp.observers], "surfaces": inp.surfaces.name,
-              "adaptation": {1.0: "full", 0.0: "none"}.get(inp.adaptation, f"{inp.adaptation:g}"),
-              "metrics": list(inp.groups),
-              "signal_spectra": None if signal is None else (
-                  str(signal) if isinstance(signal, (str, pathlib.Path)) else "given as arrays")}
+    record = _input_record(filters, inp, kwargs.get("signal_spectra"))
     task = StreamTask(source, inp, light, fixed, light_plans, record, fmt)
     probe_card = task.card(probe)
     columns, rows = probe_card.csv_rows()
@@ -312,13 +328,17 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
         task.fast = len(fixed) == len(inp.observers) and [list(r) for r in zip(*fast.values())] == rows
     except Exception:  # noqa: BLE001 - a layout the fast path does not know: the CSV view's own rows
         task.fast = False
-    header = probe_card.header()
-    n = len(source)
-    bounds = chunk_bounds(n, chunk)
-    fingerprint = {"format": fmt, "chunk": chunk, "filters": n, "parts": source.describe(), "columns": columns,
-                   "types": task.types, "header": header}
-    out = ChunkedOutput(path, fmt, fingerprint, len(bounds))
-    done = out.open()
+    return task, probe_card.header()
+
+
+def _write_chunks(task: StreamTask, out, bounds: list, done, progress, scheduler) -> int:
+    """Run the chunks not yet written (``done``: those resumed) and write each in order; returns the bytes of
+    the task as shipped to a worker."""
+    import pickle
+
+    from .execution import executor
+
+    n = len(task.source)
     todo = [i for i in range(len(bounds)) if i not in done]
     filters_done = sum(bounds[i][1] - bounds[i][0] for i in done)
     if progress is not None:
@@ -331,8 +351,6 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
         if progress is not None:
             progress("filters", filters_done, n)
 
-    import pickle
-
     shipped = len(pickle.dumps(task, protocol=pickle.HIGHEST_PROTOCOL))  # sent once to each worker of a cluster
     ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
     try:
@@ -343,11 +361,4 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     finally:
         if ex is not scheduler:
             ex.close()
-    from .tables import csv_text
-
-    meta = {"cvdfilter": json.dumps(header, ensure_ascii=False, allow_nan=False)}
-    manifest = out.finalise(header=csv_text(columns, []), metadata=meta,
-                            extra={"tool": "cvdfilter", "version": header["version"], "caveat": header["caveat"],
-                                   "filters": n, "chunk_filters": chunk, "columns": columns, "types": task.types,
-                                   "resumed_chunks": out.resumed, "shipped_bytes": shipped})
-    return manifest
+    return shipped

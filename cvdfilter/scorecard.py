@@ -29,20 +29,18 @@ from __future__ import annotations
 
 import functools
 import json
-import math
 import pathlib
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
-from ._version import __version__
-from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from .metrics.confusion import DEFICIENT_THRESHOLD, NORMAL_THRESHOLD
 from .metrics.discrimination import CONE_RATIOS, DISCRIMINATION_THRESHOLD, DISTRIBUTION_THRESHOLDS, WEBER_FRACTION
-from .score_plan import (CONFUSION_KEYS as _CONFUSION_KEYS, CORE_METRICS, DEFAULT_OBSERVERS, METRIC_GROUPS,
-                         PAIR_KEYS as _PAIR_KEYS, parse_metrics)
+from .execution import opens_cluster
+from .score_plan import CORE_METRICS, DEFAULT_OBSERVERS, METRIC_GROUPS, parse_metrics
 from .score_population import is_population
+from .scorecard_json import _adaptation_text, _at_key, _num  # noqa: F401  (used by score_population, score_stream)
 from .score_sensitivity import SENSITIVITY_RANGES
 
 __all__ = ["score", "Scorecard", "DEFAULT_OBSERVERS", "METRIC_GROUPS", "CORE_METRICS", "parse_metrics",
@@ -50,20 +48,6 @@ __all__ = ["score", "Scorecard", "DEFAULT_OBSERVERS", "METRIC_GROUPS", "CORE_MET
 
 #: Filters per chunk of the vectorised pass (bounded memory; progress is reported per chunk).
 _CHUNK_FILTERS = 1024
-
-
-def _adaptation_text(a: float) -> str:
-    return "full" if a == 1.0 else "none" if a == 0.0 else f"{a:g}"
-
-
-# --- rounding for the JSON ----------------------------------------------------
-
-def _num(x, digits: int = 6):
-    """A finite float rounded to ``digits`` decimals, or None (NaN / inf -> null)."""
-    x = float(x)
-    if x != x or x in (math.inf, -math.inf):
-        return None
-    return round(x, digits) + 0.0  # + 0.0 turns -0.0 into 0.0
 
 
 @dataclass
@@ -131,105 +115,10 @@ class Scorecard:
         return conv(self.results), [conv(o) for o in self.per_observer]
 
     def filter_dict(self, i: int) -> dict:
-        """The JSON entry of filter ``i`` (with its ``observers``)."""
-        from .metrics.road_use import SIGNAL_COLOURS, road_use_reasons
+        """The JSON entry of filter ``i`` (with its ``observers``; :func:`cvdfilter.scorecard_json.filter_entry`)."""
+        from .scorecard_json import filter_entry
 
-        r = self._lists[0]
-        fs = self.filters
-        info = fs.info[i] if i < len(fs.info) else {}
-        d = {"name": fs.names[i], "source": fs.sources[i] if i < len(fs.sources) else "array"}
-        where = info.get("path") or info.get("spec")
-        if where:
-            d["input"] = where
-        if info.get("column_number") is not None:  # files: the path and column each filter came from
-            d["source"] = {"kind": d["source"], "path": info["path"], "column": info.get("column"),
-                           "column_number": info["column_number"], "units": info.get("units"),
-                           "units_reason": info.get("units_reason")}
-        extrapolated = list(info.get("extrapolated", []))
-        for part in info.get("parts") or []:
-            extrapolated += part.get("extrapolated", [])
-        d["extrapolated"] = extrapolated
-        if info.get("sha256"):
-            d["sha256"] = info["sha256"]
-        warnings = list(info.get("warnings", []))
-        for part in info.get("parts") or []:
-            warnings += part.get("warnings", [])
-        d["warnings"] = warnings
-        if "photometry" in self.metrics:
-            d["luminous_transmittance"] = _num(r["luminous_transmittance"][i])
-            d["luminous_transmittance_illuminant"] = _num(r["luminous_transmittance_illuminant"][i])
-            d["chromaticity"] = {"x": _num(r["chromaticity"][i][0]), "y": _num(r["chromaticity"][i][1])}
-            d["white_shift"] = _num(r["white_shift"][i])
-        if "road_use" in self.metrics:
-            cat = int(r["iso12312_category"][i])
-            quot = {c: _num(r[f"signal_quotient_{c}"][i], 4) for c in SIGNAL_COLOURS}
-            worst = {c: r[f"signal_light_{c}"][i] for c in SIGNAL_COLOURS}
-            reasons = road_use_reasons(float(r["luminous_transmittance"][i]), cat, float(r["min_ratio"][i]),
-                                       float(r["min_ratio_at_nm"][i]),
-                                       {c: float(r[f"signal_quotient_{c}"][i]) for c in SIGNAL_COLOURS}, worst,
-                                       limits=self.settings.get("signal_limits"))
-            d["iso12312_category"] = cat if cat >= 0 else None
-            d["road_use"] = {
-                "suitable": bool(r["suitable"][i]),
-                "night_suitable": bool(r["night_suitable"][i]),
-                "min_ratio_475_650": _num(r["min_ratio"][i], 4),
-                "min_ratio_at_nm": _num(r["min_ratio_at_nm"][i], 2),
-                "reasons": reasons,
-            }
-            d["signal_quotients"] = quot
-        if "rendition" in self.metrics:
-            d["rendition"] = {
-                "rf": _num(r["rf"][i], 2), "rg": _num(r["rg"][i], 2), "ra": _num(r["ra"][i], 2),
-                "chroma_shifts": [_num(v, 2) for v in r["chroma_shifts"][i]],
-                "cct_k": _num(r["cct_k"][i], 1), "duv": _num(r["duv"][i], 5),
-            }
-        d["observers"] = [self._observer_dict(i, k) for k in range(len(self.observers))]
-        return d
-
-    def _observer_dict(self, i: int, k: int) -> dict:
-        if is_population(self.observers[k]):
-            from .score_population import population_entry
-
-            return population_entry(self, i, k)
-        o = self._lists[1][k]
-        d = {"observer": self.observers[k].spec}
-        if "contrast" in self.metrics:
-            d["red_green_gain"] = _num(o["red_green_gain"][i])
-            d["blue_yellow_gain"] = _num(o["blue_yellow_gain"][i])
-            d["luminance_contrast_gain"] = _num(o["luminance_contrast_gain"][i])
-        undefined = bool(o["undefined"][i]) if "undefined" in o else False
-        st = self.settings
-        if "discrimination" in self.metrics:
-            if undefined:
-                d["discriminable_pairs"] = None
-                d["delta_s_distribution"] = None
-            else:
-                d["discriminable_pairs"] = {"threshold_jnd": st["discrimination_threshold"],
-                                            **{key: int(o[f"discriminable_{key}"][i]) for key in _PAIR_KEYS}}
-                dist = {_at_key(t): {key: int(o[f"discriminable_at_{t:g}_{key}"][i]) for key in _PAIR_KEYS}
-                        for t in st["distribution_thresholds"]}
-                dist["median_without"] = _num(o["discriminable_median_without"], 4)
-                dist["median_with"] = _num(o["discriminable_median_with"][i], 4)
-                dist["median_ratio"] = _num(o["discriminable_median_ratio"][i])
-                d["delta_s_distribution"] = dist
-        if "confusion" in self.metrics:
-            if o.get("confusion_with") is None or undefined:
-                d["confusion_pairs"] = None
-            else:
-                d["confusion_pairs"] = {
-                    "normal_threshold_jnd": st["normal_threshold"],
-                    "deficient_threshold_jnd": st["deficient_threshold"],
-                    "normally_discriminable": int(o["confusion_normally_discriminable"]),
-                    **{key: int(o[f"confusion_{key}"][i]) for key in _CONFUSION_KEYS},
-                    "median_delta_s_without": _num(o["confusion_median_without"], 4),
-                    "median_delta_s_with": _num(o["confusion_median_with"][i], 4),
-                    "median_delta_s_ratio": _num(o["confusion_median_ratio"][i]),
-                }
-        if "discernible" in self.metrics:
-            from .score_discernible import discernible_entry
-
-            d["discernible_colours"] = discernible_entry(self, i, k)
-        return d
+        return filter_entry(self, i)
 
     @functools.cached_property
     def _population_summaries(self) -> dict:
@@ -239,88 +128,10 @@ class Scorecard:
         return population_summaries(self)
 
     def header(self) -> dict:
-        """The top-level keys of :meth:`to_dict` other than ``filters``."""
-        from .metrics.discrimination import receptor_noise
-        from .metrics.pairs import pair_count
-        from .metrics.population_stats import CONFIDENCE, RATIO_TOLERANCE
-        from .metrics.road_use import (CATEGORY_BANDS, DEFAULT_SIGNAL_READING, NIGHT_MIN, RATIO_BAND_NM, RATIO_LIMIT,
-                                       SIGNAL_COLOURS, SIGNAL_LIMIT_READINGS, SIGNAL_LIMIT_SOURCES, SIGNAL_LIMITS)
+        """The top-level keys of :meth:`to_dict` other than ``filters`` (:func:`cvdfilter.scorecard_json.header`)."""
+        from .scorecard_json import header
 
-        ill, surf = self.illuminant, self.surfaces
-        head = {
-            "tool": "cvdfilter",
-            "version": __version__,
-            "caveat": CAVEAT,
-            "cautions": [ROAD_CAUTION, EYE_CARE_CAUTION],
-            "illuminant": {"name": ill.name, "source": ill.source},
-            "surfaces": {"name": surf.name, "source": surf.source, "count": len(surf),
-                         "pairs": pair_count(len(surf))},
-            "adaptation": {"spec": _adaptation_text(self.adaptation), "degree": self.adaptation,
-                           "model": "von Kries, to the illuminant seen through the filter"},
-            "observers": [{"observer": o.spec, "kind": o.kind, "deficiency": o.deficiency,
-                           **({"population": {"n": o.n, "variation": o.variation, "seed": o.seed}}
-                              if is_population(o) else {})} for o in self.observers],
-            "metrics": list(self.metrics),
-            "grid": {"start_nm": self.filters.grid.start, "end_nm": self.filters.grid.end,
-                     "step_nm": self.filters.grid.step},
-            "models": {
-                "photometry": "CIE 1931 2 deg V(lambda) with CIE D65 (ISO 12312-1); white shift and "
-                              "luminous_transmittance_illuminant under the chosen illuminant",
-                "discrimination": {
-                    "model": "receptor-noise-limited, Vorobyev & Osorio 1998",
-                    "threshold_jnd": self.settings.get("discrimination_threshold"),
-                    "distribution_thresholds_jnd": list(self.settings.get("distribution_thresholds", ())),
-                    "median": "median Delta S over the pairs the normal observer (the observer's base, or itself) "
-                              "discriminates without the filter, with the filter / without it",
-                    "weber_fraction_l": self.settings.get("weber_fraction"),
-                    "cone_ratios_lms": list(self.settings.get("cone_ratios", ())),
-                    "noise_by_observer": {o.spec: [_num(v, 5) for v in receptor_noise(
-                        o.missing_cone, weber=self.settings["weber_fraction"],
-                        cone_ratios=self.settings["cone_ratios"])] for o in self.observers},
-                },
-                "confusion": {
-                    "model": "pairs the normal observer (the observer's own base, same age and field) "
-                             "discriminates without the filter (Delta S >= normal threshold) and the deficient "
-                             "observer does not (Delta S < deficient threshold); receptor-noise-limited model",
-                    "normal_threshold_jnd": self.settings.get("normal_threshold"),
-                    "deficient_threshold_jnd": self.settings.get("deficient_threshold"),
-                    "median": "median over the normally discriminable pairs of the deficient observer's "
-                              "Delta S, with the filter / without it",
-                },
-                **({"populations": {
-                    "model": "individual observers: Asano, Fairchild & Blonde (2016) variation of lens, macula, "
-                             "photopigment densities and peaks on the CIE 170-1 observer (docs/models.md section 8)",
-                    "statistics": "over members: mean, sd (ddof 1), p2_5, p50, p97_5 (linear interpolation); "
-                                  "members for whom a metric is undefined are left out",
-                    "helped": "share of members with red_green_gain or blue_yellow_gain above 1, net "
-                              "discriminable or confused pairs (gained - lost, resolved - created) above 0, or "
-                              "median_delta_s_ratio above 1 (ratios: above 1 + ratio_tolerance, a numerical "
-                              "tolerance for rounding); Wilson (1927) score interval",
-                    "confidence": CONFIDENCE, "ratio_tolerance": RATIO_TOLERANCE,
-                }} if any(is_population(o) for o in self.observers) else {}),
-                "road_use": {
-                    "signal_limits": dict(self.settings.get("signal_limits", SIGNAL_LIMITS)),
-                    "signal_limits_reading": self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING),
-                    "signal_limits_source": SIGNAL_LIMIT_SOURCES.get(
-                        self.settings.get("signal_limits_reading", DEFAULT_SIGNAL_READING), "given by the user"),
-                    "other_readings": {k: v for k, v in SIGNAL_LIMIT_READINGS.items()},
-                    "ratio_band_nm": list(RATIO_BAND_NM), "ratio_limit": RATIO_LIMIT, "night_min": NIGHT_MIN,
-                    "category_bands": [{"category": c, "above": lo, "up_to": hi} for c, lo, hi in CATEGORY_BANDS],
-                },
-            },
-            "inputs": self.inputs,
-        }
-        if "discernible" in self.metrics:
-            from .score_discernible import discernible_model
-
-            models: dict = head["models"]  # type: ignore[assignment]
-            models["discernible"] = discernible_model(self)
-        if "road_use" in self.metrics:
-            head["signal_lights"] = {
-                c: {"limit": self.settings.get("signal_limits", SIGNAL_LIMITS)[c],
-                    "lights": [l.describe() for l in self.signal_lights if l.colour == c]}
-                for c in SIGNAL_COLOURS}
-        return head
+        return header(self)
 
     def to_dict(self) -> dict:
         """The scorecard as the JSON document ``cvdfilter score --format json`` prints."""
@@ -400,11 +211,6 @@ class Scorecard:
         return to_xarray(self)
 
 
-def _at_key(t: float) -> str:
-    """JSON key of a distribution threshold: 1 -> ``at_1_jnd``, 0.8 -> ``at_0_8_jnd``."""
-    return f"at_{t:g}_jnd".replace(".", "_")
-
-
 # --- the computation (steps in cvdfilter.score_plan) ------------------------------
 
 def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="ces99", adaptation="full",
@@ -420,65 +226,42 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     Parameters
     ----------
     filters
-        Anything :func:`cvdfilter.load_filters` accepts: spec strings (with
-        sweeps such as ``notch:center=540..600/5,fwhm=30,depth=0.8``), file
-        paths (every column a filter), example names, colour-science spectra,
-        arrays on the grid or a FilterSet.
+        Anything :func:`cvdfilter.load_filters` accepts: spec strings (with sweeps such as
+        ``notch:center=540..600/5,fwhm=30,depth=0.8``), file paths (every column a filter), example names,
+        colour-science spectra, arrays on the grid or a FilterSet.
     illuminant : str or Illuminant
-        The light the surfaces are seen in (photometry and road use always use
-        CIE D65, as ISO 12312-1 prescribes).
+        The light the surfaces are seen in (photometry and road use always use CIE D65, as ISO 12312-1 prescribes).
     observers : sequence of str, Observer or Population
-        Observer specs; default :data:`DEFAULT_OBSERVERS`. A population spec (any spec plus ``n=N``,
-        :func:`cvdfilter.population`) is scored member by member and reported as statistics over its
-        members (``{mean, sd, p2_5, p50, p97_5}`` per metric) and the share ``helped`` with a Wilson 95 %
-        interval (:mod:`cvdfilter.metrics.population_stats`).
+        Observer specs; default :data:`DEFAULT_OBSERVERS`. A population spec (any spec plus ``n=N``) is scored
+        member by member and reported as statistics over its members (``{mean, sd, p2_5, p50, p97_5}`` per
+        metric) and the share ``helped`` with a Wilson 95 % interval (:mod:`cvdfilter.metrics.population_stats`).
     surfaces : str or SurfaceSet
         ``ces99`` (default), ``chart24``, ``tcs14``, ``vs15`` or a reflectance file.
     adaptation : str or float
-        ``full`` (default: von Kries adaptation to the filtered light),
-        ``none`` (adapted to the unfiltered light) or a degree 0-1.
+        ``full`` (default: von Kries to the filtered light), ``none`` (to the unfiltered light) or a degree 0-1.
     metrics : str or sequence
-        ``all`` (default), ``core`` (all but rendition) or group names from
-        :data:`METRIC_GROUPS`.
+        ``all`` (default), ``core`` (all but rendition) or group names from :data:`METRIC_GROUPS`.
     signal_spectra : str, pathlib.Path or dict, optional
-        Measured signal-light spectra: a file whose value columns are named
-        by colour (``red``, ``yellow``/``amber``, ``green``, ``blue``, any
-        suffix), or a dict name -> spectrum on the grid or (wavelengths, values).
-        They replace the modelled lights of their colours.
+        Measured signal-light spectra replacing the modelled lights of their colours: a file whose value columns
+        are named by colour (``red``, ``yellow``/``amber``, ``green``, ``blue``, any suffix), or a dict name ->
+        spectrum on the grid or (wavelengths, values).
     grid : Grid, optional
         Default: the FilterSet's grid, else 380-780 nm at 1 nm.
-    weber_fraction : float
-        L-cone Weber fraction of the receptor-noise model.
-    cone_ratios : sequence of 3 floats
-        L:M:S cone numbers of the receptor-noise model.
-    discrimination_threshold : float
-        Delta S (JND) at or above which a pair is discriminable (headline counts).
-    distribution_thresholds : sequence of float
-        Delta S (JND) of the reported distribution (default 1, 2, 4).
-    normal_threshold, deficient_threshold : float
-        Delta S (JND) of the confused-pair definition (:mod:`cvdfilter.metrics.confusion`).
-    signal_limits : None, str or dict
-        Signal-quotient limits: a reading name, ``red=0.8,...`` or a dict
-        (:func:`cvdfilter.metrics.road_use.parse_signal_limits`); default the
-        ``guidance`` reading.
-    sensitivity : bool
-        Also score every filter under the documented variations of
-        :data:`SENSITIVITY_RANGES` and report how the verdicts move
-        (``Scorecard.sensitivity``, JSON key ``sensitivity``).
-    members : bool
-        With populations: also carry every member's values in the JSON (``members``).
+    weber_fraction, cone_ratios, discrimination_threshold, distribution_thresholds, signal_limits
+        Model constants and thresholds, with ``normal_threshold`` and ``deficient_threshold``
+        (:meth:`cvdfilter.score_inputs.ScoreInputs.validate` says each).
+    sensitivity, members : bool
+        Also report how the verdicts move under the variations of :data:`SENSITIVITY_RANGES` (JSON key
+        ``sensitivity``); with populations, also carry every member's values in the JSON (``members``).
     progress : callable, optional
         ``progress(stage, done, total)``; stages ``filters``, ``members`` (populations) and ``rendition``.
     units, bandwidth : optional
-        Units (``fraction``, ``percent``, ``od``) and instrument bandwidth (nm) of
-        filter files that do not set their own (``FILE@units=od``); see
-        :func:`cvdfilter.load_filters`.
+        Units and bandwidth of filter files that do not set their own (as ``ScoreInputs.validate``).
     scenes : path, Cube or sequence of them, optional
-        With the ``discernible`` group: reflectance cubes whose colours are counted (each per scene and
-        pooled); without them the surface set is counted.
+        With the ``discernible`` group: reflectance cubes whose colours are counted (each per scene and pooled);
+        without them the surface set is counted.
     discernible_method : str
-        ``cielab`` (Linhares et al. 2008, default), ``cam16ucs`` or ``rnl``
-        (:data:`cvdfilter.score_discernible.DISCERNIBLE_METHODS`).
+        ``cielab`` (Linhares et al. 2008, default), ``cam16ucs`` or ``rnl`` (``score_discernible.DISCERNIBLE_METHODS``).
     scheduler : str or Executor, optional
         Where the chunks of filters run (:mod:`cvdfilter.execution`): ``local`` (default, threads in this
         process), ``local:N`` (a Dask LocalCluster) or a Dask scheduler address; the results are the same.
@@ -486,12 +269,8 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     Returns
     -------
     Scorecard
-
-    Raises
-    ------
-    cvdfilter.errors.InputError
-        For a bad filter, illuminant, observer, surface set, adaptation, metric
-        name or signal-spectra file; raised before any heavy work.
+        Raises :class:`cvdfilter.errors.InputError` before any heavy work for a bad filter, illuminant,
+        observer, surface set, adaptation, metric name or signal-spectra file.
 
     Examples
     --------
@@ -501,14 +280,9 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
     (0.5, 1, 1.0)
     """
     args = dict(locals())  # the arguments (first, before any other name is bound here)
-    from .execution import opens_cluster
-
     if opens_cluster(scheduler):  # one cluster for the run: fixed observers, populations, scenes
-        from .execution import executor
-
-        with executor(scheduler) as ex:
-            return score(**{**args, "scheduler": ex})
-    from .score_plan import ScoreInputs, filter_results, plan_observers, run_chunks
+        return _score_on_cluster(args)
+    from .score_plan import ScoreInputs
 
     inp = ScoreInputs.validate(
         filters, illuminant=illuminant, observers=observers, surfaces=surfaces, adaptation=adaptation,
@@ -517,16 +291,37 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         distribution_thresholds=distribution_thresholds, normal_threshold=normal_threshold,
         deficient_threshold=deficient_threshold, signal_limits=signal_limits, units=units, bandwidth=bandwidth,
         sensitivity=sensitivity)
-    groups, n_f = inp.groups, len(inp.filters)
-    discern = None
-    if "discernible" in groups:  # checked before the heavy work, like every input
+    discern = _discernible_inputs(inp, scenes, discernible_method)  # checked before the heavy work
+    results, per_obs = _score_validated(inp, discern, progress, scheduler)
+    return _scorecard(inp, filters, signal_spectra, discern, results, per_obs, members, sensitivity)
+
+
+def _score_on_cluster(args: dict) -> Scorecard:
+    """:func:`score` with one executor (a Dask cluster) opened for the whole run and closed after it."""
+    from .execution import executor
+
+    with executor(args["scheduler"]) as ex:
+        return score(**{**args, "scheduler": ex})
+
+
+def _discernible_inputs(inp, scenes, method: str):
+    """The discernible group's scenes and method (None without the group), checked like every input."""
+    if "discernible" in inp.groups:
         from .score_discernible import discernible_inputs
 
-        discern = discernible_inputs(scenes, inp.surfaces, method=discernible_method, grid=inp.grid)
-    elif scenes:
+        return discernible_inputs(scenes, inp.surfaces, method=method, grid=inp.grid)
+    if scenes:
         from .errors import InputError
 
         raise InputError("scenes are only used by the discernible group", hint="add discernible to --metrics")
+    return None
+
+
+def _score_validated(inp, discern, progress, scheduler) -> tuple[dict, list]:
+    """Per-filter results and per-observer arrays of validated inputs (chunks run through ``scheduler``)."""
+    from .score_plan import filter_results, plan_observers, run_chunks
+
+    groups, n_f = inp.groups, len(inp.filters)
     results = filter_results(inp)
     per_obs: list = [dict() for _ in inp.observers]
     per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
@@ -554,24 +349,35 @@ def score(filters, *, illuminant="D65", observers=DEFAULT_OBSERVERS, surfaces="c
         results.update(rendition_many(inp.filters.transmittance * inp.illuminant.spd, inp.grid.wavelengths,
                                       progress=None if progress is None else
                                       (lambda done, total: progress("rendition", done, total))))
-    record = {"filters": _describe_inputs(filters), "illuminant": inp.illuminant.name,
-              "observers": [o.spec for o in inp.observers], "surfaces": inp.surfaces.name,
-              "adaptation": _adaptation_text(inp.adaptation), "metrics": list(groups),
-              "signal_spectra": None if signal_spectra is None else (
-                  str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
+    return results, per_obs
+
+
+def _scorecard(inp, filters, signal_spectra, discern, results: dict, per_obs: list, members: bool,
+               sensitivity: bool) -> Scorecard:
+    """The Scorecard with the record of its inputs and the settings used (and the sensitivity section)."""
+    record = _input_record(filters, inp, signal_spectra)
     settings = inp.settings()
     if discern is not None:
         record["scenes"] = list(discern.sources)
         record["discernible_method"] = discern.method
         settings["discernible"] = discern.settings()
-    card = Scorecard(inp.filters, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups,
+    card = Scorecard(inp.filters, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, inp.groups,
                      inp.signal_lights, results, per_obs, settings, record, members=members)
     if sensitivity:
         from .score_sensitivity import sensitivity as _sensitivity
 
         card.sensitivity = _sensitivity(card, inp.filters, inp.illuminant, inp.surfaces, inp.observers,
-                                        inp.adaptation, signal_spectra, inp.grid)
+                                        inp.adaptation, inp.signal_spectra, inp.grid)
     return card
+
+
+def _input_record(filters, inp, signal_spectra) -> dict:
+    """The ``inputs`` record of a run (also the streamed run's, :mod:`cvdfilter.score_stream`)."""
+    return {"filters": _describe_inputs(filters), "illuminant": inp.illuminant.name,
+            "observers": [o.spec for o in inp.observers], "surfaces": inp.surfaces.name,
+            "adaptation": _adaptation_text(inp.adaptation), "metrics": list(inp.groups),
+            "signal_spectra": None if signal_spectra is None else (
+                str(signal_spectra) if isinstance(signal_spectra, (str, pathlib.Path)) else "given as arrays")}
 
 
 def _describe_inputs(filters) -> list:

@@ -22,10 +22,9 @@ __all__ = ["to_csv", "csv_rows", "to_markdown", "to_table", "median_ratio", "GAI
 
 
 
-def csv_rows(card) -> tuple[list, list]:
-    """Header and rows: one row per filter x observer, nested keys joined with dots; a population gives
-    one row per statistic (column ``statistic``: mean, sd, p2_5, p50, p97_5), its ``helped`` shares on
-    every row, and no per-member values."""
+def run_columns(card) -> dict:
+    """The CSV columns every row repeats: tool, version, light, surfaces, adaptation, cautions (and the
+    signal limits with road use); also the streamed rows' (:mod:`cvdfilter.score_stream`)."""
     head = card.header()
     run = {"tool": head["tool"], "version": head["version"], "illuminant": head["illuminant"]["name"],
            "surfaces": head["surfaces"]["name"], "adaptation": head["adaptation"]["spec"],
@@ -34,6 +33,14 @@ def csv_rows(card) -> tuple[list, list]:
         ru = head["models"]["road_use"]
         run["signal_limits"] = ",".join(f"{c}={v:g}" for c, v in ru["signal_limits"].items())
         run["signal_limits_reading"] = ru["signal_limits_reading"]
+    return run
+
+
+def csv_rows(card) -> tuple[list, list]:
+    """Header and rows: one row per filter x observer, nested keys joined with dots; a population gives
+    one row per statistic (column ``statistic``: mean, sd, p2_5, p50, p97_5), its ``helped`` shares on
+    every row, and no per-member values."""
+    run = run_columns(card)
     rows, columns = [], []
     seen, layouts = set(), set()
     for i in range(len(card)):

@@ -28,92 +28,117 @@ from .render_manifest import MANIFEST, manifest_item, now, update_manifest
 from .render_workers import run_jobs, run_scheduled
 
 
+# -- the options (help texts are part of the interface: other tools read them) ------------------------------
+_INPUTS = typer.Argument(..., metavar="IMAGE_OR_DIR...",
+                         help="Images (PNG, JPEG, TIFF), cubes (.npy, .npz, TIFF), directories "
+                              "(searched recursively) or glob patterns.")
+_OPT = {
+    "filter": typer.Option(..., "--filter", help="The filter: a spec, a file (FILE:COLUMN for one column "
+                                                 "of a multi-column file) or an example name."),
+    "illuminant": typer.Option("D65", "--illuminant", help="The light the scene is lit by."),
+    "observer": typer.Option("normal", "--observer",
+                             help="The observer, e.g. deuteranope, protanomalous:shift=8, normal:age=70."),
+    "view": typer.Option(None, "--view", help="original, filtered, observer or observer-filtered; "
+                                              "repeat for several (default: all four)."),
+    "panel": typer.Option(False, "--panel", help="Also write a labelled 2x2 panel (PNG) per input."),
+    "out": typer.Option("rendered", "--out", help="Output folder."),
+    "jobs": typer.Option(1, "--jobs", help="Worker processes."),
+    "scheduler": typer.Option(None, "--scheduler", help=(
+        "local (default: this process, or --jobs worker processes), local:N or tcp://HOST:PORT: the files "
+        "are rendered on Dask workers, which must see the same folders (docs/scale.md).")),
+    "force": typer.Option(False, "--force", help="Render again even where the outputs exist."),
+    "max_megapixels": typer.Option(None, "--max-megapixels", help="Refuse larger inputs (default 150)."),
+    "format": typer.Option("auto", "--format",
+                           help="auto, png, png8, png16, tiff, tiff8, tiff16, tiff-float or jpeg "
+                                "(auto: the input's container and bit depth; JPEG and cubes give PNG)."),
+    "adaptation": typer.Option("full", "--adaptation", help="full, none or a fraction 0-1."),
+    "method": typer.Option(None, "--method",
+                           help="Dichromat simulation: brettel-adapted (default: neutral axis at "
+                                "the scene's white), brettel1997 (as published), vienot1999 or "
+                                "brettel-plane; see 'cvdfilter list methods'."),
+    "normalisation": typer.Option("cone", "--normalisation",
+                                  help="Anomalous observers (Machado 2009 mapping): cone (von Kries; "
+                                       "default, continuous) or opponent (Machado's channel gains)."),
+    "scene": typer.Option("reflectance", "--scene",
+                          help="reflectance (surfaces under the illuminant) or display[:PRIMARIES] "
+                               "(light from a display)."),
+    "gamut": typer.Option("clip", "--gamut", help="clip, or none (float output keeps out-of-gamut values)."),
+    "cube_kind": typer.Option(None, "--cube-kind", help="reflectance or radiance (default: the file's, else "
+                                                        "reflectance)."),
+    "wavelengths": typer.Option(None, "--wavelengths", help="Cube band wavelengths, START:STOP:STEP or a list (nm)."),
+    "quiet": typer.Option(False, "--quiet", "-q", help="No progress bar."),
+    # -- file reading: units and bandwidth of a --filter file --
+    "units": typer.Option(None, "--units", help=UNITS_HELP),
+    "bandwidth": typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
+}
+
+
 def register(app: typer.Typer) -> None:
-    @app.command("render")
-    def render(
-        inputs: List[str] = typer.Argument(..., metavar="IMAGE_OR_DIR...",
-                                           help="Images (PNG, JPEG, TIFF), cubes (.npy, .npz, TIFF), directories "
-                                                "(searched recursively) or glob patterns."),
-        filter: str = typer.Option(..., "--filter", help="The filter: a spec, a file (FILE:COLUMN for one column "
-                                                         "of a multi-column file) or an example name."),
-        illuminant: str = typer.Option("D65", "--illuminant", help="The light the scene is lit by."),
-        observer: str = typer.Option("normal", "--observer",
-                                     help="The observer, e.g. deuteranope, protanomalous:shift=8, normal:age=70."),
-        view: Optional[List[str]] = typer.Option(None, "--view",
-                                                 help="original, filtered, observer or observer-filtered; "
-                                                      "repeat for several (default: all four)."),
-        panel: bool = typer.Option(False, "--panel", help="Also write a labelled 2x2 panel (PNG) per input."),
-        out: str = typer.Option("rendered", "--out", help="Output folder."),
-        jobs: int = typer.Option(1, "--jobs", help="Worker processes."),
-        scheduler: Optional[str] = typer.Option(None, "--scheduler", help=(
-            "local (default: this process, or --jobs worker processes), local:N or tcp://HOST:PORT: the files "
-            "are rendered on Dask workers, which must see the same folders (docs/scale.md).")),
-        force: bool = typer.Option(False, "--force", help="Render again even where the outputs exist."),
-        max_megapixels: Optional[float] = typer.Option(None, "--max-megapixels",
-                                                       help="Refuse larger inputs (default 150)."),
-        format: str = typer.Option("auto", "--format",
-                                   help="auto, png, png8, png16, tiff, tiff8, tiff16, tiff-float or jpeg "
-                                        "(auto: the input's container and bit depth; JPEG and cubes give PNG)."),
-        adaptation: str = typer.Option("full", "--adaptation", help="full, none or a fraction 0-1."),
-        method: Optional[str] = typer.Option(None, "--method",
-                                             help="Dichromat simulation: brettel-adapted (default: neutral axis at "
-                                                  "the scene's white), brettel1997 (as published), vienot1999 or "
-                                                  "brettel-plane; see 'cvdfilter list methods'."),
-        normalisation: str = typer.Option("cone", "--normalisation",
-                                          help="Anomalous observers (Machado 2009 mapping): cone (von Kries; "
-                                               "default, continuous) or opponent (Machado's channel gains)."),
-        scene: str = typer.Option("reflectance", "--scene",
-                                  help="reflectance (surfaces under the illuminant) or display[:PRIMARIES] "
-                                       "(light from a display)."),
-        gamut: str = typer.Option("clip", "--gamut", help="clip, or none (float output keeps out-of-gamut values)."),
-        cube_kind: Optional[str] = typer.Option(None, "--cube-kind",
-                                                help="reflectance or radiance (default: the file's, else "
-                                                     "reflectance)."),
-        wavelengths: Optional[str] = typer.Option(None, "--wavelengths",
-                                                  help="Cube band wavelengths, START:STOP:STEP or a list (nm)."),
-        quiet: bool = typer.Option(False, "--quiet", "-q", help="No progress bar."),
-        # -- file reading: units and bandwidth of a --filter file --
-        units: Optional[str] = typer.Option(None, "--units", help=UNITS_HELP),
-        bandwidth: Optional[float] = typer.Option(None, "--bandwidth", help=BANDWIDTH_HELP),
-    ) -> None:
-        """Render images or cubes before and after a filter, as the observer would see them.
+    app.command("render")(render)
 
-        Example: cvdfilter render photos/ --filter larkhill-notch-575 --observer deuteranope --panel --out rendered
-        """
-        from ..errors import InputError
-        from ..io.cubes import CUBE_KINDS, parse_wavelengths
-        from ..io.images import DEFAULT_MAX_MEGAPIXELS
-        from ..rendering import OUTPUT_FORMATS, VIEWS, Renderer
 
-        views = [v.strip().lower() for v in (view or VIEWS)]
-        bad = [v for v in views if v not in VIEWS]
-        if bad:
-            fail(f"--view {bad[0]} is not one of {', '.join(VIEWS)}")
-        views = list(dict.fromkeys(views))
-        if format not in OUTPUT_FORMATS:
-            fail(f"--format {format} is not one of {', '.join(OUTPUT_FORMATS)}")
-        if jobs < 1:
-            fail(f"--jobs {jobs} must be at least 1")
-        mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
-        if not mp > 0:
-            fail(f"--max-megapixels {mp:g} must be above 0")
-        if cube_kind is not None and cube_kind.strip().lower() not in CUBE_KINDS:
-            fail(f"--cube-kind {cube_kind} is not reflectance or radiance")
-        try:
-            wl = None if wavelengths is None else parse_wavelengths(wavelengths)
-            filter = file_options(filter, units, bandwidth)  # file reading: --units/--bandwidth
-            renderer = Renderer(filter, observer=observer, illuminant=illuminant, adaptation=adaptation,
-                                method=method, normalisation=normalisation, scene=scene, gamut=gamut)
-            if gamut == "none" and format not in ("tiff", "tiff-float", "auto"):
-                raise InputError("--gamut none needs float output (--format tiff-float)")
-            from ..execution import parse_scheduler
+def render(
+    inputs: List[str] = _INPUTS,
+    filter: str = _OPT["filter"],
+    illuminant: str = _OPT["illuminant"],
+    observer: str = _OPT["observer"],
+    view: Optional[List[str]] = _OPT["view"],
+    panel: bool = _OPT["panel"],
+    out: str = _OPT["out"],
+    jobs: int = _OPT["jobs"],
+    scheduler: Optional[str] = _OPT["scheduler"],
+    force: bool = _OPT["force"],
+    max_megapixels: Optional[float] = _OPT["max_megapixels"],
+    format: str = _OPT["format"],
+    adaptation: str = _OPT["adaptation"],
+    method: Optional[str] = _OPT["method"],
+    normalisation: str = _OPT["normalisation"],
+    scene: str = _OPT["scene"],
+    gamut: str = _OPT["gamut"],
+    cube_kind: Optional[str] = _OPT["cube_kind"],
+    wavelengths: Optional[str] = _OPT["wavelengths"],
+    quiet: bool = _OPT["quiet"],
+    units: Optional[str] = _OPT["units"],
+    bandwidth: Optional[float] = _OPT["bandwidth"],
+) -> None:
+    """Render images or cubes before and after a filter, as the observer would see them.
 
-            on_dask = parse_scheduler(scheduler)[0] != "local"
-        except InputError as exc:
-            fail(exc)
-        options = {"fmt": format, "cube_kind": cube_kind, "wavelengths": wl, "max_megapixels": mp}
-        _batch(inputs, renderer, options, views=views, panel=panel, out=out, jobs=jobs, force=force, quiet=quiet,
-               scheduler=scheduler if on_dask else None)
+    Example: cvdfilter render photos/ --filter larkhill-notch-575 --observer deuteranope --panel --out rendered
+    """
+    from ..errors import InputError
+    from ..io.cubes import CUBE_KINDS, parse_wavelengths
+    from ..io.images import DEFAULT_MAX_MEGAPIXELS
+    from ..rendering import OUTPUT_FORMATS, VIEWS, Renderer
+
+    views = [v.strip().lower() for v in (view or VIEWS)]
+    bad = [v for v in views if v not in VIEWS]
+    if bad:
+        fail(f"--view {bad[0]} is not one of {', '.join(VIEWS)}")
+    views = list(dict.fromkeys(views))
+    if format not in OUTPUT_FORMATS:
+        fail(f"--format {format} is not one of {', '.join(OUTPUT_FORMATS)}")
+    if jobs < 1:
+        fail(f"--jobs {jobs} must be at least 1")
+    mp = DEFAULT_MAX_MEGAPIXELS if max_megapixels is None else max_megapixels
+    if not mp > 0:
+        fail(f"--max-megapixels {mp:g} must be above 0")
+    if cube_kind is not None and cube_kind.strip().lower() not in CUBE_KINDS:
+        fail(f"--cube-kind {cube_kind} is not reflectance or radiance")
+    try:
+        wl = None if wavelengths is None else parse_wavelengths(wavelengths)
+        filter = file_options(filter, units, bandwidth)  # file reading: --units/--bandwidth
+        renderer = Renderer(filter, observer=observer, illuminant=illuminant, adaptation=adaptation,
+                            method=method, normalisation=normalisation, scene=scene, gamut=gamut)
+        if gamut == "none" and format not in ("tiff", "tiff-float", "auto"):
+            raise InputError("--gamut none needs float output (--format tiff-float)")
+        from ..execution import parse_scheduler
+
+        on_dask = parse_scheduler(scheduler)[0] != "local"
+    except InputError as exc:
+        fail(exc)
+    options = {"fmt": format, "cube_kind": cube_kind, "wavelengths": wl, "max_megapixels": mp}
+    _batch(inputs, renderer, options, views=views, panel=panel, out=out, jobs=jobs, force=force, quiet=quiet,
+           scheduler=scheduler if on_dask else None)
 
 
 def _batch(inputs, renderer, options: dict, *, views, panel: bool, out: str, jobs: int, force: bool,

@@ -86,13 +86,7 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
     if len(result.filters) > 8:
         raise InputError(f"{len(result.filters)} filters: the tasks figure compares at most 8")
     obs = next((o for o in result.observers if not o.startswith("normal")), result.observers[0])
-    s = result.scores[(task, obs)]
-    uv = result.cap_uv(task)
-    i0, i1 = _median_trial(s["tes"][0]), _median_trial(s["tes"][1])
-    order0 = s["order"][0].reshape(-1, uv.shape[0])[i0]
-    order1 = s["order"][1].reshape(-1, uv.shape[0])[i1]
-    ell = {state: tuple(float(np.median(s[k][idx])) for k in ("r_major", "r_minor", "confusion_angle_deg"))
-           for state, idx in (("without", 0), ("with", 1))}
+    uv, order0, order1, ell = _path_data(result, task, obs)
     from ..spectra.illuminants import illuminant as make_illuminant
 
     ill = make_illuminant(illuminant)
@@ -121,6 +115,19 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
               "observers": list(result.observers), "task": task, "trials": result.settings["trials"],
               "seed": result.settings["seed"]}
     return FigureResult("tasks", fig, data, style, inputs)
+
+
+def _path_data(result, task: str, obs: str) -> tuple:
+    """Cap positions, the median-TES arrangements without and with the first filter, and the median moment
+    ellipses (r_major, r_minor, angle) of observer ``obs``."""
+    s = result.scores[(task, obs)]
+    uv = result.cap_uv(task)
+    i0, i1 = _median_trial(s["tes"][0]), _median_trial(s["tes"][1])
+    order0 = s["order"][0].reshape(-1, uv.shape[0])[i0]
+    order1 = s["order"][1].reshape(-1, uv.shape[0])[i1]
+    ell = {state: tuple(float(np.median(s[k][idx])) for k in ("r_major", "r_minor", "confusion_angle_deg"))
+           for state, idx in (("without", 0), ("with", 1))}
+    return uv, order0, order1, ell
 
 
 def _heights(width_mm: float, n_observers: int) -> tuple[float, float]:
