@@ -332,3 +332,41 @@ def map_chunks(fn: Callable, shared: Any, bounds: Iterable[tuple[int, int]], *,
         return
     with executor(scheduler) as ex:
         yield from ex.map(fn, shared, bounds, progress=progress)
+
+
+def process_map(fn, items: list, *, processes: int, initializer=None, initargs=(), on_result=None) -> str | None:
+    """``fn(item)`` for every item in worker processes of this machine (spawned; for work that must survive
+    a worker's death, such as render batches), calling ``on_result(item, result)`` as each finishes.
+
+    Returns None when every item finished, else why the rest did not: a worker that stopped (killed, out
+    of memory) breaks the pool, and Ctrl-C stops it; the workers still busy are killed so that nothing they
+    write afterwards goes unrecorded. The caller records the items without a result.
+    """
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures.process import BrokenProcessPool
+
+    ctx = multiprocessing.get_context("spawn")
+    pool = ProcessPoolExecutor(max_workers=max(1, min(processes, len(items))), mp_context=ctx,
+                               initializer=initializer, initargs=initargs)
+    why = None
+    try:
+        futures = {pool.submit(fn, item): item for item in items}
+        for fut in as_completed(futures):
+            try:
+                result = fut.result()
+            except BrokenProcessPool:
+                why = "a worker process stopped unexpectedly (killed, or out of memory)"
+                continue
+            if on_result is not None:
+                on_result(futures[fut], result)
+    except KeyboardInterrupt:
+        why = "interrupted"
+    finally:
+        workers = list((getattr(pool, "_processes", None) or {}).values())
+        pool.shutdown(wait=why is None, cancel_futures=True)
+        if why is not None:
+            for proc in workers:  # stop workers still busy: their results would not be recorded
+                if proc.is_alive():
+                    proc.kill()
+    return why

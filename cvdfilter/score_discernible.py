@@ -27,7 +27,8 @@ The work is vectorised over filters: per chunk of filters one product gives ever
 filter, and one count covers them all. Model predictions, not clinical evidence.
 
 Public: :func:`discernible_inputs`, :class:`DiscernibleInputs`, :func:`score_discernible`,
-:func:`discernible_entry`, :func:`discernible_model`, :data:`DISCERNIBLE_METHODS`, :data:`DEFAULT_METHOD`.
+:data:`DISCERNIBLE_METHODS`, :data:`DEFAULT_METHOD` (the JSON entry is
+:func:`cvdfilter.scorecard_json.discernible_entry`).
 """
 
 from __future__ import annotations
@@ -40,8 +41,8 @@ import numpy as np
 
 from .errors import InputError
 
-__all__ = ["discernible_inputs", "DiscernibleInputs", "score_discernible", "discernible_entry",
-           "discernible_model", "DISCERNIBLE_METHODS", "DEFAULT_METHOD", "STORE_KEYS"]
+__all__ = ["discernible_inputs", "DiscernibleInputs", "score_discernible", "DISCERNIBLE_METHODS", "DEFAULT_METHOD",
+           "STORE_KEYS"]
 
 #: Counting spaces (``--discernible-method``): name -> what is counted.
 DISCERNIBLE_METHODS = {
@@ -495,51 +496,3 @@ def _store(results: list, n_s: int, population: bool) -> dict:
         store["discernible_mean_scene_ratio"] = ratios.mean(axis=0)
     store["discernible_excluded_pixels"] = stack("excluded")
     return store
-
-
-# --- the JSON -------------------------------------------------------------------------------------------
-
-def discernible_model(card) -> dict:
-    """The ``models.discernible`` block of the scorecard's JSON."""
-    return dict(card.settings.get("discernible", {}))
-
-
-def discernible_entry(card, i: int, k: int, summary=None) -> dict:
-    """The ``discernible_colours`` entry of observer ``k`` for filter ``i``.
-
-    Keys: ``without``, ``with``, ``ratio`` (with / without), ``method``, ``normal_without``,
-    ``ratio_to_normal`` (without / normal without), ``ratio_to_normal_with`` (with / normal without),
-    pooled over the stimuli; ``scenes`` (stimulus name -> the same keys) and ``mean_scene_ratio`` when
-    there are several. For a population ``summary(key)`` gives the statistics of a key (its counts and
-    ratios become ``{mean, sd, p2_5, p50, p97_5}``).
-    """
-    from .scorecard import _num
-
-    info = card.settings.get("discernible", {})
-    o = card.per_observer[k]
-
-    def value(key, digits=6, count=False):
-        if summary is not None:
-            return summary(f"discernible_{key}", digits)
-        v = np.asarray(o[f"discernible_{key}"], dtype=float)
-        x = float(v[i]) if v.ndim else float(v)
-        if count:
-            return int(x) if np.isfinite(x) else None
-        return _num(x, digits)
-
-    def block(prefix):
-        return {"without": value(prefix + "without", count=True), "with": value(prefix + "with", count=True),
-                "ratio": value(prefix + "ratio"), "normal_without": value(prefix + "normal_without", count=True),
-                "ratio_to_normal": value(prefix + "ratio_to_normal"),
-                "ratio_to_normal_with": value(prefix + "ratio_to_normal_with")}
-
-    d = {**block(""), "method": info.get("method", DEFAULT_METHOD)}
-    stimuli = [s["name"] for s in info.get("stimuli", [])]
-    if len(stimuli) > 1:
-        d["pooled"] = "union"
-        d["mean_scene_ratio"] = value("mean_scene_ratio")
-        d["scenes"] = {name: block(f"scene{j}_") for j, name in enumerate(stimuli)}
-    if info.get("method") == "cam16ucs":
-        d["excluded_pixels"] = value("excluded_pixels", count=True) if summary is None else \
-            summary("discernible_excluded_pixels", 0)
-    return d

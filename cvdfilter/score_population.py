@@ -429,7 +429,7 @@ def population_entry(card, i: int, k: int) -> dict:
                 "median_delta_s_ratio": s("confusion_median_ratio"),
             }
     if "discernible" in card.metrics:
-        from .score_discernible import discernible_entry
+        from .scorecard_json import discernible_entry
 
         d["discernible_colours"] = discernible_entry(card, i, k, summary=s)
     d["helped"] = {key: {"share": _num(h["share"][i]), "ci_low": _num(h["ci_low"][i]),

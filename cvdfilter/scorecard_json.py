@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from ._version import __version__
 from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
 from .score_plan import CONFUSION_KEYS as _CONFUSION_KEYS, PAIR_KEYS as _PAIR_KEYS
@@ -134,8 +136,6 @@ def observer_entry(card, i: int, k: int) -> dict:
                 "median_delta_s_ratio": _num(o["confusion_median_ratio"][i]),
             }
     if "discernible" in card.metrics:
-        from .score_discernible import discernible_entry
-
         d["discernible_colours"] = discernible_entry(card, i, k)
     return d
 
@@ -166,8 +166,6 @@ def header(card) -> dict:
         "inputs": card.inputs,
     }
     if "discernible" in card.metrics:
-        from .score_discernible import discernible_model
-
         models: dict = head["models"]  # type: ignore[assignment]
         models["discernible"] = discernible_model(card)
     if "road_use" in card.metrics:
@@ -241,3 +239,51 @@ def _road_use_model(st: dict) -> dict:
         "ratio_band_nm": list(RATIO_BAND_NM), "ratio_limit": RATIO_LIMIT, "night_min": NIGHT_MIN,
         "category_bands": [{"category": c, "above": lo, "up_to": hi} for c, lo, hi in CATEGORY_BANDS],
     }
+
+
+# --- the discernible group -------------------------------------------------------------------------------------------
+
+def discernible_model(card) -> dict:
+    """The ``models.discernible`` block of the scorecard's JSON."""
+    return dict(card.settings.get("discernible", {}))
+
+
+def discernible_entry(card, i: int, k: int, summary=None) -> dict:
+    """The ``discernible_colours`` entry of observer ``k`` for filter ``i``.
+
+    Keys: ``without``, ``with``, ``ratio`` (with / without), ``method``, ``normal_without``,
+    ``ratio_to_normal`` (without / normal without), ``ratio_to_normal_with`` (with / normal without),
+    pooled over the stimuli; ``scenes`` (stimulus name -> the same keys) and ``mean_scene_ratio`` when
+    there are several. For a population ``summary(key)`` gives the statistics of a key (its counts and
+    ratios become ``{mean, sd, p2_5, p50, p97_5}``).
+    """
+    from .score_discernible import DEFAULT_METHOD
+
+    info = card.settings.get("discernible", {})
+    o = card.per_observer[k]
+
+    def value(key, digits=6, count=False):
+        if summary is not None:
+            return summary(f"discernible_{key}", digits)
+        v = np.asarray(o[f"discernible_{key}"], dtype=float)
+        x = float(v[i]) if v.ndim else float(v)
+        if count:
+            return int(x) if np.isfinite(x) else None
+        return _num(x, digits)
+
+    def block(prefix):
+        return {"without": value(prefix + "without", count=True), "with": value(prefix + "with", count=True),
+                "ratio": value(prefix + "ratio"), "normal_without": value(prefix + "normal_without", count=True),
+                "ratio_to_normal": value(prefix + "ratio_to_normal"),
+                "ratio_to_normal_with": value(prefix + "ratio_to_normal_with")}
+
+    d = {**block(""), "method": info.get("method", DEFAULT_METHOD)}
+    stimuli = [s["name"] for s in info.get("stimuli", [])]
+    if len(stimuli) > 1:
+        d["pooled"] = "union"
+        d["mean_scene_ratio"] = value("mean_scene_ratio")
+        d["scenes"] = {name: block(f"scene{j}_") for j, name in enumerate(stimuli)}
+    if info.get("method") == "cam16ucs":
+        d["excluded_pixels"] = value("excluded_pixels", count=True) if summary is None else \
+            summary("discernible_excluded_pixels", 0)
+    return d

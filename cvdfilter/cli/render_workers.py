@@ -112,40 +112,21 @@ def run_jobs(todo: list, renderer, options: dict, jobs: int, quiet: bool) -> lis
             finally:
                 _WORKER.clear()
         else:
-            import multiprocessing
             import pickle
-            from concurrent.futures import ProcessPoolExecutor, as_completed
-            from concurrent.futures.process import BrokenProcessPool
 
-            ctx = multiprocessing.get_context("spawn")
+            from ..execution import process_map
+
+            def done(j: dict, rec: dict) -> None:
+                records[j["input"]] = rec
+                progress.advance(task)
+
             payload = pickle.dumps((renderer, options), protocol=pickle.HIGHEST_PROTOCOL)
-            pool = ProcessPoolExecutor(max_workers=min(jobs, len(todo)), mp_context=ctx, initializer=init_worker,
-                                       initargs=(payload, os.getpid()))
-            why = None
-            try:
-                futures = {pool.submit(render_task, j): j for j in todo}
-                for fut in as_completed(futures):
-                    j = futures[fut]
-                    try:
-                        records[j["input"]] = fut.result()
-                    except BrokenProcessPool:
-                        why = "a worker process stopped unexpectedly (killed, or out of memory)"
-                    progress.advance(task)
-            except KeyboardInterrupt:
-                why = "interrupted"
-            finally:
-                workers = list((getattr(pool, "_processes", None) or {}).values())
-                pool.shutdown(wait=why is None, cancel_futures=True)
-                if why is not None:
-                    for proc in workers:  # stop workers still busy: their results would not be recorded
-                        if proc.is_alive():
-                            proc.kill()
+            stopped = process_map(render_task, todo, processes=jobs, initializer=init_worker,
+                                  initargs=(payload, os.getpid()), on_result=done)
             for j in todo:
                 records.setdefault(j["input"], {"input": j["input"], "status": "failed",
-                                                "error": f"{j['input']}: " + lost.format(why=why or "unknown")})
+                                                "error": f"{j['input']}: " + lost.format(why=stopped or "unknown")})
     return [records[j["input"]] for j in todo]
-
-
 
 
 def _render_chunk(shared: tuple, lo: int, hi: int) -> list:

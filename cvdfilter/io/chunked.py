@@ -24,6 +24,7 @@ from typing import Any
 
 from ..errors import InputError
 from .atomic import atomic_path
+from .checksum import file_sha256 as _sha256
 
 __all__ = ["ChunkedOutput", "manifest_path", "FORMATS"]
 
@@ -35,14 +36,6 @@ def manifest_path(path) -> pathlib.Path:
     """``FILE.manifest.json`` beside ``FILE``."""
     p = pathlib.Path(path)
     return p.with_name(p.name + ".manifest.json")
-
-
-def _sha256(path: pathlib.Path) -> str:
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
 
 
 def _write_atomic(path: pathlib.Path, data: bytes) -> None:

@@ -73,19 +73,14 @@ def _small(px: np.ndarray, max_pixels: int = 1200) -> np.ndarray:
 
 def file_checksum(path) -> str:
     """SHA-256 of a file's bytes, hex (read in blocks; a pipe or device is refused)."""
-    import hashlib
-
+    from ..io.checksum import file_sha256
     from ..io.images import regular_file
 
     p = regular_file(path)
-    h = hashlib.sha256()
     try:
-        with open(p, "rb") as fh:
-            for block in iter(lambda: fh.read(1 << 20), b""):
-                h.update(block)
+        return file_sha256(p)
     except OSError as exc:
         raise InputError(f"cannot read ({exc.strerror or exc})", source=str(p)) from None
-    return h.hexdigest()
 
 
 def _digest(obj) -> str:

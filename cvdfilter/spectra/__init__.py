@@ -6,8 +6,7 @@ lives in the submodule :data:`_LAZY` names.
 
 from __future__ import annotations
 
-import importlib
-from typing import Any
+from .._lazy import lazy_exports
 
 _LAZY = {
     "Grid": ".grid",
@@ -41,15 +40,4 @@ _LAZY = {
 
 __all__ = list(_LAZY)
 
-
-def __getattr__(name: str) -> Any:
-    module = _LAZY.get(name)
-    if module is None:
-        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    value = getattr(importlib.import_module(module, __name__), name)
-    globals()[name] = value
-    return value
-
-
-def __dir__() -> list[str]:
-    return sorted(set(globals()) | set(__all__))
+__getattr__, __dir__ = lazy_exports(__name__, _LAZY)

@@ -14,7 +14,6 @@ Public: :class:`FileTerm`, :func:`file_term`, :func:`spec_paths`,
 
 from __future__ import annotations
 
-import hashlib
 import math
 import pathlib
 from dataclasses import dataclass
@@ -22,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ...errors import InputError, InputWarning, clip_text, did_you_mean
+from ...io.checksum import file_sha256 as _sha256
 from ..grid import Grid
 from .features import find_features, find_notches
 from .filter_set import FilterSet
@@ -60,14 +60,6 @@ def example_path(name: str) -> pathlib.Path:
 
 
 # --- files: selection, options, loading ----------------------------------------
-
-def _sha256(path: pathlib.Path) -> str:
-    h = hashlib.sha256()
-    with open(path, "rb") as fh:
-        for block in iter(lambda: fh.read(1 << 20), b""):
-            h.update(block)
-    return h.hexdigest()
-
 
 @dataclass(frozen=True)
 class FileTerm:
