@@ -15,6 +15,7 @@ import numpy as np
 
 from ._version import __version__
 from .cautions import CAVEAT, EYE_CARE_CAUTION, ROAD_CAUTION
+from .metric_registry import _at_key
 from .score_plan import CONFUSION_KEYS as _CONFUSION_KEYS, PAIR_KEYS as _PAIR_KEYS
 from .score_population import is_population
 
@@ -31,11 +32,6 @@ def _num(x, digits: int = 6):
     if x != x or x in (math.inf, -math.inf):
         return None
     return round(x, digits) + 0.0  # + 0.0 turns -0.0 into 0.0
-
-
-def _at_key(t: float) -> str:
-    """JSON key of a distribution threshold: 1 -> ``at_1_jnd``, 0.8 -> ``at_0_8_jnd``."""
-    return f"at_{t:g}_jnd".replace(".", "_")
 
 
 def filter_entry(card, i: int) -> dict:

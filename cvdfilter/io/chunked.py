@@ -17,13 +17,12 @@ from __future__ import annotations
 
 import hashlib
 import json
-import os
 import pathlib
 import shutil
 from typing import Any
 
 from ..errors import InputError
-from .atomic import atomic_path
+from .atomic import atomic_path, write_bytes as _write_atomic
 from .checksum import file_sha256 as _sha256
 
 __all__ = ["ChunkedOutput", "manifest_path", "FORMATS"]
@@ -36,13 +35,6 @@ def manifest_path(path) -> pathlib.Path:
     """``FILE.manifest.json`` beside ``FILE``."""
     p = pathlib.Path(path)
     return p.with_name(p.name + ".manifest.json")
-
-
-def _write_atomic(path: pathlib.Path, data: bytes) -> None:
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    with open(tmp, "wb") as fh:
-        fh.write(data)
-    os.replace(tmp, path)
 
 
 class ChunkedOutput:
