@@ -35,7 +35,7 @@ Public: :data:`CATEGORY_BANDS`, :data:`SIGNAL_LIMITS`, :data:`SIGNAL_LIMIT_READI
 :data:`RATIO_BAND_NM`, :data:`RATIO_LIMIT`, :data:`NIGHT_MIN`, :class:`SignalLight`,
 :func:`iso12312_category`, :func:`category_text`, :func:`min_ratio_in_band`,
 :func:`modelled_signal_lights`, :func:`signal_colour`, :func:`signal_quotients`,
-:func:`road_use_flags`, :func:`road_use_reasons`.
+:func:`road_use_flags`, :func:`road_use_reasons`, :func:`road_use_reasons_many`.
 """
 
 from __future__ import annotations
@@ -49,7 +49,7 @@ __all__ = ["CATEGORY_BANDS", "SIGNAL_LIMITS", "SIGNAL_LIMIT_READINGS", "SIGNAL_L
            "DEFAULT_SIGNAL_READING", "parse_signal_limits", "describe_signal_limits", "SIGNAL_COLOURS",
            "RATIO_BAND_NM", "RATIO_LIMIT", "NIGHT_MIN", "MODEL_NOTE", "SignalLight", "iso12312_category",
            "category_text", "min_ratio_in_band", "modelled_signal_lights", "signal_colour", "signal_quotients",
-           "road_use_flags", "road_use_reasons"]
+           "road_use_flags", "road_use_reasons", "road_use_reasons_many"]
 
 #: ISO 12312-1:2013 luminous transmittance categories as (category, lower, upper) fractions:
 #: lower exclusive, upper inclusive (College of Optometrists, "Tints and driving").
@@ -408,44 +408,85 @@ def road_use_reasons(tau_v: float, category: int, min_ratio: float, at_nm: float
     Signal quotients meet their limits: red 1.00, yellow 1.00, green 1.00, blue 1.00.
     Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.
     """
+    worst = {c: [w] for c, w in (worst_lights or {}).items()}
+    return road_use_reasons_many([tau_v], [category], [min_ratio], [at_nm], {c: [q] for c, q in quotients.items()},
+                                 worst, limits)[0]
+
+
+def road_use_reasons_many(tau_v, category, min_ratio, at_nm, quotients: dict, worst_lights: dict | None = None,
+                          limits: dict | None = None) -> list[list[str]]:
+    """:func:`road_use_reasons` of many filters at once (the one construction of the sentences).
+
+    Parameters
+    ----------
+    tau_v, category, min_ratio, at_nm : sequence
+        Per filter, as :func:`road_use_reasons` takes them for one.
+    quotients : dict
+        colour -> sequence of quotients over the filters.
+    worst_lights : dict, optional
+        colour -> sequence over the filters of the light giving the lowest quotient.
+    limits : dict, optional
+        Signal-quotient limits (default :data:`SIGNAL_LIMITS`).
+
+    Returns
+    -------
+    list of list of str
+        Per filter, its sentences.
+
+    >>> road_use_reasons_many([0.0, 0.9], [-1, 0], [0.5, 1.0], [500.0, 475.0], {"red": [0.0, 1.0]})[1][-1]
+    'Luminous transmittance is at least 75 %, the condition for driving at dusk or at night.'
+    """
     worst_lights = worst_lights or {}
     limits = SIGNAL_LIMITS if limits is None else limits
+    lo, hi = RATIO_BAND_NM
+    ratio_ok = (f"Spectral transmittance stays at or above {RATIO_LIMIT:g} x the luminous transmittance from "
+                f"{lo:g} to {hi:g} nm (lowest ")
+    ratio_low = f"; road use needs at least {RATIO_LIMIT:g} x everywhere from {lo:g} to {hi:g} nm."
+    limit_text = {c: f"{limits[c]:g}" for c in quotients}
+    cat_text: dict = {}
 
     def ratio(x):  # two significant digits for small ratios, two decimals otherwise
         return f"{x:.2g}" if x < 0.095 else f"{x:.2f}"
 
-    if not tau_v > 0:
-        return ["The filter transmits no light in the visible range: not suitable for road use."]
-    lo, hi = RATIO_BAND_NM
+    def listed(v):
+        return v.tolist() if isinstance(v, np.ndarray) else list(v)
+
+    taus, cats, ratios, ats = listed(tau_v), [int(c) for c in listed(category)], listed(min_ratio), listed(at_nm)
+    qs = {c: listed(q) for c, q in quotients.items()}
+    worst = {c: listed(w) for c, w in worst_lights.items()}
     out = []
-    pct = f"{100 * tau_v:.1f} %"
-    if category >= 0:
-        out.append(f"Luminous transmittance {pct} (CIE D65, CIE 1931 2 deg V(lambda)) is in ISO 12312-1 "
-                   f"category {category} ({category_text(category)}).")
-    else:
-        out.append(f"Luminous transmittance {pct} is at or below 3 %, outside the ISO 12312-1 categories: "
-                   "not suitable for road use.")
-    if category == 4:
-        out.append("Category 4 filters are not suitable for driving.")
-    if min_ratio >= RATIO_LIMIT:
-        out.append(f"Spectral transmittance stays at or above {RATIO_LIMIT:g} x the luminous transmittance from "
-                   f"{lo:g} to {hi:g} nm (lowest {ratio(min_ratio)} x, at {at_nm:g} nm).")
-    else:
-        out.append(f"Spectral transmittance falls to {ratio(min_ratio)} x the luminous transmittance at {at_nm:g} nm; "
-                   f"road use needs at least {RATIO_LIMIT:g} x everywhere from {lo:g} to {hi:g} nm.")
-    failing = [c for c, q in quotients.items() if not q >= limits[c]]
-    for c in failing:
-        which = f" (lowest with the {worst_lights[c]} light)" if c in worst_lights else ""
-        out.append(f"The {c} signal quotient is {quotients[c]:.2f}, below the limit of {limits[c]:g}{which}.")
-    if not failing:
-        out.append("Signal quotients meet their limits: "
-                   + ", ".join(f"{c} {q:.2f}" for c, q in quotients.items()) + ".")
-    day_ok = 0 <= category <= 3 and min_ratio >= RATIO_LIMIT and not failing
-    if round(tau_v, 9) < NIGHT_MIN:
-        out.append("Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.")
-    elif day_ok:
-        out.append("Luminous transmittance is at least 75 %, the condition for driving at dusk or at night.")
-    else:
-        out.append("Luminous transmittance is at least 75 %, but the filter fails a daytime check above, so it "
-                   "is not suitable at dusk or at night either.")
+    for i, tau in enumerate(taus):
+        if not tau > 0:
+            out.append(["The filter transmits no light in the visible range: not suitable for road use."])
+            continue
+        cat, mr = cats[i], ratios[i]
+        pct = f"{100 * tau:.1f} %"
+        if cat >= 0:
+            if cat not in cat_text:
+                cat_text[cat] = f"category {cat} ({category_text(cat)})."
+            s = [f"Luminous transmittance {pct} (CIE D65, CIE 1931 2 deg V(lambda)) is in ISO 12312-1 {cat_text[cat]}"]
+        else:
+            s = [f"Luminous transmittance {pct} is at or below 3 %, outside the ISO 12312-1 categories: "
+                 "not suitable for road use."]
+        if cat == 4:
+            s.append("Category 4 filters are not suitable for driving.")
+        if mr >= RATIO_LIMIT:
+            s.append(f"{ratio_ok}{ratio(mr)} x, at {ats[i]:g} nm).")
+        else:
+            s.append(f"Spectral transmittance falls to {ratio(mr)} x the luminous transmittance at {ats[i]:g} nm"
+                     + ratio_low)
+        failing = [c for c, q in qs.items() if not q[i] >= limits[c]]
+        for c in failing:
+            which = f" (lowest with the {worst[c][i]} light)" if c in worst else ""
+            s.append(f"The {c} signal quotient is {qs[c][i]:.2f}, below the limit of {limit_text[c]}{which}.")
+        if not failing:
+            s.append("Signal quotients meet their limits: " + ", ".join(f"{c} {q[i]:.2f}" for c, q in qs.items()) + ".")
+        if round(tau, 9) < NIGHT_MIN:
+            s.append("Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.")
+        elif 0 <= cat <= 3 and mr >= RATIO_LIMIT and not failing:
+            s.append("Luminous transmittance is at least 75 %, the condition for driving at dusk or at night.")
+        else:
+            s.append("Luminous transmittance is at least 75 %, but the filter fails a daytime check above, so it "
+                     "is not suitable at dusk or at night either.")
+        out.append(s)
     return out
