@@ -27,7 +27,6 @@ from typing import Any
 import numpy as np
 
 from .errors import InputError
-from .score_plan import CONFUSION_KEYS, PAIR_KEYS
 
 __all__ = ["score_to_file", "StreamTask", "STREAM_CHUNK"]
 
@@ -96,127 +95,54 @@ class StreamTask:
         return Scorecard(fs, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups, inp.signal_lights,
                          results, per_obs, inp.settings(), self.record)
 
-    #: Use :func:`_fast_rows` (checked equal to the CSV view on the probe by :func:`score_to_file`).
+    #: Build the cells column by column (:func:`cvdfilter.score_stream_cells.chunk_cells`), checked equal to
+    #: the CSV view's on the probe by :func:`score_to_file`; otherwise from ``Scorecard.csv_rows``.
     fast: bool = False
 
-    def columns_of(self, fs) -> dict:
-        """The chunk's cells, column by column in :attr:`columns` (the CSV view's)."""
+    def cells_of(self, fs) -> dict:
+        """The chunk's cells (:class:`~cvdfilter.score_stream_cells.Cells`), column by column in
+        :attr:`columns` (the CSV view's)."""
+        from .score_stream_cells import Cells, chunk_cells
+
         assert self.columns is not None
         card = self.card(fs)
         if self.fast:
-            return _fast_columns(card, self.columns)
+            return chunk_cells(card, self.columns)
         columns, rows = card.csv_rows()
         extra = [c for c in columns if c not in self.columns]
         if extra:
             raise InputError(f"filters {fs.names[0]} to {fs.names[-1]} give columns the first filters do not "
                              f"({', '.join(extra[:3])})", hint="score these filters in a separate run")
         at = {c: j for j, c in enumerate(columns)}
-        return {c: ([r[at[c]] for r in rows] if c in at else [None] * len(rows)) for c in self.columns}
+        return {c: Cells([r[at[c]] for r in rows] if c in at else [None] * len(rows)) for c in self.columns}
 
     def __call__(self, lo: int, hi: int) -> tuple[bytes, int]:
-        cols = self.columns_of(self.source.chunk(lo, hi))
-        n_rows = len(next(iter(cols.values()))) if cols else 0
-        return self.encode(cols), n_rows
+        cells = self.cells_of(self.source.chunk(lo, hi))
+        n_rows = len(next(iter(cells.values()))) if cells else 0
+        return self.encode(cells), n_rows
 
-    def encode(self, cols: dict) -> bytes:
+    def encode(self, cells: dict) -> bytes:
+        """The chunk's part: CSV rows without the header, or (Parquet) an Arrow IPC stream of one record batch
+        in the file's schema, which :mod:`cvdfilter.io.chunked` writes into the Parquet file."""
         assert self.columns is not None and self.types is not None
         if self.fmt == "csv":
-            from .tables import csv_text
+            import csv
 
-            rows = zip(*(cols[c] for c in self.columns))
-            text = csv_text([], [[("true" if v is True else "false" if v is False else v) for v in r] for r in rows])
-            return text[1:].encode("utf-8")  # csv_text starts with the (empty) header line
+            buf = io.StringIO()
+            csv.writer(buf, lineterminator="\n").writerows(zip(*(cells[c].csv_values() for c in self.columns)))
+            return buf.getvalue().encode("utf-8")
         import pyarrow as pa
-        import pyarrow.parquet as pq
+
+        from .io.chunked import ipc_bytes
 
         arrays = []
-        for j, t in enumerate(self.types):
-            vals = cols[self.columns[j]]
-            if t == "string":
-                vals = [None if v is None else v if isinstance(v, str) else str(v) for v in vals]
+        for c, t in zip(self.columns, self.types):
             try:
-                arrays.append(pa.array(vals, type=getattr(pa, {"double": "float64", "bool": "bool_"}.get(t, t))()))
+                arrays.append(cells[c].arrow(t))
             except (pa.ArrowInvalid, pa.ArrowTypeError, TypeError) as exc:
-                raise InputError(f"column {self.columns[j]}: a value does not fit the column type {t} ({exc})",
+                raise InputError(f"column {c}: a value does not fit the column type {t} ({exc})",
                                  hint="score these filters in a separate run") from None
-        buf = io.BytesIO()
-        pq.write_table(pa.Table.from_arrays(arrays, names=self.columns), buf, compression="zstd")
-        return buf.getvalue()
-
-
-def _nums(values, digits: int = 6) -> list:
-    """``scorecard._num`` over a sequence: rounded floats, None for NaN and infinities."""
-    inf = float("inf")
-    return [None if x != x or x == inf or x == -inf else round(x, digits) + 0.0
-            for x in np.asarray(values, dtype=float).tolist()]
-
-
-def _observer_columns(card, k: int) -> dict:
-    """The flattened CSV cells of fixed observer ``k`` over the filters, column by column (the keys of
-    ``scorecard_json.observer_entry`` flattened; pair statistics None where the filter leaves a cone no light)."""
-    from .scorecard import _at_key, _num
-
-    o, n, st, groups = card.per_observer[k], len(card), card.settings, card.metrics
-
-    def ints(key):
-        return np.asarray(o[key]).astype(np.int64).tolist()
-
-    cols: dict = {"observer": [card.observers[k].spec] * n}
-    if "contrast" in groups:
-        for key in ("red_green_gain", "blue_yellow_gain", "luminance_contrast_gain"):
-            cols[key] = _nums(o[key])
-    masked: dict = {}
-    if "discrimination" in groups:
-        masked["discriminable_pairs.threshold_jnd"] = [st["discrimination_threshold"]] * n
-        for key in PAIR_KEYS:
-            masked[f"discriminable_pairs.{key}"] = ints(f"discriminable_{key}")
-        for t in st["distribution_thresholds"]:
-            for key in PAIR_KEYS:
-                masked[f"delta_s_distribution.{_at_key(t)}.{key}"] = ints(f"discriminable_at_{t:g}_{key}")
-        masked["delta_s_distribution.median_without"] = [_num(o["discriminable_median_without"], 4)] * n
-        masked["delta_s_distribution.median_with"] = _nums(o["discriminable_median_with"], 4)
-        masked["delta_s_distribution.median_ratio"] = _nums(o["discriminable_median_ratio"])
-    if "confusion" in groups and o.get("confusion_with") is not None:
-        masked["confusion_pairs.normal_threshold_jnd"] = [st["normal_threshold"]] * n
-        masked["confusion_pairs.deficient_threshold_jnd"] = [st["deficient_threshold"]] * n
-        masked["confusion_pairs.normally_discriminable"] = [int(o["confusion_normally_discriminable"])] * n
-        for key in CONFUSION_KEYS:
-            masked[f"confusion_pairs.{key}"] = ints(f"confusion_{key}")
-        masked["confusion_pairs.median_delta_s_without"] = [_num(o["confusion_median_without"], 4)] * n
-        masked["confusion_pairs.median_delta_s_with"] = _nums(o["confusion_median_with"], 4)
-        masked["confusion_pairs.median_delta_s_ratio"] = _nums(o["confusion_median_ratio"])
-    if "undefined" in o and np.any(o["undefined"]):
-        undefined = np.asarray(o["undefined"], dtype=bool).tolist()
-        masked = {c: [None if u else v for u, v in zip(undefined, vals)] for c, vals in masked.items()}
-    cols.update(masked)
-    return cols
-
-
-def _fast_columns(card, columns: list) -> dict:
-    """The CSV view's cells of a card of fixed observers, column by column (rows filter-major, as
-    ``Scorecard.csv_rows``): the per-filter cells from ``Scorecard.filter_dict`` without observers, the
-    observers' from :func:`_observer_columns`."""
-    from .scorecard_views import _flatten, run_columns
-
-    run = run_columns(card)
-    bare = dataclasses.replace(card, observers=[], per_observer=[])
-    flat = []
-    for i in range(len(card)):
-        f = bare.filter_dict(i)
-        f.pop("observers")
-        flat.append(_flatten(f))
-    per_obs = [_observer_columns(card, k) for k in range(len(card.observers))]
-    n_obs, n = len(per_obs), len(card)
-    out = {}
-    for c in columns:
-        if c in run:
-            out[c] = [run[c]] * (n * n_obs)
-        elif any(c in o for o in per_obs):
-            lists = [o.get(c) or [None] * n for o in per_obs]
-            out[c] = [x for tup in zip(*lists) for x in tup]
-        else:
-            out[c] = [x for f in flat for x in [f.get(c)] * n_obs]
-    return out
+        return ipc_bytes(pa.Table.from_arrays(arrays, names=self.columns))
 
 
 def _run_chunk(task: StreamTask, lo: int, hi: int) -> tuple[bytes, int]:
@@ -272,11 +198,15 @@ def score_to_file(filters, output, *, fmt: str | None = None, chunk: int = STREA
     bounds = chunk_bounds(n, chunk)
     fingerprint = {"format": fmt, "chunk": chunk, "filters": n, "parts": task.source.describe(),
                    "columns": columns, "types": task.types, "header": header}
-    out = ChunkedOutput(path, fmt, fingerprint, len(bounds))
-    done = out.open()
-    shipped = _write_chunks(task, out, bounds, done, progress, scheduler)
     meta = {"cvdfilter": json.dumps(header, ensure_ascii=False, allow_nan=False)}
-    return out.finalise(header=csv_text(columns, []), metadata=meta,
+    out = ChunkedOutput(path, fmt, fingerprint, len(bounds), metadata=meta)
+    done = out.open()
+    try:
+        shipped = _write_chunks(task, out, bounds, done, progress, scheduler)
+    except BaseException:
+        out.abort()
+        raise
+    return out.finalise(header=csv_text(columns, []),
                         extra={"tool": "cvdfilter", "version": header["version"], "caveat": header["caveat"],
                                "filters": n, "chunk_filters": chunk, "columns": columns, "types": task.types,
                                "resumed_chunks": out.resumed, "shipped_bytes": shipped})
@@ -323,11 +253,14 @@ def _stream_task(filters, fmt: str, kwargs: dict, units, bandwidth) -> tuple[Str
     probe_card = task.card(probe)
     columns, rows = probe_card.csv_rows()
     task.columns, task.types = columns, _column_types(columns, rows)
-    try:  # the column-by-column rows where they are the CSV view's rows (checked on the probe)
-        fast = _fast_columns(probe_card, columns)
-        task.fast = len(fixed) == len(inp.observers) and [list(r) for r in zip(*fast.values())] == rows
-    except Exception:  # noqa: BLE001 - a layout the fast path does not know: the CSV view's own rows
-        task.fast = False
+    if len(fixed) == len(inp.observers):  # the column-by-column cells where they are the CSV view's
+        from .score_stream_cells import cells_match, chunk_cells
+
+        try:
+            cells = chunk_cells(probe_card, columns)
+            task.fast = all(cells_match(cells[c].tolist(), [r[j] for r in rows]) for j, c in enumerate(columns))
+        except Exception:  # noqa: BLE001 - a layout the column builder does not know: the CSV view's own rows
+            task.fast = False
     return task, probe_card.header()
 
 

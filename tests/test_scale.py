@@ -216,6 +216,7 @@ def test_an_interrupted_run_resumes_to_the_same_bytes(tmp_path, fmt):
     if fmt == "parquet":
         pytest.importorskip("pyarrow")
     from cvdfilter import score_to_file
+    from cvdfilter.io.chunked import FORMATS
 
     kw = dict(chunk=5, observers=OBSERVERS, metrics="core")
     whole = tmp_path / f"whole.{fmt}"
@@ -224,8 +225,9 @@ def test_an_interrupted_run_resumes_to_the_same_bytes(tmp_path, fmt):
     with pytest.raises(_Interrupted):
         score_to_file(SPECS, out, scheduler=_DiesAfter(2), **kw)
     assert not out.exists()  # no partial output
+    assert not list(tmp_path.glob(".resumed*.tmp*"))  # nor a half-written temporary file
     parts = tmp_path / f".resumed.{fmt}.cvdfilter-parts"
-    assert len(list(parts.glob(f"part-*.{fmt}"))) == 2
+    assert len(list(parts.glob(f"part-*{FORMATS[fmt]}"))) == 2
     manifest = score_to_file(SPECS, out, **kw)
     assert manifest["resumed_chunks"] == 2
     assert out.read_bytes() == whole.read_bytes()
