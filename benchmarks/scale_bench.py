@@ -1,7 +1,9 @@
 """A sweep streamed to Parquet, in this process and on a Dask LocalCluster, against the in-memory scorer.
 
     .venv/bin/python benchmarks/scale_bench.py [--filters 1000000] [--memory-filters 20000] [--workers 2]
-                                               [--skip-cluster] [--out-dir DIR]
+                                               [--rounds 3] [--skip-cluster] [--out-dir DIR]
+
+A quick run: ``--filters 20000 --memory-filters 8000 --skip-cluster`` (about half a minute).
 
 Work: a notch sweep (centre x FWHM, depth 0.8) of ``--filters`` filters x the 99 CES surfaces x 4 observers
 (normal, protanomalous, deuteranomalous, deuteranope), ``metrics="core"`` (photometry, road use, contrast
@@ -12,7 +14,8 @@ subprocess so that its peak RSS is its own. Prints
 * the reference: ``cvdfilter.score`` in memory on ``--memory-filters`` filters of the same sweep (at most
   50,000 per spec in memory): filters/s;
 * the ratio streamed / in memory on ``--memory-filters`` filters, both alternated ``--rounds`` times in one
-  process so that they share the machine's load (target >= 0.8);
+  process so that they share the machine's load (target >= 0.8), with the CPU seconds of each run (all
+  threads: less sensitive to other jobs than the wall time) and the load average around each round;
 * the streamed run of ``--filters`` in this process (threads): wall time, rows/s, filters/s, peak RSS
   (target < 1 GB whatever the sweep length);
 * the same on a LocalCluster of ``--workers`` worker processes (one thread each): wall time including the
@@ -96,16 +99,20 @@ def phase_ratio(n: int, rounds: int, out_dir: str) -> dict:
     cf.score(sweep(200), observers=OBSERVERS, metrics="core")
     cf.score_to_file(sweep(200), pathlib.Path(out_dir) / "warm.parquet", observers=OBSERVERS, metrics="core")
     fs = cf.load_filters(spec)
-    mem, streamed = [], []
+    mem, streamed, mem_cpu, streamed_cpu = [], [], [], []
+    load = [os.getloadavg()[0]]
     for r in range(rounds):
-        t = time.perf_counter()
+        t, c = time.perf_counter(), time.process_time()
         cf.score(fs, observers=OBSERVERS, metrics="core")
         mem.append(len(fs) / (time.perf_counter() - t))
-        t = time.perf_counter()
+        mem_cpu.append(time.process_time() - c)
+        t, c = time.perf_counter(), time.process_time()
         cf.score_to_file(spec, pathlib.Path(out_dir) / f"round{r}.parquet", observers=OBSERVERS, metrics="core")
         streamed.append(len(fs) / (time.perf_counter() - t))
-    return {"filters": len(fs), "memory": mem, "streamed": streamed,
-            "ratios": [s / m for s, m in zip(streamed, mem)]}
+        streamed_cpu.append(time.process_time() - c)
+        load.append(os.getloadavg()[0])
+    return {"filters": len(fs), "memory": mem, "streamed": streamed, "memory_cpu_s": mem_cpu,
+            "streamed_cpu_s": streamed_cpu, "load": load, "ratios": [s / m for s, m in zip(streamed, mem)]}
 
 
 def _child(args: list) -> dict:
@@ -143,6 +150,11 @@ def main() -> None:
           f"ratios {', '.join(f'{r:.2f}' for r in rat['ratios'])} (median {ratios[len(ratios) // 2]:.2f}; "
           f"target >= 0.8); in memory {', '.join(f'{x:,.0f}' for x in rat['memory'])} filters/s, streamed "
           f"{', '.join(f'{x:,.0f}' for x in rat['streamed'])} filters/s")
+    print(f"  CPU seconds (all threads): in memory {', '.join(f'{x:.2f}' for x in rat['memory_cpu_s'])}, streamed "
+          f"{', '.join(f'{x:.2f}' for x in rat['streamed_cpu_s'])}: streaming adds "
+          f"{sorted(s / m - 1 for s, m in zip(rat['streamed_cpu_s'], rat['memory_cpu_s']))[args.rounds // 2]:+.0%} "
+          f"CPU (median; the streamed run also builds its filters, the in-memory one is handed them); "
+          f"load average {', '.join(f'{x:.1f}' for x in rat['load'])} before and after each round")
     mem = _child(["memory", str(args.memory_filters)])
     print(f"in memory: {mem['filters']:,} filters in {mem['wall_s']:.1f} s = {mem['filters_per_s']:,.0f} filters/s, "
           f"peak RSS {mem['peak_rss_mb']:,.0f} MB")

@@ -18,7 +18,6 @@ Public: :func:`score_to_file`, :class:`StreamTask`, :data:`STREAM_CHUNK`.
 from __future__ import annotations
 
 import dataclasses
-import io
 import json
 import pathlib
 from dataclasses import dataclass
@@ -126,11 +125,9 @@ class StreamTask:
         in the file's schema, which :mod:`cvdfilter.io.chunked` writes into the Parquet file."""
         assert self.columns is not None and self.types is not None
         if self.fmt == "csv":
-            import csv
+            from .score_stream_cells import csv_lines
 
-            buf = io.StringIO()
-            csv.writer(buf, lineterminator="\n").writerows(zip(*(cells[c].csv_values() for c in self.columns)))
-            return buf.getvalue().encode("utf-8")
+            return csv_lines([cells[c] for c in self.columns]).encode("utf-8")
         import pyarrow as pa
 
         from .io.chunked import ipc_bytes

@@ -9,19 +9,21 @@ spec strings, the road-use sentences) is built per filter. A layout this module 
 the discernible group) is left to ``csv_rows``: :func:`cells_match` compares the two on a probe of every run
 and the stream falls back to ``csv_rows`` when they differ in any cell, value or type.
 
-Public: :class:`Cells`, :func:`chunk_cells`, :func:`cells_match`, :func:`round_like_python`.
+Public: :class:`Cells`, :func:`chunk_cells`, :func:`cells_match`, :func:`round_like_python`, :func:`csv_lines`.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import io
+import itertools
 
 import numpy as np
 
 from .errors import InputError
 from .score_plan import CONFUSION_KEYS, PAIR_KEYS
 
-__all__ = ["Cells", "chunk_cells", "cells_match", "round_like_python"]
+__all__ = ["Cells", "chunk_cells", "cells_match", "round_like_python", "csv_lines"]
 
 #: Keys of a filter's ``info`` that leave its JSON entry with name, source, input and warnings only (sweeps).
 _PLAIN_INFO = frozenset({"spec", "kind", "parameters"})
@@ -31,13 +33,14 @@ _KINDS = {"double": "f", "int64": "i", "bool": "b"}
 
 class Cells:
     """One column's cells over rows: ``values`` a numpy array (``null`` marks the empty cells) or a list of
-    Python values (None: an empty cell)."""
+    Python values (None: an empty cell); ``const``: every cell holds one value."""
 
-    __slots__ = ("values", "null")
+    __slots__ = ("values", "null", "const")
 
-    def __init__(self, values, null=None) -> None:
+    def __init__(self, values, null=None, const: bool = False) -> None:
         self.values = values
         self.null = null
+        self.const = const
 
     def __len__(self) -> int:
         return len(self.values)
@@ -62,7 +65,7 @@ class Cells:
         if k == 1:
             return self
         if isinstance(self.values, list):
-            return Cells([v for v in self.values for _ in range(k)])
+            return Cells(list(itertools.chain.from_iterable(zip(*[self.values] * k))))
         return Cells(np.repeat(self.values, k), None if self.null is None else np.repeat(self.null, k))
 
     def arrow(self, kind: str):
@@ -75,8 +78,18 @@ class Cells:
             return pa.array(v, type=typ, mask=self.null if self.null is not None and self.null.any() else None)
         vals = self.tolist()
         if kind == "string":
-            vals = [None if x is None else x if isinstance(x, str) else str(x) for x in vals]
+            if self.const and vals and isinstance(vals[0], str):
+                return pa.repeat(pa.scalar(vals[0], typ), len(vals))
+            try:  # text cells as they are; anything else as its str()
+                return pa.array(vals, type=typ)
+            except (pa.ArrowInvalid, pa.ArrowTypeError):
+                vals = [None if x is None else x if isinstance(x, str) else str(x) for x in vals]
         return pa.array(vals, type=typ)
+
+    def csv_text(self) -> bool:
+        """Text that a CSV writer would have to quote over several lines (a line break in a cell)."""
+        return isinstance(self.values, list) and any(isinstance(x, str) and ("\n" in x or "\r" in x)
+                                                     for x in (self.values[:1] if self.const else self.values))
 
     def csv_values(self) -> list:
         """The cells as the CSV writer takes them (booleans as ``true``/``false``, None empty)."""
@@ -99,8 +112,8 @@ def round_like_python(values, digits: int) -> np.ndarray:
     product: everywhere except within two units in the last place of a half-way point (or beyond 2**52),
     where Python's ``round`` decides.
 
-    >>> round_like_python([0.1234565, -0.0000001, float("nan"), 2.675], 6).tolist()
-    [0.123457, 0.0, nan, 2.675]
+    >>> round_like_python([0.1234565, -0.0000001, float("nan"), 2.675], 6).tolist()  # 0.1234565 is 0.12345649...9
+    [0.123456, 0.0, nan, 2.675]
     """
     x = np.asarray(values, dtype=float)
     scale = 10.0 ** digits
@@ -125,8 +138,8 @@ def _floats(values, digits: int = 6) -> Cells:
 def _const(value, n: int) -> Cells:
     """``n`` cells of one value (a Python bool, int or float becomes an array of its own type)."""
     if isinstance(value, (bool, int, float)):
-        return Cells(np.full(n, value))
-    return Cells([value] * n)
+        return Cells(np.full(n, value), const=True)
+    return Cells([value] * n, const=True)
 
 
 def cells_match(a: list, b: list) -> bool:
@@ -293,3 +306,28 @@ def chunk_cells(card, columns: list) -> dict:
         else:
             out[c] = Cells([None] * rows)
     return out
+
+
+def csv_lines(cells: list) -> str:
+    """CSV rows (``\\n`` line ends, as ``tables.csv_text`` writes them) of the columns ``cells``.
+
+    The run's columns come last and hold one value each: they are quoted once and appended to every line
+    (the CSV writer would quote the same text, caveat and cautions included, on every row), unless a cell
+    holds a line break (then every cell goes through the writer).
+    """
+    import csv
+
+    tail = len(cells)
+    while tail > 0 and cells[tail - 1].const:
+        tail -= 1
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    n = len(cells[0]) if cells else 0
+    if tail < 2 or tail == len(cells) or n == 0 or any(c.csv_text() for c in cells):
+        writer.writerows(zip(*(c.csv_values() for c in cells)))
+        return buf.getvalue()
+    writer.writerow([c.csv_values()[0] for c in cells[tail:]])
+    suffix = buf.getvalue()
+    buf = io.StringIO()
+    csv.writer(buf, lineterminator="\n").writerows(zip(*(c.csv_values() for c in cells[:tail])))
+    return buf.getvalue().replace("\n", "," + suffix)
