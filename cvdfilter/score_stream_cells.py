@@ -35,12 +35,14 @@ class Cells:
     """One column's cells over rows: ``values`` a numpy array (``null`` marks the empty cells) or a list of
     Python values (None: an empty cell); ``const``: every cell holds one value."""
 
-    __slots__ = ("values", "null", "const")
+    __slots__ = ("values", "null", "const", "base", "per")
 
     def __init__(self, values, null=None, const: bool = False) -> None:
         self.values = values
         self.null = null
         self.const = const
+        self.base: Cells | None = None  # from :meth:`repeat`: the cells before, each repeated ``per`` times
+        self.per = 1
 
     def __len__(self) -> int:
         return len(self.values)
@@ -65,8 +67,11 @@ class Cells:
         if k == 1:
             return self
         if isinstance(self.values, list):
-            return Cells(list(itertools.chain.from_iterable(zip(*[self.values] * k))))
-        return Cells(np.repeat(self.values, k), None if self.null is None else np.repeat(self.null, k))
+            out = Cells(list(itertools.chain.from_iterable(zip(*[self.values] * k))))
+        else:
+            out = Cells(np.repeat(self.values, k), None if self.null is None else np.repeat(self.null, k))
+        out.base, out.per = self, k
+        return out
 
     def arrow(self, kind: str):
         """A pyarrow array of type ``kind`` (``string``, ``double``, ``int64`` or ``bool``)."""
@@ -311,23 +316,34 @@ def chunk_cells(card, columns: list) -> dict:
 def csv_lines(cells: list) -> str:
     """CSV rows (``\\n`` line ends, as ``tables.csv_text`` writes them) of the columns ``cells``.
 
-    The run's columns come last and hold one value each: they are quoted once and appended to every line
-    (the CSV writer would quote the same text, caveat and cautions included, on every row), unless a cell
-    holds a line break (then every cell goes through the writer).
+    The CSV writer quotes every cell; this gives it each text once where rows repeat it. The run's columns
+    come last and hold one value each: they are written once and appended to every line (caveat and
+    cautions included). The filters' columns come first, each value repeated over the filter's observer
+    rows: they are written once per filter and each line joined with its rows' observer cells. When a cell
+    holds a line break every cell goes through the writer row by row.
     """
-    import csv
-
     tail = len(cells)
     while tail > 0 and cells[tail - 1].const:
         tail -= 1
-    buf = io.StringIO()
-    writer = csv.writer(buf, lineterminator="\n")
     n = len(cells[0]) if cells else 0
-    if tail < 2 or tail == len(cells) or n == 0 or any(c.csv_text() for c in cells):
-        writer.writerows(zip(*(c.csv_values() for c in cells)))
-        return buf.getvalue()
-    writer.writerow([c.csv_values()[0] for c in cells[tail:]])
-    suffix = buf.getvalue()
+    if tail < 2 or len(cells) - tail < 2 or n == 0 or any(c.csv_text() for c in cells):
+        return _csv_rows(cells)
+    suffix = "," + _csv_rows([Cells(c.tolist()[:1]) for c in cells[tail:]])  # one line, "\n" at its end
+    per = cells[0].per
+    head = 0
+    while head < tail and cells[head].base is not None and cells[head].per == per:
+        head += 1
+    if per < 2 or head < 2 or tail - head < 2:
+        return _csv_rows(cells[:tail]).replace("\n", suffix)
+    filters = _csv_rows([c.base for c in cells[:head]]).split("\n")[:-1]
+    rows = _csv_rows(cells[head:tail]).split("\n")[:-1]
+    repeated = itertools.chain.from_iterable(zip(*[filters] * per))
+    return "".join([f"{f},{r}{suffix}" for f, r in zip(repeated, rows)])
+
+
+def _csv_rows(cells: list) -> str:
+    import csv
+
     buf = io.StringIO()
-    csv.writer(buf, lineterminator="\n").writerows(zip(*(c.csv_values() for c in cells[:tail])))
-    return buf.getvalue().replace("\n", "," + suffix)
+    csv.writer(buf, lineterminator="\n").writerows(zip(*(c.csv_values() for c in cells)))
+    return buf.getvalue()
