@@ -1,7 +1,8 @@
 """A sweep streamed to Parquet, in this process and on a Dask LocalCluster, against the in-memory scorer.
 
     .venv/bin/python benchmarks/scale_bench.py [--filters 1000000] [--memory-filters 20000] [--workers 2]
-                                               [--rounds 3] [--skip-cluster] [--out-dir DIR]
+                                               [--rounds 3] [--format parquet|csv] [--skip-cluster]
+                                               [--out-dir DIR]
 
 A quick run: ``--filters 20000 --memory-filters 8000 --skip-cluster`` (about half a minute).
 
@@ -14,8 +15,9 @@ subprocess so that its peak RSS is its own. Prints
 * the reference: ``cvdfilter.score`` in memory on ``--memory-filters`` filters of the same sweep (at most
   50,000 per spec in memory): filters/s;
 * the ratio streamed / in memory on ``--memory-filters`` filters, both alternated ``--rounds`` times in one
-  process so that they share the machine's load (target >= 0.8), with the CPU seconds of each run (all
-  threads: less sensitive to other jobs than the wall time) and the load average around each round;
+  process so that they share the machine's load (target >= 0.8; ``--format csv``: streamed to CSV), with
+  the CPU seconds of each run (all threads: less sensitive to other jobs than the wall time) and the load
+  average around each round;
 * the streamed run of ``--filters`` in this process (threads): wall time, rows/s, filters/s, peak RSS
   (target < 1 GB whatever the sweep length);
 * the same on a LocalCluster of ``--workers`` worker processes (one thread each): wall time including the
@@ -90,14 +92,14 @@ def phase_stream(n: int, out: str, scheduler: str | None) -> dict:
     return res
 
 
-def phase_ratio(n: int, rounds: int, out_dir: str) -> dict:
+def phase_ratio(n: int, rounds: int, out_dir: str, fmt: str = "parquet") -> dict:
     """In-memory and streamed runs of the same ``n`` filters, alternated ``rounds`` times in one process (the
     machine is shared: alternating puts both under the same load); per round, streamed / in memory."""
     import cvdfilter as cf
 
     spec = sweep(n)
     cf.score(sweep(200), observers=OBSERVERS, metrics="core")
-    cf.score_to_file(sweep(200), pathlib.Path(out_dir) / "warm.parquet", observers=OBSERVERS, metrics="core")
+    cf.score_to_file(sweep(200), pathlib.Path(out_dir) / f"warm.{fmt}", observers=OBSERVERS, metrics="core")
     fs = cf.load_filters(spec)
     mem, streamed, mem_cpu, streamed_cpu = [], [], [], []
     load = [os.getloadavg()[0]]
@@ -107,7 +109,7 @@ def phase_ratio(n: int, rounds: int, out_dir: str) -> dict:
         mem.append(len(fs) / (time.perf_counter() - t))
         mem_cpu.append(time.process_time() - c)
         t, c = time.perf_counter(), time.process_time()
-        cf.score_to_file(spec, pathlib.Path(out_dir) / f"round{r}.parquet", observers=OBSERVERS, metrics="core")
+        cf.score_to_file(spec, pathlib.Path(out_dir) / f"round{r}.{fmt}", observers=OBSERVERS, metrics="core")
         streamed.append(len(fs) / (time.perf_counter() - t))
         streamed_cpu.append(time.process_time() - c)
         load.append(os.getloadavg()[0])
@@ -127,6 +129,8 @@ def main() -> None:
     ap.add_argument("--memory-filters", type=int, default=20_000)
     ap.add_argument("--workers", type=int, default=2)
     ap.add_argument("--rounds", type=int, default=3)
+    ap.add_argument("--format", choices=["parquet", "csv"], default="parquet",
+                    help="the streamed format of the ratio rounds (the long runs are Parquet)")
     ap.add_argument("--skip-cluster", action="store_true")
     ap.add_argument("--out-dir", default=None)
     ap.add_argument("--phase", nargs="+", help=argparse.SUPPRESS)
@@ -136,7 +140,7 @@ def main() -> None:
         if kind == "memory":
             res = phase_memory(int(rest[0]))
         elif kind == "ratio":
-            res = phase_ratio(int(rest[0]), int(rest[1]), rest[2])
+            res = phase_ratio(int(rest[0]), int(rest[1]), rest[2], *rest[3:])
         else:
             res = phase_stream(int(rest[0]), rest[1], rest[2] if len(rest) > 2 else None)
         print(json.dumps(res))
@@ -144,9 +148,10 @@ def main() -> None:
 
     out_dir = pathlib.Path(args.out_dir or tempfile.mkdtemp(prefix="cvdfilter-scale-"))
     print(f"sweep: {sweep(args.filters)} ({os.cpu_count()} CPUs, load {os.getloadavg()[0]:.1f})")
-    rat = _child(["ratio", str(args.memory_filters), str(args.rounds), str(out_dir)])
+    rat = _child(["ratio", str(args.memory_filters), str(args.rounds), str(out_dir), args.format])
     ratios = sorted(rat["ratios"])
-    print(f"streamed / in memory, {rat['filters']:,} filters, {args.rounds} alternated rounds in one process: "
+    print(f"streamed ({args.format}) / in memory, {rat['filters']:,} filters, {args.rounds} alternated rounds "
+          f"in one process: "
           f"ratios {', '.join(f'{r:.2f}' for r in rat['ratios'])} (median {ratios[len(ratios) // 2]:.2f}; "
           f"target >= 0.8); in memory {', '.join(f'{x:,.0f}' for x in rat['memory'])} filters/s, streamed "
           f"{', '.join(f'{x:,.0f}' for x in rat['streamed'])} filters/s")
