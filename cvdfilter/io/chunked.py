@@ -144,11 +144,8 @@ class ChunkedOutput:
 
         while self._joined < self.n_chunks and self._joined in self._done:
             i = self._joined
-            if latest is not None and latest[0] == i:
-                table = _read_ipc(pa.py_buffer(latest[1]))
-            else:
-                with pa.memory_map(str(self._part(i))) as source:
-                    table = _read_ipc(source)
+            data = latest[1] if latest is not None and latest[0] == i else self._part(i).read_bytes()
+            table = _read_ipc(pa.py_buffer(data))  # the table may point into ``data``: kept until written
             if self._writer is None:
                 import pyarrow.parquet as pq
 
