@@ -454,6 +454,11 @@ def road_use_reasons_many(tau_v, category, min_ratio, at_nm, quotients: dict, wo
     taus, cats, ratios, ats = listed(tau_v), [int(c) for c in listed(category)], listed(min_ratio), listed(at_nm)
     qs = {c: listed(q) for c, q in quotients.items()}
     worst = {c: listed(w) for c, w in worst_lights.items()}
+    fails = {c: (~(np.asarray(q, dtype=float).reshape(-1) >= limits[c])).tolist() for c, q in qs.items()}
+    any_fails = [any(f) for f in zip(*fails.values())] if fails else [False] * len(taus)
+    meet = "Signal quotients meet their limits: " + ", ".join(c.replace("{", "{{").replace("}", "}}") + " {:.2f}"
+                                                                for c in qs) + "."
+    rows = list(zip(*qs.values())) if qs else [()] * len(taus)
     out = []
     for i, tau in enumerate(taus):
         if not tau > 0:
@@ -475,12 +480,14 @@ def road_use_reasons_many(tau_v, category, min_ratio, at_nm, quotients: dict, wo
         else:
             s.append(f"Spectral transmittance falls to {ratio(mr)} x the luminous transmittance at {ats[i]:g} nm"
                      + ratio_low)
-        failing = [c for c, q in qs.items() if not q[i] >= limits[c]]
-        for c in failing:
-            which = f" (lowest with the {worst[c][i]} light)" if c in worst else ""
-            s.append(f"The {c} signal quotient is {qs[c][i]:.2f}, below the limit of {limit_text[c]}{which}.")
-        if not failing:
-            s.append("Signal quotients meet their limits: " + ", ".join(f"{c} {q[i]:.2f}" for c, q in qs.items()) + ".")
+        failing = any_fails[i]
+        if failing:
+            for c in qs:
+                if fails[c][i]:
+                    which = f" (lowest with the {worst[c][i]} light)" if c in worst else ""
+                    s.append(f"The {c} signal quotient is {qs[c][i]:.2f}, below the limit of {limit_text[c]}{which}.")
+        else:
+            s.append(meet.format(*rows[i]))
         if round(tau, 9) < NIGHT_MIN:
             s.append("Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.")
         elif 0 <= cat <= 3 and mr >= RATIO_LIMIT and not failing:
