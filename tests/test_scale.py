@@ -234,6 +234,16 @@ def test_an_interrupted_run_resumes_to_the_same_bytes(tmp_path, fmt):
     assert not parts.exists()
 
 
+def test_a_killed_runs_temporary_output_is_removed(tmp_path):
+    pytest.importorskip("pyarrow")
+    from cvdfilter import score_to_file
+
+    stale = tmp_path / ".s.cvdfilter-999999-0badc0de.tmp.parquet"  # a half-written file of a process now gone
+    stale.write_bytes(b"PAR1")
+    score_to_file(SWEEP, tmp_path / "s.parquet", chunk=8, observers=["normal"], metrics="photometry")
+    assert not stale.exists() and (tmp_path / "s.parquet").exists()
+
+
 def test_parts_of_other_settings_are_not_reused(tmp_path):
     from cvdfilter import score_to_file
 
