@@ -192,6 +192,57 @@ def test_population_summaries_and_helped(scenes):
     assert "colours ratio > 1" in card.to_markdown()
 
 
+@pytest.mark.parametrize("method", METHODS)
+def test_population_members_equal_fixed_observers(scenes, method):
+    # Every member of a population is counted as one array with the others (stacked maps, one count per
+    # chunk); each member's counts must be those of the same member scored alone as a fixed observer
+    # (definition: a population's per-observer metric is the member's own; Linhares et al. 2008 count per
+    # observer), per scene, pooled over the scenes, and for its normal base observer. An anomalous, a
+    # dichromat (two-piece simulation, Brettel et al. 1997) and a normal population.
+    pops = ["deuteranomalous:n=4,seed=3", "protanope:n=3,seed=4", "normal:n=3,seed=5"]
+    filters = [NOTCH, "longpass:edge=520,width=10"]
+    card = score(filters, scenes=scenes, metrics="discernible", observers=pops, discernible_method=method)
+    for k, pop in enumerate(card.observers):
+        members = list(pop)
+        fixed = score(filters, scenes=scenes, metrics="discernible", observers=members,
+                      discernible_method=method)
+        for key, v in card.per_observer[k].items():
+            if not key.startswith("discernible_"):
+                continue
+            alone = np.stack([np.asarray(fixed.per_observer[i][key], dtype=float) for i in range(len(members))],
+                             axis=-1)
+            assert np.array_equal(np.asarray(v, dtype=float), alone, equal_nan=True), (pop, key)
+
+
+def test_dense_blocks_and_sort_count_alike(monkeypatch):
+    # The count is the number of occupied unit cubes (Linhares et al. 2008): marking cells in blocks of
+    # sets and sorting keys must give the same counts and the same occupied cubes, checked against
+    # numpy's unique over each set's integer cube indices.
+    from cvdfilter.metrics import discernible as disc
+
+    rng = np.random.default_rng(4)
+    planes = rng.normal(0, 6, (9, 3, 400))
+    want = [np.unique(np.floor(p), axis=1).shape[1] for p in planes]
+    sort_counts, sort_keys = disc.count_planes_many(planes, keys=True)  # few colours for the box: a sort
+    cells = int(np.prod(np.ptp(np.floor(planes), axis=(0, 2)) + 1))
+    dense_counts, dense_keys = disc._count_dense(np.floor(planes), np.floor(planes).min(axis=(0, 2)),
+                                                 (np.ptp(np.floor(planes), axis=(0, 2)) + 1).astype(np.int64),
+                                                 True)
+    assert cells > disc.DENSE_PER_COLOUR * 400
+    assert sort_counts.tolist() == dense_counts.tolist() == want
+    assert np.array_equal(sort_keys[0], dense_keys[0]) and np.array_equal(sort_keys[1], dense_keys[1])
+    small = np.floor(planes * 0.25)
+    small_cells = int(np.prod(np.ptp(small, axis=(0, 2)) + 1))
+    assert small_cells <= disc.DENSE_PER_COLOUR * 400  # dense marking
+    monkeypatch.setattr(disc, "DENSE_CELLS", 2 * small_cells)  # in blocks of two sets
+    blocks_counts, blocks_keys = disc.count_planes_many(planes * 0.25, keys=True)
+    assert blocks_counts.tolist() == [np.unique(np.floor(p * 0.25), axis=1).shape[1] for p in planes]
+    monkeypatch.setattr(disc, "DENSE_CELLS", 1 << 25)
+    one_counts, one_keys = disc.count_planes_many(planes * 0.25, keys=True)
+    assert np.array_equal(blocks_counts, one_counts)
+    assert np.array_equal(blocks_keys[0], one_keys[0]) and np.array_equal(blocks_keys[1], one_keys[1])
+
+
 def test_views_show_the_group(scenes):
     card = score(NOTCH, scenes=scenes, metrics="discernible", observers=["normal", "deuteranope"])
     header = card.to_csv().splitlines()[0].split(",")
