@@ -23,8 +23,9 @@ and the ratios to it. **Pooled** means the union of the stimuli's colours: a cub
 any stimulus falls in it (the count of one scene made of all of them); ``mean_scene_ratio`` is the mean over
 stimuli of the per-stimulus ratios with / without.
 
-The work is vectorised over filters: per chunk of filters one product gives every pixel's signals for every
-filter, and one count covers them all. Model predictions, not clinical evidence.
+The work is vectorised over filters and population members: a population's members are one array (their
+fundamentals and 3x3 maps stacked), and per chunk of (member, filter) rows one product gives every pixel's
+signals for every row, and one count covers them all. Model predictions, not clinical evidence.
 
 Public: :func:`discernible_inputs`, :class:`DiscernibleInputs`, :func:`score_discernible`,
 :data:`DISCERNIBLE_METHODS`, :data:`DEFAULT_METHOD` (the JSON entry is
