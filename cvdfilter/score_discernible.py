@@ -290,12 +290,11 @@ def _coordinates(cond: _Condition, members: np.ndarray, t: np.ndarray, stim: _St
     if cond.separator is not None:
         sep = cond.separator[members] * gains  # (R, 3)
         rows.append(np.einsum("mkc,kc->km", W, sep)[:, None, :])
-    big = np.ascontiguousarray(np.concatenate(rows, axis=1))  # (R, 3 j [+1], m)
-    out = (big.reshape(-1, big.shape[2]) @ stim.samples).reshape(n_rows, big.shape[1], n)
-    xyz = out[:, 0:3]
+    big = np.ascontiguousarray(np.concatenate(rows, axis=1).transpose(1, 0, 2))  # (3 j [+1], R, m)
+    out = (big.reshape(-1, big.shape[2]) @ stim.samples).reshape(big.shape[0], n_rows, n)
+    planes = out[0:3]  # (3, R, n) XYZ, contiguous
     if cond.separator is not None:
-        xyz = np.where(out[:, 6:7] >= 0, xyz, out[:, 3:6])
-    planes = np.ascontiguousarray(np.moveaxis(xyz, 1, 0))  # (3, R, n)
+        planes = np.where(out[6:7] >= 0, planes, out[3:6])
     white = cond.white_xyz[members].T[:, :, None]  # (3, R, 1): each row's white
     if method == "cam16ucs":
         same = bool(np.all(white == white[:, :1]))  # one member: one white (the same numbers either way)
@@ -307,7 +306,7 @@ def _coordinates(cond: _Condition, members: np.ndarray, t: np.ndarray, stim: _St
     else:
         # float32 after the ratio to the white, as discernible_colours (equal ratios keep equal values)
         coords = lab_planes(planes, white, dtype=np.float32)
-    return np.ascontiguousarray(coords.reshape(3, n_rows, n).transpose(1, 0, 2)), defined
+    return coords.reshape(3, n_rows, n).transpose(1, 0, 2), defined  # (R, 3, n), a view
 
 
 def _count(coords: np.ndarray, cube_size: float, keys: bool):

@@ -237,9 +237,10 @@ def _count_dense(idx: np.ndarray, lo: np.ndarray, span: np.ndarray, keys: bool):
     for b0 in range(0, n_sets, block):  # blocks of sets, not sets: one block unless the sets are many
         sub = idx[b0:b0 + block]
         nb = sub.shape[0]
-        k = (sub - lo[None, :, None]).astype(np.int64)
-        local = (k[:, 0] * int(span[1]) + k[:, 1]) * int(span[2]) + k[:, 2]
-        local += (np.arange(nb, dtype=np.int64) * cells)[:, None]
+        dt = np.int32 if nb * cells < 1 << 31 else np.int64  # the cell numbers fit (half the traffic)
+        k = (sub - lo[None, :, None]).astype(dt)
+        local = (k[:, 0] * dt(span[1]) + k[:, 1]) * dt(span[2]) + k[:, 2]
+        local += (np.arange(nb, dtype=dt) * dt(cells))[:, None]
         seen = np.zeros(nb * cells, dtype=bool)
         seen[local.ravel()] = True
         counts[b0:b0 + nb] = np.count_nonzero(seen.reshape(nb, cells), axis=1)
