@@ -243,6 +243,37 @@ def test_dense_blocks_and_sort_count_alike(monkeypatch):
     assert np.array_equal(blocks_keys[0], one_keys[0]) and np.array_equal(blocks_keys[1], one_keys[1])
 
 
+def test_sensitivity_follows_the_discernible_ratio():
+    # --sensitivity with the discernible group: the threshold factors scale the counting cube, so the
+    # "thresholds x0.8" value is the count of Linhares, Pinto & Nascimento (2008) at cube size 0.8 as the
+    # published construction's API gives it (cvdfilter.discernible_colours); the Weber fraction and cone
+    # ratios do not enter the CIELAB count (no receptor noise in that construction), so those variations
+    # repeat the run's ratio; for rnl they are the counts of a run made with that constant.
+    from cvdfilter.discernibility import discernible_colours
+
+    obs = ["deuteranomalous", "deuteranomalous:n=3,seed=1"]
+    card = score(NOTCH, surfaces="munsell", metrics="discernible", observers=obs, sensitivity=True)
+    sens = card.to_dict()["sensitivity"]
+    row = sens["filters"][0]["observers"][0]["discernible_ratio"]
+    api = discernible_colours("munsell", filter=NOTCH, observers=["deuteranomalous"], cube_size=0.8)
+    assert row["values"]["thresholds x0.8"] == pytest.approx(float(api.ratio[0, 0]), abs=1e-6)
+    assert row["values"]["default"] == pytest.approx(float(card.per_observer[0]["discernible_ratio"][0]), abs=1e-6)
+    assert row["values"]["weber_fraction=0.01"] == row["values"]["cone_ratios=12:3:1"] == row["values"]["default"]
+    assert row["robust"] == (len({np.sign(v - 1) for v in row["values"].values()}) == 1)
+    cube = [v["settings"].get("discernible_cube_size") for v in sens["variations"]]
+    assert cube[-2:] == [pytest.approx(0.8), pytest.approx(1.25)]
+    pop = sens["filters"][0]["observers"][1]["discernible_ratio"]
+    assert pop["statistic"] == "share of members helped" and pop["members"] == 3
+    assert pop["values"]["default"] == pytest.approx(float(np.mean(card.per_observer[1]["discernible_ratio"][0] > 1)))
+    rnl = score(NOTCH, surfaces="munsell", metrics="discernible", observers=obs[:1], sensitivity=True,
+                discernible_method="rnl")
+    alone = score(NOTCH, surfaces="munsell", metrics="discernible", observers=obs[:1], discernible_method="rnl",
+                  weber_fraction=0.01)
+    value = rnl.to_dict()["sensitivity"]["filters"][0]["observers"][0]["discernible_ratio"]["values"]
+    assert value["weber_fraction=0.01"] == pytest.approx(float(alone.per_observer[0]["discernible_ratio"][0]),
+                                                         abs=1e-6)
+
+
 def test_views_show_the_group(scenes):
     card = score(NOTCH, scenes=scenes, metrics="discernible", observers=["normal", "deuteranope"])
     header = card.to_csv().splitlines()[0].split(",")
