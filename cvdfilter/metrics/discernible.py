@@ -74,12 +74,13 @@ def lab_planes(xyz, white_xyz, *, dtype=np.float64) -> np.ndarray:
     white = np.asarray(white_xyz, dtype=float)
     xyz = np.asarray(xyz, dtype=float)
     white = white.reshape(3, *([1] * (xyz.ndim - 1))) if white.ndim == 1 else white
-    t = (xyz / white).astype(dtype, copy=False)
+    t = np.empty(np.broadcast_shapes(xyz.shape, white.shape), dtype=dtype)
+    np.divide(xyz, white, out=t, casting="same_kind")  # in float64, rounded once to dtype
     d = 6.0 / 29.0  # CIE 15:2018
     f = np.cbrt(t)
     low = t <= d ** 3
-    if low.any():
-        f[low] = t[low] * (1.0 / (3 * d * d)) + 4.0 / 29.0
+    if low.any():  # the linear segment, elementwise as on the selected values (no gather)
+        np.copyto(f, t * (1.0 / (3 * d * d)) + 4.0 / 29.0, where=low)
     out = np.empty_like(f)
     np.multiply(f[1], 116.0, out=out[0])
     out[0] -= 16.0
