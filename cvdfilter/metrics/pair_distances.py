@@ -28,7 +28,7 @@ import numpy as np
 
 __all__ = ["pair_count", "pair_indices", "pair_sq_distances", "offset_order", "all_pair_sq_distances", "median_rows",
            "median_of_kept", "principal_rotations", "gather_sq_distances", "offset_pairs",
-           "dense_close_counts"]
+           "dense_close_counts", "dense_pair_statistics"]
 
 #: Rows per selection (median) and per block of all-pair distances: about 2 MB of float32, in the CPU cache.
 _SELECT_ROWS = 128
@@ -394,3 +394,80 @@ def dense_close_counts(d2, planes, radius: float, masks=()) -> tuple:
             sweep = dx < r2
         np.add.at(close, rows, sweep.astype(np.int64))
     return close, among
+
+
+def dense_pair_statistics(planes, radii, masks=(), keep=None) -> tuple:
+    """Close-pair counts and the median over kept pairs, from every pair's distance: the compiled path.
+
+    The same numbers, bit for bit, as :func:`all_pair_sq_distances` followed by :func:`dense_close_counts`
+    at every radius and :func:`median_of_kept` over ``keep``, computed by a numba kernel
+    (:mod:`cvdfilter.metrics.pair_kernel`) one set at a time without storing the distances; rows the kernel
+    leaves (non-finite coordinates, a distance at float32(r^2) exactly) are recomputed here by that array path.
+
+    Parameters
+    ----------
+    planes : sequence of numpy.ndarray
+        The k coordinate planes (B, N).
+    radii : sequence of float
+        Distinct radii.
+    masks : sequence of (float, numpy.ndarray)
+        (radius, (G, P) bool mask in the offset layout): pairs among which close pairs are counted at that
+        radius; row b of the planes uses row b % G.
+    keep : numpy.ndarray, optional
+        (G, P) bool: the pairs the median runs over (default: no median, NaN).
+
+    Returns
+    -------
+    close : numpy.ndarray
+        (R, B) int64: pairs closer than each radius.
+    among : numpy.ndarray
+        (M, B) int64: close pairs among each mask's pairs at its radius.
+    median : numpy.ndarray
+        (B,) float64: the median squared distance over the kept pairs (NaN when a group keeps none).
+
+    Examples
+    --------
+    >>> pl = [np.array([[0.0, 0.5, 2.0, 2.9]])]
+    >>> close, among, med = dense_pair_statistics(pl, [1.0], [(1.0, np.ones((1, 6), bool))], np.ones((1, 6), bool))
+    >>> close.tolist(), among.tolist(), med.tolist()
+    ([[2]], [[2]], [2.2050000429153442])
+    """
+    from .pair_kernel import pair_statistics_kernel
+
+    arr = np.ascontiguousarray(np.stack([np.asarray(c, dtype=float) for c in planes]))
+    k, b, n = arr.shape
+    if not 1 <= k <= 3:
+        raise ValueError(f"dense_pair_statistics takes 1 to 3 coordinate planes, got {k}")
+    radii = [float(r) for r in radii]
+    p = pair_count(n)
+    groups = keep.shape[0] if keep is not None else (masks[0][1].shape[0] if masks else 1)
+    keep_u8 = np.zeros((groups, p), dtype=np.uint8) if keep is None else np.ascontiguousarray(keep, dtype=np.uint8)
+    mask_u8 = (np.ascontiguousarray(np.stack([np.broadcast_to(m, (groups, p)) for _, m in masks]), dtype=np.uint8)
+               if masks else np.zeros((0, groups, p), dtype=np.uint8))
+    mask_radius = np.array([radii.index(float(r)) for r, _ in masks], dtype=np.int64)
+    close = np.zeros((b, len(radii)), dtype=np.int64)
+    among = np.zeros((b, len(masks)), dtype=np.int64)
+    upper = np.full(b, np.nan)
+    lower = np.full(b, np.nan)
+    fallback = np.zeros(b, dtype=bool)
+    r32 = np.array([r * r for r in radii], dtype=np.float32)
+    pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, keep_u8, keep_u8.sum(axis=1, dtype=np.int64),
+                           close, among, upper, lower, fallback)
+    count = keep_u8.sum(axis=1)[np.arange(b) % groups]
+    even = (count % 2 == 0) & (count > 0)
+    med = np.where(even, 0.5 * (upper + lower), upper)
+    for row in np.flatnonzero(fallback):  # rare: recomputed by the array path
+        g = row % groups
+        sub = [c[row:row + 1] for c in arr]
+        d2 = all_pair_sq_distances(sub)
+        for ri, r in enumerate(radii):
+            mine = [mi for mi, (mr, _) in enumerate(masks) if float(mr) == r]
+            c1, am = dense_close_counts(d2, sub, r, [mask_u8[mi, g:g + 1].astype(bool) for mi in mine])
+            close[row, ri] = c1[0]
+            for mi, a in zip(mine, am):
+                among[row, mi] = a[0]
+        med[row] = median_of_kept(d2[:, None, :], keep_u8[g:g + 1].astype(bool))[0, 0] if keep is not None \
+            else np.nan
+    if keep is None:
+        med[:] = np.nan
+    return close.T, among.T, med
