@@ -178,13 +178,6 @@ def _allocate(inp, pop, groups) -> dict:
     return store
 
 
-def _layout(mask: np.ndarray, where: np.ndarray, total: int) -> np.ndarray:
-    """A (members, pairs) mask in the all-pair (offset) layout of the chunks' distances."""
-    out = np.zeros((mask.shape[0], total), dtype=bool)
-    out[:, where] = mask
-    return out
-
-
 class MemberBlock:
     """Scores members ``lo:hi`` of a population for ranges of filters.
 
@@ -234,20 +227,20 @@ class MemberBlock:
         self.rms0 = contrast_rms([q0[:, :, c] for c in range(3)], self.w0, self.channels, gains=g0)
 
     def _pair_references(self, inp, pop, stimuli: np.ndarray, q0: np.ndarray) -> None:
+        """Per member, in the offset layout of the chunks' pair distances: the pairs its own normal observer
+        tells apart without a filter (the median's pairs), its close pairs at every radius and its confused
+        pair sets, all from float64 squared distances; the median without a filter from the kernel."""
         from .metrics.discrimination import log_catches, receptor_noise, rnl_transform
-        from .metrics.pairs import (all_pair_sq_distances, median_of_kept, offset_order, pair_count, pair_indices,
-                                    pair_sq_distances, principal_rotations)
+        from .metrics.pairs import all_pair_sq_distances, dense_pair_statistics, pair_count, principal_rotations
 
         n_s = self.n_s
         noise = receptor_noise(self.missing, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
         normal_noise = receptor_noise(None, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
-        i_all, j_all = pair_indices(n_s)
         self.total = pair_count(n_s)
-        # The pairs each member's own normal observer tells apart without a filter (row-major pairs).
         base = np.asarray(pop.base_fundamentals[self.lo:self.hi], dtype=float)
         nq0 = np.matmul(stimuli[:, :n_s].T, base)
         yn = log_catches(nq0) @ rnl_transform(normal_noise).T
-        self.seen = pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], i_all, j_all) >= \
+        seen = all_pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], dtype=float) >= \
             float(inp.normal_threshold) ** 2
         # The receptor-noise transform, rotated per member so that its first coordinate has the
         # largest spread (as pair_reference does for one observer).
@@ -257,23 +250,20 @@ class MemberBlock:
         self.t = np.matmul(t.T[None], rot).transpose(0, 2, 1)  # (members, k, 3)
         y0 = np.matmul(logs0, self.t.transpose(0, 2, 1))  # (members, surfaces, k)
         self.k = self.t.shape[1]
-        d2 = np.sum((y0[:, :, None, :] - y0[:, None, :, :]) ** 2, axis=-1)[:, i_all, j_all]
+        planes = [y0[:, :, r] for r in range(self.k)]
+        d2 = all_pair_sq_distances(planes, dtype=float)
         self.t0, self.td = float(inp.discrimination_threshold), float(inp.deficient_threshold)
         radii = {self.t0} | (set(self.distribution_thresholds) if self.discrimination else set())
         if self.with_confusion:
             radii.add(self.td)
-        where = offset_order(i_all, j_all, n_s)  # masks over pairs in the chunks' all-pair layout
         with np.errstate(invalid="ignore"):
-            self.close = {r: _layout(d2 < r * r, where, self.total) for r in sorted(radii)}
-        self.keep = _layout(self.seen, where, self.total)  # the median's pairs: the normally discriminable ones
-        dm = all_pair_sq_distances([y0[:, :, r] for r in range(self.k)])
-        self.m0 = np.sqrt(median_of_kept(dm, self.keep))
+            self.close = {r: d2 < r * r for r in sorted(radii)}
+        self.seen = self.keep = seen  # the median's pairs: the normally discriminable ones
+        self.m0 = np.sqrt(dense_pair_statistics(planes, [], [], seen)[2])
         if self.with_confusion:
-            unseen = ~self.seen
-            near = unseen & (pair_sq_distances([y0[:, :, r] for r in range(self.k)], i_all, j_all)
-                             < self.td * self.td)
-            self.unseen = _layout(unseen, where, self.total)
-            self.unseen_close = _layout(near, where, self.total)
+            self.unseen = ~seen
+            with np.errstate(invalid="ignore"):
+                self.unseen_close = self.unseen & (d2 < self.td * self.td)
 
     def member_values(self) -> dict:
         """The block's values that do not depend on the filter, (members,) each."""
@@ -330,7 +320,7 @@ class MemberBlock:
         listed = [(r, m) for r, m in self.close.items()]
         if self.with_confusion:
             listed += [(self.td, self.unseen), (self.td, self.unseen_close)]
-        close, among, med2 = dense_pair_statistics(planes, radii, listed, self.keep)
+        close, among, med2 = dense_pair_statistics(planes, radii, listed, self.keep, guess=self.m0 ** 2)
         med = np.sqrt(med2).reshape(nf, mb)
         counts = {r: (mask.sum(axis=1), close[i].reshape(nf, mb), among[i].reshape(nf, mb))
                   for i, (r, mask) in enumerate(self.close.items())}

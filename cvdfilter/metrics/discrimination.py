@@ -356,7 +356,7 @@ def dense_changes(points, reference: dict, masks: dict, more=()) -> tuple:
     further = list(more[1]) if more and more[0] in masks["close"] else []
     listed += [(more[0], m) for m in further]
     keep = masks["keep"] if reference["median_count"] else None
-    close, among, med2 = dense_pair_statistics(points, radii, listed, keep)
+    close, among, med2 = dense_pair_statistics(points, radii, listed, keep, guess=reference["median"] ** 2)
     changes = {r: (len(reference["close"][r][0]), close[i], among[i]) for i, r in enumerate(radii)}
     extra = list(among[len(radii):])
     return changes, extra, _median_dict(np.sqrt(med2), reference)

@@ -85,6 +85,7 @@ def pair_sq_distances(planes, i, j) -> np.ndarray:
             d2 = d
         else:
             d2 += d
+    assert d2 is not None  # at least one plane
     return d2
 
 
@@ -290,6 +291,7 @@ def gather_sq_distances(planes, i, j) -> np.ndarray:
         d = np.take(flat, (i + base).ravel(), axis=1)
         d -= np.take(flat, (j + base).ravel(), axis=1)
         d2 = d * d if d2 is None else d2 + d * d
+    assert d2 is not None  # at least one plane
     return d2.reshape(-1, g, n_l)
 
 
@@ -380,6 +382,7 @@ def dense_close_counts(d2, planes, radius: float, masks=()) -> tuple:
         for c in planes:  # count_close_among's arithmetic
             d = c[rows, i] - c[rows, j]
             d2u = d * d if d2u is None else d2u + d * d
+        assert d2u is not None  # at least one plane
         yes = d2u < r2
         for m, a in zip(masks, among):
             np.add.at(a, rows, (yes & m[rows % m.shape[0], cols]).astype(np.int64))
@@ -396,7 +399,7 @@ def dense_close_counts(d2, planes, radius: float, masks=()) -> tuple:
     return close, among
 
 
-def dense_pair_statistics(planes, radii, masks=(), keep=None) -> tuple:
+def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None) -> tuple:
     """Close-pair counts and the median over kept pairs, from every pair's distance: the compiled path.
 
     The same numbers, bit for bit, as :func:`all_pair_sq_distances` followed by :func:`dense_close_counts`
@@ -415,6 +418,9 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None) -> tuple:
         radius; row b of the planes uses row b % G.
     keep : numpy.ndarray, optional
         (G, P) bool: the pairs the median runs over (default: no median, NaN).
+    guess : array_like, optional
+        (G,): a guess of each group's median squared distance (e.g. without the filter); only the speed
+        depends on it.
 
     Returns
     -------
@@ -451,8 +457,9 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None) -> tuple:
     lower = np.full(b, np.nan)
     fallback = np.zeros(b, dtype=bool)
     r32 = np.array([r * r for r in radii], dtype=np.float32)
+    start = np.full(groups, np.nan) if guess is None else np.broadcast_to(np.asarray(guess, dtype=float), (groups,))
     pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, keep_u8, keep_u8.sum(axis=1, dtype=np.int64),
-                           close, among, upper, lower, fallback)
+                           np.ascontiguousarray(start), close, among, upper, lower, fallback)
     count = keep_u8.sum(axis=1)[np.arange(b) % groups]
     even = (count % 2 == 0) & (count > 0)
     med = np.where(even, 0.5 * (upper + lower), upper)

@@ -91,6 +91,95 @@ def _median_keys(bits, keep, half, keys, tmp, hist):
     return u, (u if kth >= 1 else best)
 
 
+#: Values in the window the bracketing search leaves for a sort (see :func:`_median_bracket`).
+_WINDOW = 48
+#: Probes aimed at the median itself once the bracket is that small, before the window is sorted.
+_TRIES = 2
+#: A key above every finite non-negative float32 key (+inf's bits 0x7F800000 plus one).
+_ABOVE = 0x7F800001
+
+
+@njit(cache=True, nogil=True)
+def _count_below(mk, probe):
+    c = 0
+    for p in range(mk.shape[0]):
+        c += mk[p] < probe
+    return c
+
+
+@njit(cache=True, nogil=True)
+def _median_bracket(mk, count, half, guess, tmp):
+    """The order statistics of rank ``half`` and ``half - 1`` of the kept keys (``mk``: the keys, with
+    0x7FFFFFFF for pairs not kept), by bracketing: counting passes (vectorised) at probe keys, starting at
+    ``guess`` (e.g. the same member's median with the previous filter), until the bracket [lo, hi) holds
+    both ranks and at most :data:`_WINDOW` values, which are then sorted. Exact: the probes only decide
+    how fast the bracket closes. Returns (-1, -1) if it did not close (the caller then selects by radix).
+    """
+    need_lo = half - 1 if half >= 1 else 0
+    lo, c_lo, has_lo = 0, 0, False
+    hi, c_hi, has_hi = _ABOVE, count, False
+    step = 1 << 18  # about 3 % of the value (the keys are nearly a log scale)
+    p = min(max(guess, 1), _ABOVE - 1)
+    slow = 0
+    tries = 0
+    for _ in range(80):
+        c = _count_below(mk, p)
+        size = c_hi - c_lo
+        if c <= need_lo:
+            lo, c_lo, has_lo = p, c, True
+        elif c > half:
+            hi, c_hi, has_hi = p, c, True
+        else:  # exactly `half` keys below p: rank half is the least key >= p, rank half - 1 the largest < p
+            a = np.int32(-1)
+            b = np.int32(0x7FFFFFFF)
+            for t in range(mk.shape[0]):
+                x = mk[t]
+                a = max(a, x if x < p else np.int32(-1))
+                b = min(b, x if x >= p else np.int32(0x7FFFFFFF))
+            return b, (a if half >= 1 else b)
+        if hi - lo <= 1 or (c_hi - c_lo <= _WINDOW and tries >= _TRIES):
+            break
+        slow = slow + 1 if 2 * (c_hi - c_lo) > size else 0
+        if c_hi - c_lo <= _WINDOW:  # aim between ranks half - 1 and half: one min/max pass then answers
+            tries += 1
+            frac = (half - c_lo) / (c_hi - c_lo)
+            p = lo + int((hi - lo) * frac)
+            p = min(max(p, lo + 1), hi - 1)
+        elif not has_hi:
+            p = min(lo + step, _ABOVE - 1)
+            step *= 2
+        elif not has_lo:
+            p = max(hi - step, 1)
+            step *= 2
+        elif slow >= 2:
+            p = (lo + hi) // 2
+            slow = 0
+        else:  # interpolate the rank next to the looser side of the bracket
+            target = need_lo - _WINDOW // 4 if need_lo - c_lo > c_hi - 1 - half else half + _WINDOW // 4
+            frac = (target + 0.5 - c_lo) / (c_hi - c_lo)
+            p = lo + int((hi - lo) * min(max(frac, 0.0), 1.0))
+            p = min(max(p, lo + 1), hi - 1)
+    else:
+        return -1, -1
+    if hi - lo <= 1:  # every value in the bracket is the key lo
+        return lo, lo
+    m = 0
+    for t in range(mk.shape[0]):
+        x = mk[t]
+        if x >= lo and x < hi:
+            tmp[m] = x
+            m += 1
+    for i in range(1, m):  # insertion sort of the window
+        x = tmp[i]
+        j = i - 1
+        while j >= 0 and tmp[j] > x:
+            tmp[j + 1] = tmp[j]
+            j -= 1
+        tmp[j + 1] = x
+    u = tmp[half - c_lo]
+    return u, (tmp[half - 1 - c_lo] if half >= 1 else u)
+
+
 @njit(cache=True, nogil=True)
 def _distances(row, k, n, d2):
     """Squared distances of every pair of one set (coordinates ``row[:k]``) into ``d2``, float32, in the
@@ -119,8 +208,8 @@ def _distances(row, k, n, d2):
 
 
 @njit(cache=True, nogil=True)
-def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_count, close, among, upper, lower,
-                           fallback):
+def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_count, guess, close, among, upper,
+                           lower, fallback):
     """Fills the pair statistics of every row of ``planes`` (see the module docstring).
 
     Parameters
@@ -135,6 +224,9 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_c
         Pair masks in the offset layout; mask m counts at radius ``mask_radius[m]``.
     keep, keep_count : uint8 (G, P), int64 (G,)
         The median's pairs per group and how many they are.
+    guess : float64 (G,)
+        A first guess of each group's median squared distance (NaN: none); the previous row of the same
+        group is used when there is one. Only the speed depends on it.
     close, among : int64 (B, R), (B, M)
         Out: close pairs per radius; close pairs among each mask's pairs.
     upper, lower : float64 (B,)
@@ -156,6 +248,9 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_c
     bits = d2.view(np.int32)
     scratch = np.empty(2, dtype=np.int32)
     as_float = scratch.view(np.float32)
+    scratch_i = np.empty(1, dtype=np.int32)
+    scratch_f = scratch_i.view(np.float32)
+    mk = np.empty(n_pairs, dtype=np.int32)
     for b in range(n_rows):
         g = b % groups
         finite = True
@@ -196,7 +291,17 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_c
             lower[b] = np.nan
             continue
         half = count // 2
-        u, w = _median_keys(bits, keep[g], half, keys, tmp, hist)
+        kg = keep[g]
+        for p in range(n_pairs):  # the kept keys; the others above every key
+            mk[p] = bits[p] if kg[p] != 0 else np.int32(0x7FFFFFFF)
+        prev = upper[b - groups] if b >= groups else guess[g]
+        start = np.int32(0x3F800000)  # 1.0, when there is nothing better
+        if prev == prev and prev > 0.0:
+            scratch_f[0] = np.float32(prev)
+            start = scratch_i[0]
+        u, w = _median_bracket(mk, count, half, start, tmp)
+        if u < 0:
+            u, w = _median_keys(bits, kg, half, keys, tmp, hist)
         scratch[0] = u
         scratch[1] = w
         upper[b] = np.float64(as_float[0])
