@@ -57,11 +57,13 @@ def _case(seed):
 @pytest.mark.parametrize("seed", range(60))
 def test_kernel_equals_the_array_path_bit_for_bit(seed):
     planes, radii, masks, keep, guess = _case(seed)
-    close, among, med = dense_pair_statistics(planes, radii, masks, keep, guess)
+    close, among, med = dense_pair_statistics(planes, radii, masks, keep, guess, method="kernel")
     c0, a0, m0 = _array_path([p.copy() for p in planes], radii, masks, keep)
     assert np.array_equal(close, c0)
     assert np.array_equal(among, a0)
     assert np.array_equal(med, m0, equal_nan=True)
+    c1, a1, m1 = dense_pair_statistics(planes, radii, masks, keep, method="array")
+    assert np.array_equal(close, c1) and np.array_equal(among, a1) and np.array_equal(med, m1, equal_nan=True)
 
 
 def test_median_of_an_even_count_is_the_mean_of_the_two_middle_values():
@@ -70,16 +72,17 @@ def test_median_of_an_even_count_is_the_mean_of_the_two_middle_values():
     d2 = all_pair_sq_distances(planes)[0]
     keep = np.zeros((1, d2.size), dtype=bool)
     keep[0, :4] = True  # the four neighbouring pairs: squared distances 1, 4, 9, 16
-    _, _, med = dense_pair_statistics(planes, [1.0], [], keep)
+    _, _, med = dense_pair_statistics(planes, [1.0], [], keep, method="kernel")
     assert med[0] == np.median(d2[:4].astype(np.float64)) == 6.5
 
 
 def test_no_kept_pair_gives_nan_and_no_keep_gives_nan():
     planes = [np.array([[0.0, 1.0, 3.0]])]
-    _, _, med = dense_pair_statistics(planes, [1.0], [], np.zeros((1, 3), dtype=bool))
-    assert np.isnan(med).all()
-    close, among, med = dense_pair_statistics(planes, [1.5], [])
-    assert close.tolist() == [[1]] and among.shape == (0, 1) and np.isnan(med).all()
+    for method in ("kernel", "array"):
+        _, _, med = dense_pair_statistics(planes, [1.0], [], np.zeros((1, 3), dtype=bool), method=method)
+        assert np.isnan(med).all()
+        close, among, med = dense_pair_statistics(planes, [1.5], [], method=method)
+        assert close.tolist() == [[1]] and among.shape == (0, 1) and np.isnan(med).all()
 
 
 def test_more_than_three_planes_are_refused():
