@@ -43,6 +43,11 @@ def test_zero_variation_gives_every_member_the_fixed_observers_verdict(kind):
         assert r["members"][word]["share"] == 1.0, (r["filter"], r["task"], r["members"])
         assert r["members"][word]["count"] == r["members"][word]["n"] == 4
         assert r["members_basis"]["borderline"]["share"] == (0.0 if ref["basis"]["robust"] else 1.0)
+        f = FILTERS.index(r["filter"])
+        for k in ROBUSTNESS_FACTORS:
+            at = r["members_basis"]["shares_at_margin_factors"][f"{k:g}x"]
+            word_k = res._verdict_at(r["task"], res.observers[1], f, k)[0]
+            assert at == {w: float(w == word_k) for w in ("easier", "harder")}
         if r["task"] == "arrangement":
             tes = r["member_spread"]["tes_change"]
             assert tes["p50"] == pytest.approx(ref["with"]["tes"] - ref["without"]["tes"], abs=1e-12)
@@ -173,7 +178,7 @@ def test_views_show_the_share_of_members(population_run):
     assert states == {"without", "with", "members", "member_spread"}
     scores = {row[5] for row in lines[1:] if row[4] == "members"}
     assert {"easier.share", "easier.ci_low", "easier.ci_high", "harder.share", "no_change.share",
-            "borderline.share"} <= scores
+            "borderline.share", "at_0.5x_margin.easier", "at_2x_margin.harder"} <= scores
     assert {row[5] for row in lines[1:] if row[4] == "member_spread" and row[2] == "arrangement"} == {
         f"{k}.{s}" for k in ("tes_change", "effect") for s in (*STATISTICS, "n")}
     assert all(row[7] for row in lines[1:])  # the caveat on every row

@@ -60,7 +60,8 @@ _POOLED = {"arrangement": "pooled: the criterion applied to the trials of all me
 _MEMBER_CRITERION = ("each member's own verdict by the criterion in basis, applied to its own trials, plates or "
                      "match (cvdfilter.vision_tasks.members); members gives the share of members with each "
                      "verdict; borderline the share whose own verdict changes when the margin is halved or "
-                     "doubled; member_spread the spread over members of the task's main score change")
+                     "doubled, shares_at_margin_factors the shares easier and harder at those margins; "
+                     "member_spread the spread over members of the task's main score change")
 _INTERVAL = f"Wilson score interval, {100 * CONFIDENCE:g} % (Wilson 1927)"
 #: Factors applied to each verdict margin to test the verdict's robustness (ours): a verdict is "robust" when
 #: it is the same at half and at twice the margin.
@@ -191,14 +192,16 @@ class TaskResult:
             shares = {word.replace(" ", "_"): share_helped(codes[0] == c, defined)
                       for word, c in VERDICT_CODES.items()}
             borderline = share_helped((codes[1:] != codes[:1]).any(axis=0), defined)
+            at = {f"{k:g}x": {w: (c == VERDICT_CODES[w]).mean(axis=-1) for w in ("easier", "harder")}
+                  for k, c in zip(ROBUSTNESS_FACTORS, codes[1:])}
             changes = {name: spread(v) for name, v in member_changes(task, s).items()}
-            self._member_cache[key] = (shares, borderline, changes)
+            self._member_cache[key] = (shares, borderline, at, changes)
         return self._member_cache[key]
 
     def _member_record(self, task: str, obs: str, f: int) -> dict:
         """The keys a population's record adds: ``population``, ``verdict_scope``, ``members``,
         ``members_basis`` and ``member_spread`` (docs/tasks.md, Populations)."""
-        shares, borderline, changes = self._members_of(task, obs)
+        shares, borderline, at, changes = self._members_of(task, obs)
 
         def share(h) -> dict:
             return {"share": float(h["share"][f]), "ci_low": float(h["ci_low"][f]),
@@ -210,7 +213,9 @@ class TaskResult:
         return {"population": dict(self.populations[obs]), "verdict_scope": _POOLED[_task_kind(task)],
                 "members": {k: share(h) for k, h in shares.items()},
                 "members_basis": {"criterion": _MEMBER_CRITERION, "interval": _INTERVAL,
-                                  "borderline": share(borderline)},
+                                  "borderline": share(borderline),
+                                  "shares_at_margin_factors": {k: {w: float(v[f]) for w, v in d.items()}
+                                                               for k, d in at.items()}},
                 "member_spread": {k: stats(v) for k, v in changes.items()}}
 
     def summaries(self) -> dict[str, str]:
@@ -322,7 +327,9 @@ class TaskResult:
                     rows.append([r["filter"], r["observer"], r["task"], r["verdict"], state, k,
                                  _fmt(v), caveat])
             if "members" in r:  # a population: shares of members per verdict, spread of the score changes
-                blocks = {"members": {**r["members"], "borderline": r["members_basis"]["borderline"]},
+                basis = r["members_basis"]
+                blocks = {"members": {**r["members"], "borderline": basis["borderline"],
+                                      **{f"at_{k}_margin": v for k, v in basis["shares_at_margin_factors"].items()}},
                           "member_spread": r["member_spread"]}
                 for state, block in blocks.items():
                     for k, v in _flatten(block).items():
