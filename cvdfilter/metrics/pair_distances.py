@@ -24,6 +24,8 @@ Public: :func:`pair_count`, :func:`pair_indices`, :func:`pair_sq_distances`, :fu
 
 from __future__ import annotations
 
+import sys
+
 import numpy as np
 
 __all__ = ["pair_count", "pair_indices", "pair_sq_distances", "offset_order", "all_pair_sq_distances", "median_rows",
@@ -407,8 +409,9 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, met
     numba kernel (:mod:`cvdfilter.metrics.pair_kernel`, ``method="kernel"``) that handles one set at a
     time without storing the distances; rows the kernel leaves (non-finite coordinates, a distance at
     float32(r^2) exactly) are recomputed by the array path. ``"auto"`` takes the kernel from
-    :data:`KERNEL_MIN_PAIRS` pair distances on (below that, loading the compiled kernel takes longer
-    than the work): only the speed differs, never a bit of the result (tests/test_pair_kernel.py).
+    :data:`KERNEL_MIN_PAIRS` pair distances on, or whenever it is loaded already (below that, loading the
+    compiled kernel takes longer than the work; a long run such as a design loads it up front): only the
+    speed differs, never a bit of the result (tests/test_pair_kernel.py).
 
     Parameters
     ----------
@@ -451,7 +454,8 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, met
     p = pair_count(n)
     if method not in ("auto", "kernel", "array"):
         raise ValueError(f"method must be auto, kernel or array, got {method!r}")
-    if method == "array" or (method == "auto" and b * p < KERNEL_MIN_PAIRS):
+    if method == "array" or (method == "auto" and b * p < KERNEL_MIN_PAIRS
+                             and "cvdfilter.metrics.pair_kernel" not in sys.modules):
         return _array_statistics(list(arr), radii, masks, keep)
     from .pair_kernel import pair_statistics_kernel
 
