@@ -16,12 +16,18 @@ boundary), the von Kries gains and the simulation's half-space test for dichroma
 Also the scorecard's ``discernible`` group on the same scene, and a 150-filter sweep on the ``munsell`` set
 (filter x observer counts per second). Target (issue 15): at most 2 s. Times are medians; the machine is
 shared, so read the ratio.
+
+Populations (``--population``, default ``deuteranomalous:n=50,seed=1``): the group for every member of a
+population at once, on the ``munsell`` set with 1 and 150 filters and on the scene (edge ``--population-size``)
+with one filter; each case once after a warm-up, with wall and CPU seconds, the load average and the peak
+resident memory of the run (VmHWM, reset before the case; Linux). ``--population-only`` skips the rest.
 No test asserts any of this.
 """
 
 from __future__ import annotations
 
 import argparse
+import os
 import statistics
 import time
 
@@ -42,11 +48,64 @@ def _floor(samples: np.ndarray, weights: np.ndarray, m: np.ndarray) -> int:
     return total
 
 
+def _peak_reset() -> bool:
+    """Reset the process's peak resident memory (Linux: /proc/self/clear_refs, 5); False where unsupported."""
+    try:
+        with open("/proc/self/clear_refs", "w") as fh:
+            fh.write("5")
+        return True
+    except OSError:
+        return False
+
+
+def _peak_mib() -> float:
+    """Peak resident memory of this process since the last reset (VmHWM), MiB; nan where unknown."""
+    try:
+        with open("/proc/self/status") as fh:
+            for line in fh:
+                if line.startswith("VmHWM:"):
+                    return int(line.split()[1]) / 1024
+    except OSError:
+        pass
+    return float("nan")
+
+
+def _population_cases(pop: str, size: int) -> None:
+    """The group for a population's members: wall and CPU seconds, load average, peak memory per case."""
+    import cvdfilter
+    from cvdfilter.scorecard import score
+
+    scene = cvdfilter.synthetic_scene(seed=1, shape=(size, size), bands=31)
+    flt = "notch:center=575,fwhm=35,depth=0.8"
+    sweep = "notch:center=500..649/1,fwhm=30,depth=0.8"
+    score(flt, surfaces="munsell", metrics="discernible", observers=[pop])  # warm-up (caches, imports)
+    cases = [(f"munsell, 1 filter x {pop}", dict(filters=flt, surfaces="munsell")),
+             (f"munsell, 150 filters x {pop}", dict(filters=sweep, surfaces="munsell")),
+             (f"scene {size}x{size}, 1 filter x {pop}", dict(filters=flt, scenes=[scene]))]
+    for label, kw in cases:
+        reset = _peak_reset()
+        t, c = time.perf_counter(), time.process_time()
+        card = score(metrics="discernible", observers=[pop], **kw)
+        wall, cpu = time.perf_counter() - t, time.process_time() - c
+        load = os.getloadavg()
+        peak = f"peak RSS {_peak_mib():.0f} MiB" if reset else "peak RSS n/a"
+        w = card.per_observer[0]["discernible_with"]
+        print(f"population: {label}: wall {wall:.2f} s, CPU {cpu:.2f} s, load {load[0]:.2f} {load[1]:.2f}, "
+              f"{peak}; {w.size} counts (filters x members), sum {int(np.nansum(w))}")
+
+
 def main() -> None:
     ap = argparse.ArgumentParser()
     ap.add_argument("--repeat", type=int, default=5)
     ap.add_argument("--size", type=int, default=1000, help="scene edge, pixels (default 1000: 1 MP)")
+    ap.add_argument("--population", default="deuteranomalous:n=50,seed=1", help="population spec of the "
+                    "population cases")
+    ap.add_argument("--population-size", type=int, default=500, help="scene edge of the population case")
+    ap.add_argument("--population-only", action="store_true", help="run only the population cases")
     args = ap.parse_args()
+    if args.population_only:
+        _population_cases(args.population, args.population_size)
+        return
 
     import cvdfilter
     from cvdfilter.observers.fundamentals import LMS_TO_XYZ_2DEG
@@ -92,6 +151,7 @@ def main() -> None:
     n = len(card) * len(observers)
     print(f"score --metrics discernible --surfaces munsell, {len(card)} filters x 5 observers: {s_t:.2f} s, "
           f"{n / s_t:.0f} filter-observer counts/s")
+    _population_cases(args.population, args.population_size)
 
 
 if __name__ == "__main__":

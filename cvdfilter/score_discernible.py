@@ -23,8 +23,9 @@ and the ratios to it. **Pooled** means the union of the stimuli's colours: a cub
 any stimulus falls in it (the count of one scene made of all of them); ``mean_scene_ratio`` is the mean over
 stimuli of the per-stimulus ratios with / without.
 
-The work is vectorised over filters: per chunk of filters one product gives every pixel's signals for every
-filter, and one count covers them all. Model predictions, not clinical evidence.
+The work is vectorised over filters and population members: a population's members are one array (their
+fundamentals and 3x3 maps stacked), and per chunk of (member, filter) rows one product gives every pixel's
+signals for every row, and one count covers them all. Model predictions, not clinical evidence.
 
 Public: :func:`discernible_inputs`, :class:`DiscernibleInputs`, :func:`score_discernible`,
 :data:`DISCERNIBLE_METHODS`, :data:`DEFAULT_METHOD` (the JSON entry is
@@ -34,6 +35,7 @@ Public: :func:`discernible_inputs`, :class:`DiscernibleInputs`, :func:`score_dis
 from __future__ import annotations
 
 import pathlib
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -65,6 +67,7 @@ class _Stimulus:
     name: str
     samples: np.ndarray  # (m, n_pixels), contiguous: (k, m) @ (m, n) is the fast product layout
     interpolation: np.ndarray  # (n_wl, m): from the stimulus's bands to the grid
+    identity: bool = False  # the bands are the grid (interpolation is the identity)
 
 
 @dataclass(frozen=True, eq=False)
@@ -167,7 +170,7 @@ def discernible_inputs(scenes, surfaces, *, method: str = DEFAULT_METHOD, simula
         sources.append(name)
     if not stimuli:
         stimuli.append(_Stimulus(surfaces.name, np.ascontiguousarray(surfaces.reflectance, dtype=float),
-                                 np.eye(grid.size)))
+                                 np.eye(grid.size), identity=True))
     names = [s.name for s in stimuli]
     if len(set(names)) != len(names):
         raise InputError(f"scene '{next(n for n in names if names.count(n) > 1)}' given twice")
@@ -175,94 +178,145 @@ def discernible_inputs(scenes, surfaces, *, method: str = DEFAULT_METHOD, simula
 
 
 # --- the computation -----------------------------------------------------------------------------------
+#
+# The rows of the work are (member, filter state) pairs: a fixed observer is a group of one member, a
+# population's members are one group, and every chunk is a range of a group's rows, member-major. Per
+# member only the fundamentals and the 3x3 maps differ, so they are stacked over the members and gathered
+# per row: one product per chunk gives every row's signals and one count covers every row.
 
 @dataclass(eq=False)
 class _Condition:
-    """One observer's way from cone catches to counting coordinates (all but the filter)."""
+    """The way from cone catches to counting coordinates (all but the filter) of M observers at once (a fixed
+    observer, M = 1, or a population's members), every array over the members first."""
 
-    observer: Any
     kind: str  # "matrices" (cielab, cam16ucs) or "rnl"
-    sim: Any = None  # Simulation
-    w_n: Any = None  # the normal base's white (3,)
-    space: Any = None  # (3, 3) receptor-noise space
+    phi: np.ndarray  # (M, n_wl, 3) the members' fundamentals
+    white0: np.ndarray  # (M, 3) their cone signals of the illuminant
+    missing: int | None  # the absent cone (dichromats), the same for every member
+    maps: Any = None  # (M, j, 3, 3) LMS_TO_XYZ diag(w_n) S_i: the simulation's pieces S_i to the base's XYZ
+    separator: Any = None  # (M, 3) two-piece simulations: which piece a colour takes (None: one piece)
+    white_xyz: Any = None  # (M, 3) the normal base observer's XYZ of the illuminant
+    space: Any = None  # (3, 3) receptor-noise space (the same for every member: the noise is per cone type)
 
 
-def _condition(o, d: DiscernibleInputs, e: np.ndarray, noise_args: dict) -> _Condition:
+def _maps(observers: Callable[[int, int], list], kind: str, d: DiscernibleInputs, e: np.ndarray, n: int) -> tuple:
+    """The simulations' pieces (n, j, 3, 3) and separators ((n, 3) or None) of ``n`` members.
+
+    The simulation of a normal or anomalous observer is one linear map the same for every member (identity;
+    Machado et al. 2009 with cone normalisation), built once; a dichromat's (Brettel et al. 1997 by
+    default) depends on the member's fundamentals and is built per member (3x3 matrices only).
+    ``observers`` is a callable giving the members as :class:`~cvdfilter.observers.observer.Observer`.
+    """
     from .observers.simulate import simulation
 
+    method = d.simulation if kind == "dichromat" else None
+    if kind != "dichromat":
+        s = simulation(observers(0, 1)[0], method=method, reference_white=e)
+        if s.separator is None and np.array_equal(s.matrices, np.eye(3)[None]):
+            return np.broadcast_to(np.eye(3), (n, 1, 3, 3)), None
+    sims = [simulation(m, method=method, reference_white=e) for m in observers(0, n)]
+    mats = np.stack([np.asarray(s.matrices, dtype=float) for s in sims])
+    seps = [s.separator for s in sims]
+    return mats, (None if seps[0] is None else np.stack([np.asarray(x, dtype=float) for x in seps]))
+
+
+def _condition(o, d: DiscernibleInputs, e: np.ndarray, noise_args: dict, *, base: bool = False) -> _Condition:
+    """The condition of a fixed observer (one member) or of every member of a population; ``base``: of the
+    population members' normal base observers."""
+    from .observers.fundamentals import LMS_TO_XYZ_2DEG
+    from .score_population import is_population
+
+    if is_population(o):
+        phi, phi_n = (o.base_fundamentals if base else o.fundamentals), o.base_fundamentals
+        kind, missing = ("normal", None) if base else (o.kind, o.missing_cone)
+
+        def members(lo: int, hi: int) -> list:
+            return [m.base for m in o.members(lo, hi)] if base else o.members(lo, hi)
+    else:
+        phi, kind, missing = np.asarray(o.fundamentals, dtype=float)[None], o.kind, o.missing_cone
+        phi_n = np.asarray((o.base if o.base is not None else o).fundamentals, dtype=float)[None]
+
+        def members(lo: int, hi: int) -> list:
+            return [o]
+    phi, phi_n = np.asarray(phi, dtype=float), np.asarray(phi_n, dtype=float)
+    white0 = np.matmul(phi.transpose(0, 2, 1), e)  # (M, 3): per member phi.T @ e
     if d.method == "rnl":
         from .metrics.discernible import receptor_noise_space
         from .metrics.discrimination import receptor_noise
 
-        noise = receptor_noise(o.missing_cone, **noise_args)
-        return _Condition(o, "rnl", space=receptor_noise_space(noise))
-    m = d.simulation if (d.simulation is not None and o.kind == "dichromat") else None
-    base = o.base if o.base is not None else o
-    return _Condition(o, "matrices", sim=simulation(o, method=m, reference_white=e),
-                      w_n=base.fundamentals.T @ e)
+        return _Condition("rnl", phi, white0, missing, space=receptor_noise_space(receptor_noise(missing,
+                                                                                                 **noise_args)))
+    w_n = np.matmul(phi_n.transpose(0, 2, 1), e)  # (M, 3) the normal base's white
+    sims, separator = _maps(members, kind, d, e, phi.shape[0])
+    maps = np.matmul(LMS_TO_XYZ_2DEG, w_n[:, None, :, None] * sims)  # (M, j, 3, 3)
+    white_xyz = np.matmul(LMS_TO_XYZ_2DEG, w_n[:, :, None])[..., 0]  # (M, 3)
+    return _Condition("matrices", phi, white0, missing, maps=maps, separator=separator, white_xyz=white_xyz)
 
 
-def _coordinates(cond: _Condition, t: np.ndarray, stim: _Stimulus, e: np.ndarray, a: float, method: str):
-    """Counting coordinates (K, 3, n_pixels) of ``stim`` through the K transmittance rows ``t`` (K, n_wl),
-    and which rows are defined (the filtered white excites every cone the observer has)."""
+def _coordinates(cond: _Condition, members: np.ndarray, t: np.ndarray, stim: _Stimulus, e: np.ndarray, a: float,
+                 method: str):
+    """Counting coordinates (R, 3, n_pixels) of ``stim`` for R rows, row r being member ``members[r]`` of
+    ``cond`` through the transmittance ``t[r]`` (``t`` (R, n_wl)), and which rows are defined (the filtered
+    white excites every cone the observer has)."""
     from .metrics.discernible import cam16ucs_planes, lab_planes
-    from .observers.fundamentals import LMS_TO_XYZ_2DEG
     from .observers.spaces import von_kries_gains
 
-    o = cond.observer
-    phi = np.asarray(o.fundamentals, dtype=float)
-    k_rows, n_wl = t.shape
-    white0 = phi.T @ e
-    whites = (t * e) @ phi  # (K, 3)
-    present = [c for c in range(3) if c != o.missing_cone]
+    phi = cond.phi[members]  # (R, n_wl, 3)
+    n_rows, n_wl = t.shape
+    white0 = cond.white0[members]
+    whites = np.matmul((t * e)[:, None, :], phi)[:, 0]  # (R, 3)
+    present = [c for c in range(3) if c != cond.missing]
     defined = np.all(whites[:, present] > 0, axis=1)
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         gains = von_kries_gains(whites, white0, adaptation=a)
     gains = np.where(defined[:, None] & np.isfinite(gains), gains, 1.0)
-    # cone weights per pixel band and filter: W[m, k, c] = sum_w p[w, m] e[w] t[k, w] phi[w, c]
-    A = stim.interpolation * e[:, None]
-    W = (A.T @ (t.T[:, :, None] * phi[:, None, :]).reshape(n_wl, k_rows * 3)).reshape(-1, k_rows, 3)
+    # cone weights per pixel band and row: W[m, r, c] = sum_w p[w, m] e[w] t[r, w] phi_r[w, c]
+    tp = (t.T[:, :, None] * phi.transpose(1, 0, 2)).reshape(n_wl, n_rows * 3)
+    if stim.identity:  # bands = the grid: the product with diag(e) is exact as a scaling
+        W = (e[:, None] * tp).reshape(-1, n_rows, 3)
+    else:
+        W = ((stim.interpolation * e[:, None]).T @ tp).reshape(-1, n_rows, 3)
     n = stim.samples.shape[1]
     if cond.kind == "rnl":
         from .metrics.discrimination import log_catches
 
-        wg = np.ascontiguousarray((W * gains[None]).reshape(-1, k_rows * 3).T)  # (K*3, m)
-        f = log_catches(wg @ stim.samples).reshape(k_rows, 3, n)  # ln of the adapted cone signals
+        wg = np.ascontiguousarray((W * gains[None]).reshape(-1, n_rows * 3).T)  # (R*3, m)
+        f = log_catches(wg @ stim.samples).reshape(n_rows, 3, n)  # ln of the adapted cone signals
         return np.einsum("xc,kcn->kxn", cond.space, f), defined
-    # gains, the simulation, the normal base's scale and LMS -> XYZ folded into 3x3 matrices per filter
-    sims = cond.sim.matrices
-    mats = np.stack([LMS_TO_XYZ_2DEG @ (cond.w_n[:, None] * sm) for sm in sims])  # (j, 3, 3)
-    folded = mats[None] * gains[:, None, None, :]  # (K, j, 3, 3): M_j diag(g_k)
-    rows = [np.einsum("mkc,kxc->kxm", W, folded[:, i]) for i in range(len(sims))]
-    if len(sims) == 2:
-        sep = cond.sim.separator[None, :] * gains  # (K, 3)
+    # gains, the simulation, the normal base's scale and LMS -> XYZ folded into 3x3 matrices per row
+    folded = cond.maps[members] * gains[:, None, None, :]  # (R, j, 3, 3): M_j diag(g_r)
+    n_pieces = folded.shape[1]
+    rows = [np.einsum("mkc,kxc->kxm", W, folded[:, i]) for i in range(n_pieces)]
+    if cond.separator is not None:
+        sep = cond.separator[members] * gains  # (R, 3)
         rows.append(np.einsum("mkc,kc->km", W, sep)[:, None, :])
-    big = np.ascontiguousarray(np.concatenate(rows, axis=1))  # (K, 3 j [+1], m)
-    out = (big.reshape(-1, big.shape[2]) @ stim.samples).reshape(k_rows, big.shape[1], n)
-    xyz = out[:, 0:3]
-    if len(sims) == 2:
-        xyz = np.where(out[:, 6:7] >= 0, xyz, out[:, 3:6])
-    planes = np.ascontiguousarray(np.moveaxis(xyz, 1, 0)).reshape(3, -1)  # (3, K*n)
-    white_xyz = LMS_TO_XYZ_2DEG @ cond.w_n
+    big = np.ascontiguousarray(np.concatenate(rows, axis=1).transpose(1, 0, 2))  # (3 j [+1], R, m)
+    out = (big.reshape(-1, big.shape[2]) @ stim.samples).reshape(big.shape[0], n_rows, n)
+    planes = out[0:3]  # (3, R, n) XYZ, contiguous
+    if cond.separator is not None:
+        planes = np.where(out[6:7] >= 0, planes, out[3:6])
+    white = cond.white_xyz[members].T[:, :, None]  # (3, R, 1): each row's white
     if method == "cam16ucs":
-        coords = cam16ucs_planes(planes, white_xyz)
+        same = bool(np.all(white == white[:, :1]))  # one member: one white (the same numbers either way)
+        coords = cam16ucs_planes(planes.reshape(3, -1), white[:, 0, 0] if same else
+                                 np.broadcast_to(white, planes.shape).reshape(3, -1))
         bad = ~np.all(np.isfinite(coords), axis=0)
         if bad.any():
             coords[:, bad] = np.nan
     else:
         # float32 after the ratio to the white, as discernible_colours (equal ratios keep equal values)
-        coords = lab_planes(planes, white_xyz, dtype=np.float32)
-    return np.ascontiguousarray(coords.reshape(3, k_rows, n).transpose(1, 0, 2)), defined
+        coords = lab_planes(planes, white, dtype=np.float32)
+    return coords.reshape(3, n_rows, n).transpose(1, 0, 2), defined  # (R, 3, n), a view
 
 
 def _count(coords: np.ndarray, cube_size: float, keys: bool):
-    """Counts (K,) of the finite colours of ``coords`` (K, 3, n), with (rows, packed) keys when asked, and
-    the number of undefined colours per row (K,) (cam16ucs only: they are not counted, and are reported).
+    """Counts (R,) of the finite colours of ``coords`` (R, 3, n), with (rows, packed) keys when asked, and
+    the number of undefined colours per row (R,) (cam16ucs only: they are not counted, and are reported).
 
     Undefined colours are parked in one cube beyond every finite colour, which is then taken off again."""
     from .metrics.discernible import count_planes_many
 
-    finite = np.all(np.isfinite(coords), axis=1)  # (K, n)
+    finite = np.all(np.isfinite(coords), axis=1)  # (R, n)
     excluded = coords.shape[2] - np.count_nonzero(finite, axis=1)
     if not excluded.any():
         return count_planes_many(coords, cube_size=cube_size, keys=keys), excluded
@@ -283,145 +337,140 @@ def _chunk(n_pixels: int) -> int:
     return max(1, min(1024, CHUNK_PIXEL_STATES // max(1, n_pixels)))
 
 
-def _without(cond: _Condition, d: DiscernibleInputs, e: np.ndarray, a: float, n_wl: int) -> tuple:
-    """Counts per stimulus without a filter (n_s,), the occupied cubes per stimulus (several stimuli only),
-    undefined colours."""
-    ones = np.ones((1, n_wl))
-    counts, parts, excluded = np.zeros(len(d.stimuli)), [], 0
-    pooled = len(d.stimuli) > 1
-    for j, stim in enumerate(d.stimuli):
-        c, _ = _coordinates(cond, ones, stim, e, a, d.method)
-        got, x = _count(c, d.cube_size, pooled)
-        counts[j] = (got[0] if pooled else got)[0]
-        if pooled:
-            parts.append(got[1])
-        excluded += int(x.sum())
-    return counts, parts, excluded
-
-
-def _pool(counts: np.ndarray, parts: list) -> float:
-    from .metrics.discernible import count_union
-
-    return float(count_union(parts, 1)[0]) if len(parts) > 1 else float(counts[0])
-
-
 @dataclass
-class _Unit:
-    """One observer (or population member) to count: its condition, whether its no-filter state is still to
-    count (``own``: then its rows are the no-filter row and the filters), and where its normal base's
-    counts without a filter come from (``ref``: a unit index, or ``(condition, _without(...))``)."""
+class _Group:
+    """A fixed observer (one member) or a population's members, counted together.
 
-    k: int
+    Each member has ``n_rows`` rows: with ``own`` its no-filter state first, then the filters (a reference
+    group, ``k`` None, has the no-filter row only: the normal base observers that others are compared to);
+    without ``own`` (a normal observer counted before) the filters only, its no-filter counts those of group
+    ``mine``. ``normal`` is the group holding the members' normal base observers' no-filter counts (None: the
+    group itself, or ``mine``).
+    """
+
+    k: int | None
     cond: _Condition
     own: bool
-    ref: Any
+    mine: int | None
+    normal: int | None
     n_rows: int
+
+    @property
+    def size(self) -> int:
+        return int(self.cond.phi.shape[0])
 
 
 @dataclass
 class _Shared:
-    """What every chunk needs (shipped once per run): the stimuli, the light, the filters, and per chunk
-    ``(unit, lo, hi)`` over its unit's rows."""
+    """What every chunk needs (shipped once per run): the stimuli, the light, the filters with the no-filter
+    state first (``states``), the groups, and per chunk ``(group, lo, hi)`` over its group's flat rows
+    (member-major: row f is member ``f // n_rows``, state ``f % n_rows``)."""
 
     d: DiscernibleInputs
     e: np.ndarray
     a: float
-    T: np.ndarray
-    units: list
+    states: np.ndarray
+    groups: list
     chunks: list
 
-    def rows(self, unit: _Unit, lo: int, hi: int) -> np.ndarray:
-        """Rows ``lo:hi`` of the unit's transmittances: for an ``own`` unit the no-filter row, then the filters."""
-        if not unit.own:
-            return self.T[lo:hi]
-        if lo > 0:
-            return self.T[lo - 1:hi - 1]
-        return np.vstack([np.ones((1, self.T.shape[1])), self.T[:hi - 1]])
+    def rows(self, group: _Group, lo: int, hi: int) -> tuple:
+        """Member indices (R,) and transmittances (R, n_wl) of the group's flat rows ``lo:hi``."""
+        f = np.arange(lo, hi)
+        members, state = np.divmod(f, group.n_rows)
+        return members, self.states[state + (0 if group.own else 1)]
 
 
 def _chunk_counts(sh: _Shared, c: int, _c1: int) -> dict:
-    """Chunk ``c`` (a pure function): counts per stimulus, pooled, undefined colours for its rows, and the
-    no-filter state's occupied cubes when the chunk holds it (first chunk of an ``own`` unit)."""
+    """Chunk ``c`` (a pure function): per row the counts per stimulus, whether the row is defined, the
+    undefined colours, and the count pooled over the stimuli (the union of their cubes)."""
     from .metrics.discernible import count_union
 
-    u, lo, hi = sh.chunks[c]
-    unit, d = sh.units[u], sh.d
-    rows = sh.rows(unit, lo, hi)
+    g, lo, hi = sh.chunks[c]
+    group, d = sh.groups[g], sh.d
+    members, t = sh.rows(group, lo, hi)
     pooled = len(d.stimuli) > 1
-    scene = np.full((len(d.stimuli), hi - lo), np.nan)
+    scene = np.zeros((len(d.stimuli), hi - lo))
     excluded = np.zeros(hi - lo)
-    parts, parts0 = [], []
+    parts = []
     defined = np.ones(hi - lo, dtype=bool)
     for j, stim in enumerate(d.stimuli):
-        coords, ok = _coordinates(unit.cond, rows, stim, sh.e, sh.a, d.method)
+        coords, ok = _coordinates(group.cond, members, t, stim, sh.e, sh.a, d.method)
         got, x = _count(coords, d.cube_size, pooled)
-        counts = got[0] if pooled else got
+        scene[j] = got[0] if pooled else got
         defined &= ok
-        scene[j] = np.where(ok, counts, np.nan)
         excluded += x
         if pooled:
             parts.append(got[1])
-            if unit.own and lo == 0:
-                r, k = got[1]
-                parts0.append((r[r == 0], k[r == 0]))
-    with_ = np.where(defined, count_union(parts, hi - lo), np.nan) if pooled else scene[0].copy()
-    return {"scene": scene, "excluded": excluded, "with": with_, "parts0": parts0}
+    union = count_union(parts, hi - lo).astype(float) if pooled else scene[0].copy()
+    return {"scene": scene, "defined": defined, "excluded": excluded, "union": union}
 
 
-def _observer_counts(unit: _Unit, parts: list, reference: tuple | None) -> dict:
-    """Arrays of one observer from its chunks' results (in order): per stimulus and pooled, without / with /
-    normal_without / excluded.
-
-    ``reference`` is ``(condition, _without(...))`` of the normal base observer; None for a normal observer
-    counted here for the first time: it is its own reference, its no-filter state counted in its first chunk
-    with the filters (``out["reference"]``).
-    """
-    scene = np.concatenate([p["scene"] for p in parts], axis=1)
-    excluded = np.concatenate([p["excluded"] for p in parts])
-    with_ = np.concatenate([p["with"] for p in parts])
-    first = 1 if unit.own else 0
-    mine: tuple
-    if unit.own:
-        s0, x0 = scene[:, 0].copy(), float(excluded[0])
-        mine = (unit.cond, (s0, parts[0]["parts0"], x0))
-    else:
-        assert reference is not None
-        mine = reference
-        s0, parts0, x0 = reference[1]
-    ref = mine if reference is None else reference
-    sn, parts_n, _ = ref[1]
-    return {"scene_without": s0, "scene_with": scene[:, first:], "scene_normal": sn,
-            "without": _pool(s0, mine[1][1]), "normal_without": _pool(sn, parts_n),
-            "with": with_[first:], "excluded": excluded[first:] + x0, "reference": mine}
-
-
-def _units(inp, d: DiscernibleInputs, e: np.ndarray, a: float) -> list:
-    """Every observer and member to count, in order, with its condition and its normal reference: a normal
-    observer is its own reference (shared with those it is the base of, and with its own later copies)."""
+def _groups(inp, d: DiscernibleInputs, e: np.ndarray) -> list:
+    """Every observer (a population: all its members) to count, in order, with its condition and where its
+    normal reference is: a normal observer is its own reference (shared with those it is the base of, and with
+    its own later copies); other observers' bases are reference groups placed before them."""
     from .score_population import is_population
 
-    n_wl = inp.grid.size
     noise_args = {"weber": inp.weber_fraction, "cone_ratios": inp.cone_ratios}
-    references: dict = {}  # normal observer spec -> unit index (counted there) or (condition, its counts)
-    units: list = []
+    n_f = len(inp.filters)
+    references: dict = {}  # normal observer (or population) spec -> group index holding its no-filter counts
+    groups: list = []
     for k, o in enumerate(inp.observers):
-        for m in (o.members() if is_population(o) else [o]):  # per member only the 3x3 maps differ
-            if m.base is None:
-                ref = references.get(m.spec)
-                if ref is None:
-                    cond, own = _condition(m, d, e, noise_args), True
-                    references[m.spec] = len(units)
-                else:
-                    cond = (units[ref].cond if isinstance(ref, int) else ref[0])
-                    own = False
+        pop = is_population(o)
+        if (o.kind == "normal") if pop else (o.base is None):
+            ref = references.get(o.spec)
+            if ref is None:
+                references[o.spec] = len(groups)
+                groups.append(_Group(k, _condition(o, d, e, noise_args), True, None, None, n_f + 1))
             else:
-                cond, own = _condition(m, d, e, noise_args), True
-                if m.base.spec not in references:
-                    base_cond = _condition(m.base, d, e, noise_args)
-                    references[m.base.spec] = (base_cond, _without(base_cond, d, e, a, n_wl))
-                ref = references[m.base.spec]
-            units.append(_Unit(k, cond, own, ref, len(inp.filters) + (1 if own else 0)))
-    return units
+                groups.append(_Group(k, groups[ref].cond, False, ref, ref, n_f))
+            continue
+        key = ("base", o.spec) if pop else o.base.spec
+        if key not in references:
+            references[key] = len(groups)
+            base = _condition(o, d, e, noise_args, base=True) if pop else _condition(o.base, d, e, noise_args)
+            groups.append(_Group(None, base, True, None, None, 1))
+        groups.append(_Group(k, _condition(o, d, e, noise_args), True, None, references[key], n_f + 1))
+    return groups
+
+
+def _assemble(groups: list, parts: list, n_s: int) -> list:
+    """Per group its arrays over members from its chunks' results (in order): ``(without, counts)`` where
+    ``without`` = (per stimulus (n_s, M), pooled (M,), undefined colours (M,)) of the no-filter state and
+    ``counts`` the filters' (per stimulus (n_s, M, n_f), pooled (M, n_f), undefined colours (M, n_f)) for
+    an observer's group (None for a reference group).
+
+    A reference group's no-filter counts are taken whole; an observer's count of a state whose filtered white
+    leaves a cone without signal is NaN (and its pooled no-filter count, over several stimuli, is the union's).
+    """
+    out: list = []
+    by_group: list = [[] for _ in groups]
+    for g, part in parts:
+        by_group[g].append(part)
+    for group, mine in zip(groups, by_group):
+        m, r = group.size, group.n_rows
+        cat = {key: np.concatenate([p[key] for p in mine], axis=-1) for key in mine[0]} if mine else {}
+        if group.own:
+            raw = cat["scene"].reshape(n_s, m, r)
+            defined = cat["defined"].reshape(m, r)
+            union = cat["union"].reshape(m, r)
+            excluded = cat["excluded"].reshape(m, r)
+            scene = raw if group.k is None else np.where(defined[None], raw, np.nan)
+            w0 = union[:, 0] if (group.k is None or n_s > 1) else scene[0, :, 0]
+            without = (scene[:, :, 0], w0, excluded[:, 0])
+            first = 1
+        else:
+            without = out[group.mine][0]
+            defined = cat["defined"].reshape(m, r)
+            scene = np.where(defined[None], cat["scene"].reshape(n_s, m, r), np.nan)
+            union, excluded = cat["union"].reshape(m, r), cat["excluded"].reshape(m, r)
+            first = 0
+        counts = None
+        if group.k is not None:
+            counts = (scene[:, :, first:], np.where(defined, union, np.nan)[:, first:],
+                      excluded[:, first:] + without[2][:, None])
+        out.append((without, counts))
+    return out
 
 
 def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None, scheduler="local") -> None:
@@ -429,9 +478,10 @@ def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None, s
 
     ``inp`` is the run's :class:`~cvdfilter.score_plan.ScoreInputs`. A fixed observer gets arrays over
     filters (and scalars for the no-filter counts); a population gets (filters, members) and (members,),
-    which the population summaries turn into statistics. The chunks (an observer or member x a range of
-    filters, every stimulus) run on the executor ``scheduler`` names or is (:mod:`cvdfilter.execution`;
-    default this process) and are assembled in order: the same counts wherever they ran.
+    which the population summaries turn into statistics. The chunks (a range of (member, filter state) rows
+    of an observer's group, every stimulus) run on the executor ``scheduler`` names or is
+    (:mod:`cvdfilter.execution`; default this process) and are assembled in order: the same counts wherever
+    they ran. Working memory is bounded by :data:`CHUNK_PIXEL_STATES` per chunk.
     """
     from .execution import map_chunks
     from .score_population import is_population
@@ -439,12 +489,12 @@ def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None, s
     e = np.asarray(inp.illuminant.spd, dtype=float)
     T = np.asarray(inp.filters.transmittance, dtype=float)
     a = float(inp.adaptation)
-    units = _units(inp, d, e, a)
+    groups = _groups(inp, d, e)
     size = _chunk(max(s.samples.shape[1] for s in d.stimuli))
-    chunks = [(u, lo, min(unit.n_rows, lo + size)) for u, unit in enumerate(units)
-              for lo in range(0, unit.n_rows, size)]
-    shared = _Shared(d, e, a, T, units, chunks)
-    total, done = sum(unit.n_rows for unit in units), 0
+    chunks = [(g, lo, min(group.size * group.n_rows, lo + size)) for g, group in enumerate(groups)
+              for lo in range(0, group.size * group.n_rows, size)]
+    shared = _Shared(d, e, a, np.vstack([np.ones((1, T.shape[1])), T]), groups, chunks)
+    total, done = sum(group.size * group.n_rows for group in groups), 0
 
     def tick(n_done: int, n_total: int, c: int) -> None:
         nonlocal done
@@ -452,21 +502,17 @@ def score_discernible(inp, d: DiscernibleInputs, per_obs: list, progress=None, s
         if progress is not None:
             progress("discernible", done, total)
 
-    results: list = []  # per unit, its counts (assembled in unit order)
-    parts: list = []
-    for c, part in enumerate(map_chunks(_chunk_counts, shared, [(c, c + 1) for c in range(len(chunks))],
-                                        scheduler=scheduler, progress=tick)):
-        parts.append(part)
-        u = chunks[c][0]
-        if chunks[c][2] < units[u].n_rows:
+    parts = [(chunks[c][0], part) for c, part in enumerate(
+        map_chunks(_chunk_counts, shared, [(c, c + 1) for c in range(len(chunks))], scheduler=scheduler,
+                   progress=tick))]
+    results = _assemble(groups, parts, len(d.stimuli))
+    for g, group in enumerate(groups):
+        if group.k is None:
             continue
-        ref = units[u].ref
-        reference = results[ref]["reference"] if isinstance(ref, int) else ref
-        results.append(_observer_counts(units[u], parts, reference))
-        parts = []
-    for k, o in enumerate(inp.observers):
-        mine = [r for r, unit in zip(results, units) if unit.k == k]
-        per_obs[k].update(_store(mine, len(d.stimuli), is_population(o)))
+        normal = group.normal if group.normal is not None else g
+        o = inp.observers[group.k]
+        per_obs[group.k].update(_store(results[g][0], results[normal][0], results[g][1], len(d.stimuli),
+                                       is_population(o)))
 
 
 def _ratios(without, with_, normal):
@@ -474,25 +520,28 @@ def _ratios(without, with_, normal):
         return with_ / without, without / normal, with_ / normal
 
 
-def _store(results: list, n_s: int, population: bool) -> dict:
+def _store(without: tuple, normal: tuple, counts: tuple, n_s: int, population: bool) -> dict:
     """The per-observer arrays: fixed observer (filters,) / scalars; population (filters, members) / (members,)."""
-    def stack(key, j=None):
-        vals = [r[key] if j is None else r[key][j] for r in results]
-        v = np.stack([np.asarray(x, dtype=float) for x in vals], axis=-1)
+    def shape(v):
+        v = np.asarray(v, dtype=float)
+        v = v.T if v.ndim == 2 else v  # (members, filters) -> (filters, members)
         return v if population else v[..., 0]
 
+    s0, w0, _ = without
+    sn, wn, _ = normal
+    scene, with_, excluded = counts
     store = {}
     specs = [("", None)] + [(f"scene{j}_", j) for j in range(n_s)] if n_s > 1 else [("", None)]
     for prefix, j in specs:
         if j is None:
-            w0, w1, wn = stack("without"), stack("with"), stack("normal_without")
+            v0, v1, vn = shape(w0), shape(with_), shape(wn)
         else:
-            w0, w1, wn = stack("scene_without", j), stack("scene_with", j), stack("scene_normal", j)
-        ratio, to_normal, to_normal_with = _ratios(w0, w1, wn)
-        for key, v in zip(STORE_KEYS, (w0, w1, ratio, wn, to_normal, to_normal_with)):
+            v0, v1, vn = shape(s0[j]), shape(scene[j]), shape(sn[j])
+        ratio, to_normal, to_normal_with = _ratios(v0, v1, vn)
+        for key, v in zip(STORE_KEYS, (v0, v1, ratio, vn, to_normal, to_normal_with)):
             store[f"discernible_{prefix}{key}"] = v
     if n_s > 1:
         ratios = np.stack([store[f"discernible_scene{j}_ratio"] for j in range(n_s)])
         store["discernible_mean_scene_ratio"] = ratios.mean(axis=0)
-    store["discernible_excluded_pixels"] = stack("excluded")
+    store["discernible_excluded_pixels"] = shape(excluded)
     return store

@@ -13,7 +13,7 @@ Public: :func:`is_population`, :func:`score_populations`, :func:`population_scor
 
 from __future__ import annotations
 
-import copy
+import threading
 
 import numpy as np
 
@@ -58,9 +58,6 @@ MEMBER_BLOCK = 32
 #: Point sets (filter x member) per chunk of the filter loop: the chunk's cone catches, logs and points
 #: (float64) stay near 8 MB each per thread; large enough for an efficient matrix product.
 SETS_PER_CHUNK = 3200
-#: Point sets per block of the pair statistics inside a chunk (whole filters): their float32 all-pair
-#: distances (about 2.5 MB) stay in the CPU cache from the distances through the counts to the median.
-BLOCK_ROWS = 128
 
 
 def population_scores(inp, pop, groups, progress=None, scheduler="local") -> dict:
@@ -69,52 +66,131 @@ def population_scores(inp, pop, groups, progress=None, scheduler="local") -> dic
 
     Vectorised over members: members are taken in blocks of :data:`MEMBER_BLOCK`; per block the
     no-filter references of every member are made at once (:class:`MemberBlock`) and the filters run in
-    chunks on the executor ``scheduler`` names or is (:mod:`cvdfilter.execution`; default this process),
-    every metric an array over (filters, members), assembled in chunk order: the same bits wherever the
-    chunks ran. One executor serves every block. The arithmetic per member is the fixed-observer path's
+    chunks of ``SETS_PER_CHUNK // MEMBER_BLOCK``. Every (block, chunk of filters) is one task on the
+    executor ``scheduler`` names or is (:mod:`cvdfilter.execution`; default this process), so blocks run side
+    by side; a block is built where its tasks run (once per thread or worker: :func:`_block_for`) and every
+    metric comes back as an array over (filters, members), assembled in task order: the same bits wherever
+    the tasks ran. The arithmetic per member is the fixed-observer path's
     (:class:`~cvdfilter.score_plan.ChunkRunner`), so a member scores exactly as the same observer scored alone.
     """
-    from .execution import executor
+    from .execution import chunk_bounds, executor
 
     ex = scheduler if hasattr(scheduler, "map") else executor(scheduler)
-    store: dict = {}
+    work = _PopulationWork(inp, pop, tuple(groups), chunk_bounds(pop.n, MEMBER_BLOCK),
+                           chunk_bounds(len(inp.filters), max(1, SETS_PER_CHUNK // MEMBER_BLOCK)))
+    store = _allocate(inp, pop, groups)
+    tasks = work.tasks()
+
+    def tick(n_done: int, n_total: int, i: int) -> None:
+        if progress is not None:
+            progress("members", pop.n * n_done // n_total, pop.n)
+
     try:
-        for lo in range(0, pop.n, MEMBER_BLOCK):
-            hi = min(pop.n, lo + MEMBER_BLOCK)
-            block = MemberBlock(inp, pop, lo, hi, groups, store)
-            block.run(ex)
-            if progress is not None:
-                progress("members", hi, pop.n)
+        for (b, c), part in zip(tasks, ex.map(_run_task, work, [(t, t + 1) for t in range(len(tasks))],
+                                              progress=tick)):
+            (lo, hi), (f_lo, f_hi) = work.blocks[b], work.filter_chunks[c]
+            for key, v in part.items():
+                if store[key].ndim == 1:  # per member (no filter): sent with the block's first chunk
+                    store[key][lo:hi] = v
+                else:
+                    store[key][f_lo:f_hi, lo:hi] = v
     finally:
+        _LOCAL.__dict__.clear()  # this thread's cached block (pool threads end with the map)
         if ex is not scheduler:
             ex.close()
     return store
 
 
-def _compute_block_chunk(block: MemberBlock, f_lo: int, f_hi: int) -> dict:
-    return block.compute(f_lo, f_hi)
+class _PopulationWork:
+    """What every task of one population's scoring shares (shipped once to a cluster's workers): the run's
+    inputs, the population, the member blocks and the chunks of filters."""
+
+    def __init__(self, inp, pop, groups: tuple, blocks: list, filter_chunks: list) -> None:
+        import os
+        import uuid
+
+        self.inp, self.pop, self.groups = inp, pop, groups
+        self.blocks, self.filter_chunks = blocks, filter_chunks
+        self.token = f"{os.getpid()}-{uuid.uuid4().hex}"  # names this run in the per-thread block cache
+
+    def tasks(self) -> list[tuple[int, int]]:
+        """(block index, filter chunk index), block by block."""
+        return [(b, c) for b in range(len(self.blocks)) for c in range(len(self.filter_chunks))]
 
 
-def _layout(mask: np.ndarray, where: np.ndarray, total: int) -> np.ndarray:
-    """A (members, pairs) mask in the all-pair (offset) layout of the chunks' distances."""
-    out = np.zeros((mask.shape[0], total), dtype=bool)
-    out[:, where] = mask
+_LOCAL = threading.local()
+
+
+def _block_for(work: _PopulationWork, b: int) -> MemberBlock:
+    """Member block ``b`` of ``work``, built once per thread (or worker) that runs its tasks: the last block
+    a thread built is kept (with its cone basis, reused as the next block's buffer)."""
+    key = (work.token, b)
+    cached = getattr(_LOCAL, "block", None)
+    if cached is not None and cached[0] == key:
+        return cached[1]
+    lo, hi = work.blocks[b]
+    buffer = cached[1].B if cached is not None else None
+    _LOCAL.block = None  # the old block goes before the new one is built (memory)
+    block = MemberBlock(work.inp, work.pop, lo, hi, work.groups, buffer=buffer)
+    _LOCAL.block = (key, block)
+    return block
+
+
+def _run_task(work: _PopulationWork, t: int, _t1: int) -> dict:
+    b, c = work.tasks()[t]
+    block = _block_for(work, b)
+    f_lo, f_hi = work.filter_chunks[c]
+    out = block.compute(f_lo, f_hi)
+    if c == 0:
+        out.update(block.member_values())
     return out
+
+
+def _allocate(inp, pop, groups) -> dict:
+    """The population's arrays: (filters, members) per metric, (members,) for values without a filter."""
+    n_f, n = len(inp.filters), pop.n
+    store: dict = {}
+
+    def arr(key, dtype=float, fill=np.nan, per_filter=True):
+        store[key] = np.full((n_f, n) if per_filter else (n,), fill, dtype=dtype)
+
+    pairs = "discrimination" in groups or "confusion" in groups
+    if "contrast" in groups:
+        for key in CONTRAST_KEYS:
+            arr(key)
+    if pairs and "confusion" in groups and pop.kind != "normal":
+        for key in CONFUSION_KEYS:
+            arr(f"confusion_{key}", np.int64, 0)
+        arr("confusion_normally_discriminable", np.int64, 0, per_filter=False)
+        arr("confusion_median_without", per_filter=False)
+        arr("confusion_median_with")
+        arr("confusion_median_ratio")
+    if pairs and "discrimination" in groups:
+        for key in PAIR_KEYS:
+            arr(f"discriminable_{key}", np.int64, 0)
+        for x in inp.distribution_thresholds:
+            for key in PAIR_KEYS:
+                arr(f"discriminable_at_{float(x):g}_{key}", np.int64, 0)
+        arr("discriminable_median_without", per_filter=False)
+        arr("discriminable_median_with")
+        arr("discriminable_median_ratio")
+    arr("undefined", bool, False)
+    return store
 
 
 class MemberBlock:
     """Scores members ``lo:hi`` of a population for ranges of filters.
 
-    Made once per block: the cone basis of its members, and per member the references without a filter
-    (contrast RMS, the receptor-noise transform rotated to the member's own points, its close pairs at
-    every radius, the normally discriminable pairs of its own normal observer and the median over them).
-    :meth:`compute` scores filters ``f_lo:f_hi`` and returns the results, writing nothing shared (a pure
-    chunk function, run on any executor); :meth:`assemble` copies them into rows ``f_lo:f_hi`` and
-    columns ``lo:hi`` of the population's arrays; :meth:`light` is the copy a cluster's workers get.
+    Made once per block (where its tasks run): the cone basis of its members, and per member the
+    references without a filter (contrast RMS, the receptor-noise transform rotated to the member's own
+    points, its close pairs at every radius, the normally discriminable pairs of its own normal observer
+    and the median over them). :meth:`compute` scores filters ``f_lo:f_hi`` and returns the results,
+    writing nothing shared; :meth:`member_values` gives the values without a filter. ``buffer``: a float64
+    array of the cone basis' size to reuse (the previous block's), else one is allocated.
     """
 
-    def __init__(self, inp, pop, lo: int, hi: int, groups, store: dict) -> None:
-        self.lo, self.hi, self.store = lo, hi, store
+    def __init__(self, inp, pop, lo: int, hi: int, groups, buffer: np.ndarray | None = None) -> None:
+        self.lo, self.hi = lo, hi
         self.transmittance = inp.filters.transmittance
         self.adaptation = inp.adaptation
         self.distribution_thresholds = tuple(float(x) for x in inp.distribution_thresholds)
@@ -128,7 +204,11 @@ class MemberBlock:
                                                                 np.ones((inp.grid.size, 1))], axis=1)
         fund = np.asarray(pop.fundamentals[lo:hi], dtype=float)
         # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member.
-        self.B = (fund.transpose(1, 0, 2)[:, :, :, None] * stimuli[:, None, None, :]).reshape(inp.grid.size, -1)
+        shape = (inp.grid.size, self.mb, 3, self.n_s + 1)
+        if buffer is None or buffer.size != np.prod(shape) or buffer.dtype != np.float64:
+            buffer = np.empty(shape)
+        B = np.multiply(fund.transpose(1, 0, 2)[:, :, :, None], stimuli[:, None, None, :], out=buffer.reshape(shape))
+        self.B = B.reshape(inp.grid.size, -1)
         q0all = self.B.sum(axis=0).reshape(self.mb, 3, self.n_s + 1)
         q0 = np.ascontiguousarray(q0all[:, :, :self.n_s].transpose(0, 2, 1))  # (members, surfaces, 3)
         self.w0 = np.ascontiguousarray(q0all[:, :, self.n_s])  # (members, 3)
@@ -136,7 +216,6 @@ class MemberBlock:
             self._contrast_references(pop, q0)
         if self.pairs:
             self._pair_references(inp, pop, stimuli, q0)
-        self._allocate(len(inp.filters), pop.n)
 
     def _contrast_references(self, pop, q0: np.ndarray) -> None:
         from .metrics.contrast import contrast_rms, opponent_channels
@@ -148,20 +227,20 @@ class MemberBlock:
         self.rms0 = contrast_rms([q0[:, :, c] for c in range(3)], self.w0, self.channels, gains=g0)
 
     def _pair_references(self, inp, pop, stimuli: np.ndarray, q0: np.ndarray) -> None:
+        """Per member, in the offset layout of the chunks' pair distances: the pairs its own normal observer
+        tells apart without a filter (the median's pairs), its close pairs at every radius and its confused
+        pair sets, all from float64 squared distances; the median without a filter from the kernel."""
         from .metrics.discrimination import log_catches, receptor_noise, rnl_transform
-        from .metrics.pairs import (all_pair_sq_distances, median_of_kept, offset_order, pair_count, pair_indices,
-                                    pair_sq_distances, principal_rotations)
+        from .metrics.pairs import all_pair_sq_distances, dense_pair_statistics, pair_count, principal_rotations
 
         n_s = self.n_s
         noise = receptor_noise(self.missing, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
         normal_noise = receptor_noise(None, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
-        i_all, j_all = pair_indices(n_s)
         self.total = pair_count(n_s)
-        # The pairs each member's own normal observer tells apart without a filter (row-major pairs).
         base = np.asarray(pop.base_fundamentals[self.lo:self.hi], dtype=float)
         nq0 = np.matmul(stimuli[:, :n_s].T, base)
         yn = log_catches(nq0) @ rnl_transform(normal_noise).T
-        self.seen = pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], i_all, j_all) >= \
+        seen = all_pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], dtype=float) >= \
             float(inp.normal_threshold) ** 2
         # The receptor-noise transform, rotated per member so that its first coordinate has the
         # largest spread (as pair_reference does for one observer).
@@ -171,81 +250,30 @@ class MemberBlock:
         self.t = np.matmul(t.T[None], rot).transpose(0, 2, 1)  # (members, k, 3)
         y0 = np.matmul(logs0, self.t.transpose(0, 2, 1))  # (members, surfaces, k)
         self.k = self.t.shape[1]
-        d2 = np.sum((y0[:, :, None, :] - y0[:, None, :, :]) ** 2, axis=-1)[:, i_all, j_all]
+        planes = [y0[:, :, r] for r in range(self.k)]
+        d2 = all_pair_sq_distances(planes, dtype=float)
         self.t0, self.td = float(inp.discrimination_threshold), float(inp.deficient_threshold)
         radii = {self.t0} | (set(self.distribution_thresholds) if self.discrimination else set())
         if self.with_confusion:
             radii.add(self.td)
-        where = offset_order(i_all, j_all, n_s)  # masks over pairs in the chunks' all-pair layout
         with np.errstate(invalid="ignore"):
-            self.close = {r: _layout(d2 < r * r, where, self.total) for r in sorted(radii)}
-        self.keep = _layout(self.seen, where, self.total)  # the median's pairs: the normally discriminable ones
-        dm = all_pair_sq_distances([y0[:, :, r] for r in range(self.k)])
-        self.m0 = np.sqrt(median_of_kept(dm, self.keep))
+            self.close = {r: d2 < r * r for r in sorted(radii)}
+        self.seen = self.keep = seen  # the median's pairs: the normally discriminable ones
+        self.m0 = np.sqrt(dense_pair_statistics(planes, [], [], seen)[2])
         if self.with_confusion:
-            unseen = ~self.seen
-            near = unseen & (pair_sq_distances([y0[:, :, r] for r in range(self.k)], i_all, j_all)
-                             < self.td * self.td)
-            self.unseen = _layout(unseen, where, self.total)
-            self.unseen_close = _layout(near, where, self.total)
+            self.unseen = ~seen
+            with np.errstate(invalid="ignore"):
+                self.unseen_close = self.unseen & (d2 < self.td * self.td)
 
-    def _allocate(self, n_f: int, n: int) -> None:
-        """The population's arrays (made by the first block) and this block's filter-independent columns."""
-        store, lo, hi = self.store, self.lo, self.hi
-
-        def arr(key, dtype=float, fill=np.nan, per_filter=True):
-            if key not in store:
-                store[key] = np.full((n_f, n) if per_filter else (n,), fill, dtype=dtype)
-
-        if self.contrast:
-            for key in CONTRAST_KEYS:
-                arr(key)
+    def member_values(self) -> dict:
+        """The block's values that do not depend on the filter, (members,) each."""
+        out: dict = {}
         if self.pairs and self.with_confusion:
-            for key in CONFUSION_KEYS:
-                arr(f"confusion_{key}", np.int64, 0)
-            arr("confusion_normally_discriminable", np.int64, 0, per_filter=False)
-            arr("confusion_median_without", per_filter=False)
-            arr("confusion_median_with")
-            arr("confusion_median_ratio")
-            store["confusion_normally_discriminable"][lo:hi] = self.seen.sum(axis=1)
-            store["confusion_median_without"][lo:hi] = self.m0
+            out["confusion_normally_discriminable"] = self.seen.sum(axis=1)
+            out["confusion_median_without"] = self.m0
         if self.pairs and self.discrimination:
-            for key in PAIR_KEYS:
-                arr(f"discriminable_{key}", np.int64, 0)
-            for x in self.distribution_thresholds:
-                for key in PAIR_KEYS:
-                    arr(f"discriminable_at_{x:g}_{key}", np.int64, 0)
-            arr("discriminable_median_without", per_filter=False)
-            arr("discriminable_median_with")
-            arr("discriminable_median_ratio")
-            store["discriminable_median_without"][lo:hi] = self.m0
-        arr("undefined", bool, False)
-
-    # -- chunks as pure functions (the execution layer, cvdfilter.execution) --------------------------------
-
-    def run(self, ex) -> None:
-        """Every chunk of filters on the executor ``ex``, assembled in chunk order; then frees the basis."""
-        from .execution import LocalExecutor, chunk_bounds
-
-        bounds = chunk_bounds(self.transmittance.shape[0], max(1, SETS_PER_CHUNK // MEMBER_BLOCK))
-        if isinstance(ex, LocalExecutor) and ex.threads > len(bounds):
-            ex = LocalExecutor(max(1, len(bounds)))
-        shared = self if isinstance(ex, LocalExecutor) else self.light()
-        for (f_lo, f_hi), part in zip(bounds, ex.map(_compute_block_chunk, shared, bounds)):
-            self.assemble(f_lo, f_hi, part)
-        self.B = np.empty((0, 0))  # the arrays it filled stay in the population's store
-
-    def light(self) -> MemberBlock:
-        """A copy without the population's arrays (what a cluster's workers need: shipped once per block)."""
-        part = copy.copy(self)
-        part.store = {}
-        return part
-
-    def assemble(self, f_lo: int, f_hi: int, part: dict) -> None:
-        """Copies a :meth:`compute` result into rows ``f_lo:f_hi``, columns ``lo:hi`` of the arrays."""
-        cols = (slice(f_lo, f_hi), slice(self.lo, self.hi))
-        for key, v in part.items():
-            self.store[key][cols] = v
+            out["discriminable_median_without"] = self.m0
+        return out
 
     def compute(self, f_lo: int, f_hi: int) -> dict:
         """Scores filters ``f_lo:f_hi`` for the block's members: ``{key: (filters, members) array}``."""
@@ -280,38 +308,23 @@ class MemberBlock:
         """Per radius (close without, close with, close both) and, for confusion, the counts among the
         unseen pairs; the median Delta S with the filter. Each (filters, members)."""
         from .metrics.discrimination import log_catches
-        from .metrics.pairs import all_pair_sq_distances, dense_close_counts, median_of_kept
+        from .metrics.pairs import dense_pair_statistics
 
         nf, mb, n_s = S.shape[0], self.mb, self.n_s
         logs = log_catches(S)
         y = np.matmul(self.t[None], logs)  # (filters, members, k, surfaces): y = P ln q per member
-        flat = [np.ascontiguousarray(y[:, :, r, :]).reshape(nf * mb, n_s) for r in range(self.k)]
-        # Every pair's distance once (float32, for the median); the counts come from it exactly. Done in
-        # blocks of whole filters (rows of every member) small enough to stay in the CPU cache meanwhile.
-        n_rows = nf * mb
-        finite = all(bool(np.isfinite(p).all()) for p in flat)  # then every squared distance is >= 0
-        close_all = {r: np.empty(n_rows, dtype=np.int64) for r in self.close}
-        among_all = {r: [np.empty(n_rows, dtype=np.int64) for _ in range(3 if self.with_confusion and r == self.td
-                                                                          else 1)] for r in self.close}
-        med = np.empty(n_rows)
-        step = mb * max(1, BLOCK_ROWS // mb)
-        for a in range(0, n_rows, step):
-            b = min(n_rows, a + step)
-            sub = [p[a:b] for p in flat]
-            dm = all_pair_sq_distances(sub)
-            for r, mask in self.close.items():
-                more = [self.unseen, self.unseen_close] if len(among_all[r]) == 3 else []
-                close1, among = dense_close_counts(dm, sub, r, [mask, *more])
-                close_all[r][a:b] = close1
-                for dst, src in zip(among_all[r], among):
-                    dst[a:b] = src
-            med[a:b] = median_of_kept(dm.reshape(-1, mb, dm.shape[1]), self.keep, nonnegative=finite).ravel()
-        med = np.sqrt(med).reshape(nf, mb)
-        counts, extra = {}, []
-        for r, mask in self.close.items():
-            counts[r] = (mask.sum(axis=1), close_all[r].reshape(nf, mb), among_all[r][0].reshape(nf, mb))
-            if len(among_all[r]) == 3:
-                extra = [x.reshape(nf, mb) for x in among_all[r][1:]]
+        planes = y.transpose(2, 0, 1, 3).reshape(self.k, nf * mb, n_s)
+        # Every pair's distance once, in a compiled kernel: the counts at every radius (among the member's
+        # own pair sets) and the median over its normally discriminable pairs, row by row (filter x member).
+        radii = list(self.close)
+        listed = [(r, m) for r, m in self.close.items()]
+        if self.with_confusion:
+            listed += [(self.td, self.unseen), (self.td, self.unseen_close)]
+        close, among, med2 = dense_pair_statistics(planes, radii, listed, self.keep, guess=self.m0 ** 2)
+        med = np.sqrt(med2).reshape(nf, mb)
+        counts = {r: (mask.sum(axis=1), close[i].reshape(nf, mb), among[i].reshape(nf, mb))
+                  for i, (r, mask) in enumerate(self.close.items())}
+        extra = [a.reshape(nf, mb) for a in among[len(radii):]]
         return counts, extra, med
 
     def _pair_results(self, counts: dict, extra: list, med: np.ndarray) -> dict:

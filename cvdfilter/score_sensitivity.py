@@ -5,6 +5,11 @@ their values of the run; a verdict is robust when the sign of its change is the 
 For a population every member's verdict is followed through the variations: each value is the share of
 members helped, ``robust_share`` the share whose sign never changes, and ``robust`` that none changes.
 
+With the ``discernible`` group the verdict ``discernible_ratio`` (pooled count with / without the filter,
+against 1) is followed too: the threshold variations scale the counting cube (the count's just-discernible
+step, ``cube_size``) by the same factors; the Weber fraction and cone ratios enter only the ``rnl`` space,
+so for ``cielab`` and ``cam16ucs`` those variations are the run's own counts (not recomputed).
+
 Public: :data:`SENSITIVITY_RANGES`, :func:`sensitivity_variants`, :func:`sensitivity`.
 """
 
@@ -50,6 +55,15 @@ def sensitivity_variants(settings: dict) -> list:
     return out
 
 
+def _settings(kw: dict, discern, st: dict) -> dict:
+    """A variation's settings for the JSON (with the discernible group, the threshold factor's cube size)."""
+    out = {k: (list(v) if isinstance(v, tuple) else v) for k, v in kw.items()}
+    if discern is not None and "discrimination_threshold" in kw:
+        out["discernible_cube_size"] = discern.cube_size * kw["discrimination_threshold"] / \
+            st["discrimination_threshold"]
+    return out
+
+
 def _sign(x) -> int:
     return 0 if x is None or x == 0 else (1 if x > 0 else -1)
 
@@ -78,7 +92,7 @@ def _population_rows(measures: list, i: int, names: list) -> dict:
     the sign of their change in every variation."""
     rows = {}
     for key in measures[0]:
-        ref = 1.0 if key.startswith("median") else 0.0
+        ref = 1.0 if (key.startswith("median") or key == "discernible_ratio") else 0.0
         vals = np.stack([m[key][i] for m in measures])  # (variations, members), default first
         defined = np.isfinite(vals)
         with np.errstate(invalid="ignore"):
@@ -113,8 +127,46 @@ def _measures(o: dict) -> dict:
     return out
 
 
-def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
-    """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section)."""
+def _discernible_variations(inp, discern, per_obs: list, variations: list) -> list:
+    """Per variation of ``variations`` (name, kwargs) the observers' ``discernible_ratio`` arrays: recounted
+    where the variation changes the count (cube size; the noise for ``rnl``), else the run's own."""
+    import dataclasses
+
+    from .score_discernible import score_discernible
+
+    own = [po.get("discernible_ratio") for po in per_obs]
+    out = []
+    for _, kw in variations:
+        d, changes = discern, {}
+        if "discrimination_threshold" in kw:  # the threshold factor: the counting cube scales with it
+            d = dataclasses.replace(discern, cube_size=discern.cube_size * kw["discrimination_threshold"]
+                                    / inp.discrimination_threshold)
+        elif discern.method == "rnl":
+            changes = {k: kw[k] for k in ("weber_fraction", "cone_ratios") if k in kw}
+        if d is discern and not changes:
+            out.append(own)
+            continue
+        store: list = [dict() for _ in inp.observers]
+        score_discernible(dataclasses.replace(inp, **changes), d, store)
+        out.append([po["discernible_ratio"] for po in store])
+    return out
+
+
+def _fixed_row(values: dict, ref: float) -> dict:
+    nums = [v for v in values.values() if v is not None]
+    signs = {_sign(v - ref) for v in nums}
+    return {"values": values, "min": min(nums) if nums else None, "max": max(nums) if nums else None,
+            "robust": len(signs) <= 1}
+
+
+def _number(x) -> float | None:
+    x = float(x)
+    return round(x, 6) if np.isfinite(x) else None
+
+
+def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid, *, inp=None, discern=None) -> dict:
+    """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section); with the
+    run's ``inp`` (ScoreInputs) and ``discern`` (DiscernibleInputs), the discernible ratio too."""
     from .scorecard import score
 
     st = card.settings
@@ -126,8 +178,12 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
             "normal_threshold": st["normal_threshold"], "deficient_threshold": st["deficient_threshold"],
             "signal_limits": st["signal_limits"]}
     variants, variant_cards = [], []
+    discernible = discern is not None and inp is not None and "discernible" in card.metrics
+    listed = sensitivity_variants(st) if (pair_groups or discernible) else []
+    names = [name for name, _ in listed]
+    ratios = _discernible_variations(inp, discern, card.per_observer, listed) if discernible else []
     if pair_groups:
-        for name, kw in sensitivity_variants(st):
+        for name, kw in listed:
             v = score(fs, metrics=pair_groups, **{**base, **kw})
             variants.append((name, kw, v.to_dict()))
             variant_cards.append(v)
@@ -144,6 +200,12 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
     populations = {k: [_member_measures(card.per_observer[k])] + [_member_measures(v.per_observer[k])
                                                                    for v in variant_cards]
                    for k, o in enumerate(card.observers) if is_population(o)}
+    if discernible:
+        for k, measures in populations.items():
+            if not pair_groups:
+                measures.extend({} for _ in listed)
+            for m, r in zip(measures, [card.per_observer[k]["discernible_ratio"], *(v[k] for v in ratios)]):
+                m["discernible_ratio"] = np.asarray(r, dtype=float)
     filters = []
     for i, f in enumerate(own):
         entry = {"name": f["name"], "observers": []}
@@ -153,8 +215,7 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
             entry["road_use_suitable"] = {"values": values, "robust": len(set(values.values())) == 1}
         for k, o in enumerate(f["observers"]):
             if k in populations:
-                entry["observers"].append({"observer": o["observer"],
-                                           **_population_rows(populations[k], i, [n for n, _, _ in variants])})
+                entry["observers"].append({"observer": o["observer"], **_population_rows(populations[k], i, names)})
                 continue
             m0 = _measures(o)
             rows = {}
@@ -167,6 +228,10 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
                 signs = {_sign(v - ref) for v in nums}
                 rows[key] = {"values": values, "min": min(nums) if nums else None, "max": max(nums) if nums else None,
                              "robust": len(signs) <= 1}
+            if discernible:
+                own = card.per_observer[k]["discernible_ratio"]
+                rows["discernible_ratio"] = _fixed_row(
+                    {"default": _number(own[i]), **{n: _number(v[k][i]) for n, v in zip(names, ratios)}}, 1.0)
             entry["observers"].append({"observer": o["observer"], **rows})
         filters.append(entry)
     return {
@@ -174,12 +239,15 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid) -> dict:
                 "'robust' means the sign of the change (net pairs, median ratio - 1, or the road-use verdict) is "
                 "the same in every variation; for a population each value is the share of members helped (change "
                 "above 0, or median ratio above 1), 'robust_share' the share of members whose sign is the same "
-                "in every variation, and 'robust' that every member's is",
+                "in every variation, and 'robust' that every member's is"
+                + ("; discernible_ratio (discernible colours with / without, against 1): the threshold factors "
+                   "scale the counting cube, the Weber fraction and cone ratios change only the rnl space"
+                   if discernible else ""),
         "ranges": {"weber_fraction_factors": list(SENSITIVITY_RANGES["weber_fraction"]),
                    "cone_ratios_lm": [list(x) for x in SENSITIVITY_RANGES["cone_ratios_lm"]],
                    "threshold_factors": list(SENSITIVITY_RANGES["threshold_factor"]),
                    "signal_limit_readings": list(SENSITIVITY_RANGES["signal_limits"])},
-        "variations": [{"name": name, "settings": {k: (list(v) if isinstance(v, tuple) else v) for k, v in kw.items()}}
-                       for name, kw, _ in variants] + [{"name": name, "settings": {}} for name, _ in road],
+        "variations": [{"name": name, "settings": _settings(kw, discern if discernible else None, st)}
+                       for name, kw in listed] + [{"name": name, "settings": {}} for name, _ in road],
         "filters": filters,
     }

@@ -367,7 +367,7 @@ def _scorecard(inp, filters, signal_spectra, discern, results: dict, per_obs: li
         from .score_sensitivity import sensitivity as _sensitivity
 
         card.sensitivity = _sensitivity(card, inp.filters, inp.illuminant, inp.surfaces, inp.observers,
-                                        inp.adaptation, inp.signal_spectra, inp.grid)
+                                        inp.adaptation, inp.signal_spectra, inp.grid, inp=inp, discern=discern)
     return card
 
 

@@ -231,7 +231,8 @@ _SENSITIVITY_NOTE = ("Sensitivity: each verdict recomputed with one model consta
 _SENSITIVITY_HEADER = ["observer", "measure", "default", "range", "robust"]
 _SENSITIVITY_LABELS = {"discriminable_net": "discriminable gained - lost",
                        "confused_net_resolved": "confused resolved - created",
-                       "median_delta_s_ratio": "dS ratio"}
+                       "median_delta_s_ratio": "dS ratio",
+                       "discernible_ratio": "colours ratio"}
 
 
 def _sensitivity_rows(sens: dict):

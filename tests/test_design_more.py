@@ -39,9 +39,63 @@ def test_task_metrics_are_checked_before_any_search():
     with pytest.raises(InputError, match="unknown scorecard key"):
         cvdfilter.design("deuteranomalous", maximise="tasks.arrangement.nope", budget=20, **FAST)
     with pytest.raises(InputError, match="population"):
-        cvdfilter.design("deuteranomalous:n=4,seed=1", maximise="mean:tasks.arrangement.tes", budget=20, **FAST)
+        cvdfilter.design("deuteranomalous:n=4,seed=1", maximise="tasks.arrangement.tes", budget=20, **FAST)
+    with pytest.raises(InputError, match="share of a population"):
+        cvdfilter.design("deuteranomalous:n=4,seed=1", maximise="tasks.arrangement.easier", budget=20, **FAST)
     with pytest.raises(InputError, match="task trials"):
         cvdfilter.design("deuteranomalous", maximise="tasks.plates.read", budget=20, task_trials=0, **FAST)
+
+
+# --- task scores of a population --------------------------------------------------------------------------
+
+@pytest.mark.parametrize("text, words", [
+    ("share:tasks.arrangement.easier[deuteranomalous]", "applies to a population"),
+    ("share:tasks.arrangement.tes", "share: takes"),
+    ("tasks.plates.harder", "share of a population"),
+    ("tasks.rayleigh.range", "say which statistic"),
+])
+def test_population_task_metrics_are_checked(text, words):
+    from cvdfilter.designing.objectives import parse_metric
+
+    with pytest.raises(InputError, match=words):
+        parse_metric(text, "deuteranomalous:n=5,seed=1")
+
+
+@pytest.mark.parametrize("text", ["share:tasks.arrangement.easier", "share:tasks.rayleigh.harder",
+                                  "mean:tasks.arrangement.tes", "p2_5:tasks.arrangement.effect",
+                                  "p50:tasks.plates.read", "sd:tasks.plates.legibility.filter-only"])
+def test_population_task_metrics_parse_as_task_metrics(text):
+    from cvdfilter.designing.objectives import groups_needed, parse_metric
+
+    m = parse_metric(text, "deuteranomalous:n=5,seed=1")
+    assert m.group == "tasks" and m.text == text
+    assert groups_needed([m]) == ["photometry"]
+
+
+def test_a_design_maximises_the_share_of_members_for_whom_a_task_gets_easier():
+    pop = "deuteranomalous:n=5,seed=1"
+    r = cvdfilter.design(pop, maximise=["share:tasks.arrangement.easier", "p2_5:tasks.arrangement.effect"],
+                         require="luminous_transmittance>=0.3", family="notch:k=1", budget=24, seed=2, top=2,
+                         task_trials=8, **FAST)
+    specs = [d["spec"] for d in r.designs]
+    assert specs
+    # the same numbers as `cvdfilter tasks --trials 8 --seed 2` gives each design for that population
+    t = cvdfilter.tasks(specs, observers=[pop], tasks=["arrangement"], trials=8, seed=2)
+    for d, rec in zip(r.designs, t.results()):
+        o = d["scorecard"]["observers"][0]
+        share = d["objectives"]["share:tasks.arrangement.easier"]
+        assert share == pytest.approx(rec["members"]["easier"]["share"], abs=1e-6)
+        assert o["helped"]["tasks.arrangement.easier"]["share"] == share
+        h = o["helped"]["tasks.arrangement.easier"]
+        assert h["n"] == 5 and 0 <= h["ci_low"] <= share <= h["ci_high"] <= 1
+        p2_5 = d["objectives"]["p2_5:tasks.arrangement.effect"]
+        assert p2_5 == pytest.approx(rec["member_spread"]["effect"]["p2_5"], abs=1e-6)
+        assert o["tasks"]["arrangement"]["effect"]["p2_5"] == p2_5
+    doc = json.loads(r.to_json())
+    assert doc["caveat"]
+    head = r.csv_text().splitlines()[0]
+    assert f"share:tasks.arrangement.easier[{r.designs[0]['scorecard']['observers'][0]['observer']}]" in head
+    assert "p2_5:tasks.arrangement.effect[" in head
 
 
 # --- the literature metric --------------------------------------------------------------------------------

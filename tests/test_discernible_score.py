@@ -192,6 +192,88 @@ def test_population_summaries_and_helped(scenes):
     assert "colours ratio > 1" in card.to_markdown()
 
 
+@pytest.mark.parametrize("method", METHODS)
+def test_population_members_equal_fixed_observers(scenes, method):
+    # Every member of a population is counted as one array with the others (stacked maps, one count per
+    # chunk); each member's counts must be those of the same member scored alone as a fixed observer
+    # (definition: a population's per-observer metric is the member's own; Linhares et al. 2008 count per
+    # observer), per scene, pooled over the scenes, and for its normal base observer. An anomalous, a
+    # dichromat (two-piece simulation, Brettel et al. 1997) and a normal population.
+    pops = ["deuteranomalous:n=4,seed=3", "protanope:n=3,seed=4", "normal:n=3,seed=5"]
+    filters = [NOTCH, "longpass:edge=520,width=10"]
+    card = score(filters, scenes=scenes, metrics="discernible", observers=pops, discernible_method=method)
+    for k, pop in enumerate(card.observers):
+        members = list(pop)
+        fixed = score(filters, scenes=scenes, metrics="discernible", observers=members,
+                      discernible_method=method)
+        for key, v in card.per_observer[k].items():
+            if not key.startswith("discernible_"):
+                continue
+            alone = np.stack([np.asarray(fixed.per_observer[i][key], dtype=float) for i in range(len(members))],
+                             axis=-1)
+            assert np.array_equal(np.asarray(v, dtype=float), alone, equal_nan=True), (pop, key)
+
+
+def test_dense_blocks_and_sort_count_alike(monkeypatch):
+    # The count is the number of occupied unit cubes (Linhares et al. 2008): marking cells in blocks of
+    # sets and sorting keys must give the same counts and the same occupied cubes, checked against
+    # numpy's unique over each set's integer cube indices.
+    from cvdfilter.metrics import discernible as disc
+
+    rng = np.random.default_rng(4)
+    planes = rng.normal(0, 6, (9, 3, 400))
+    want = [np.unique(np.floor(p), axis=1).shape[1] for p in planes]
+    sort_counts, sort_keys = disc.count_planes_many(planes, keys=True)  # few colours for the box: a sort
+    cells = int(np.prod(np.ptp(np.floor(planes), axis=(0, 2)) + 1))
+    dense_counts, dense_keys = disc._count_dense(np.floor(planes), np.floor(planes).min(axis=(0, 2)),
+                                                 (np.ptp(np.floor(planes), axis=(0, 2)) + 1).astype(np.int64),
+                                                 True)
+    assert cells > disc.DENSE_PER_COLOUR * 400
+    assert sort_counts.tolist() == dense_counts.tolist() == want
+    assert np.array_equal(sort_keys[0], dense_keys[0]) and np.array_equal(sort_keys[1], dense_keys[1])
+    small = np.floor(planes * 0.25)
+    small_cells = int(np.prod(np.ptp(small, axis=(0, 2)) + 1))
+    assert small_cells <= disc.DENSE_PER_COLOUR * 400  # dense marking
+    monkeypatch.setattr(disc, "DENSE_CELLS", 2 * small_cells)  # in blocks of two sets
+    blocks_counts, blocks_keys = disc.count_planes_many(planes * 0.25, keys=True)
+    assert blocks_counts.tolist() == [np.unique(np.floor(p * 0.25), axis=1).shape[1] for p in planes]
+    monkeypatch.setattr(disc, "DENSE_CELLS", 1 << 25)
+    one_counts, one_keys = disc.count_planes_many(planes * 0.25, keys=True)
+    assert np.array_equal(blocks_counts, one_counts)
+    assert np.array_equal(blocks_keys[0], one_keys[0]) and np.array_equal(blocks_keys[1], one_keys[1])
+
+
+def test_sensitivity_follows_the_discernible_ratio():
+    # --sensitivity with the discernible group: the threshold factors scale the counting cube, so the
+    # "thresholds x0.8" value is the count of Linhares, Pinto & Nascimento (2008) at cube size 0.8 as the
+    # published construction's API gives it (cvdfilter.discernible_colours); the Weber fraction and cone
+    # ratios do not enter the CIELAB count (no receptor noise in that construction), so those variations
+    # repeat the run's ratio; for rnl they are the counts of a run made with that constant.
+    from cvdfilter.discernibility import discernible_colours
+
+    obs = ["deuteranomalous", "deuteranomalous:n=3,seed=1"]
+    card = score(NOTCH, surfaces="munsell", metrics="discernible", observers=obs, sensitivity=True)
+    sens = card.to_dict()["sensitivity"]
+    row = sens["filters"][0]["observers"][0]["discernible_ratio"]
+    api = discernible_colours("munsell", filter=NOTCH, observers=["deuteranomalous"], cube_size=0.8)
+    assert row["values"]["thresholds x0.8"] == pytest.approx(float(api.ratio[0, 0]), abs=1e-6)
+    assert row["values"]["default"] == pytest.approx(float(card.per_observer[0]["discernible_ratio"][0]), abs=1e-6)
+    assert row["values"]["weber_fraction=0.01"] == row["values"]["cone_ratios=12:3:1"] == row["values"]["default"]
+    assert row["robust"] == (len({np.sign(v - 1) for v in row["values"].values()}) == 1)
+    cube = [v["settings"].get("discernible_cube_size") for v in sens["variations"]]
+    assert cube[-2:] == [pytest.approx(0.8), pytest.approx(1.25)]
+    pop = sens["filters"][0]["observers"][1]["discernible_ratio"]
+    assert pop["statistic"] == "share of members helped" and pop["members"] == 3
+    assert pop["values"]["default"] == pytest.approx(float(np.mean(card.per_observer[1]["discernible_ratio"][0] > 1)))
+    rnl = score(NOTCH, surfaces="munsell", metrics="discernible", observers=obs[:1], sensitivity=True,
+                discernible_method="rnl")
+    alone = score(NOTCH, surfaces="munsell", metrics="discernible", observers=obs[:1], discernible_method="rnl",
+                  weber_fraction=0.01)
+    value = rnl.to_dict()["sensitivity"]["filters"][0]["observers"][0]["discernible_ratio"]["values"]
+    assert value["weber_fraction=0.01"] == pytest.approx(float(alone.per_observer[0]["discernible_ratio"][0]),
+                                                         abs=1e-6)
+
+
 def test_views_show_the_group(scenes):
     card = score(NOTCH, scenes=scenes, metrics="discernible", observers=["normal", "deuteranope"])
     header = card.to_csv().splitlines()[0].split(",")

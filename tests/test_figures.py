@@ -672,3 +672,24 @@ def test_figure_data_csv_holds_the_plotted_numbers(every_kind):
     rows = [line.split(",") for line in sp.data_csv().splitlines() if not line.startswith("#")]
     assert rows[0][0] == "wavelength_nm" and len(rows) - 1 == len(sp.data["wavelengths"])
     assert float(rows[200][1]) == pytest.approx(100 * sp.data["transmittance"][0][199])
+
+
+def test_large_surface_sets_make_swatch_rows_of_bounded_height():
+    # The patch rows of a large set (e.g. the 2,734 Munsell samples) wrap at about sqrt(n / 0.3) patches,
+    # so a row is at most about 0.3 of its width tall (common practice: a figure fits a journal page);
+    # the patch image equals the patches drawn one by one.
+    from cvdfilter.figures.swatches import _per_line, _row_image
+
+    assert _per_line(24) == 24 and _per_line(99) == 25 and _per_line(270) == 30
+    for n in (271, 1000, 2734):
+        p = _per_line(n)
+        lines = -(-n // p)
+        assert lines / p <= 0.33  # about 0.3: lines are balanced (equal lengths)
+    rng = np.random.default_rng(0)
+    rgb = rng.integers(0, 256, (37, 3), dtype=np.uint8)
+    img = _row_image(rgb, 10)
+    ref = np.full((4 * 11 + 1, 10 * 11 + 1, 3), 255, np.uint8)
+    for k in range(37):
+        r, c = divmod(k, 10)
+        ref[1 + r * 11:1 + r * 11 + 10, 1 + c * 11:1 + c * 11 + 10] = rgb[k]
+    assert np.array_equal(img, ref)

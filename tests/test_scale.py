@@ -376,24 +376,25 @@ def test_population_on_a_cluster_gives_the_same_document(cluster, monkeypatch):
     assert a.to_json() == b.to_json()
 
 
-def test_member_block_pickles_for_process_workers():
-    # What a cluster of worker processes receives (the light block) computes the same bits after a pickle.
+def test_population_work_pickles_for_process_workers():
+    # What a cluster of worker processes receives (the run's shared work, once per worker) computes the same
+    # bits after a pickle: a task builds its member block there.
     import pickle
 
-    from cvdfilter.observers.population import population
+    from cvdfilter.execution import chunk_bounds
     from cvdfilter.score_plan import ScoreInputs
-    from cvdfilter.score_population import MemberBlock
+    from cvdfilter.score_population import _PopulationWork, _run_task
 
-    inp = ScoreInputs.validate(SPECS, observers=["deuteranomalous:n=3,seed=2"], metrics="core")
+    groups = ("contrast", "discrimination", "confusion")
+    inp = ScoreInputs.validate(SPECS, observers=["deuteranomalous:n=5,seed=2"], metrics="core")
     pop = inp.observers[0]
-    assert isinstance(pop, type(population("deuteranomalous:n=3,seed=2")))
-    block = MemberBlock(inp, pop, 0, pop.n, ("contrast", "discrimination", "confusion"), {})
-    light = pickle.loads(pickle.dumps(block.light()))
-    assert light.store == {}
-    a, b = block.compute(3, 9), light.compute(3, 9)
-    assert a.keys() == b.keys()
-    for key in a:
-        assert np.array_equal(a[key], b[key], equal_nan=True), key
+    work = _PopulationWork(inp, pop, groups, chunk_bounds(pop.n, 2), chunk_bounds(len(inp.filters), 4))
+    light = pickle.loads(pickle.dumps(work))
+    for t in range(len(work.tasks())):
+        a, b = _run_task(work, t, t + 1), _run_task(light, t, t + 1)
+        assert a.keys() == b.keys()
+        for key in a:
+            assert np.array_equal(a[key], b[key], equal_nan=True), key
 
 
 # --- the discernible-colours measure through the layer -------------------------------------------------

@@ -20,7 +20,8 @@ def register(app: typer.Typer) -> None:
                                                       "notch:center=575,fwhm=35,depth=0.8"),
         observer: Optional[List[str]] = typer.Option(None, "--observer", help=(
             "Observer spec; repeat for several. Default: normal, protanomalous, deuteranomalous, protanope, "
-            "deuteranope.")),
+            "deuteranope. A population (deuteranomalous:n=200,seed=7) also gets the share of its members for "
+            "whom each task gets easier or harder.")),
         task: Optional[List[str]] = typer.Option(None, "--task", help=(
             "arrangement, arrangement-fine, plates or rayleigh; repeat for several. Default: all four.")),
         trials: int = typer.Option(500, "--trials", help="Arrangement trials per observer (noise drawn per trial)."),
@@ -42,7 +43,9 @@ def register(app: typer.Typer) -> None:
     ) -> None:
         """Predict how model observers would do on hue-circle arrangement, figure-ground plate and Rayleigh
         match tasks of our own design, without and with each filter, with a verdict per task (easier, harder,
-        no change; criteria in the output and docs/tasks.md). Model predictions, not a clinical test.
+        no change; criteria in the output and docs/tasks.md); for a population, also the share of members
+        whose own verdict is easier or harder, with a Wilson 95 % interval. Model predictions, not a clinical
+        test.
 
         Example: cvdfilter tasks larkhill-notch-575 --observer deuteranomalous --task arrangement --trials 200
         """

@@ -71,6 +71,7 @@ class DesignProblem:
 def score_batch(filters, problem: DesignProblem, metrics=None):
     """Score one batch of filters with the problem's observers and settings: the one place a
     generation is scored, on the problem's executor (:mod:`cvdfilter.execution`)."""
+    from ..metrics import pair_kernel  # noqa: F401 - many small batches: the compiled pair statistics pay off
     from ..scorecard import score
 
     groups = metrics if isinstance(metrics, str) else list(metrics or problem.groups)

@@ -14,7 +14,9 @@ by dots, optionally for a named observer in brackets::
 For a population observer (a spec with ``n=N``) a per-observer key takes a statistic over the members
 as prefix: ``mean:``, ``sd:``, ``p2_5:``, ``p50:``, ``p97_5:`` (the population entry's statistics), or
 ``share:`` for the share of members helped (the entry's ``helped`` keys: ``share:red_green_gain``,
-``share:confusion_pairs_net``, ...).
+``share:confusion_pairs_net``, ...). Task scores take the same statistics over the members' own values
+(``mean:tasks.arrangement.tes``), and ``share:tasks.TASK.easier`` (``.harder``) is the share of members for
+whom the task gets easier (harder) with the filter (cvdfilter.designing.task_scores).
 
 A **requirement** compares a metric with a number: ``METRIC OP NUMBER`` with OP one of ``>=``, ``<=``,
 ``>``, ``<``, ``==`` (also ``≥``, ``≤``); a yes/no key alone means "is yes" and ``not KEY`` "is no"::
@@ -39,7 +41,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError, clip_text, did_you_mean
-from .task_scores import TASK_KEYS
+from .task_scores import TASK_KEYS, TASK_SHARE_KEYS
 
 __all__ = ["Metric", "Requirement", "parse_metric", "parse_requirement", "FILTER_KEYS", "OBSERVER_KEYS",
            "STAT_PREFIXES", "HELPED_KEYS", "groups_needed"]
@@ -87,7 +89,8 @@ _HELPED_GROUPS = {"red_green_gain": "contrast", "blue_yellow_gain": "contrast",
                   "median_delta_s_ratio": "confusion", "discernible_ratio": "discernible"}
 _OPS = (">=", "<=", "==", ">", "<")
 _METRIC_HELP = ("a scorecard key such as red_green_gain, confusion_pairs.net, luminous_transmittance, "
-                "rendition.rf; for a population mean:KEY, p2_5:KEY or share:KEY; another observer as KEY[SPEC]")
+                "rendition.rf; for a population mean:KEY, p2_5:KEY or share:KEY (share:tasks.TASK.easier); "
+                "another observer as KEY[SPEC]")
 
 
 @dataclass(frozen=True)
@@ -106,6 +109,8 @@ class Metric:
 
     @property
     def group(self) -> str:
+        if self.key in TASK_SHARE_KEYS:
+            return "tasks"
         if self.stat == "share":
             return _HELPED_GROUPS[self.key]
         return FILTER_KEYS.get(self.key) or OBSERVER_KEYS.get(self.key) or "contrast"
@@ -198,30 +203,39 @@ def parse_metric(text: str, observer: str, *, is_population=None, what: str = "m
                              hint=f"write {key} alone")
         return Metric(key, None, None, key)
     if stat == "share":
-        if key not in HELPED_KEYS:
+        if key not in HELPED_KEYS and key not in TASK_SHARE_KEYS:
             raise InputError(f"{what} '{clip_text(raw)}': share: takes one of "
-                             f"{', '.join(sorted(set(HELPED_KEYS.values())))}")
-        key = HELPED_KEYS[key]
+                             f"{', '.join(sorted(set(HELPED_KEYS.values())))} or tasks.TASK.easier, "
+                             "tasks.TASK.harder")
+        key = HELPED_KEYS.get(key, key)
+    elif key in TASK_SHARE_KEYS:
+        raise InputError(f"{what} '{clip_text(raw)}': {key} is a share of a population's members",
+                         hint=f"write share:{key} for a population (a spec with n=N)")
     elif key not in OBSERVER_KEYS:
         close = did_you_mean(key, [*FILTER_KEYS, *OBSERVER_KEYS])
         raise InputError(f"{what} '{clip_text(raw)}': unknown scorecard key '{clip_text(key)}'"
                          + (f"; {close}" if close else ""), hint=_METRIC_HELP)
     obs = spec if spec is not None else observer
     population = is_population(obs)
-    if population and key in TASK_KEYS:
-        raise InputError(f"{what} '{clip_text(raw)}': task scores are designed for one observer, and "
-                         f"{clip_text(obs)} is a population", hint="name one observer: KEY[SPEC] without n=N")
     if population and stat is None:
         raise InputError(f"{what} '{clip_text(raw)}': {clip_text(obs)} is a population; say which statistic",
-                         hint=f"e.g. mean:{key}, p2_5:{key} or share:{key if key in HELPED_KEYS else 'red_green_gain'}")
+                         hint=f"e.g. mean:{key}, p2_5:{key} or share:{_share_example(key)}")
     if not population and stat is not None:
         raise InputError(f"{what} '{clip_text(raw)}': {stat}: applies to a population (a spec with n=N), "
-                         f"and {clip_text(obs)} is one observer", hint=f"write {key}")
+                         f"and {clip_text(obs)} is one observer",
+                         hint=f"write {key}" if key not in TASK_SHARE_KEYS else
+                         "name a population (a spec with n=N), or use a task score such as tasks.arrangement.effect")
     if population and stat != "share" and key.endswith(".net"):
         raise InputError(f"{what} '{clip_text(raw)}': a population has no statistics of {key}",
                          hint=f"use share:{key.replace('.', '_')} or mean: of its parts")
     canonical = (f"{stat}:" if stat else "") + key + (f"[{spec}]" if spec is not None else "")
     return Metric(key, stat, obs, canonical)
+
+
+def _share_example(key: str) -> str:
+    if key in TASK_KEYS:
+        return f"tasks.{key.split('.')[1]}.easier"
+    return key if key in HELPED_KEYS else "red_green_gain"
 
 
 def parse_requirement(text: str, observer: str, *, is_population=None) -> Requirement:

@@ -8,7 +8,8 @@ adaptation, the simulation for a normal viewer, the display model) and
 encoded as sRGB. Colours outside the sRGB gamut are clipped channel by
 channel and counted in a note under the rows. Columns are the surfaces in
 the set's order, numbered; a set larger than 30 wraps onto several lines per
-row.
+row, and one larger than 270 onto lines of about sqrt(n / 0.3) patches (a
+mosaic of bounded height: 96 per line for the 2,734 Munsell samples).
 
 Public: :func:`swatches_figure`, :func:`swatch_colours`, :data:`SWATCH_ROWS`.
 """
@@ -72,12 +73,26 @@ def _row_image(rgb8: np.ndarray, per_line: int, gap: int = 1, cell: int = 10) ->
     """Patches of ``cell`` pixels with ``gap``-pixel white borders, wrapped at ``per_line``."""
     n = len(rgb8)
     lines = int(np.ceil(n / per_line))
-    img = np.full((lines * (cell + gap) + gap, per_line * (cell + gap) + gap, 3), 255, np.uint8)
-    for k in range(n):
-        r, c = divmod(k, per_line)
-        y0, x0 = gap + r * (cell + gap), gap + c * (cell + gap)
-        img[y0:y0 + cell, x0:x0 + cell] = rgb8[k]
+    padded = np.full((lines * per_line, 3), 255, np.uint8)  # white after the last surface
+    padded[:n] = rgb8
+    grid = padded.reshape(lines, per_line, 3)
+    pitch = cell + gap
+    img = np.full((lines * pitch + gap, per_line * pitch + gap, 3), 255, np.uint8)
+    block = np.repeat(np.repeat(grid, pitch, axis=0), pitch, axis=1)  # each patch a pitch x pitch square
+    inside = (np.arange(lines * pitch) % pitch) < cell
+    across = (np.arange(per_line * pitch) % pitch) < cell
+    img[gap:, gap:][np.ix_(inside, across)] = block[np.ix_(inside, across)]
     return img
+
+
+def _per_line(n: int) -> int:
+    """Patches per line: all of a small set on one line; wrapped at 30 up to 270 surfaces; beyond that
+    about sqrt(n / 0.3) (each row at most about 0.3 of its width tall), so that large sets (e.g. the 2,734
+    Munsell samples, 96 per line) stay a mosaic of bounded height."""
+    if n <= _MAX_PER_LINE:
+        return n
+    per_line = max(_MAX_PER_LINE, int(np.ceil(np.sqrt(n / 0.3))))
+    return int(np.ceil(n / np.ceil(n / per_line)))
 
 
 def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), surfaces="chart24",
@@ -108,7 +123,7 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
     data = swatch_colours(filters, illuminant=illuminant, observer=observers[0], surfaces=surfaces,
                           adaptation=adaptation)
     n = len(data["labels"])
-    per_line = n if n <= _MAX_PER_LINE else int(np.ceil(n / np.ceil(n / _MAX_PER_LINE)))
+    per_line = _per_line(n)
     lines = int(np.ceil(n / per_line))
     images = {v: _row_image(data["srgb8"][v], per_line) for v in data["views"]}
     img_h, img_w = next(iter(images.values())).shape[:2]
@@ -130,8 +145,9 @@ def swatches_figure(filters, *, illuminant="D65", observers=("deuteranope",), su
                           fontsize=style.tick_size, labelpad=4)
             if k == 0:
                 cell = 11
+                step = 1 if per_line <= 12 else 2 if per_line <= _MAX_PER_LINE else 10
                 for c in range(per_line):
-                    if per_line <= 12 or c % 2 == 0 or (c == per_line - 1 and c % 2 == 0):
+                    if c % step == 0 if step < 10 else (c == 0 or (c + 1) % step == 0):
                         ax.text(1 + c * cell + 5, -1.5, str(c + 1), ha="center", va="bottom",
                                 fontsize=max(MIN_PRINT_PT, style.tick_size * 0.92), color="#333333")
         note = [f"{data['filter']}; {data['illuminant']}; {data['surfaces']} "

@@ -16,7 +16,7 @@ of colored lenses. Visual Neuroscience 25, 493-499.
 CIE 15:2018 Colorimetry (the CIELAB formulae).
 
 Public: :func:`lab_from_xyz`, :func:`lab_planes`, :func:`count_discernible`, :func:`count_planes`,
-:data:`CUBE_SIZE`, :data:`DENSE_CELLS`.
+:func:`count_planes_many`, :func:`count_union`, :data:`CUBE_SIZE`, :data:`DENSE_CELLS`, :data:`DENSE_PER_COLOUR`.
 """
 
 from __future__ import annotations
@@ -24,7 +24,8 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["lab_from_xyz", "lab_planes", "count_discernible", "count_planes", "count_planes_many", "count_union",
-           "receptor_noise_space", "cam16ucs_planes", "CAM16_VIEWING", "CUBE_SIZE", "DENSE_CELLS"]
+           "receptor_noise_space", "cam16ucs_planes", "CAM16_VIEWING", "CUBE_SIZE", "DENSE_CELLS",
+           "DENSE_PER_COLOUR"]
 
 #: Edge of the counting cube, CIELAB units (Linhares et al. 2008: unit cubes, Delta E*ab = 1).
 CUBE_SIZE = 1.0
@@ -63,18 +64,23 @@ def lab_from_xyz(xyz, white_xyz) -> np.ndarray:
 
 
 def lab_planes(xyz, white_xyz, *, dtype=np.float64) -> np.ndarray:
-    """:func:`lab_from_xyz` on planes: ``xyz`` (3, n) -> L*, a*, b* (3, n) (the fast path).
+    """:func:`lab_from_xyz` on planes: ``xyz`` (3, ...) -> L*, a*, b* (3, ...) (the fast path).
 
-    The ratios to the white are formed in float64 and then cast to ``dtype``
-    (float32 halves the work; the rounding is a fixed function of the ratios,
-    so colours with equal ratios keep equal CIELAB values).
+    ``white_xyz`` is one white (3,) or a white per colour, broadcastable to ``xyz`` (e.g. (3, rows, 1)
+    for rows of colours seen by different observers). The ratios to the white are formed in float64 and
+    then cast to ``dtype`` (float32 halves the work; the rounding is a fixed function of the ratios, so
+    colours with equal ratios keep equal CIELAB values).
     """
-    t = (np.asarray(xyz, dtype=float) / np.asarray(white_xyz, dtype=float)[:, None]).astype(dtype, copy=False)
+    white = np.asarray(white_xyz, dtype=float)
+    xyz = np.asarray(xyz, dtype=float)
+    white = white.reshape(3, *([1] * (xyz.ndim - 1))) if white.ndim == 1 else white
+    t = np.empty(np.broadcast_shapes(xyz.shape, white.shape), dtype=dtype)
+    np.divide(xyz, white, out=t, casting="same_kind")  # in float64, rounded once to dtype
     d = 6.0 / 29.0  # CIE 15:2018
     f = np.cbrt(t)
     low = t <= d ** 3
-    if low.any():
-        f[low] = t[low] * (1.0 / (3 * d * d)) + 4.0 / 29.0
+    if low.any():  # the linear segment, elementwise as on the selected values (no gather)
+        np.copyto(f, t * (1.0 / (3 * d * d)) + 4.0 / 29.0, where=low)
     out = np.empty_like(f)
     np.multiply(f[1], 116.0, out=out[0])
     out[0] -= 16.0
@@ -172,10 +178,13 @@ _OFFSET = _LIMIT
 def count_planes_many(planes, *, cube_size: float = CUBE_SIZE, keys: bool = False):
     """:func:`count_planes` for K sets of equal size at once: ``planes`` (K, 3, n_colours) -> counts (K,).
 
-    Vectorised over the sets (one dense marking or one row-wise sort for all of them). With ``keys``,
-    also returns the occupied cubes as ``(rows, packed)``: for every (set, occupied cube) the set's row and
-    the cube's global int64 key (indices offset by 2^20 and packed 21 bits per axis), so that cubes of
-    different stimuli can be pooled (:func:`count_union`).
+    Vectorised over the sets: where a set's colours are many for the cells of their index box (the box
+    spans at most :data:`DENSE_CELLS` cells and at most ``DENSE_PER_COLOUR`` cells per colour), the sets are
+    marked in dense boolean arrays, as many sets per marking as fit in ``DENSE_CELLS`` cells; otherwise one
+    row-wise sort counts every set. Both give the same counts (and keys). With ``keys``, also returns the
+    occupied cubes as ``(rows, packed)``: for every (set, occupied cube) the set's row and the cube's
+    global int64 key (indices offset by 2^20 and packed 21 bits per axis), in row order and then key
+    order, so that cubes of different stimuli can be pooled (:func:`count_union`).
 
     >>> p = np.array([[[0.1, 0.9, 1.1], [0.2, 0.5, 0.0], [0.3, 0.5, 0.0]]] * 2)
     >>> count_planes_many(p).tolist()
@@ -199,21 +208,8 @@ def count_planes_many(planes, *, cube_size: float = CUBE_SIZE, keys: bool = Fals
         raise ValueError(f"colours beyond +-{_LIMIT} cube edges cannot be counted")
     span = (hi - lo + 1).astype(np.int64)
     cells = int(np.prod(span))
-    if n_sets * cells <= DENSE_CELLS:
-        k = (idx - lo[None, :, None]).astype(np.int64)
-        local = (k[:, 0] * int(span[1]) + k[:, 1]) * int(span[2]) + k[:, 2]
-        local += (np.arange(n_sets, dtype=np.int64) * cells)[:, None]
-        seen = np.zeros(n_sets * cells, dtype=bool)
-        seen[local.ravel()] = True
-        counts = np.count_nonzero(seen.reshape(n_sets, cells), axis=1).astype(np.int64)
-        if not keys:
-            return counts
-        nz = np.flatnonzero(seen)
-        rows, cell = np.divmod(nz, cells)
-        c0, rest = np.divmod(cell, int(span[1]) * int(span[2]))
-        c1, c2 = np.divmod(rest, int(span[2]))
-        g = [c + int(lo[a]) + _OFFSET for a, c in enumerate((c0, c1, c2))]
-        return counts, (rows, (g[0] << (2 * _BITS)) | (g[1] << _BITS) | g[2])
+    if n_sets * cells <= DENSE_CELLS or (cells <= DENSE_CELLS and cells <= DENSE_PER_COLOUR * n):
+        return _count_dense(idx, lo, span, keys)
     k = (idx + _OFFSET).astype(np.int64)
     packed = (k[:, 0] << (2 * _BITS)) | (k[:, 1] << _BITS) | k[:, 2]
     packed.sort(axis=1)
@@ -224,6 +220,43 @@ def count_planes_many(planes, *, cube_size: float = CUBE_SIZE, keys: bool = Fals
         return counts
     rows = np.nonzero(first)[0]
     return counts, (rows, packed[first])
+
+
+#: Dense marking is used (with sets in blocks) while a set's index box has at most this many cells per
+#: colour: marking, clearing and counting a cell costs far less than a colour's share of a sort.
+DENSE_PER_COLOUR = 64
+
+
+def _count_dense(idx: np.ndarray, lo: np.ndarray, span: np.ndarray, keys: bool):
+    """Counts (and keys) of the sets of ``idx`` (K, 3, n) (cube indices, box ``lo``, ``span``) by marking
+    cells, in blocks of as many sets as fit in :data:`DENSE_CELLS` cells (the blocks bound the memory)."""
+    n_sets = idx.shape[0]
+    cells = int(np.prod(span))
+    block = max(1, DENSE_CELLS // cells)
+    counts = np.empty(n_sets, dtype=np.int64)
+    rows_out, keys_out = [], []
+    for b0 in range(0, n_sets, block):  # blocks of sets, not sets: one block unless the sets are many
+        sub = idx[b0:b0 + block]
+        nb = sub.shape[0]
+        dt = np.int32 if nb * cells < 1 << 31 else np.int64  # the cell numbers fit (half the traffic)
+        k = (sub - lo[None, :, None]).astype(dt)
+        local = (k[:, 0] * dt(span[1]) + k[:, 1]) * dt(span[2]) + k[:, 2]
+        local += (np.arange(nb, dtype=dt) * dt(cells))[:, None]
+        seen = np.zeros(nb * cells, dtype=bool)
+        seen[local.ravel()] = True
+        counts[b0:b0 + nb] = np.count_nonzero(seen.reshape(nb, cells), axis=1)
+        if not keys:
+            continue
+        nz = np.flatnonzero(seen)
+        rows, cell = np.divmod(nz, cells)
+        c0, rest = np.divmod(cell, int(span[1]) * int(span[2]))
+        c1, c2 = np.divmod(rest, int(span[2]))
+        g = [c + int(lo[a]) + _OFFSET for a, c in enumerate((c0, c1, c2))]
+        rows_out.append(rows + b0)
+        keys_out.append((g[0] << (2 * _BITS)) | (g[1] << _BITS) | g[2])
+    if not keys:
+        return counts
+    return counts, (np.concatenate(rows_out), np.concatenate(keys_out))
 
 
 def count_union(parts, n_sets: int) -> np.ndarray:
@@ -277,7 +310,8 @@ CAM16_VIEWING = {"L_A": 64.0, "Y_b": 20.0, "surround": "Average", "discount_illu
 
 
 def cam16ucs_planes(xyz, white_xyz) -> np.ndarray:
-    """CAM16-UCS J', a', b' (Li et al. 2017) on planes: ``xyz`` (3, n) relative to ``white_xyz`` (3,).
+    """CAM16-UCS J', a', b' (Li et al. 2017) on planes: ``xyz`` (3, n) relative to ``white_xyz``, one white
+    (3,) or one per colour (3, n).
 
     Viewing conditions :data:`CAM16_VIEWING` (colour-science's CAM16 and Luo, Cui & Li 2006 UCS
     coefficients). Colours the model does not define (negative achromatic response: imaginary dark
@@ -289,10 +323,12 @@ def cam16ucs_planes(xyz, white_xyz) -> np.ndarray:
 
     white = np.asarray(white_xyz, dtype=float)
     scale = 100.0 / white[1]
+    white_w = (white * scale).T  # (3,) or (n, 3)
+    scale = scale[:, None] if np.ndim(scale) else scale
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         jab = colour.XYZ_to_CAM16UCS(
-            np.asarray(xyz, dtype=float).T * scale, XYZ_w=white * scale, L_A=CAM16_VIEWING["L_A"],
+            np.asarray(xyz, dtype=float).T * scale, XYZ_w=white_w, L_A=CAM16_VIEWING["L_A"],
             Y_b=CAM16_VIEWING["Y_b"], surround=colour.VIEWING_CONDITIONS_CAM16[CAM16_VIEWING["surround"]],
             discount_illuminant=CAM16_VIEWING["discount_illuminant"], compute_H=False)
     return np.ascontiguousarray(np.asarray(jab, dtype=float).T)

@@ -340,28 +340,26 @@ def discriminable_from_points(points, reference: dict, changes: dict | None = No
 def dense_changes(points, reference: dict, masks: dict, more=()) -> tuple:
     """:func:`close_changes` and :func:`median_changes` from one pass over every pair's distance.
 
-    The float32 distances of all pairs (:func:`~cvdfilter.metrics.pairs.all_pair_sq_distances`) give the
-    median and, exactly, every count (:func:`~cvdfilter.metrics.pairs.dense_close_counts`); ``masks``
-    holds the reference's close pairs per radius as (1, P) masks of that layout (:func:`pair_masks`).
+    The distances of all pairs give the median and, exactly, every count
+    (:func:`~cvdfilter.metrics.pairs.dense_pair_statistics`: the numbers of
+    :func:`~cvdfilter.metrics.pairs.all_pair_sq_distances`, :func:`~cvdfilter.metrics.pairs.dense_close_counts`
+    and :func:`~cvdfilter.metrics.pairs.median_of_kept`, by a compiled kernel); ``masks`` holds the
+    reference's close pairs per radius as (1, P) masks of that layout (:func:`pair_masks`).
     ``more`` = (radius, [masks]): further masked counts at one radius (the confused-pair sets).
 
     Returns (changes, the further counts, the median dict).
     """
-    from .pairs import dense_close_counts, median_of_kept
+    from .pairs import dense_pair_statistics
 
-    d2 = all_pair_sq_distances(points)
-    changes, extra = {}, []
-    for r, m in masks["close"].items():
-        further = list(more[1]) if more and r == more[0] else []
-        close1, among = dense_close_counts(d2, points, r, [m, *further])
-        changes[r] = (len(reference["close"][r][0]), close1, among[0])
-        if further:
-            extra = among[1:]
-    n_f = points[0].shape[0]
-    finite = all(bool(np.isfinite(p).all()) for p in points)  # then every squared distance is >= 0
-    med = np.sqrt(median_of_kept(d2[:, None, :], masks["keep"], nonnegative=finite))[:, 0] \
-        if reference["median_count"] else np.full(n_f, np.nan)
-    return changes, extra, _median_dict(med, reference)
+    radii = list(masks["close"])
+    listed = [(r, m) for r, m in masks["close"].items()]
+    further = list(more[1]) if more and more[0] in masks["close"] else []
+    listed += [(more[0], m) for m in further]
+    keep = masks["keep"] if reference["median_count"] else None
+    close, among, med2 = dense_pair_statistics(points, radii, listed, keep, guess=reference["median"] ** 2)
+    changes = {r: (len(reference["close"][r][0]), close[i], among[i]) for i, r in enumerate(radii)}
+    extra = list(among[len(radii):])
+    return changes, extra, _median_dict(np.sqrt(med2), reference)
 
 
 def pair_masks(reference: dict, lists=()) -> dict:

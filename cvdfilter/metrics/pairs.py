@@ -29,21 +29,21 @@ Public: :func:`pair_count`, :func:`close_pair_matrix`, :func:`close_pairs`,
 :func:`pair_reference`, :func:`pair_changes`, :func:`pair_indices`,
 :func:`pair_sq_distances`, :func:`offset_order`, :func:`all_pair_sq_distances`, :func:`median_rows`,
 :func:`median_of_kept`, :func:`principal_rotations`, :func:`gather_sq_distances`, :func:`offset_pairs`,
-:func:`dense_close_counts`.
+:func:`dense_close_counts`, :func:`dense_pair_statistics`.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from .pair_distances import (_SIGN, all_pair_sq_distances, dense_close_counts, gather_sq_distances, median_of_kept,
-                             median_rows, offset_order, offset_pairs, pair_count, pair_indices, pair_sq_distances,
-                             principal_rotations)
+from .pair_distances import (_SIGN, all_pair_sq_distances, dense_close_counts, dense_pair_statistics,
+                             gather_sq_distances, median_of_kept, median_rows, offset_order, offset_pairs, pair_count,
+                             pair_indices, pair_sq_distances, principal_rotations)
 
 __all__ = ["pair_count", "close_pair_matrix", "close_pairs", "count_close_pairs", "count_close_among",
            "principal_rotation", "pair_reference", "pair_changes", "pair_indices", "pair_sq_distances",
            "offset_order", "all_pair_sq_distances", "median_rows", "median_of_kept", "principal_rotations",
-           "gather_sq_distances", "offset_pairs", "dense_close_counts"]
+           "gather_sq_distances", "offset_pairs", "dense_close_counts", "dense_pair_statistics"]
 
 #: Points per chunk of point sets: small enough for the CPU cache (a few hundred kB per array).
 _CHUNK_POINTS = 50_000

@@ -52,11 +52,15 @@ class ObserverMembers:
         Energy-based L, M, S fundamentals of the members, shape (n_members, n_wl, 3).
     missing_cone : int or None
         0, 1, 2 for a dichromat (the same for all members), else None.
+    population : dict or None
+        ``{n, variation, seed}`` of a sampled population (set from a population spec); a stack of more than
+        one member given without it is reported as a population with ``variation`` and ``seed`` null.
     """
 
     name: str
     fundamentals: np.ndarray
     missing_cone: int | None = None
+    population: dict | None = None
 
 
 def _members(item, grid: Grid) -> ObserverMembers:
@@ -64,13 +68,18 @@ def _members(item, grid: Grid) -> ObserverMembers:
         f = np.asarray(item.fundamentals, dtype=float)
         if f.ndim != 3 or f.shape[1:] != (grid.size, 3):
             raise InputError(f"fundamentals must be (n, {grid.size}, 3), got {f.shape}", source=item.name)
+        if item.population is None and f.shape[0] > 1:
+            from dataclasses import replace
+
+            return replace(item, population={"n": int(f.shape[0]), "variation": None, "seed": None})
         return item
     from ..observers.observer import observer
     from ..observers.population import Population, is_population_spec, population
 
     if isinstance(item, Population) or is_population_spec(item):
         pop = item if isinstance(item, Population) else population(item, grid)
-        return ObserverMembers(pop.spec, np.asarray(pop.fundamentals), pop.centre.missing_cone)
+        return ObserverMembers(pop.spec, np.asarray(pop.fundamentals), pop.centre.missing_cone,
+                               {"n": int(pop.n), "variation": pop.variation, "seed": int(pop.seed)})
     o = observer(item, grid)
     return ObserverMembers(o.spec, np.asarray(o.fundamentals)[None], o.missing_cone)
 
@@ -221,7 +230,8 @@ def tasks(filters, *, observers=DEFAULT_OBSERVERS, tasks=tuple(TASKS), trials: i
     info = tuple({"source": s, **{k: v for k, v in i.items() if k in ("spec", "path", "units", "sha256")}}
                  for s, i in zip(fs.sources or ("",) * len(fs), fs.info or ({},) * len(fs)))
     settings = _settings(trials, seed, ill.name, uv_by_task, weber_fraction, cone_ratios, trial_noise, calibration)
-    return TaskResult(tuple(fs.names), info, tuple(names), task_list, scores, settings)
+    populations = {m.name: m.population for m in members if m.population is not None}
+    return TaskResult(tuple(fs.names), info, tuple(names), task_list, scores, settings, populations)
 
 
 def _check_tasks(tasks, trials, trial_noise) -> tuple:

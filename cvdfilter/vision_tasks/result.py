@@ -17,6 +17,7 @@ import numpy as np
 
 from .._version import __version__
 from ..cautions import CAVEAT
+from ..metrics.population_stats import CONFIDENCE, STATISTICS
 from . import moments as _moments
 from .arrangement import ARRANGEMENT_DESIGNS
 from .plates import PLATE_NAMES, READ_THRESHOLD
@@ -52,6 +53,16 @@ TASKS_CAUTION = ("Tasks of our own design, performed by model observers: not a c
                  "standard tests.")
 
 _SCORES = _moments.SCORE_NAMES
+#: What the headline verdict of a population is (the verdict of one observer applied to its pooled scores).
+_POOLED = {"arrangement": "pooled: the criterion applied to the trials of all members together",
+           "plates": "pooled: the criterion applied to each plate's median legibility over members",
+           "rayleigh": "pooled: the criterion applied to the median matching range over members"}
+_MEMBER_CRITERION = ("each member's own verdict by the criterion in basis, applied to its own trials, plates or "
+                     "match (cvdfilter.vision_tasks.members); members gives the share of members with each "
+                     "verdict; borderline the share whose own verdict changes when the margin is halved or "
+                     "doubled, shares_at_margin_factors the shares easier and harder at those margins; "
+                     "member_spread the spread over members of the task's main score change")
+_INTERVAL = f"Wilson score interval, {100 * CONFIDENCE:g} % (Wilson 1927)"
 #: Factors applied to each verdict margin to test the verdict's robustness (ours): a verdict is "robust" when
 #: it is the same at half and at twice the margin.
 ROBUSTNESS_FACTORS = (0.5, 2.0)
@@ -74,6 +85,9 @@ class TaskResult:
         Index 0 of the first axis is without a filter.
     settings : dict
         Trials, seed, illuminant, model constants and thresholds.
+    populations : dict
+        Observer name -> ``{n, variation, seed}`` for each observer that is a population (more than one
+        member); their records add each member's own verdict (:mod:`.members`).
     """
 
     filters: tuple
@@ -82,6 +96,8 @@ class TaskResult:
     tasks: tuple
     scores: dict
     settings: dict = field(default_factory=dict)
+    populations: dict = field(default_factory=dict)
+    _member_cache: dict = field(default_factory=dict, init=False, repr=False, compare=False)
 
     # -- verdicts ----------------------------------------------------------------------------------------------
     def _verdict(self, task: str, obs: str, f: int) -> tuple[str, dict]:
@@ -156,8 +172,51 @@ class TaskResult:
                         s = self.scores[(task, obs)]
                         rec["spread"] = {k: {"without": _quartiles(s[k][0]), "with": _quartiles(s[k][f + 1])}
                                          for k in ("tes", "c_index", "crossings")}
+                    if obs in self.populations:
+                        rec.update(self._member_record(task, obs, f))
                     out.append(rec)
         return out
+
+    # -- populations: each member's own verdict ----------------------------------------------------------------
+    def _members_of(self, task: str, obs: str) -> dict:
+        """Per-member verdicts (at the margin and at the robustness factors), their shares with Wilson
+        intervals and the spread of the main score changes, for every filter at once (cached)."""
+        key = (task, obs)
+        if key not in self._member_cache:
+            from ..metrics.population_stats import share_helped, spread
+            from .members import VERDICT_CODES, member_changes, member_verdicts
+
+            s = self.scores[key]
+            codes = member_verdicts(task, s, (1.0, *ROBUSTNESS_FACTORS))  # (1 + factors, F, M)
+            defined = np.ones(codes.shape[1:], dtype=bool)
+            shares = {word.replace(" ", "_"): share_helped(codes[0] == c, defined)
+                      for word, c in VERDICT_CODES.items()}
+            borderline = share_helped((codes[1:] != codes[:1]).any(axis=0), defined)
+            at = {f"{k:g}x": {w: (c == VERDICT_CODES[w]).mean(axis=-1) for w in ("easier", "harder")}
+                  for k, c in zip(ROBUSTNESS_FACTORS, codes[1:])}
+            changes = {name: spread(v) for name, v in member_changes(task, s).items()}
+            self._member_cache[key] = (shares, borderline, at, changes)
+        return self._member_cache[key]
+
+    def _member_record(self, task: str, obs: str, f: int) -> dict:
+        """The keys a population's record adds: ``population``, ``verdict_scope``, ``members``,
+        ``members_basis`` and ``member_spread`` (docs/tasks.md, Populations)."""
+        shares, borderline, at, changes = self._members_of(task, obs)
+
+        def share(h) -> dict:
+            return {"share": float(h["share"][f]), "ci_low": float(h["ci_low"][f]),
+                    "ci_high": float(h["ci_high"][f]), "count": int(h["helped"][f]), "n": int(h["n"][f])}
+
+        def stats(v) -> dict:
+            return {**{k: float(v[k][f]) for k in STATISTICS}, "n": int(v["n"][f])}
+
+        return {"population": dict(self.populations[obs]), "verdict_scope": _POOLED[_task_kind(task)],
+                "members": {k: share(h) for k, h in shares.items()},
+                "members_basis": {"criterion": _MEMBER_CRITERION, "interval": _INTERVAL,
+                                  "borderline": share(borderline),
+                                  "shares_at_margin_factors": {k: {w: float(v[f]) for w, v in d.items()}
+                                                               for k, d in at.items()}},
+                "member_spread": {k: stats(v) for k, v in changes.items()}}
 
     def summaries(self) -> dict[str, str]:
         """One line per filter: for which tasks (and observers) it makes the task easier and harder."""
@@ -169,10 +228,11 @@ class TaskResult:
             for word in ("easier", "harder"):
                 per_task = []
                 for task in self.tasks:
-                    who = [r["observer"] for r in res if r["filter"] == name and r["task"] == task
-                           and r["verdict"] == word]
+                    recs = [r for r in res if r["filter"] == name and r["task"] == task and r["verdict"] == word]
+                    who = [_who(r, word) for r in recs]
                     if who:
-                        per_task.append(f"{task} ({'all observers' if len(who) == n_obs > 1 else ', '.join(who)})")
+                        every = len(who) == n_obs > 1 and not any("members" in r for r in recs)
+                        per_task.append(f"{task} ({'all observers' if every else ', '.join(who)})")
                 if per_task:
                     parts.append(f"{word}: " + "; ".join(per_task))
             lines[name] = " | ".join(parts) if parts else "no change on any task for any observer"
@@ -197,6 +257,8 @@ class TaskResult:
     def rows(self) -> tuple[list, list]:
         """Header and rows of the table view: one row per filter x observer x task."""
         head = ["filter", "observer", "task", "without", "with", "verdict"]
+        if self.populations:
+            head.append("members easier / harder (95 % CI)")
         rows = []
         for r in self.results():
             cells = []
@@ -210,7 +272,14 @@ class TaskResult:
                 else:
                     cells.append(f"r {v['red_fraction']:.3f}, range {v['range']:.3f}")
             mark = "" if r["basis"]["robust"] else " *"
-            rows.append([r["filter"], r["observer"], r["task"], *cells, r["verdict"] + mark])
+            row = [r["filter"], r["observer"], r["task"], *cells, r["verdict"] + mark]
+            if self.populations:
+                if "members" in r:
+                    row[-1] = r["verdict"] + " (pooled)" + mark
+                    row.append(" / ".join(_share_cell(r["members"][k]) for k in ("easier", "harder")))
+                else:
+                    row.append("-")
+            rows.append(row)
         return head, rows
 
     def _footer(self) -> list[str]:
@@ -228,6 +297,7 @@ class TaskResult:
                  "path crossings (moment method, Vingrys & King-Smith 1988). Plates: number read and the "
                  "legibility of " + ", ".join(PLATE_NAMES) + ". Rayleigh: red fraction r (mid-point) and "
                  "matching range on the instrument scale.",
+                 *([_POPULATION_NOTE] if self.populations else []),
                  TASKS_CAUTION, CAVEAT])
 
     def to_table(self, width: int = 100) -> str:
@@ -256,7 +326,38 @@ class TaskResult:
                 for k, v in _flatten(r[state]).items():
                     rows.append([r["filter"], r["observer"], r["task"], r["verdict"], state, k,
                                  _fmt(v), caveat])
+            if "members" in r:  # a population: shares of members per verdict, spread of the score changes
+                basis = r["members_basis"]
+                blocks = {"members": {**r["members"], "borderline": basis["borderline"],
+                                      **{f"at_{k}_margin": v for k, v in basis["shares_at_margin_factors"].items()}},
+                          "member_spread": r["member_spread"]}
+                for state, block in blocks.items():
+                    for k, v in _flatten(block).items():
+                        rows.append([r["filter"], r["observer"], r["task"], r["verdict"], state, k,
+                                     _fmt(v), caveat])
         return csv_text(head, rows)
+
+
+_POPULATION_NOTE = ("Populations: the verdict is pooled over the members (marked 'pooled'); 'members easier / "
+                    "harder' is the share of members whose own verdict, by the same criterion on their own trials, "
+                    "plates or match, is easier / harder, with a Wilson 95 % interval (Wilson 1927); the JSON "
+                    "adds the spread over members of each task's score change. Model members, not a sample of "
+                    "people.")
+
+
+def _share_cell(h: dict) -> str:
+    return f"{100 * h['share']:.0f} % ({100 * h['ci_low']:.0f}-{100 * h['ci_high']:.0f})"
+
+
+def _who(r: dict, word: str) -> str:
+    """An observer in a summary line; a population with the share of its members for whom the word holds."""
+    if "members" not in r:
+        return r["observer"]
+    return f"{r['observer']}: pooled, {100 * r['members'][word]['share']:.0f} % of members"
+
+
+def _task_kind(task: str) -> str:
+    return "arrangement" if task in ARRANGEMENT_DESIGNS else task
 
 
 def _fmt(v):

@@ -1,0 +1,308 @@
+"""The compiled kernel of the dense pair statistics (numba): every pair's distance, counts and median, per set.
+
+:func:`cvdfilter.metrics.pair_distances.dense_pair_statistics` is the entry point; this module holds its
+inner loop, compiled once by numba (cached on disk) and run without the GIL, so the execution layer's
+threads run sets side by side. Per point set (a row of the coordinate planes) the kernel forms the
+squared distance of every pair with the arithmetic of
+:func:`~cvdfilter.metrics.pair_distances.all_pair_sq_distances` (differences in float64, squared and summed
+coordinate by coordinate, then rounded to float32; the offset layout), and from those float32 values
+
+* the close pairs at every radius and, per mask, the close pairs among the mask's pairs, as
+  :func:`~cvdfilter.metrics.pair_distances.dense_close_counts` counts them (a value below float32(r^2));
+* the exact median of the kept pairs' values, as
+  :func:`~cvdfilter.metrics.pair_distances.median_of_kept` selects it: the middle order statistic (the mean
+  of the two middle ones for an even count), found by a three-pass radix selection on the values' bit
+  patterns (non-negative IEEE floats order like their bits as integers).
+
+A row with a non-finite coordinate, or with a value *equal* to float32(r^2) at some radius (where the
+count needs the float64 arithmetic of the count it stands for), is not finished here: it is flagged, and
+the caller recomputes that row with the array path. The kernel's results are therefore identical, bit
+for bit, to the array path's (tests/test_pair_kernel.py).
+
+Public: :func:`pair_statistics_kernel`.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from numba import njit
+
+__all__ = ["pair_statistics_kernel"]
+
+
+@njit(cache=True, nogil=True)
+def _find(hist, size, kth):
+    """The bucket holding the ``kth`` smallest of a histogram, and the rank within it."""
+    below = 0
+    for b in range(size):
+        h = hist[b]
+        if below + h > kth:
+            return b, kth - below
+        below += h
+    return size - 1, 0  # not reached: kth < the histogram's total
+
+
+@njit(cache=True, nogil=True)
+def _median_keys(bits, keep, half, keys, tmp, hist):
+    """The kept values' order statistics of rank ``half`` and ``half - 1`` as int32 bit patterns (radix
+    selection on the top 10, middle 11 and low 10 bits of the non-negative keys); ``keys``, ``tmp`` and
+    ``hist`` are scratch. The second one is the first again when it is repeated below rank ``half``, else
+    the largest kept value below it (tracked during the passes, without branches)."""
+    n_pairs = bits.shape[0]
+    for b in range(1024):
+        hist[b] = 0
+    nk = 0
+    for p in range(n_pairs):  # the kept values, and the histogram of their top bits
+        x = bits[p]
+        kp = keep[p] != 0
+        keys[nk] = x
+        nk += kp
+        hist[x >> 21] += kp
+    top, kth = _find(hist, 1024, half)
+    best = np.int32(-1)
+    m = 0
+    for t in range(nk):
+        x = keys[t]
+        h = x >> 21
+        tmp[m] = x
+        m += h == top
+        best = max(best, x if h < top else np.int32(-1))
+    for b in range(2048):
+        hist[b] = 0
+    for t in range(m):
+        hist[(tmp[t] >> 10) & 2047] += 1
+    mid, kth = _find(hist, 2048, kth)
+    n2 = 0
+    for t in range(m):
+        x = tmp[t]
+        h = (x >> 10) & 2047
+        keys[n2] = x
+        n2 += h == mid
+        best = max(best, x if h < mid else np.int32(-1))
+    for b in range(1024):
+        hist[b] = 0
+    for t in range(n2):
+        hist[keys[t] & 1023] += 1
+    low, kth = _find(hist, 1024, kth)
+    for t in range(n2):
+        x = keys[t]
+        best = max(best, x if (x & 1023) < low else np.int32(-1))
+    u = (top << 21) | (mid << 10) | low
+    return u, (u if kth >= 1 else best)
+
+
+#: Values in the window the bracketing search leaves for a sort (see :func:`_median_bracket`).
+_WINDOW = 48
+#: Probes aimed at the median itself once the bracket is that small, before the window is sorted.
+_TRIES = 2
+#: A key above every finite non-negative float32 key (+inf's bits 0x7F800000 plus one).
+_ABOVE = 0x7F800001
+
+
+@njit(cache=True, nogil=True)
+def _count_below(mk, probe):
+    c = 0
+    for p in range(mk.shape[0]):
+        c += mk[p] < probe
+    return c
+
+
+@njit(cache=True, nogil=True)
+def _median_bracket(mk, count, half, guess, tmp):
+    """The order statistics of rank ``half`` and ``half - 1`` of the kept keys (``mk``: the keys, with
+    0x7FFFFFFF for pairs not kept), by bracketing: counting passes (vectorised) at probe keys, starting at
+    ``guess`` (e.g. the same member's median with the previous filter), until the bracket [lo, hi) holds
+    both ranks and at most :data:`_WINDOW` values, which are then sorted. Exact: the probes only decide
+    how fast the bracket closes. Returns (-1, -1) if it did not close (the caller then selects by radix).
+    """
+    need_lo = half - 1 if half >= 1 else 0
+    lo, c_lo, has_lo = 0, 0, False
+    hi, c_hi, has_hi = _ABOVE, count, False
+    step = 1 << 18  # about 3 % of the value (the keys are nearly a log scale)
+    p = min(max(guess, 1), _ABOVE - 1)
+    slow = 0
+    tries = 0
+    for _ in range(80):
+        c = _count_below(mk, p)
+        size = c_hi - c_lo
+        if c <= need_lo:
+            lo, c_lo, has_lo = p, c, True
+        elif c > half:
+            hi, c_hi, has_hi = p, c, True
+        else:  # exactly `half` keys below p: rank half is the least key >= p, rank half - 1 the largest < p
+            a = np.int32(-1)
+            b = np.int32(0x7FFFFFFF)
+            for t in range(mk.shape[0]):
+                x = mk[t]
+                a = max(a, x if x < p else np.int32(-1))
+                b = min(b, x if x >= p else np.int32(0x7FFFFFFF))
+            return b, (a if half >= 1 else b)
+        if hi - lo <= 1 or (c_hi - c_lo <= _WINDOW and tries >= _TRIES):
+            break
+        slow = slow + 1 if 2 * (c_hi - c_lo) > size else 0
+        if c_hi - c_lo <= _WINDOW:  # aim between ranks half - 1 and half: one min/max pass then answers
+            tries += 1
+            frac = (half - c_lo) / (c_hi - c_lo)
+            p = lo + int((hi - lo) * frac)
+            p = min(max(p, lo + 1), hi - 1)
+        elif not has_hi:
+            p = min(lo + step, _ABOVE - 1)
+            step *= 2
+        elif not has_lo:
+            p = max(hi - step, 1)
+            step *= 2
+        elif slow >= 2:
+            p = (lo + hi) // 2
+            slow = 0
+        else:  # interpolate the rank next to the looser side of the bracket
+            target = need_lo - _WINDOW // 4 if need_lo - c_lo > c_hi - 1 - half else half + _WINDOW // 4
+            frac = (target + 0.5 - c_lo) / (c_hi - c_lo)
+            p = lo + int((hi - lo) * min(max(frac, 0.0), 1.0))
+            p = min(max(p, lo + 1), hi - 1)
+    else:
+        return -1, -1
+    if hi - lo <= 1:  # every value in the bracket is the key lo
+        return lo, lo
+    m = 0
+    for t in range(mk.shape[0]):
+        x = mk[t]
+        if x >= lo and x < hi:
+            tmp[m] = x
+            m += 1
+    for i in range(1, m):  # insertion sort of the window
+        x = tmp[i]
+        j = i - 1
+        while j >= 0 and tmp[j] > x:
+            tmp[j + 1] = tmp[j]
+            j -= 1
+        tmp[j + 1] = x
+    u = tmp[half - c_lo]
+    return u, (tmp[half - 1 - c_lo] if half >= 1 else u)
+
+
+@njit(cache=True, nogil=True)
+def _distances(row, k, n, d2):
+    """Squared distances of every pair of one set (coordinates ``row[:k]``) into ``d2``, float32, in the
+    offset layout: ``all_pair_sq_distances``' arithmetic ((d0 d0 + d1 d1) + d2 d2 in float64), one loop per
+    dimension count so that the compiler vectorises it."""
+    x0, x1, x2 = row[0], row[1], row[2]
+    pos = 0
+    for off in range(1, n):
+        m = n - off
+        if k == 1:
+            for i in range(m):
+                d = x0[i + off] - x0[i]
+                d2[pos + i] = np.float32(d * d)
+        elif k == 2:
+            for i in range(m):
+                d = x0[i + off] - x0[i]
+                e = x1[i + off] - x1[i]
+                d2[pos + i] = np.float32(d * d + e * e)
+        else:
+            for i in range(m):
+                d = x0[i + off] - x0[i]
+                e = x1[i + off] - x1[i]
+                f = x2[i + off] - x2[i]
+                d2[pos + i] = np.float32(d * d + e * e + f * f)
+        pos += m
+
+
+@njit(cache=True, nogil=True)
+def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_count, guess, close, among, upper,
+                           lower, fallback):
+    """Fills the pair statistics of every row of ``planes`` (see the module docstring).
+
+    Parameters
+    ----------
+    planes : float64 (k, B, N)
+        The coordinate planes of B point sets of N points, k = 1, 2 or 3.
+    groups : int
+        G: row b uses row ``b % G`` of ``masks`` and ``keep``.
+    r32 : float32 (R,)
+        float32(r^2) of each radius.
+    masks : uint8 (M, G, P)
+        Pair masks in the offset layout; mask m counts at radius ``mask_radius[m]``.
+    keep, keep_count : uint8 (G, P), int64 (G,)
+        The median's pairs per group and how many they are.
+    guess : float64 (G,)
+        A first guess of each group's median squared distance (NaN: none); the previous row of the same
+        group is used when there is one. Only the speed depends on it.
+    close, among : int64 (B, R), (B, M)
+        Out: close pairs per radius; close pairs among each mask's pairs.
+    upper, lower : float64 (B,)
+        Out: the kept values' order statistics of rank c // 2 and c // 2 - 1 (the median is ``upper`` for
+        an odd count c, their mean for an even one; NaN when c is 0).
+    fallback : bool (B,)
+        Out: True for rows the kernel did not finish (non-finite coordinates, or a value equal to a
+        radius' float32(r^2)).
+    """
+    k, n_rows, n = planes.shape
+    n_pairs = n * (n - 1) // 2
+    n_r = r32.shape[0]
+    n_m = masks.shape[0]
+    d2 = np.empty(n_pairs, dtype=np.float32)
+    row = np.empty((3, n))
+    keys = np.empty(n_pairs, dtype=np.int32)
+    tmp = np.empty(n_pairs, dtype=np.int32)
+    hist = np.empty(1 << 11, dtype=np.int64)
+    bits = d2.view(np.int32)
+    scratch = np.empty(2, dtype=np.int32)
+    as_float = scratch.view(np.float32)
+    scratch_i = np.empty(1, dtype=np.int32)
+    scratch_f = scratch_i.view(np.float32)
+    mk = np.empty(n_pairs, dtype=np.int32)
+    for b in range(n_rows):
+        g = b % groups
+        finite = True
+        for c in range(k):
+            for i in range(n):
+                v = planes[c, b, i]
+                row[c, i] = v
+                if not (v - v == 0.0):  # NaN or +-inf
+                    finite = False
+        if not finite:
+            fallback[b] = True
+            continue
+        _distances(row, k, n, d2)
+        tie = False
+        for r in range(n_r):
+            rr = r32[r]
+            cnt = 0
+            eq = 0
+            for p in range(n_pairs):
+                x = d2[p]
+                cnt += x < rr
+                eq += x == rr
+            close[b, r] = cnt
+            if eq:
+                tie = True
+        if tie:
+            fallback[b] = True
+            continue
+        for m in range(n_m):
+            rr = r32[mask_radius[m]]
+            cnt = 0
+            for p in range(n_pairs):
+                cnt += (d2[p] < rr) & (masks[m, g, p] != 0)
+            among[b, m] = cnt
+        count = keep_count[g]
+        if count == 0:
+            upper[b] = np.nan
+            lower[b] = np.nan
+            continue
+        half = count // 2
+        kg = keep[g]
+        for p in range(n_pairs):  # the kept keys; the others above every key
+            mk[p] = bits[p] if kg[p] != 0 else np.int32(0x7FFFFFFF)
+        prev = upper[b - groups] if b >= groups else guess[g]
+        start = np.int32(0x3F800000)  # 1.0, when there is nothing better
+        if prev == prev and prev > 0.0:
+            scratch_f[0] = np.float32(prev)
+            start = scratch_i[0]
+        u, w = _median_bracket(mk, count, half, start, tmp)
+        if u < 0:
+            u, w = _median_keys(bits, kg, half, keys, tmp, hist)
+        scratch[0] = u
+        scratch[1] = w
+        upper[b] = np.float64(as_float[0])
+        lower[b] = np.float64(as_float[1]) if half >= 1 else np.nan

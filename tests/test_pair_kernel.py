@@ -1,0 +1,120 @@
+"""The compiled pair-statistics kernel gives, bit for bit, the array path's counts and medians.
+
+``dense_pair_statistics`` (metrics/pair_distances.py, kernel in metrics/pair_kernel.py) replaces
+``all_pair_sq_distances`` + ``dense_close_counts`` + ``median_of_kept`` in the scorer. The array path is
+held to the definitions in tests/test_pairs_exact.py (the sort-and-sweep and index-list counts, numpy's
+median); here the kernel is held to the array path on sets built to reach every branch: ties at the radii
+(points on a lattice), many equal distances (duplicate points), non-finite coordinates, groups of rows with
+different kept pairs, odd and even counts, empty and full keeps, and guesses good, bad and missing.
+Internal consistency checks: the outside reference is numpy's median and the exact counts they rest on.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from cvdfilter.metrics.pairs import all_pair_sq_distances, dense_close_counts, dense_pair_statistics, median_of_kept
+
+
+def _array_path(planes, radii, masks, keep):
+    d2 = all_pair_sq_distances(planes)
+    close, among = [], [None] * len(masks)
+    for r in radii:
+        mine = [i for i, (mr, _) in enumerate(masks) if mr == r]
+        c, a = dense_close_counts(d2, planes, r, [masks[i][1] for i in mine])
+        close.append(c)
+        for i, x in zip(mine, a):
+            among[i] = x
+    g = keep.shape[0]
+    med = median_of_kept(d2.reshape(-1, g, d2.shape[1]), keep).ravel()
+    return np.array(close), np.array(among).reshape(len(masks), -1), med
+
+
+def _case(seed):
+    rng = np.random.default_rng(seed)
+    k, n, g = int(rng.integers(1, 4)), int(rng.integers(2, 45)), int(rng.integers(1, 5))
+    b = g * int(rng.integers(1, 6))
+    planes = [rng.normal(0, rng.choice([0.5, 3.0, 10.0]), (b, n)) for _ in range(k)]
+    kind = seed % 6
+    if kind == 1:  # a half-unit lattice: distances exactly at the radii (float32 ties)
+        planes = [np.round(p * 2) / 2 for p in planes]
+    elif kind == 2:  # duplicate points: many equal distances, zeros among them
+        planes = [np.round(p / 8) for p in planes]
+    elif kind == 3:
+        planes[0][0, n // 2] = np.nan
+        planes[-1][-1, 0] = -np.inf
+    elif kind == 4:  # neighbouring rows alike (as filters of a sweep): the previous row's median is a good guess
+        planes = [p[:1] + 0.01 * np.arange(b)[:, None] * rng.normal(size=(1, n)) for p in planes]
+    p = n * (n - 1) // 2
+    radii = [1.0, 2.0, 4.0]
+    masks = [(r, rng.random((g, p)) < 0.4) for r in radii] + [(1.0, rng.random((g, p)) < 0.3)]
+    keep = rng.random((g, p)) < rng.choice([0.0, 0.3, 0.97, 1.0])
+    guess = [None, rng.uniform(0.001, 1000.0, g), np.full(g, np.nan)][seed % 3]
+    return planes, radii, masks, keep, guess
+
+
+@pytest.mark.parametrize("seed", range(60))
+def test_kernel_equals_the_array_path_bit_for_bit(seed):
+    planes, radii, masks, keep, guess = _case(seed)
+    close, among, med = dense_pair_statistics(planes, radii, masks, keep, guess, method="kernel")
+    c0, a0, m0 = _array_path([p.copy() for p in planes], radii, masks, keep)
+    assert np.array_equal(close, c0)
+    assert np.array_equal(among, a0)
+    assert np.array_equal(med, m0, equal_nan=True)
+    c1, a1, m1 = dense_pair_statistics(planes, radii, masks, keep, method="array")
+    assert np.array_equal(close, c1) and np.array_equal(among, a1) and np.array_equal(med, m1, equal_nan=True)
+
+
+def test_median_of_an_even_count_is_the_mean_of_the_two_middle_values():
+    # numpy.median's definition (reference: numpy), on distances 1, 2, 3 (squared 1, 4, 9) and 4 (16)
+    planes = [np.array([[0.0, 1.0, 3.0, 6.0, 10.0]])]
+    d2 = all_pair_sq_distances(planes)[0]
+    keep = np.zeros((1, d2.size), dtype=bool)
+    keep[0, :4] = True  # the four neighbouring pairs: squared distances 1, 4, 9, 16
+    _, _, med = dense_pair_statistics(planes, [1.0], [], keep, method="kernel")
+    assert med[0] == np.median(d2[:4].astype(np.float64)) == 6.5
+
+
+def test_no_kept_pair_gives_nan_and_no_keep_gives_nan():
+    planes = [np.array([[0.0, 1.0, 3.0]])]
+    for method in ("kernel", "array"):
+        _, _, med = dense_pair_statistics(planes, [1.0], [], np.zeros((1, 3), dtype=bool), method=method)
+        assert np.isnan(med).all()
+        close, among, med = dense_pair_statistics(planes, [1.5], [], method=method)
+        assert close.tolist() == [[1]] and among.shape == (0, 1) and np.isnan(med).all()
+
+
+def test_more_than_three_planes_are_refused():
+    with pytest.raises(ValueError, match="1 to 3"):
+        dense_pair_statistics([np.zeros((1, 3))] * 4, [1.0])
+
+
+@pytest.mark.parametrize("seed", range(40))
+def test_both_selections_return_numpys_order_statistics(seed):
+    # The two selections inside the kernel (bracketing from a guess; radix by bits), called directly on
+    # non-negative float32 keys, against numpy's sort (reference: numpy). Duplicated values and guesses
+    # far off, at the answer, and at the edges reach every branch.
+    from cvdfilter.metrics.pair_kernel import _median_bracket, _median_keys
+
+    rng = np.random.default_rng(seed)
+    n = int(rng.integers(1, 3000))
+    values = rng.lognormal(2.0, 1.5, n).astype(np.float32)
+    if seed % 4 == 1:
+        values = np.round(values / 10).astype(np.float32)  # many duplicates, zeros included
+    if seed % 4 == 2:
+        values[:] = values[0]  # all equal
+    keep = (rng.random(n) < 0.9).astype(np.uint8)
+    keys = values.view(np.int32)
+    kept = np.sort(keys[keep != 0])
+    if kept.size == 0:
+        return
+    half = kept.size // 2
+    lower = kept[half - 1] if half >= 1 else kept[half]
+    mk = np.where(keep != 0, keys, np.int32(0x7FFFFFFF)).astype(np.int32)
+    scratch = np.empty(n, dtype=np.int32)
+    for guess in (int(kept[half]), int(kept[0]), 1, 0x7F800000, int(rng.integers(1, 0x7F800000))):
+        u, w = _median_bracket(mk, kept.size, half, np.int32(guess), scratch)
+        assert (u, w) == (kept[half], lower) or (u, w) == (-1, -1)
+    u, w = _median_keys(keys, keep, half, np.empty(n, np.int32), np.empty(n, np.int32), np.empty(2048, np.int64))
+    assert (u, w) == (kept[half], lower)
