@@ -35,16 +35,25 @@ class Cells:
     """One column's cells over rows: ``values`` a numpy array (``null`` marks the empty cells) or a list of
     Python values (None: an empty cell); ``const``: every cell holds one value."""
 
-    __slots__ = ("values", "null", "const", "base", "per")
+    __slots__ = ("_values", "null", "const", "base", "per")
 
     def __init__(self, values, null=None, const: bool = False) -> None:
-        self.values = values
+        self._values = values
         self.null = null
         self.const = const
         self.base: Cells | None = None  # from :meth:`repeat`: the cells before, each repeated ``per`` times
         self.per = 1
 
+    @property
+    def values(self):
+        """The cells: a numpy array or a list (a repeated list is made when first asked for)."""
+        if self._values is None and self.base is not None:
+            self._values = list(itertools.chain.from_iterable(zip(*[self.base.values] * self.per)))
+        return self._values
+
     def __len__(self) -> int:
+        if self._values is None and self.base is not None:
+            return len(self.base) * self.per
         return len(self.values)
 
     def tolist(self) -> list:
@@ -67,7 +76,7 @@ class Cells:
         if k == 1:
             return self
         if isinstance(self.values, list):
-            out = Cells(list(itertools.chain.from_iterable(zip(*[self.values] * k))))
+            out = Cells(None)  # the list is made when asked for; to Arrow by take (:meth:`arrow`)
         else:
             out = Cells(np.repeat(self.values, k), None if self.null is None else np.repeat(self.null, k))
         out.base, out.per = self, k
@@ -78,6 +87,8 @@ class Cells:
         import pyarrow as pa
 
         typ = {"string": pa.string(), "double": pa.float64(), "int64": pa.int64(), "bool": pa.bool_()}[kind]
+        if self._values is None and self.base is not None:  # a repeated list: its cells once, then taken
+            return self.base.arrow(kind).take(pa.array(np.repeat(np.arange(len(self.base)), self.per)))
         v = self.values
         if isinstance(v, np.ndarray) and v.dtype.kind == _KINDS.get(kind):
             return pa.array(v, type=typ, mask=self.null if self.null is not None and self.null.any() else None)
@@ -93,6 +104,8 @@ class Cells:
 
     def csv_text(self) -> bool:
         """Text that a CSV writer would have to quote over several lines (a line break in a cell)."""
+        if self._values is None and self.base is not None:
+            return self.base.csv_text()
         return isinstance(self.values, list) and any(isinstance(x, str) and ("\n" in x or "\r" in x)
                                                      for x in (self.values[:1] if self.const else self.values))
 
