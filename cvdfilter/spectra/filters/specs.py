@@ -146,26 +146,29 @@ def parametric_filters(kind: str, keys, p: dict, words: dict, grid: Grid) -> Fil
     :mod:`cvdfilter.filter_source` build their chunks with it too)."""
     t = np.atleast_2d(FILTER_SHAPES[kind].build(grid.wavelengths, p, words))
     n = t.shape[0]
-    texts = [_fmt_each(p[k], n) for k in keys]  # a sweep repeats its values: each distinct one formatted once
+    # a sweep repeats its values: each distinct one is formatted once ("key=text" and its number)
+    cols = [_fmt_each(p[k], n, k) for k in keys]
     words_kv = [f"{k}={w}" for k, w in words.items()]
     if keys:
-        names = [f"{kind}:" + ",".join([*(f"{k}={x}" for k, x in zip(keys, row)), *words_kv])
-                 for row in zip(*texts)]
+        tail = "," + ",".join(words_kv) if words_kv else ""
+        names = [f"{kind}:" + ",".join(row) + tail for row in zip(*(kv for kv, _ in cols))]
     else:
         names = [f"{kind}:" + ",".join(words_kv)] * n
     # the record keeps the parsed parameters (as the spec string writes them), so nothing re-parses names
-    numbers = [[float(x) for x in col] for col in texts]
     info = tuple({"spec": nm, "kind": kind, "parameters": dict(zip(keys, row))}
-                 for nm, row in zip(names, zip(*numbers) if keys else [()] * n))
+                 for nm, row in zip(names, zip(*(num for _, num in cols)) if keys else [()] * n))
     return FilterSet(tuple(names), np.clip(t, 0.0, 1.0), grid, ("spec",) * len(names), info)
 
 
-def _fmt_each(values, n: int) -> list[str]:
-    """``_fmt`` of the first ``n`` values, each distinct value (bit pattern: -0.0 is not 0.0) formatted once."""
+def _fmt_each(values, n: int, key: str) -> tuple[list[str], list[float]]:
+    """Per value of the first ``n``: ``key=`` and its ``_fmt`` text, and the number that text writes; each
+    distinct value (bit pattern: -0.0 is not 0.0) formatted once."""
     v = np.ascontiguousarray(np.asarray(values, dtype=float)[:n])
     bits, where = np.unique(v.view(np.int64), return_inverse=True)
     text = [_fmt(x) for x in bits.view(np.float64).tolist()]
-    return [text[j] for j in where.reshape(-1).tolist()]
+    kv, num = [f"{key}={t}" for t in text], [float(t) for t in text]
+    idx = where.reshape(-1).tolist()
+    return [kv[j] for j in idx], [num[j] for j in idx]
 
 
 def _check_ranges(p: dict, spec: str) -> None:
