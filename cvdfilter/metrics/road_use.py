@@ -445,9 +445,6 @@ def road_use_reasons_many(tau_v, category, min_ratio, at_nm, quotients: dict, wo
     limit_text = {c: f"{limits[c]:g}" for c in quotients}
     cat_text: dict = {}
 
-    def ratio(x):  # two significant digits for small ratios, two decimals otherwise
-        return f"{x:.2g}" if x < 0.095 else f"{x:.2f}"
-
     def listed(v):
         return v.tolist() if isinstance(v, np.ndarray) else list(v)
 
@@ -458,27 +455,31 @@ def road_use_reasons_many(tau_v, category, min_ratio, at_nm, quotients: dict, wo
     any_fails = [any(f) for f in zip(*fails.values())] if fails else [False] * len(taus)
     meet = "Signal quotients meet their limits: " + ", ".join(c.replace("{", "{{").replace("}", "}}") + " {:.2f}"
                                                                 for c in qs) + "."
-    rows = list(zip(*qs.values())) if qs else [()] * len(taus)
+    # the numbers as the sentences write them, column by column
+    pct = [f"{100 * t:.1f} %" for t in taus]
+    ratio_text = [f"{x:.2g}" if x < 0.095 else f"{x:.2f}" for x in ratios]  # 2 significant digits when small
+    at_text = [f"{x:g}" for x in ats]
+    meets = list(map(meet.format, *qs.values())) if qs else [meet] * len(taus)
     out = []
     for i, tau in enumerate(taus):
         if not tau > 0:
             out.append(["The filter transmits no light in the visible range: not suitable for road use."])
             continue
         cat, mr = cats[i], ratios[i]
-        pct = f"{100 * tau:.1f} %"
         if cat >= 0:
             if cat not in cat_text:
                 cat_text[cat] = f"category {cat} ({category_text(cat)})."
-            s = [f"Luminous transmittance {pct} (CIE D65, CIE 1931 2 deg V(lambda)) is in ISO 12312-1 {cat_text[cat]}"]
+            s = [f"Luminous transmittance {pct[i]} (CIE D65, CIE 1931 2 deg V(lambda)) is in ISO 12312-1 "
+                 f"{cat_text[cat]}"]
         else:
-            s = [f"Luminous transmittance {pct} is at or below 3 %, outside the ISO 12312-1 categories: "
+            s = [f"Luminous transmittance {pct[i]} is at or below 3 %, outside the ISO 12312-1 categories: "
                  "not suitable for road use."]
         if cat == 4:
             s.append("Category 4 filters are not suitable for driving.")
         if mr >= RATIO_LIMIT:
-            s.append(f"{ratio_ok}{ratio(mr)} x, at {ats[i]:g} nm).")
+            s.append(f"{ratio_ok}{ratio_text[i]} x, at {at_text[i]} nm).")
         else:
-            s.append(f"Spectral transmittance falls to {ratio(mr)} x the luminous transmittance at {ats[i]:g} nm"
+            s.append(f"Spectral transmittance falls to {ratio_text[i]} x the luminous transmittance at {at_text[i]} nm"
                      + ratio_low)
         failing = any_fails[i]
         if failing:
@@ -487,7 +488,7 @@ def road_use_reasons_many(tau_v, category, min_ratio, at_nm, quotients: dict, wo
                     which = f" (lowest with the {worst[c][i]} light)" if c in worst else ""
                     s.append(f"The {c} signal quotient is {qs[c][i]:.2f}, below the limit of {limit_text[c]}{which}.")
         else:
-            s.append(meet.format(*rows[i]))
+            s.append(meets[i])
         if round(tau, 9) < NIGHT_MIN:
             s.append("Luminous transmittance is below 75 %: not suitable for driving at dusk or at night.")
         elif 0 <= cat <= 3 and mr >= RATIO_LIMIT and not failing:
