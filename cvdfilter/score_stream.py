@@ -6,7 +6,9 @@ per chunk, :class:`~cvdfilter.filter_source.FilterSource`) in memory. Each chunk
 filter range (:class:`StreamTask`), mapped by the execution layer (:mod:`cvdfilter.execution`) on threads
 or a Dask cluster; its rows are the CSV view's rows (``Scorecard.csv_rows``: one row per filter x observer,
 one per statistic for a population) in a fixed column layout taken from a probe (the first filter of each
-part of the filter list). Parts, resume, atomic finalisation and the manifest: :mod:`cvdfilter.io.chunked`.
+part of the filter list), built column by column from the chunk's arrays
+(:func:`cvdfilter.score_stream_cells.chunk_cells`) where that gives the CSV view's cells on the probe.
+Parts, resume, atomic finalisation and the manifest: :mod:`cvdfilter.io.chunked`.
 
 The Parquet file has the CSV's columns (dotted names, in the same order) typed as ``string``, ``double``,
 ``int64`` or ``bool`` (nulls where the CSV cell is empty), one row group per chunk, and in its key-value
@@ -53,7 +55,8 @@ def _column_types(columns: list, rows: list) -> list:
 class StreamTask:
     """What every chunk of a streamed run needs, shipped to the workers once: ``task(lo, hi) -> (bytes, rows)``.
 
-    ``bytes`` is the chunk's part file (CSV rows without the header, or a Parquet file of one row group).
+    ``bytes`` is the chunk's part (CSV rows without the header, or an Arrow IPC stream of the rows in the
+    Parquet file's schema: :func:`cvdfilter.io.chunked.ipc_bytes`).
     """
 
     source: Any  # FilterSource
