@@ -15,10 +15,11 @@ subprocess so that its peak RSS is its own. Prints
 * the reference: ``cvdfilter.score`` in memory on ``--memory-filters`` filters of the same sweep (at most
   50,000 per spec in memory): filters/s;
 * the ratio streamed / in memory on ``--memory-filters`` filters, both alternated ``--rounds`` times in one
-  process so that they share the machine's load (target >= 0.8; ``--format csv``: streamed to CSV), with
-  the CPU seconds of each run (all threads: less sensitive to other jobs than the wall time), the load
-  average around each round, and the ratio when the in-memory run's building of its filters
-  (``load_filters``, outside its timing) is counted as the streamed run's is;
+  process so that they share the machine's load (target >= 0.8; ``--format csv``: streamed to CSV): both
+  from the same sweep spec, the in-memory run's building of its filters (``load_filters``, timed apart)
+  counted as the streamed run's is (``score(spec)`` builds them too); then the ratio of the scoring alone
+  (the in-memory run handed its filters), the CPU seconds of each run (all threads: less sensitive to other
+  jobs than the wall time) and the load average around each round;
 * the streamed run of ``--filters`` in this process (threads): wall time, rows/s, filters/s, peak RSS
   (target < 1 GB whatever the sweep length);
 * the same on a LocalCluster of ``--workers`` worker processes (one thread each): wall time including the
@@ -158,15 +159,15 @@ def main() -> None:
     print(f"sweep: {sweep(args.filters)} ({os.cpu_count()} CPUs, load {os.getloadavg()[0]:.1f})")
     rat = _child(["ratio", str(args.memory_filters), str(args.rounds), str(out_dir), args.format])
     ratios = sorted(rat["ratios"])
-    print(f"streamed ({args.format}) / in memory, {rat['filters']:,} filters, {args.rounds} alternated rounds "
-          f"in one process: "
-          f"ratios {', '.join(f'{r:.2f}' for r in rat['ratios'])} (median {ratios[len(ratios) // 2]:.2f}; "
-          f"target >= 0.8); in memory {', '.join(f'{x:,.0f}' for x in rat['memory'])} filters/s, streamed "
-          f"{', '.join(f'{x:,.0f}' for x in rat['streamed'])} filters/s")
     with_build = sorted(rat["ratios_with_build"])
-    print(f"  counting the in-memory run's filter building too ({', '.join(f'{x:.2f}' for x in rat['build_s'])} s; "
-          f"the streamed run builds its filters inside its time): ratios "
-          f"{', '.join(f'{r:.2f}' for r in rat['ratios_with_build'])} (median {with_build[len(with_build) // 2]:.2f})")
+    print(f"streamed ({args.format}) / in memory, {rat['filters']:,} filters from the same sweep spec (both build "
+          f"their filters from it), {args.rounds} alternated rounds in one process: ratios "
+          f"{', '.join(f'{r:.2f}' for r in rat['ratios_with_build'])} "
+          f"(median {with_build[len(with_build) // 2]:.2f}; target >= 0.8)")
+    print(f"  scoring alone (the in-memory run handed its filters, built in "
+          f"{', '.join(f'{x:.2f}' for x in rat['build_s'])} s): ratios {', '.join(f'{r:.2f}' for r in rat['ratios'])} "
+          f"(median {ratios[len(ratios) // 2]:.2f}); in memory {', '.join(f'{x:,.0f}' for x in rat['memory'])} "
+          f"filters/s, streamed {', '.join(f'{x:,.0f}' for x in rat['streamed'])} filters/s")
     print(f"  CPU seconds (all threads): in memory {', '.join(f'{x:.2f}' for x in rat['memory_cpu_s'])}, streamed "
           f"{', '.join(f'{x:.2f}' for x in rat['streamed_cpu_s'])}: streaming adds "
           f"{sorted(s / m - 1 for s, m in zip(rat['streamed_cpu_s'], rat['memory_cpu_s']))[args.rounds // 2]:+.0%} "

@@ -63,8 +63,13 @@ def gaussian_notch(wavelengths, center, fwhm, *, depth=None, od=None) -> np.ndar
     >>> float(gaussian_notch(np.array([575.0]), 575, 30, depth=0.8)[0])
     0.2
     """
-    profile = np.exp(-4 * _LN2 * (_wl(wavelengths) - _col(center)) ** 2 / _col(fwhm) ** 2)
-    return _apply_profile(profile, depth, od)
+    wl, c, f2 = _wl(wavelengths), _col(center), _col(fwhm) ** 2
+    x = np.empty(np.broadcast_shapes(wl.shape, c.shape, f2.shape))  # -4 ln2 (lambda - center)^2 / fwhm^2, in place
+    np.subtract(wl, c, out=x)
+    x **= 2
+    x *= -4 * _LN2
+    x /= f2
+    return _apply_profile(np.exp(x, out=x), depth, od)
 
 
 def flat_notch(wavelengths, center, fwhm, *, depth=None, od=None, order=4) -> np.ndarray:
@@ -81,8 +86,12 @@ def flat_notch(wavelengths, center, fwhm, *, depth=None, od=None, order=4) -> np
 def _apply_profile(profile, depth, od):
     if (depth is None) == (od is None):
         raise ValueError("give exactly one of depth or od")
-    if depth is not None:
-        return 1.0 - _col(depth) * profile
+    if depth is not None:  # 1 - depth * profile, in place when the shapes allow (large sweeps: one array)
+        d = _col(depth)
+        same = np.broadcast_shapes(np.shape(profile), d.shape) == np.shape(profile)
+        out = np.multiply(profile, -d, out=profile if same and isinstance(profile, np.ndarray) else None)
+        out += 1.0
+        return out
     return np.power(10.0, -_col(od) * profile)
 
 
