@@ -94,7 +94,7 @@ def _median_keys(bits, keep, half, keys, tmp, hist):
 #: Values in the window the bracketing search leaves for a sort (see :func:`_median_bracket`).
 _WINDOW = 48
 #: Probes aimed at the median itself once the bracket is that small, before the window is sorted.
-_TRIES = 2
+_TRIES = 16
 #: A key above every finite non-negative float32 key (+inf's bits 0x7F800000 plus one).
 _ABOVE = 0x7F800001
 
