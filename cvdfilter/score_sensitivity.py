@@ -164,6 +164,22 @@ def _number(x) -> float | None:
     return round(x, 6) if np.isfinite(x) else None
 
 
+def _observer_rows(o: dict, variants: list, i: int, k: int) -> dict:
+    """A fixed observer's rows: each verdict measure of filter ``i`` under every variation, and whether its
+    sign holds."""
+    rows = {}
+    for key, v0 in _measures(o).items():
+        values = {"default": v0}
+        for name, _, d in variants:
+            values[name] = _measures(d["filters"][i]["observers"][k]).get(key)
+        nums = [v for v in values.values() if v is not None]
+        ref = 1.0 if key.startswith("median") else 0
+        signs = {_sign(v - ref) for v in nums}
+        rows[key] = {"values": values, "min": min(nums) if nums else None, "max": max(nums) if nums else None,
+                     "robust": len(signs) <= 1}
+    return rows
+
+
 def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid, *, inp=None, discern=None) -> dict:
     """How each verdict moves over :data:`SENSITIVITY_RANGES` (the JSON ``sensitivity`` section); with the
     run's ``inp`` (ScoreInputs) and ``discern`` (DiscernibleInputs), the discernible ratio too."""
@@ -217,17 +233,7 @@ def sensitivity(card, fs, ill, surf, obs, a, signal_spectra, grid, *, inp=None, 
             if k in populations:
                 entry["observers"].append({"observer": o["observer"], **_population_rows(populations[k], i, names)})
                 continue
-            m0 = _measures(o)
-            rows = {}
-            for key, v0 in m0.items():
-                values = {"default": v0}
-                for name, _, d in variants:
-                    values[name] = _measures(d["filters"][i]["observers"][k]).get(key)
-                nums = [v for v in values.values() if v is not None]
-                ref = 1.0 if key.startswith("median") else 0
-                signs = {_sign(v - ref) for v in nums}
-                rows[key] = {"values": values, "min": min(nums) if nums else None, "max": max(nums) if nums else None,
-                             "robust": len(signs) <= 1}
+            rows = _observer_rows(o, variants, i, k)
             if discernible:
                 own = card.per_observer[k]["discernible_ratio"]
                 rows["discernible_ratio"] = _fixed_row(

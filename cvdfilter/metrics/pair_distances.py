@@ -24,13 +24,11 @@ Public: :func:`pair_count`, :func:`pair_indices`, :func:`pair_sq_distances`, :fu
 
 from __future__ import annotations
 
-import sys
-
 import numpy as np
 
 __all__ = ["pair_count", "pair_indices", "pair_sq_distances", "offset_order", "all_pair_sq_distances", "median_rows",
            "median_of_kept", "principal_rotations", "gather_sq_distances", "offset_pairs",
-           "dense_close_counts", "dense_pair_statistics", "KERNEL_MIN_PAIRS"]
+           "dense_close_counts"]
 
 #: Rows per selection (median) and per block of all-pair distances: about 2 MB of float32, in the CPU cache.
 _SELECT_ROWS = 128
@@ -399,115 +397,3 @@ def dense_close_counts(d2, planes, radius: float, masks=()) -> tuple:
             sweep = dx < r2
         np.add.at(close, rows, sweep.astype(np.int64))
     return close, among
-
-
-def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, method: str = "auto") -> tuple:
-    """Close-pair counts and the median over kept pairs, from every pair's distance.
-
-    The numbers of :func:`all_pair_sq_distances` followed by :func:`dense_close_counts` at every radius
-    and :func:`median_of_kept` over ``keep`` (``method="array"``), or the same numbers, bit for bit, from a
-    numba kernel (:mod:`cvdfilter.metrics.pair_kernel`, ``method="kernel"``) that handles one set at a
-    time without storing the distances; rows the kernel leaves (non-finite coordinates, a distance at
-    float32(r^2) exactly) are recomputed by the array path. ``"auto"`` takes the kernel from
-    :data:`KERNEL_MIN_PAIRS` pair distances on, or whenever it is loaded already (below that, loading the
-    compiled kernel takes longer than the work; a long run such as a design loads it up front): only the
-    speed differs, never a bit of the result (tests/test_pair_kernel.py).
-
-    Parameters
-    ----------
-    planes : sequence of numpy.ndarray
-        The k coordinate planes (B, N).
-    radii : sequence of float
-        Distinct radii.
-    masks : sequence of (float, numpy.ndarray)
-        (radius, (G, P) bool mask in the offset layout): pairs among which close pairs are counted at that
-        radius; row b of the planes uses row b % G.
-    keep : numpy.ndarray, optional
-        (G, P) bool: the pairs the median runs over (default: no median, NaN).
-    guess : array_like, optional
-        (G,): a guess of each group's median squared distance (e.g. without the filter); only the speed
-        depends on it.
-    method : str
-        ``auto``, ``kernel`` or ``array``.
-
-    Returns
-    -------
-    close : numpy.ndarray
-        (R, B) int64: pairs closer than each radius.
-    among : numpy.ndarray
-        (M, B) int64: close pairs among each mask's pairs at its radius.
-    median : numpy.ndarray
-        (B,) float64: the median squared distance over the kept pairs (NaN when a group keeps none).
-
-    Examples
-    --------
-    >>> pl = [np.array([[0.0, 0.5, 2.0, 2.9]])]
-    >>> close, among, med = dense_pair_statistics(pl, [1.0], [(1.0, np.ones((1, 6), bool))], np.ones((1, 6), bool))
-    >>> close.tolist(), among.tolist(), med.tolist()
-    ([[2]], [[2]], [2.2050000429153442])
-    """
-    arr = np.ascontiguousarray(np.stack([np.asarray(c, dtype=float) for c in planes]))
-    k, b, n = arr.shape
-    if not 1 <= k <= 3:
-        raise ValueError(f"dense_pair_statistics takes 1 to 3 coordinate planes, got {k}")
-    radii = [float(r) for r in radii]
-    p = pair_count(n)
-    if method not in ("auto", "kernel", "array"):
-        raise ValueError(f"method must be auto, kernel or array, got {method!r}")
-    if method == "array" or (method == "auto" and b * p < KERNEL_MIN_PAIRS
-                             and "cvdfilter.metrics.pair_kernel" not in sys.modules):
-        return _array_statistics(list(arr), radii, masks, keep)
-    from .pair_kernel import pair_statistics_kernel
-
-    groups = keep.shape[0] if keep is not None else (masks[0][1].shape[0] if masks else 1)
-    keep_u8 = np.zeros((groups, p), dtype=np.uint8) if keep is None else np.ascontiguousarray(keep, dtype=np.uint8)
-    mask_u8 = (np.ascontiguousarray(np.stack([np.broadcast_to(m, (groups, p)) for _, m in masks]), dtype=np.uint8)
-               if masks else np.zeros((0, groups, p), dtype=np.uint8))
-    mask_radius = np.array([radii.index(float(r)) for r, _ in masks], dtype=np.int64)
-    close = np.zeros((b, len(radii)), dtype=np.int64)
-    among = np.zeros((b, len(masks)), dtype=np.int64)
-    upper = np.full(b, np.nan)
-    lower = np.full(b, np.nan)
-    fallback = np.zeros(b, dtype=bool)
-    r32 = np.array([r * r for r in radii], dtype=np.float32)
-    start = np.full(groups, np.nan) if guess is None else np.broadcast_to(np.asarray(guess, dtype=float), (groups,))
-    pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, keep_u8, keep_u8.sum(axis=1, dtype=np.int64),
-                           np.ascontiguousarray(start), close, among, upper, lower, fallback)
-    count = keep_u8.sum(axis=1)[np.arange(b) % groups]
-    even = (count % 2 == 0) & (count > 0)
-    med = np.where(even, 0.5 * (upper + lower), upper)
-    for row in np.flatnonzero(fallback):  # rare: recomputed by the array path
-        g = row % groups
-        c1, a1, m1 = _array_statistics([c[row:row + 1] for c in arr], radii,
-                                       [(r, m[g:g + 1]) for r, m in masks],
-                                       None if keep is None else keep[g:g + 1])
-        close[row], among[row], med[row] = c1[:, 0], a1[:, 0], m1[0]
-    if keep is None:
-        med[:] = np.nan
-    return close.T, among.T, med
-
-
-#: Pair distances (sets x pairs) from which ``dense_pair_statistics(method="auto")`` runs the compiled
-#: kernel (about 400 sets of 99 points): below it the array path is quicker than loading the kernel.
-KERNEL_MIN_PAIRS = 2_000_000
-
-
-def _array_statistics(planes, radii, masks, keep) -> tuple:
-    """:func:`dense_pair_statistics` by the array path: (R, B), (M, B), (B,)."""
-    b = planes[0].shape[0]
-    d2 = all_pair_sq_distances(planes)
-    close = np.zeros((len(radii), b), dtype=np.int64)
-    among = np.zeros((len(masks), b), dtype=np.int64)
-    for ri, r in enumerate(radii):
-        mine = [mi for mi, (mr, _) in enumerate(masks) if float(mr) == r]
-        groups = [np.asarray(masks[mi][1], dtype=bool) for mi in mine]
-        c1, am = dense_close_counts(d2, planes, r, groups)
-        close[ri] = c1
-        for mi, a in zip(mine, am):
-            among[mi] = a
-    if keep is None:
-        return close, among, np.full(b, np.nan)
-    keep = np.asarray(keep, dtype=bool)
-    finite = all(bool(np.isfinite(c).all()) for c in planes)  # then every squared distance is >= 0
-    med = median_of_kept(d2.reshape(-1, keep.shape[0], d2.shape[1]), keep, nonnegative=finite).ravel()
-    return close, among, med

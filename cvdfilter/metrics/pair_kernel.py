@@ -1,6 +1,6 @@
 """The compiled kernel of the dense pair statistics (numba): every pair's distance, counts and median, per set.
 
-:func:`cvdfilter.metrics.pair_distances.dense_pair_statistics` is the entry point; this module holds its
+:func:`cvdfilter.metrics.pair_statistics.dense_pair_statistics` is the entry point; this module holds its
 inner loop, compiled once by numba (cached on disk) and run without the GIL, so the execution layer's
 threads run sets side by side. Per point set (a row of the coordinate planes) the kernel forms the
 squared distance of every pair with the arithmetic of
@@ -238,71 +238,84 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_c
     """
     k, n_rows, n = planes.shape
     n_pairs = n * (n - 1) // 2
-    n_r = r32.shape[0]
-    n_m = masks.shape[0]
     d2 = np.empty(n_pairs, dtype=np.float32)
     row = np.empty((3, n))
-    keys = np.empty(n_pairs, dtype=np.int32)
-    tmp = np.empty(n_pairs, dtype=np.int32)
-    hist = np.empty(1 << 11, dtype=np.int64)
-    bits = d2.view(np.int32)
-    scratch = np.empty(2, dtype=np.int32)
-    as_float = scratch.view(np.float32)
-    scratch_i = np.empty(1, dtype=np.int32)
-    scratch_f = scratch_i.view(np.float32)
-    mk = np.empty(n_pairs, dtype=np.int32)
+    work = (np.empty(n_pairs, dtype=np.int32), np.empty(n_pairs, dtype=np.int32), np.empty(n_pairs, dtype=np.int32),
+            np.empty(1 << 11, dtype=np.int64), np.empty(2, dtype=np.int32))
     for b in range(n_rows):
         g = b % groups
-        finite = True
-        for c in range(k):
-            for i in range(n):
-                v = planes[c, b, i]
-                row[c, i] = v
-                if not (v - v == 0.0):  # NaN or +-inf
-                    finite = False
-        if not finite:
+        if not _load_row(planes, b, row):
             fallback[b] = True
             continue
         _distances(row, k, n, d2)
-        tie = False
-        for r in range(n_r):
-            rr = r32[r]
-            cnt = 0
-            eq = 0
-            for p in range(n_pairs):
-                x = d2[p]
-                cnt += x < rr
-                eq += x == rr
-            close[b, r] = cnt
-            if eq:
-                tie = True
-        if tie:
+        if not _row_counts(d2, r32, masks[:, g], mask_radius, close[b], among[b]):
             fallback[b] = True
             continue
-        for m in range(n_m):
-            rr = r32[mask_radius[m]]
-            cnt = 0
-            for p in range(n_pairs):
-                cnt += (d2[p] < rr) & (masks[m, g, p] != 0)
-            among[b, m] = cnt
-        count = keep_count[g]
-        if count == 0:
+        if keep_count[g] == 0:
             upper[b] = np.nan
             lower[b] = np.nan
             continue
-        half = count // 2
-        kg = keep[g]
-        for p in range(n_pairs):  # the kept keys; the others above every key
-            mk[p] = bits[p] if kg[p] != 0 else np.int32(0x7FFFFFFF)
         prev = upper[b - groups] if b >= groups else guess[g]
-        start = np.int32(0x3F800000)  # 1.0, when there is nothing better
-        if prev == prev and prev > 0.0:
-            scratch_f[0] = np.float32(prev)
-            start = scratch_i[0]
-        u, w = _median_bracket(mk, count, half, start, tmp)
-        if u < 0:
-            u, w = _median_keys(bits, kg, half, keys, tmp, hist)
-        scratch[0] = u
-        scratch[1] = w
-        upper[b] = np.float64(as_float[0])
-        lower[b] = np.float64(as_float[1]) if half >= 1 else np.nan
+        upper[b], lower[b] = _row_median(d2, keep[g], keep_count[g], prev, work)
+
+
+@njit(cache=True, nogil=True)
+def _load_row(planes, b, row):
+    """Copies set ``b``'s coordinates into ``row``; False if one is not finite."""
+    k, _, n = planes.shape
+    finite = True
+    for c in range(k):
+        for i in range(n):
+            v = planes[c, b, i]
+            row[c, i] = v
+            if not (v - v == 0.0):  # NaN or +-inf
+                finite = False
+    return finite
+
+
+@njit(cache=True, nogil=True)
+def _row_counts(d2, r32, masks, mask_radius, close, among):
+    """Counts of one set from its distances ``d2``: pairs below each radius, and among each mask's pairs
+    (``masks`` (M, P) of its group); False (counts unfinished) if a value equals a radius' float32(r^2)."""
+    n_pairs = d2.shape[0]
+    for r in range(r32.shape[0]):
+        rr = r32[r]
+        cnt = 0
+        eq = 0
+        for p in range(n_pairs):
+            x = d2[p]
+            cnt += x < rr
+            eq += x == rr
+        close[r] = cnt
+        if eq:
+            return False
+    for m in range(masks.shape[0]):
+        rr = r32[mask_radius[m]]
+        mm = masks[m]
+        cnt = 0
+        for p in range(n_pairs):
+            cnt += (d2[p] < rr) & (mm[p] != 0)
+        among[m] = cnt
+    return True
+
+
+@njit(cache=True, nogil=True)
+def _row_median(d2, keep, count, prev, work):
+    """The kept values' order statistics of rank count // 2 and count // 2 - 1 (NaN when count < 2), as
+    float64, from the set's float32 distances ``d2``; ``prev`` a guess of the median (NaN: none)."""
+    mk, tmp, keys, hist, pair = work
+    bits = d2.view(np.int32)
+    as_float = pair.view(np.float32)
+    half = count // 2
+    for p in range(d2.shape[0]):  # the kept keys; the others above every key
+        mk[p] = bits[p] if keep[p] != 0 else np.int32(0x7FFFFFFF)
+    start = np.int32(0x3F800000)  # 1.0, when there is nothing better
+    if prev == prev and prev > 0.0:
+        as_float[0] = np.float32(prev)
+        start = pair[0]
+    u, w = _median_bracket(mk, count, half, start, tmp)
+    if u < 0:
+        u, w = _median_keys(bits, keep, half, keys, tmp, hist)
+    pair[0] = u
+    pair[1] = w
+    return np.float64(as_float[0]), (np.float64(as_float[1]) if half >= 1 else np.nan)

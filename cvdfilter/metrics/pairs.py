@@ -22,7 +22,7 @@ points so that the first coordinate has the largest spread (see
 :func:`principal_rotation`) keeps the number of offsets small.
 
 Distributions and the counts taken from them (the dense path) are in :mod:`cvdfilter.metrics.pair_distances`,
-re-exported here.
+and the one-pass entry the scorer calls in :mod:`cvdfilter.metrics.pair_statistics`; both re-exported here.
 
 Public: :func:`pair_count`, :func:`close_pair_matrix`, :func:`close_pairs`,
 :func:`count_close_pairs`, :func:`count_close_among`, :func:`principal_rotation`,
@@ -36,9 +36,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .pair_distances import (_SIGN, all_pair_sq_distances, dense_close_counts, dense_pair_statistics,
-                             gather_sq_distances, median_of_kept, median_rows, offset_order, offset_pairs, pair_count,
-                             pair_indices, pair_sq_distances, principal_rotations)
+from .pair_distances import (_SIGN, all_pair_sq_distances, dense_close_counts, gather_sq_distances, median_of_kept,
+                             median_rows, offset_order, offset_pairs, pair_count, pair_indices, pair_sq_distances,
+                             principal_rotations)
+from .pair_statistics import dense_pair_statistics
 
 __all__ = ["pair_count", "close_pair_matrix", "close_pairs", "count_close_pairs", "count_close_among",
            "principal_rotation", "pair_reference", "pair_changes", "pair_indices", "pair_sq_distances",
