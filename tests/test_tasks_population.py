@@ -194,3 +194,23 @@ def test_the_command_reports_populations_as_json():
     assert rec["population"] == {"n": 5, "variation": "asano2016", "seed": 1}
     assert set(rec["members"]) == {"easier", "harder", "no_change"}
     assert "not a clinical test" in doc["cautions"][0] and doc["caveat"]
+
+
+def test_tasks_figure_shows_each_populations_share_of_members():
+    # The figure's cells for a population carry the shares of members easier / harder that the tasks
+    # result reports (internal consistency: one computation, two views); single observers have none.
+    from cvdfilter.figures import figure
+    from cvdfilter.vision_tasks import tasks
+
+    kw = dict(observers=["deuteranomalous:n=6,seed=2", "protanope"], tasks=["arrangement", "plates"], trials=5,
+              seed=1)
+    res = tasks(["larkhill-notch-575"], **kw)
+    fig = figure("tasks", ["larkhill-notch-575"], observers=kw["observers"], result=res)
+    shares = fig.data["member_shares"]
+    records = {(r["observer"], r["task"]): r for r in res.results()}
+    for (obs, task), row in zip(fig.data["rows"], shares):
+        rec = records[(obs, task)]
+        if "members" in rec:
+            assert row[0] == (rec["members"]["easier"]["share"], rec["members"]["harder"]["share"])
+        else:
+            assert row[0] is None

@@ -16,7 +16,8 @@ Kinds (:data:`KINDS`)::
 
 Observer populations (specs with ``n=N``) are drawn by the kinds in
 :data:`POPULATION_KINDS` (gains: median member and 2.5-97.5 % interval;
-population); the other kinds take single observers and refuse them.
+population; tasks: the pooled verdict with the percentages of members easier and harder); the other kinds
+take single observers and refuse them.
 
 Every figure is publishable as it is: vector PDF (TrueType fonts embedded) and
 SVG (text kept as text), PNG at a chosen dpi; single (89 mm) or double (183 mm)
@@ -60,7 +61,7 @@ _KIND_TABLE = {
     "population": ("population", "population_figure", True),
 }
 #: Kinds that draw observer populations (specs with n=N).
-POPULATION_KINDS = ("gains", "population")
+POPULATION_KINDS = ("gains", "population", "tasks")
 KINDS = tuple(_KIND_TABLE)
 
 DEFAULT_TITLES = {
@@ -161,7 +162,7 @@ def _options(key: str, filters, observers, surfaces, adaptation, height, options
         pops = [o for o in kwargs["observers"] if is_population_spec(o)]
         if pops and key not in POPULATION_KINDS:
             raise InputError(f"the {key} figure takes single observers, and {pops[0]} is a population (n=)",
-                             hint=f"populations are drawn by the {' and '.join(POPULATION_KINDS)} figures; "
+                             hint=f"populations are drawn by the {', '.join(POPULATION_KINDS)} figures; "
                                   "drop n= for one observer")
     if surfaces is not None:
         kwargs["surfaces"] = surfaces

@@ -5,7 +5,8 @@ light (dots in their approximate sRGB colours), the arrangement whose TES is the
 the filter (solid) and with the first filter (dashed), and the moment ellipses (Vingrys & King-Smith 1988:
 semi-axes R_maj and R_min, the medians over trials, along the median confusion angle) centred on the caps'
 mean. Right (bottom): the verdict of every task for every observer and filter, by colour and by sign
-(+ easier, - harder, 0 no change), so that it reads without colour too.
+(+ easier, - harder, 0 no change), so that it reads without colour too. For a population (``n=``) the cell
+is the pooled verdict and also gives the percentages of members whose own verdict is easier / harder.
 
 Numbers come from :func:`cvdfilter.tasks` (the figure computes none of its own).
 
@@ -17,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 from .labelling import filter_labels, legend_axes, observer_label
+from .layout import MIN_PRINT_PT
 from .output import FigureResult, finish, new_figure, style_context
 from .palette import NEUTRAL, OKABE_ITO
 from .style import Style
@@ -66,7 +68,9 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
     -------
     FigureResult
         ``data``: ``uv`` (caps), ``order_without``, ``order_with`` (the drawn arrangements), ``ellipse_without``,
-        ``ellipse_with`` (r_major, r_minor, angle), ``verdicts`` (rows x filters), ``rows``, ``filters``.
+        ``ellipse_with`` (r_major, r_minor, angle), ``verdicts`` (rows x filters), ``member_shares`` (rows x
+        filters: (share easier, share harder) of a population's members, None for a single observer), ``rows``,
+        ``filters``.
         Artists: ``caps``, ``path-without``, ``path-with``, ``ellipse-without``, ``ellipse-with``,
         ``verdict-<row>-<filter>``.
     """
@@ -91,7 +95,7 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
 
     ill = make_illuminant(illuminant)
     colours = _srgb(caps(task)[2], ill.spd, ill.grid)
-    rows, verdicts = _verdicts(result)
+    rows, verdicts, shares = _verdicts(result)
     labels_o = {o: observer_label(o) for o in result.observers}
     wide = width_mm >= 120
     path_h, grid_h = _heights(width_mm, len(result.observers))
@@ -107,10 +111,11 @@ def tasks_figure(filters, *, illuminant="D65", observers=None, adaptation="full"
         _path_panel(fig, path_spec, legend_spec, uv, colours, (order0, order1), ell,
                     f"with {filter_labels([result.filters[0]], 24)[0]}",
                     f"{labels_o[obs]}\n{task}, median-TES trials", style)
-        _verdict_grids(fig, grid_spec, result, verdicts, labels_o, style, width_mm / 2 if wide else width_mm)
+        _verdict_grids(fig, grid_spec, result, (verdicts, shares), labels_o, style, width_mm / 2 if wide else width_mm)
         finish(fig, style, title=title, caveat=caveat)
     data = {"uv": uv, "order_without": order0, "order_with": order1, "ellipse_without": ell["without"],
-            "ellipse_with": ell["with"], "verdicts": verdicts, "rows": rows, "filters": list(result.filters)}
+            "ellipse_with": ell["with"], "verdicts": verdicts, "member_shares": shares, "rows": rows,
+            "filters": list(result.filters)}
     inputs = {"filters": list(result.filters), "illuminant": result.settings["illuminant"],
               "observers": list(result.observers), "task": task, "trials": result.settings["trials"],
               "seed": result.settings["seed"]}
@@ -138,12 +143,14 @@ def _heights(width_mm: float, n_observers: int) -> tuple[float, float]:
 
 
 def _verdicts(result):
-    """(observer, task) rows and, per row, each filter's verdict."""
-    records = result.results()
+    """(observer, task) rows and, per row, each filter's verdict; and for a population's rows the shares of
+    members easier and harder (else None)."""
+    records = {(r["filter"], r["observer"], r["task"]): r for r in result.results()}
     rows = [(o, t) for o in result.observers for t in result.tasks]
-    verdicts = [[next(r["verdict"] for r in records if r["filter"] == f and r["observer"] == o and r["task"] == t)
-                 for f in result.filters] for o, t in rows]
-    return rows, verdicts
+    verdicts = [[records[(f, o, t)]["verdict"] for f in result.filters] for o, t in rows]
+    shares = [[(records[(f, o, t)]["members"]["easier"]["share"], records[(f, o, t)]["members"]["harder"]["share"])
+               if "members" in records[(f, o, t)] else None for f in result.filters] for o, t in rows]
+    return rows, verdicts, shares
 
 
 def _path_panel(fig, path_spec, legend_spec, uv, colours, orders, ell, with_label: str, title: str, style) -> None:
@@ -170,8 +177,10 @@ def _path_panel(fig, path_spec, legend_spec, uv, colours, orders, ell, with_labe
                 title="arrangement path and moment ellipse", title_fontsize=style.font_size)
 
 
-def _verdict_grids(fig, grid_spec, result, verdicts, labels_o: dict, style, column_mm: float) -> None:
-    """Verdict grids: one per filter, observers down, tasks across."""
+def _verdict_grids(fig, grid_spec, result, cells, labels_o: dict, style, column_mm: float) -> None:
+    """Verdict grids: one per filter, observers down, tasks across; a population's cell (pooled verdict) also
+    gives the percentages of members easier and harder."""
+    verdicts, shares = cells
     short = {"arrangement": "arrange", "arrangement-fine": "fine", "plates": "plates", "rayleigh": "Rayleigh"}
     n_o, n_t, n_f = len(result.observers), len(result.tasks), len(result.filters)
     sub = grid_spec.subgridspec(1, n_f)
@@ -186,7 +195,13 @@ def _verdict_grids(fig, grid_spec, result, verdicts, labels_o: dict, style, colu
                 v = verdicts[k * n_t + i][j]
                 colour, sign = VERDICT_STYLE[v]
                 axv.add_patch(_rect(i, y, colour, f"verdict-{k * n_t + i}-{j}"))
-                axv.text(i + 0.5, y + 0.5, sign, ha="center", va="center", fontsize=style.tick_size)
+                share = shares[k * n_t + i][j]
+                if share is None:
+                    axv.text(i + 0.5, y + 0.5, sign, ha="center", va="center", fontsize=style.tick_size)
+                else:  # the pooled verdict's sign, then % of members easier / harder
+                    axv.text(i + 0.5, y + 0.5, f"{sign}\n{100 * share[0]:.0f}/{100 * share[1]:.0f}", ha="center",
+                             va="center", fontsize=max(MIN_PRINT_PT, style.tick_size * 0.72), linespacing=0.9,
+                             gid=f"members-{k * n_t + i}-{j}")
         axv.set_xlim(0, n_t)
         axv.set_ylim(0, n_o)
         axv.set_xticks(np.arange(n_t) + 0.5, [short.get(t, t) for t in result.tasks], rotation=90)
@@ -197,7 +212,10 @@ def _verdict_grids(fig, grid_spec, result, verdicts, labels_o: dict, style, colu
             side.set_visible(False)
         axv.set_title(_two_lines(result.filters[j], limit), fontsize=style.tick_size)
         if j == 0:
-            axv.set_xlabel("+ easier, \u2212 harder, 0 no change", fontsize=style.tick_size, loc="left")
+            key = "+ easier, \u2212 harder, 0 no change"
+            if any(x is not None for row in shares for x in row):
+                key += "\npopulations: pooled verdict over\n% of members easier/harder"
+            axv.set_xlabel(key, fontsize=style.tick_size, loc="left")
 
 
 def _rect(x, y, colour, gid):
