@@ -114,8 +114,12 @@ class _PopulationWork:
         self.token = f"{os.getpid()}-{uuid.uuid4().hex}"  # names this run in the per-thread block cache
 
     def tasks(self) -> list[tuple[int, int]]:
-        """(block index, filter chunk index), block by block."""
-        return [(b, c) for b in range(len(self.blocks)) for c in range(len(self.filter_chunks))]
+        """(block index, filter chunk index) of every task, block by block."""
+        return [self.task(t) for t in range(len(self.blocks) * len(self.filter_chunks))]
+
+    def task(self, t: int) -> tuple[int, int]:
+        """(block index, filter chunk index) of task ``t``."""
+        return divmod(t, len(self.filter_chunks))
 
 
 _LOCAL = threading.local()
@@ -137,7 +141,7 @@ def _block_for(work: _PopulationWork, b: int) -> MemberBlock:
 
 
 def _run_task(work: _PopulationWork, t: int, _t1: int) -> dict:
-    b, c = work.tasks()[t]
+    b, c = work.task(t)
     block = _block_for(work, b)
     f_lo, f_hi = work.filter_chunks[c]
     out = block.compute(f_lo, f_hi)
@@ -258,7 +262,7 @@ class MemberBlock:
             radii.add(self.td)
         with np.errstate(invalid="ignore"):
             self.close = {r: d2 < r * r for r in sorted(radii)}
-        self.seen = self.keep = seen  # the median's pairs: the normally discriminable ones
+        self.keep = seen  # the median's pairs: the normally discriminable ones
         self.m0 = np.sqrt(dense_pair_statistics(planes, [], [], seen)[2])
         if self.with_confusion:
             self.unseen = ~seen
@@ -269,7 +273,7 @@ class MemberBlock:
         """The block's values that do not depend on the filter, (members,) each."""
         out: dict = {}
         if self.pairs and self.with_confusion:
-            out["confusion_normally_discriminable"] = self.seen.sum(axis=1)
+            out["confusion_normally_discriminable"] = self.keep.sum(axis=1)
             out["confusion_median_without"] = self.m0
         if self.pairs and self.discrimination:
             out["discriminable_median_without"] = self.m0
@@ -317,7 +321,7 @@ class MemberBlock:
         # Every pair's distance once, in a compiled kernel: the counts at every radius (among the member's
         # own pair sets) and the median over its normally discriminable pairs, row by row (filter x member).
         radii = list(self.close)
-        listed = [(r, m) for r, m in self.close.items()]
+        listed = list(self.close.items())
         if self.with_confusion:
             listed += [(self.td, self.unseen), (self.td, self.unseen_close)]
         close, among, med2 = dense_pair_statistics(planes, radii, listed, self.keep, guess=self.m0 ** 2)

@@ -343,7 +343,7 @@ def dense_changes(points, reference: dict, masks: dict, more=()) -> tuple:
     The distances of all pairs give the median and, exactly, every count
     (:func:`~cvdfilter.metrics.pairs.dense_pair_statistics`: the numbers of
     :func:`~cvdfilter.metrics.pairs.all_pair_sq_distances`, :func:`~cvdfilter.metrics.pairs.dense_close_counts`
-    and :func:`~cvdfilter.metrics.pairs.median_of_kept`, by a compiled kernel); ``masks`` holds the
+    and :func:`~cvdfilter.metrics.pairs.median_of_kept`, from a compiled kernel for large batches); ``masks`` holds the
     reference's close pairs per radius as (1, P) masks of that layout (:func:`pair_masks`).
     ``more`` = (radius, [masks]): further masked counts at one radius (the confused-pair sets).
 
@@ -352,9 +352,9 @@ def dense_changes(points, reference: dict, masks: dict, more=()) -> tuple:
     from .pairs import dense_pair_statistics
 
     radii = list(masks["close"])
-    listed = [(r, m) for r, m in masks["close"].items()]
-    further = list(more[1]) if more and more[0] in masks["close"] else []
-    listed += [(more[0], m) for m in further]
+    listed = list(masks["close"].items())
+    if more and more[0] in masks["close"]:
+        listed += [(more[0], m) for m in more[1]]
     keep = masks["keep"] if reference["median_count"] else None
     close, among, med2 = dense_pair_statistics(points, radii, listed, keep, guess=reference["median"] ** 2)
     changes = {r: (len(reference["close"][r][0]), close[i], among[i]) for i, r in enumerate(radii)}

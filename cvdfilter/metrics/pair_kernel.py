@@ -43,50 +43,41 @@ def _find(hist, size, kth):
 
 
 @njit(cache=True, nogil=True)
+def _radix_level(src, n, shift, width, kth, dst, hist, best):
+    """One level of the radix selection: the bucket of the ``width`` bits above ``shift`` that holds the
+    ``kth`` smallest of ``src[:n]``, its values copied to ``dst`` (returns bucket, rank within it, their
+    number, and ``best`` raised to the largest value in a lower bucket)."""
+    size = 1 << width
+    mask = size - 1
+    for b in range(size):
+        hist[b] = 0
+    for t in range(n):
+        hist[(src[t] >> shift) & mask] += 1
+    bucket, kth = _find(hist, size, kth)
+    m = 0
+    for t in range(n):
+        x = src[t]
+        h = (x >> shift) & mask
+        dst[m] = x
+        m += h == bucket
+        best = max(best, x if h < bucket else np.int32(-1))
+    return bucket, kth, m, best
+
+
+@njit(cache=True, nogil=True)
 def _median_keys(bits, keep, half, keys, tmp, hist):
     """The kept values' order statistics of rank ``half`` and ``half - 1`` as int32 bit patterns (radix
     selection on the top 10, middle 11 and low 10 bits of the non-negative keys); ``keys``, ``tmp`` and
     ``hist`` are scratch. The second one is the first again when it is repeated below rank ``half``, else
     the largest kept value below it (tracked during the passes, without branches)."""
-    n_pairs = bits.shape[0]
-    for b in range(1024):
-        hist[b] = 0
     nk = 0
-    for p in range(n_pairs):  # the kept values, and the histogram of their top bits
-        x = bits[p]
-        kp = keep[p] != 0
-        keys[nk] = x
-        nk += kp
-        hist[x >> 21] += kp
-    top, kth = _find(hist, 1024, half)
+    for p in range(bits.shape[0]):  # the kept values
+        keys[nk] = bits[p]
+        nk += keep[p] != 0
     best = np.int32(-1)
-    m = 0
-    for t in range(nk):
-        x = keys[t]
-        h = x >> 21
-        tmp[m] = x
-        m += h == top
-        best = max(best, x if h < top else np.int32(-1))
-    for b in range(2048):
-        hist[b] = 0
-    for t in range(m):
-        hist[(tmp[t] >> 10) & 2047] += 1
-    mid, kth = _find(hist, 2048, kth)
-    n2 = 0
-    for t in range(m):
-        x = tmp[t]
-        h = (x >> 10) & 2047
-        keys[n2] = x
-        n2 += h == mid
-        best = max(best, x if h < mid else np.int32(-1))
-    for b in range(1024):
-        hist[b] = 0
-    for t in range(n2):
-        hist[keys[t] & 1023] += 1
-    low, kth = _find(hist, 1024, kth)
-    for t in range(n2):
-        x = keys[t]
-        best = max(best, x if (x & 1023) < low else np.int32(-1))
+    top, kth, m, best = _radix_level(keys, nk, 21, 10, half, tmp, hist, best)
+    mid, kth, m, best = _radix_level(tmp, m, 10, 11, kth, keys, hist, best)
+    low, kth, m, best = _radix_level(keys, m, 0, 10, kth, tmp, hist, best)
     u = (top << 21) | (mid << 10) | low
     return u, (u if kth >= 1 else best)
 

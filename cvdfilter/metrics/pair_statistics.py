@@ -99,19 +99,18 @@ def _kernel_statistics(arr: np.ndarray, radii: list, masks: list, keep, guess) -
     fallback = np.zeros(b, dtype=bool)
     r32 = np.array([r * r for r in radii], dtype=np.float32)
     start = np.full(groups, np.nan) if guess is None else np.broadcast_to(np.asarray(guess, dtype=float), (groups,))
-    pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, keep_u8, keep_u8.sum(axis=1, dtype=np.int64),
-                           np.ascontiguousarray(start), close, among, upper, lower, fallback)
-    count = keep_u8.sum(axis=1)[np.arange(b) % groups]
+    keep_count = keep_u8.sum(axis=1, dtype=np.int64)
+    pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, keep_u8, keep_count, np.ascontiguousarray(start),
+                           close, among, upper, lower, fallback)
+    count = keep_count[np.arange(b) % groups]
     even = (count % 2 == 0) & (count > 0)
-    med = np.where(even, 0.5 * (upper + lower), upper)
+    med = np.where(even, 0.5 * (upper + lower), upper)  # NaN where a group keeps no pair (upper is NaN)
     for row in np.flatnonzero(fallback):  # rare: recomputed by the array path
         g = row % groups
         c1, a1, m1 = _array_statistics([c[row:row + 1] for c in arr], radii,
                                        [(r, m[g:g + 1]) for r, m in masks],
                                        None if keep is None else keep[g:g + 1])
         close[row], among[row], med[row] = c1[:, 0], a1[:, 0], m1[0]
-    if keep is None:
-        med[:] = np.nan
     return close.T, among.T, med
 
 

@@ -20,7 +20,9 @@ Main score changes (one value per filter x member; NaN where undefined, left out
 arrangement ``tes_change`` (median TES over the member's trials with the filter minus without) and ``effect``;
 plates ``legibility_change.<plate>``; rayleigh ``range_log_odds_change`` (relative).
 
-Public: :func:`member_verdicts`, :func:`member_changes`, :func:`member_values`, :data:`VERDICT_CODES`.
+Public: :func:`member_verdicts`, :func:`member_changes`, :func:`member_values`, :data:`VERDICT_CODES`, and the
+verdict rules one observer's verdict uses too: :func:`arrangement_rule`, :func:`plates_rule`,
+:func:`rayleigh_rule`.
 """
 
 from __future__ import annotations
@@ -30,17 +32,18 @@ import numpy as np
 from .arrangement import ARRANGEMENT_DESIGNS
 from .plates import PLATE_NAMES, READ_THRESHOLD
 
-__all__ = ["member_verdicts", "member_changes", "member_values", "VERDICT_CODES"]
+__all__ = ["member_verdicts", "member_changes", "member_values", "VERDICT_CODES", "arrangement_rule", "plates_rule",
+           "rayleigh_rule", "TES_TOLERANCE"]
 
 #: Verdict -> code in the arrays of :func:`member_verdicts`.
 VERDICT_CODES = {"easier": 1, "harder": -1, "no change": 0}
-#: Tolerance of "lower" and "higher" TES (as in the verdict of one observer).
-_TES_TOL = 1e-9
+#: Tolerance of "lower" and "higher" TES (one observer's verdict and each member's).
+TES_TOLERANCE = 1e-9
 
 
 def _arrangement_effect(s: dict) -> np.ndarray:
     t0, t1 = np.asarray(s["tes"][:1]), np.asarray(s["tes"][1:])  # (1, M, T), (F, M, T)
-    return np.mean(t1 < t0 - _TES_TOL, axis=-1) - np.mean(t1 > t0 + _TES_TOL, axis=-1)
+    return np.mean(t1 < t0 - TES_TOLERANCE, axis=-1) - np.mean(t1 > t0 + TES_TOLERANCE, axis=-1)
 
 
 def _rayleigh_relative(s: dict) -> np.ndarray:
@@ -72,21 +75,31 @@ def member_verdicts(task: str, s: dict, factors=(1.0,)) -> np.ndarray:
 
     k = np.asarray(factors, dtype=float)[:, None, None]
     if task in ARRANGEMENT_DESIGNS:
-        effect = _arrangement_effect(s)[None]
-        margin = ARRANGEMENT_MARGIN * k
-        out = np.where(effect >= margin, 1, np.where(effect <= -margin, -1, 0))
+        out = arrangement_rule(_arrangement_effect(s)[None], ARRANGEMENT_MARGIN * k)
     elif task == "plates":
         leg = np.asarray(s["legibility"], dtype=float)
-        change = (leg[1:] - leg[:1])[None]  # (1, F, M, P)
-        margin = PLATE_MARGIN * k[..., None]
-        gains = (change >= margin).sum(axis=-1)
-        losses = (change <= -margin).sum(axis=-1)
-        out = np.sign(gains - losses)
-    else:
-        rel = np.nan_to_num(_rayleigh_relative(s), nan=0.0)[None]  # undefined: no change, as for one observer
-        margin = RAYLEIGH_MARGIN * k
-        out = np.where(rel <= -margin, 1, np.where(rel >= margin, -1, 0))
+        out = plates_rule((leg[1:] - leg[:1])[None], PLATE_MARGIN * k[..., None])  # change (1, F, M, P)
+    else:  # undefined: no change, as for one observer
+        out = rayleigh_rule(np.nan_to_num(_rayleigh_relative(s), nan=0.0)[None], RAYLEIGH_MARGIN * k)
     return out.astype(np.int8)
+
+
+def arrangement_rule(effect, margin):
+    """Verdict codes from an arrangement effect (share of trials lower minus share higher TES): easier at
+    >= +margin, harder at <= -margin (one observer's verdict and each member's alike)."""
+    return np.where(effect >= margin, 1, np.where(effect <= -margin, -1, 0))
+
+
+def plates_rule(change, margin):
+    """Verdict codes from legibility changes (..., plates): a plate gains (loses) at >= margin (<= -margin);
+    easier when more plates gain than lose, harder when more lose."""
+    return np.sign((change >= margin).sum(axis=-1) - (change <= -margin).sum(axis=-1))
+
+
+def rayleigh_rule(rel, margin):
+    """Verdict codes from the relative change of the matching range in log odds: easier at <= -margin, harder
+    at >= +margin."""
+    return np.where(rel <= -margin, 1, np.where(rel >= margin, -1, 0))
 
 
 def member_changes(task: str, s: dict) -> dict:

@@ -110,14 +110,16 @@ class TaskResult:
         return verdict, basis
 
     def _verdict_at(self, task: str, obs: str, f: int, factor: float) -> tuple[str, dict]:
+        from .members import TES_TOLERANCE, VERDICT_CODES, arrangement_rule, plates_rule, rayleigh_rule
+
+        name = {c: w for w, c in VERDICT_CODES.items()}
         s = self.scores[(task, obs)]
         if task in ARRANGEMENT_DESIGNS:
             t0, t1 = s["tes"][0], s["tes"][f + 1]
-            better = float(np.mean(t1 < t0 - 1e-9))
-            worse = float(np.mean(t1 > t0 + 1e-9))
+            better = float(np.mean(t1 < t0 - TES_TOLERANCE))
+            worse = float(np.mean(t1 > t0 + TES_TOLERANCE))
             effect = better - worse
-            margin = ARRANGEMENT_MARGIN * factor
-            verdict = "easier" if effect >= margin else "harder" if effect <= -margin else "no change"
+            verdict = name[int(arrangement_rule(effect, ARRANGEMENT_MARGIN * factor))]
             return verdict, {"share_trials_lower_tes": better, "share_trials_higher_tes": worse,
                              "effect": effect, "margin": ARRANGEMENT_MARGIN,
                              "criterion": "share of trials (x members) with a lower TES with the filter minus the "
@@ -126,9 +128,7 @@ class TaskResult:
             leg = np.median(s["legibility"], axis=1)  # (F + 1, plates), median over members
             change = leg[f + 1] - leg[0]
             margin = PLATE_MARGIN * factor
-            gains = int((change >= margin).sum())
-            losses = int((change <= -margin).sum())
-            verdict = "easier" if gains > losses else "harder" if losses > gains else "no change"
+            verdict = name[int(plates_rule(change, margin))]
             return verdict, {"plates_gaining": [PLATE_NAMES[i] for i in np.nonzero(change >= margin)[0]],
                              "plates_losing": [PLATE_NAMES[i] for i in np.nonzero(change <= -margin)[0]],
                              "legibility_change": {p: float(c) for p, c in zip(PLATE_NAMES, change)},
@@ -138,8 +138,7 @@ class TaskResult:
         w0 = float(np.median(s["range_log_odds"][0]))
         w1 = float(np.median(s["range_log_odds"][f + 1]))
         rel = (w1 - w0) / w0 if np.isfinite(w0) and np.isfinite(w1) and w0 > 0 else 0.0
-        margin = RAYLEIGH_MARGIN * factor
-        verdict = "easier" if rel <= -margin else "harder" if rel >= margin else "no change"
+        verdict = name[int(rayleigh_rule(rel, RAYLEIGH_MARGIN * factor))]
         m0, m1 = float(np.median(s["red_fraction"][0])), float(np.median(s["red_fraction"][f + 1]))
         return verdict, {"range_log_odds_change": rel, "margin": RAYLEIGH_MARGIN,
                          "mid_point_shift": m1 - m0,
