@@ -68,11 +68,14 @@ class StreamTask:
     fmt: str
     columns: list | None = None
     types: list | None = None
+    #: Build the cells column by column (:func:`cvdfilter.score_stream_cells.chunk_cells`), checked equal to
+    #: the CSV view's on the probe by :func:`score_to_file`; otherwise from ``Scorecard.csv_rows``.
+    fast: bool = False
 
     def card(self, fs) -> Any:
         """The Scorecard of the filters ``fs`` (one chunk), computed as :func:`cvdfilter.score` does."""
         from .score_plan import filter_results
-        from .scorecard import Scorecard
+        from .scorecard import Scorecard, score_after_fixed
 
         inp = dataclasses.replace(self.inp, filters=fs)
         groups, n = inp.groups, len(fs)
@@ -85,21 +88,9 @@ class StreamTask:
                 present = [c for i, c in enumerate(plan.cols) if i != plan.observer.missing_cone]
                 d["undefined"] = ~np.all(part["whites"][:, present] > 0, axis=1)
                 per_obs[k] = d
-        per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in groups]
-        if per_observer_groups and len(self.fixed) < len(inp.observers):
-            from .score_population import score_populations
-
-            score_populations(inp, per_obs, per_observer_groups, None)
-        if "rendition" in groups:
-            from .metrics.rendition import rendition_many
-
-            results.update(rendition_many(fs.transmittance * inp.illuminant.spd, inp.grid.wavelengths))
+        score_after_fixed(inp, per_obs, results, scheduler="local")  # populations in this chunk's process; rendition
         return Scorecard(fs, inp.illuminant, inp.surfaces, inp.observers, inp.adaptation, groups, inp.signal_lights,
                          results, per_obs, inp.settings(), self.record)
-
-    #: Build the cells column by column (:func:`cvdfilter.score_stream_cells.chunk_cells`), checked equal to
-    #: the CSV view's on the probe by :func:`score_to_file`; otherwise from ``Scorecard.csv_rows``.
-    fast: bool = False
 
     def cells_of(self, fs) -> dict:
         """The chunk's cells (:class:`~cvdfilter.score_stream_cells.Cells`), column by column in

@@ -335,7 +335,15 @@ def _score_validated(inp, discern, progress, scheduler) -> tuple[dict, list]:
             per_obs[k] = plan.store
     elif progress is not None:
         progress("filters", n_f, n_f)
-    if per_observer_groups and len(fixed) < len(inp.observers):
+    score_after_fixed(inp, per_obs, results, discern, progress, scheduler)
+    return results, per_obs
+
+
+def score_after_fixed(inp, per_obs: list, results: dict, discern=None, progress=None, scheduler=None) -> None:
+    """What follows the fixed observers' plans (filled into ``per_obs`` and ``results``): the populations, the
+    discernible group (``discern``) and colour rendition; shared by :func:`score` and the streamed chunks."""
+    per_observer_groups = [g for g in ("contrast", "discrimination", "confusion") if g in inp.groups]
+    if per_observer_groups and any(is_population(o) for o in inp.observers):
         from .score_population import score_populations
 
         score_populations(inp, per_obs, per_observer_groups, progress, scheduler=scheduler)
@@ -343,13 +351,12 @@ def _score_validated(inp, discern, progress, scheduler) -> tuple[dict, list]:
         from .score_discernible import score_discernible
 
         score_discernible(inp, discern, per_obs, progress, scheduler=scheduler)
-    if "rendition" in groups:  # colour-science, one call per filter
+    if "rendition" in inp.groups:  # colour-science, one call per filter
         from .metrics.rendition import rendition_many
 
         results.update(rendition_many(inp.filters.transmittance * inp.illuminant.spd, inp.grid.wavelengths,
                                       progress=None if progress is None else
                                       (lambda done, total: progress("rendition", done, total))))
-    return results, per_obs
 
 
 def _scorecard(inp, filters, signal_spectra, discern, results: dict, per_obs: list, members: bool,
