@@ -194,6 +194,8 @@ class MemberBlock:
     """
 
     def __init__(self, inp, pop, lo: int, hi: int, groups, buffer: np.ndarray | None = None) -> None:
+        from .metrics.basis_kernel import basis_and_catches
+
         self.lo, self.hi = lo, hi
         self.transmittance = inp.filters.transmittance
         self.adaptation = inp.adaptation
@@ -206,14 +208,10 @@ class MemberBlock:
         self.missing = pop.missing_cone
         stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance,
                                                                 np.ones((inp.grid.size, 1))], axis=1)
-        fund = np.asarray(pop.fundamentals[lo:hi], dtype=float)
-        # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member.
-        shape = (inp.grid.size, self.mb, 3, self.n_s + 1)
-        if buffer is None or buffer.size != np.prod(shape) or buffer.dtype != np.float64:
-            buffer = np.empty(shape)
-        B = np.multiply(fund.transpose(1, 0, 2)[:, :, :, None], stimuli[:, None, None, :], out=buffer.reshape(shape))
+        # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member,
+        # and their sum over wavelength (the catches without a filter), as the fixed path forms them.
+        B, q0all = basis_and_catches(pop.fundamentals[lo:hi], stimuli, buffer)
         self.B = B.reshape(inp.grid.size, -1)
-        q0all = self.B.sum(axis=0).reshape(self.mb, 3, self.n_s + 1)
         q0 = np.ascontiguousarray(q0all[:, :, :self.n_s].transpose(0, 2, 1))  # (members, surfaces, 3)
         self.w0 = np.ascontiguousarray(q0all[:, :, self.n_s])  # (members, 3)
         if self.contrast:
@@ -235,7 +233,8 @@ class MemberBlock:
         tells apart without a filter (the median's pairs), its close pairs at every radius and its confused
         pair sets, all from float64 squared distances; the median without a filter from the kernel."""
         from .metrics.discrimination import log_catches, receptor_noise, rnl_transform
-        from .metrics.pairs import all_pair_sq_distances, dense_pair_statistics, pair_count, principal_rotations
+        from .metrics.pair_statistics import sq_distances
+        from .metrics.pairs import dense_pair_statistics, pair_count, principal_rotations
 
         n_s = self.n_s
         noise = receptor_noise(self.missing, weber=inp.weber_fraction, cone_ratios=inp.cone_ratios)
@@ -244,8 +243,7 @@ class MemberBlock:
         base = np.asarray(pop.base_fundamentals[self.lo:self.hi], dtype=float)
         nq0 = np.matmul(stimuli[:, :n_s].T, base)
         yn = log_catches(nq0) @ rnl_transform(normal_noise).T
-        seen = all_pair_sq_distances([yn[:, :, r] for r in range(yn.shape[2])], dtype=float) >= \
-            float(inp.normal_threshold) ** 2
+        seen = sq_distances([yn[:, :, r] for r in range(yn.shape[2])]) >= float(inp.normal_threshold) ** 2
         # The receptor-noise transform, rotated per member so that its first coordinate has the
         # largest spread (as pair_reference does for one observer).
         t = rnl_transform(noise)
@@ -255,7 +253,7 @@ class MemberBlock:
         y0 = np.matmul(logs0, self.t.transpose(0, 2, 1))  # (members, surfaces, k)
         self.k = self.t.shape[1]
         planes = [y0[:, :, r] for r in range(self.k)]
-        d2 = all_pair_sq_distances(planes, dtype=float)
+        d2 = sq_distances(planes)
         self.t0, self.td = float(inp.discrimination_threshold), float(inp.deficient_threshold)
         radii = {self.t0} | (set(self.distribution_thresholds) if self.discrimination else set())
         if self.with_confusion:
@@ -263,7 +261,9 @@ class MemberBlock:
         with np.errstate(invalid="ignore"):
             self.close = {r: d2 < r * r for r in sorted(radii)}
         self.keep = seen  # the median's pairs: the normally discriminable ones
-        self.m0 = np.sqrt(dense_pair_statistics(planes, [], [], seen)[2])
+        # A first guess for the kernel's median search (only its speed depends on it): every 16th pair's median.
+        guess = np.median(d2[:, ::16], axis=1) if d2.shape[1] >= 16 else None
+        self.m0 = np.sqrt(dense_pair_statistics(planes, [], [], seen, guess=guess)[2])
         if self.with_confusion:
             self.unseen = ~seen
             with np.errstate(invalid="ignore"):

@@ -19,7 +19,9 @@ count needs the float64 arithmetic of the count it stands for), is not finished 
 the caller recomputes that row with the array path. The kernel's results are therefore identical, bit
 for bit, to the array path's (tests/test_pair_kernel.py).
 
-Public: :func:`pair_statistics_kernel`.
+Also :func:`sq_distances_kernel`: the float64 squared distances themselves (a block's references).
+
+Public: :func:`pair_statistics_kernel`, :func:`sq_distances_kernel`.
 """
 
 from __future__ import annotations
@@ -27,7 +29,7 @@ from __future__ import annotations
 import numpy as np
 from numba import njit
 
-__all__ = ["pair_statistics_kernel"]
+__all__ = ["pair_statistics_kernel", "sq_distances_kernel"]
 
 
 @njit(cache=True, nogil=True)
@@ -90,12 +92,41 @@ _TRIES = 16
 _ABOVE = 0x7F800001
 
 
+#: Values counted per block in float32 lanes (a count below 2**24 is exact) before it joins an int64 total.
+_COUNT_BLOCK = 1 << 20
+
+
+@njit(cache=True, nogil=True, fastmath={"reassoc"})
+def _below(x, probe):
+    """How many of ``x`` (at most :data:`_COUNT_BLOCK`) are below ``probe``, and how many equal it: counted in
+    float32 lanes, whole numbers below 2**24, so exact in whatever order the compiler adds them."""
+    one, zero = np.float32(1.0), np.float32(0.0)
+    c = zero
+    e = zero
+    for p in range(x.shape[0]):
+        v = x[p]
+        c += one if v < probe else zero
+        e += one if v == probe else zero
+    return c, e
+
+
+@njit(cache=True, nogil=True, fastmath={"reassoc"})
+def _below_among(x, probe, mask):
+    """How many of ``x`` are below ``probe`` where ``mask`` is set (as :func:`_below`, float32 lanes)."""
+    one, zero = np.float32(1.0), np.float32(0.0)
+    c = zero
+    for p in range(x.shape[0]):
+        c += one if (x[p] < probe) & (mask[p] != 0) else zero
+    return c
+
+
 @njit(cache=True, nogil=True)
 def _count_below(mk, probe):
-    c = 0
-    for p in range(mk.shape[0]):
-        c += mk[p] < probe
-    return c
+    """How many of ``mk`` are below ``probe`` (blocks of :data:`_COUNT_BLOCK` counted by :func:`_below`)."""
+    total = 0
+    for start in range(0, mk.shape[0], _COUNT_BLOCK):
+        total += np.int64(_below(mk[start:start + _COUNT_BLOCK], probe)[0])
+    return total
 
 
 @njit(cache=True, nogil=True)
@@ -180,21 +211,22 @@ def _distances(row, k, n, d2):
     pos = 0
     for off in range(1, n):
         m = n - off
+        seg = d2[pos:pos + m]  # a slice indexed from 0: contiguous vector stores, not a scatter
         if k == 1:
             for i in range(m):
                 d = x0[i + off] - x0[i]
-                d2[pos + i] = np.float32(d * d)
+                seg[i] = np.float32(d * d)
         elif k == 2:
             for i in range(m):
                 d = x0[i + off] - x0[i]
                 e = x1[i + off] - x1[i]
-                d2[pos + i] = np.float32(d * d + e * e)
+                seg[i] = np.float32(d * d + e * e)
         else:
             for i in range(m):
                 d = x0[i + off] - x0[i]
                 e = x1[i + off] - x1[i]
                 f = x2[i + off] - x2[i]
-                d2[pos + i] = np.float32(d * d + e * e + f * f)
+                seg[i] = np.float32(d * d + e * e + f * f)
         pos += m
 
 
@@ -267,25 +299,24 @@ def _load_row(planes, b, row):
 @njit(cache=True, nogil=True)
 def _row_counts(d2, r32, masks, mask_radius, close, among):
     """Counts of one set from its distances ``d2``: pairs below each radius, and among each mask's pairs
-    (``masks`` (M, P) of its group); False (counts unfinished) if a value equals a radius' float32(r^2)."""
+    (``masks`` (M, P) of its group); False (counts unfinished) if a value equals a radius' float32(r^2).
+    Counted block by block (:func:`_below`, :func:`_below_among`) into int64 totals."""
     n_pairs = d2.shape[0]
     for r in range(r32.shape[0]):
-        rr = r32[r]
         cnt = 0
         eq = 0
-        for p in range(n_pairs):
-            x = d2[p]
-            cnt += x < rr
-            eq += x == rr
+        for start in range(0, n_pairs, _COUNT_BLOCK):
+            c, e = _below(d2[start:start + _COUNT_BLOCK], r32[r])
+            cnt += np.int64(c)
+            eq += np.int64(e)
         close[r] = cnt
         if eq:
             return False
     for m in range(masks.shape[0]):
-        rr = r32[mask_radius[m]]
-        mm = masks[m]
         cnt = 0
-        for p in range(n_pairs):
-            cnt += (d2[p] < rr) & (mm[p] != 0)
+        for start in range(0, n_pairs, _COUNT_BLOCK):
+            cnt += np.int64(_below_among(d2[start:start + _COUNT_BLOCK], r32[mask_radius[m]],
+                                         masks[m, start:start + _COUNT_BLOCK]))
         among[m] = cnt
     return True
 
@@ -310,3 +341,26 @@ def _row_median(d2, keep, count, prev, work):
     pair[0] = u
     pair[1] = w
     return np.float64(as_float[0]), (np.float64(as_float[1]) if half >= 1 else np.nan)
+
+
+@njit(cache=True, nogil=True)
+def sq_distances_kernel(planes, out):
+    """float64 squared distances of every pair of every set of ``planes`` (k, B, N) into ``out`` (B, P), in
+    the offset layout, with :func:`~cvdfilter.metrics.pair_distances.all_pair_sq_distances`' arithmetic
+    (``dtype=float``): differences in float64, squared, summed coordinate by coordinate."""
+    k, n_rows, n = planes.shape
+    for b in range(n_rows):
+        pos = 0
+        for off in range(1, n):
+            m = n - off
+            seg = out[b, pos:pos + m]
+            x0 = planes[0, b]
+            for i in range(m):
+                d = x0[i + off] - x0[i]
+                seg[i] = d * d
+            for c in range(1, k):
+                xc = planes[c, b]
+                for i in range(m):
+                    d = xc[i + off] - xc[i]
+                    seg[i] = seg[i] + d * d
+            pos += m

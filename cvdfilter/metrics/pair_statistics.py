@@ -5,7 +5,7 @@ given pair sets, and the median squared distance over kept pairs: the numbers of
 ``dense_close_counts`` and ``median_of_kept`` of :mod:`cvdfilter.metrics.pair_distances` (the array path),
 or the same bits from the numba kernel of :mod:`cvdfilter.metrics.pair_kernel`.
 
-Public: :func:`dense_pair_statistics`, :data:`KERNEL_MIN_PAIRS`.
+Public: :func:`dense_pair_statistics`, :func:`sq_distances`, :data:`KERNEL_MIN_PAIRS`.
 """
 
 from __future__ import annotations
@@ -16,7 +16,7 @@ import numpy as np
 
 from .pair_distances import all_pair_sq_distances, dense_close_counts, median_of_kept, pair_count
 
-__all__ = ["dense_pair_statistics", "KERNEL_MIN_PAIRS"]
+__all__ = ["dense_pair_statistics", "sq_distances", "KERNEL_MIN_PAIRS"]
 
 #: Pair distances (sets x pairs) from which ``dense_pair_statistics(method="auto")`` runs the compiled
 #: kernel (about 400 sets of 99 points): below it the array path is quicker than loading the kernel.
@@ -80,6 +80,24 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, met
                              and "cvdfilter.metrics.pair_kernel" not in sys.modules):
         return _array_statistics(list(arr), radii, masks, keep)
     return _kernel_statistics(arr, radii, list(masks), keep, guess)
+
+
+def sq_distances(planes, *, method: str = "auto") -> np.ndarray:
+    """float64 squared distances of all pairs of every point set (B, P), offset layout: the numbers of
+    ``all_pair_sq_distances(planes, dtype=float)`` (``method="array"``), or the same bits from the compiled
+    kernel (``"kernel"``; ``"auto"`` as :func:`dense_pair_statistics` chooses)."""
+    arr = np.ascontiguousarray(np.stack([np.asarray(c, dtype=float) for c in planes]))
+    k, b, n = arr.shape
+    if method not in ("auto", "kernel", "array"):
+        raise ValueError(f"method must be auto, kernel or array, got {method!r}")
+    if method == "array" or (method == "auto" and b * pair_count(n) < KERNEL_MIN_PAIRS
+                             and "cvdfilter.metrics.pair_kernel" not in sys.modules):
+        return all_pair_sq_distances(list(arr), dtype=float)
+    from .pair_kernel import sq_distances_kernel
+
+    out = np.empty((b, pair_count(n)))
+    sq_distances_kernel(arr, out)
+    return out
 
 
 def _kernel_statistics(arr: np.ndarray, radii: list, masks: list, keep, guess) -> tuple:
