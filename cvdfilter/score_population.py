@@ -301,7 +301,7 @@ class MemberBlock:
         w1 = white.reshape(nf * mb, 3)
         w0 = np.broadcast_to(self.w0, (nf, mb, 3)).reshape(nf * mb, 3)
         rms0 = np.broadcast_to(self.rms0, (nf, mb, 3)).reshape(nf * mb, 3)
-        planes = [np.ascontiguousarray(S[:, :, c, :]).reshape(nf * mb, n_s) for c in range(3)]
+        planes = [S[:, :, c, :].reshape(nf * mb, n_s) for c in range(3)]  # views: elementwise work, same bits
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             g1 = von_kries_gains(w1, w0, adaptation=self.adaptation)
             g = contrast_rms(planes, w1, self.channels, gains=g1) / rms0
