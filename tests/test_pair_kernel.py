@@ -118,3 +118,47 @@ def test_both_selections_return_numpys_order_statistics(seed):
         assert (u, w) == (kept[half], lower) or (u, w) == (-1, -1)
     u, w = _median_keys(keys, keep, half, np.empty(n, np.int32), np.empty(n, np.int32), np.empty(2048, np.int64))
     assert (u, w) == (kept[half], lower)
+
+
+@pytest.mark.parametrize("k", [1, 2, 3])
+def test_compiled_float64_distances_equal_all_pair_sq_distances(k):
+    # Internal consistency: a block's reference distances (pair_statistics.sq_distances) from the compiled
+    # loop equal all_pair_sq_distances(dtype=float), itself held to the definition in test_pairs_exact.py,
+    # including non-finite coordinates and the smallest sets.
+    from cvdfilter.metrics.pair_statistics import sq_distances
+
+    rng = np.random.default_rng(k)
+    for n in (1, 2, 3, 17, 99):
+        planes = [rng.normal(0, 3.0, (5, n)) for _ in range(k)]
+        if n > 3:
+            planes[0][1, 2] = np.nan
+            planes[-1][3, 0] = np.inf
+            planes[0][4] = np.round(planes[0][4])  # ties
+        a = sq_distances(planes, method="array")
+        b = sq_distances(planes, method="kernel")
+        assert a.dtype == b.dtype == np.float64 and a.shape == b.shape
+        np.testing.assert_array_equal(a, b)
+
+
+def test_compiled_member_basis_equals_numpys_multiply_and_sum():
+    # Internal consistency: a population block's cone basis and its catches without a filter
+    # (metrics/basis_kernel.py) from the compiled pass equal numpy's multiply, then sum over wavelength
+    # (the fixed-observer path's arithmetic), bit for bit; zeros, signed zeros and infinities included.
+    from cvdfilter.metrics.basis_kernel import basis_and_catches
+
+    rng = np.random.default_rng(3)
+    fund = rng.random((7, 41, 3))
+    fund[:, :4] = 0.0
+    fund[2, 5, 1] = -0.0
+    fund[3, 9, 2] = np.inf
+    stimuli = rng.random((41, 12)) * 100.0
+    stimuli[0, 3] = 0.0
+    b1, q1 = basis_and_catches(fund, stimuli, method="array")
+    out = np.empty(b1.size)
+    b2, q2 = basis_and_catches(fund, stimuli, out, method="kernel")
+    assert b2.base is out or b2.base is out.base  # written into the buffer given
+    np.testing.assert_array_equal(b1, b2)
+    np.testing.assert_array_equal(q1, q2)
+    assert np.array_equal(np.signbit(q1), np.signbit(q2))
+    with pytest.raises(ValueError):
+        basis_and_catches(fund, stimuli, method="fast")
