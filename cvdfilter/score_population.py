@@ -317,7 +317,7 @@ class MemberBlock:
         nf, mb, n_s = S.shape[0], self.mb, self.n_s
         logs = log_catches(S)
         y = np.matmul(self.t[None], logs)  # (filters, members, k, surfaces): y = P ln q per member
-        planes = y.transpose(2, 0, 1, 3).reshape(self.k, nf * mb, n_s)
+        planes = y.reshape(nf * mb, self.k, n_s).transpose(1, 0, 2)  # (k, sets, surfaces): a view, no copy
         # Every pair's distance once, in a compiled kernel: the counts at every radius (among the member's
         # own pair sets) and the median over its normally discriminable pairs, row by row (filter x member).
         radii = list(self.close)

@@ -64,6 +64,12 @@ def test_kernel_equals_the_array_path_bit_for_bit(seed):
     assert np.array_equal(med, m0, equal_nan=True)
     c1, a1, m1 = dense_pair_statistics(planes, radii, masks, keep, method="array")
     assert np.array_equal(close, c1) and np.array_equal(among, a1) and np.array_equal(med, m1, equal_nan=True)
+    # one (k, B, N) array with other strides (a transposed view, as the population blocks pass it): no copy,
+    # the same numbers
+    view = np.ascontiguousarray(np.stack(planes).transpose(1, 0, 2)).transpose(1, 0, 2)
+    assert not view.flags.c_contiguous or len(planes) == 1 or view.shape[1] == 1
+    c2, a2, m2 = dense_pair_statistics(view, radii, masks, keep, guess, method="kernel")
+    assert np.array_equal(close, c2) and np.array_equal(among, a2) and np.array_equal(med, m2, equal_nan=True)
 
 
 def test_median_of_an_even_count_is_the_mean_of_the_two_middle_values():

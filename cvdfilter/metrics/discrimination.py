@@ -212,7 +212,8 @@ def rnl_distance(catch_1, catch_2, noise) -> np.ndarray:
 
 def log_catches(catches) -> np.ndarray:
     """Natural log of cone catches, with catches at or below 1e-300 floored there (a black surface)."""
-    return np.log(np.maximum(np.asarray(catches, dtype=float), _TINY))
+    x = np.maximum(np.asarray(catches, dtype=float), _TINY)  # a new array: the log is taken in place
+    return np.log(x, out=x) if isinstance(x, np.ndarray) else np.log(x)
 
 
 def rnl_coordinates(catches, transform) -> np.ndarray:

@@ -37,8 +37,9 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, met
 
     Parameters
     ----------
-    planes : sequence of numpy.ndarray
-        The k coordinate planes (B, N).
+    planes : sequence of numpy.ndarray, or numpy.ndarray
+        The k coordinate planes (B, N), or one float64 array (k, B, N), used without a copy whatever its
+        strides.
     radii : sequence of float
         Distinct radii.
     masks : sequence of (float, numpy.ndarray)
@@ -68,7 +69,7 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, met
     >>> close.tolist(), among.tolist(), med.tolist()
     ([[2]], [[2]], [2.2050000429153442])
     """
-    arr = np.ascontiguousarray(np.stack([np.asarray(c, dtype=float) for c in planes]))
+    arr = _planes_array(planes)
     k, b, n = arr.shape
     if not 1 <= k <= 3:
         raise ValueError(f"dense_pair_statistics takes 1 to 3 coordinate planes, got {k}")
@@ -82,11 +83,19 @@ def dense_pair_statistics(planes, radii, masks=(), keep=None, guess=None, *, met
     return _kernel_statistics(arr, radii, list(masks), keep, guess)
 
 
+def _planes_array(planes) -> np.ndarray:
+    """The coordinate planes as one (k, B, N) float64 array: a float64 array of that shape is taken as it is
+    (any strides, e.g. a transposed view: no copy), anything else is stacked."""
+    if isinstance(planes, np.ndarray) and planes.ndim == 3 and planes.dtype == np.float64:
+        return planes
+    return np.ascontiguousarray(np.stack([np.asarray(c, dtype=float) for c in planes]))
+
+
 def sq_distances(planes, *, method: str = "auto") -> np.ndarray:
     """float64 squared distances of all pairs of every point set (B, P), offset layout: the numbers of
     ``all_pair_sq_distances(planes, dtype=float)`` (``method="array"``), or the same bits from the compiled
     kernel (``"kernel"``; ``"auto"`` as :func:`dense_pair_statistics` chooses)."""
-    arr = np.ascontiguousarray(np.stack([np.asarray(c, dtype=float) for c in planes]))
+    arr = _planes_array(planes)
     k, b, n = arr.shape
     if method not in ("auto", "kernel", "array"):
         raise ValueError(f"method must be auto, kernel or array, got {method!r}")
