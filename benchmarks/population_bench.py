@@ -53,8 +53,9 @@ def main() -> None:
     t = time.perf_counter()
     pop = cf.population(f"{args.spec}:n={args.members},seed=1")
     fundamentals = pop.fundamentals
-    pop.base_fundamentals  # each member's normal counterpart (the pair metrics' normally discriminable pairs)
+    base = pop.base_fundamentals  # each member's normal counterpart (the pair metrics' normally discriminable pairs)
     t_build = time.perf_counter() - t
+    assert base.shape == fundamentals.shape
 
     runs = []
     for _ in range(max(1, args.repeat)):
@@ -87,7 +88,8 @@ def main() -> None:
     print(f"score        {t_score:8.3f} s   {evals / t_score:10.0f} filter x member evaluations/s (target >= 100,000)")
     print(f"runs         {len(runs):8d}     fastest {walls[0]:.3f} s, median {walls[len(walls) // 2]:.3f} s, slowest "
           f"{walls[-1]:.3f} s ({evals / walls[len(walls) // 2]:,.0f} evaluations/s at the median)")
-    print(f"with build   {t_build + t_score:8.3f} s   {evals / (t_build + t_score):10.0f} filter x member evaluations/s")
+    total = t_build + t_score
+    print(f"with build   {total:8.3f} s   {evals / total:10.0f} filter x member evaluations/s")
     print(f"score CPU    {c_score:8.3f} s   (all threads; {evals / c_score:,.0f} evaluations per CPU-second; load "
           f"average {os.getloadavg()[0]:.1f} on {os.cpu_count()} CPUs)")
     print(f"floor        {t_floor:8.3f} s   (one float32 product, every cone excitation)")
