@@ -5,7 +5,8 @@
 held to the definitions in tests/test_pairs_exact.py (the sort-and-sweep and index-list counts, numpy's
 median); here the kernel is held to the array path on sets built to reach every branch: ties at the radii
 (points on a lattice), many equal distances (duplicate points), non-finite coordinates, groups of rows with
-different kept pairs, odd and even counts, empty and full keeps, and guesses good, bad and missing.
+different kept pairs, odd and even counts, empty and full keeps, dense and sparse (listed) pair masks, and
+guesses good, bad and missing.
 Internal consistency checks: the outside reference is numpy's median and the exact counts they rest on.
 """
 
@@ -48,7 +49,9 @@ def _case(seed):
         planes = [p[:1] + 0.01 * np.arange(b)[:, None] * rng.normal(size=(1, n)) for p in planes]
     p = n * (n - 1) // 2
     radii = [1.0, 2.0, 4.0]
-    masks = [(r, rng.random((g, p)) < 0.4) for r in radii] + [(1.0, rng.random((g, p)) < 0.3)]
+    # dense masks and sparse ones (at most 1/16 of the pairs in every group: counted from pair lists)
+    masks = [(r, rng.random((g, p)) < rng.choice([0.4, 0.05, 0.01])) for r in radii] + \
+        [(1.0, rng.random((g, p)) < 0.3), (2.0, rng.random((g, p)) < 0.02), (4.0, np.zeros((g, p), bool))]
     keep = rng.random((g, p)) < rng.choice([0.0, 0.3, 0.97, 1.0])
     guess = [None, rng.uniform(0.001, 1000.0, g), np.full(g, np.nan)][seed % 3]
     return planes, radii, masks, keep, guess
@@ -168,3 +171,17 @@ def test_compiled_member_basis_equals_numpys_multiply_and_sum():
     assert np.array_equal(np.signbit(q1), np.signbit(q2))
     with pytest.raises(ValueError):
         basis_and_catches(fund, stimuli, method="fast")
+
+
+def test_sparse_pair_lists_list_exactly_the_masks_pairs():
+    # Internal consistency: the pair lists the kernel counts sparse masks from hold each group's pairs in
+    # order, and dense masks are marked -1.
+    from cvdfilter.metrics.pair_statistics import SPARSE_SHARE, _sparse_lists
+
+    rng = np.random.default_rng(5)
+    masks = np.stack([rng.random((3, 400)) < 0.02, rng.random((3, 400)) < 0.5, np.zeros((3, 400), bool)])
+    idx, lengths = _sparse_lists(masks.astype(np.uint8))
+    assert (lengths[1] == -1).all() and (lengths[2] == 0).all()
+    for g in range(3):
+        assert masks[0, g].sum() <= 400 * SPARSE_SHARE
+        assert idx[0, g, :lengths[0, g]].tolist() == np.flatnonzero(masks[0, g]).tolist()

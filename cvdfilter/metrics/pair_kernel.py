@@ -244,8 +244,8 @@ def _distances(row, k, n, d2):
 
 
 @njit(cache=True, nogil=True)
-def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_count, guess, close, among, upper,
-                           lower, fallback):
+def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, sparse_idx, sparse_len, keep, keep_count, guess,
+                           close, among, upper, lower, fallback):
     """Fills the pair statistics of every row of ``planes`` (see the module docstring).
 
     Parameters
@@ -258,6 +258,9 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_c
         float32(r^2) of each radius.
     masks : uint8 (M, G, P)
         Pair masks in the offset layout; mask m counts at radius ``mask_radius[m]``.
+    sparse_idx, sparse_len : int32 (M, G, L), int64 (M, G)
+        A sparse mask's pairs as a list (its first ``sparse_len[m, g]`` entries), counted by looking those
+        pairs up instead of a pass over every pair; ``sparse_len[m, g] < 0``: mask m is counted densely.
     keep, keep_count : uint8 (G, P), int64 (G,)
         The median's pairs per group and how many they are.
     guess : float64 (G,)
@@ -284,7 +287,7 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, keep, keep_c
             fallback[b] = True
             continue
         _distances(row, k, n, d2)
-        if not _row_counts(d2, r32, masks[:, g], mask_radius, close[b], among[b]):
+        if not _row_counts(d2, r32, masks[:, g], mask_radius, sparse_idx[:, g], sparse_len[:, g], close[b], among[b]):
             fallback[b] = True
             continue
         if keep_count[g] == 0:
@@ -310,10 +313,11 @@ def _load_row(planes, b, row):
 
 
 @njit(cache=True, nogil=True)
-def _row_counts(d2, r32, masks, mask_radius, close, among):
+def _row_counts(d2, r32, masks, mask_radius, idx, lengths, close, among):
     """Counts of one set from its distances ``d2``: pairs below each radius, and among each mask's pairs
-    (``masks`` (M, P) of its group); False (counts unfinished) if a value equals a radius' float32(r^2).
-    Counted block by block (:func:`_below`, :func:`_below_among`) into int64 totals."""
+    (``masks`` (M, P) of its group, or the pair lists ``idx[m, :lengths[m]]`` of the sparse ones); False
+    (counts unfinished) if a value equals a radius' float32(r^2). Dense counts go block by block
+    (:func:`_below`, :func:`_below_among`) into int64 totals."""
     n_pairs = d2.shape[0]
     for r in range(r32.shape[0]):
         cnt = 0
@@ -326,10 +330,15 @@ def _row_counts(d2, r32, masks, mask_radius, close, among):
         if eq:
             return False
     for m in range(masks.shape[0]):
+        rr = r32[mask_radius[m]]
         cnt = 0
-        for start in range(0, n_pairs, _COUNT_BLOCK):
-            cnt += np.int64(_below_among(d2[start:start + _COUNT_BLOCK], r32[mask_radius[m]],
-                                         masks[m, start:start + _COUNT_BLOCK]))
+        if lengths[m] >= 0:
+            ids = idx[m]
+            for t in range(lengths[m]):
+                cnt += d2[ids[t]] < rr
+        else:
+            for start in range(0, n_pairs, _COUNT_BLOCK):
+                cnt += np.int64(_below_among(d2[start:start + _COUNT_BLOCK], rr, masks[m, start:start + _COUNT_BLOCK]))
         among[m] = cnt
     return True
 

@@ -127,8 +127,9 @@ def _kernel_statistics(arr: np.ndarray, radii: list, masks: list, keep, guess) -
     r32 = np.array([r * r for r in radii], dtype=np.float32)
     start = np.full(groups, np.nan) if guess is None else np.broadcast_to(np.asarray(guess, dtype=float), (groups,))
     keep_count = keep_u8.sum(axis=1, dtype=np.int64)
-    pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, keep_u8, keep_count, np.ascontiguousarray(start),
-                           close, among, upper, lower, fallback)
+    sparse_idx, sparse_len = _sparse_lists(mask_u8)
+    pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, sparse_idx, sparse_len, keep_u8, keep_count,
+                           np.ascontiguousarray(start), close, among, upper, lower, fallback)
     count = keep_count[np.arange(b) % groups]
     even = (count % 2 == 0) & (count > 0)
     med = np.where(even, 0.5 * (upper + lower), upper)  # NaN where a group keeps no pair (upper is NaN)
@@ -139,6 +140,33 @@ def _kernel_statistics(arr: np.ndarray, radii: list, masks: list, keep, guess) -
                                        None if keep is None else keep[g:g + 1])
         close[row], among[row], med[row] = c1[:, 0], a1[:, 0], m1[0]
     return close.T, among.T, med
+
+
+#: A mask is counted from its list of pairs when no group's mask holds more than this share of the pairs
+#: (looking a pair up costs several times a dense pass's share per pair).
+SPARSE_SHARE = 1 / 16
+
+
+def _sparse_lists(masks: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Pair lists of the sparse masks among ``masks`` (M, G, P): (M, G, L) int32 indices and (M, G) lengths,
+    -1 for the masks counted densely (see :data:`SPARSE_SHARE`)."""
+    m_count, g_count, p = masks.shape
+    lengths = np.full((m_count, g_count), -1, dtype=np.int64)
+    lists = []
+    for m in range(m_count):
+        counts = np.count_nonzero(masks[m], axis=1)
+        if counts.size and counts.max() <= p * SPARSE_SHARE:
+            rows, cols = np.nonzero(masks[m])
+            starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
+            idx = np.zeros((g_count, max(int(counts.max()), 1)), dtype=np.int32)
+            idx[rows, np.arange(rows.size) - starts[rows]] = cols
+            lengths[m] = counts
+            lists.append((m, idx))
+    width = max([idx.shape[1] for _, idx in lists], default=1)
+    out = np.zeros((m_count, g_count, width), dtype=np.int32)
+    for m, idx in lists:
+        out[m, :, :idx.shape[1]] = idx
+    return out, lengths
 
 
 def _array_statistics(planes, radii, masks, keep) -> tuple:
