@@ -122,9 +122,12 @@ def test_both_selections_return_numpys_order_statistics(seed):
     lower = kept[half - 1] if half >= 1 else kept[half]
     mk = np.where(keep != 0, keys, np.int32(0x7FFFFFFF)).astype(np.int32)
     scratch = np.empty(n, dtype=np.int32)
+    dropped = np.flatnonzero(keep == 0).astype(np.int32)
     for guess in (int(kept[half]), int(kept[0]), 1, 0x7F800000, int(rng.integers(1, 0x7F800000))):
-        u, w = _median_bracket(mk, kept.size, half, np.int32(guess), scratch)
-        assert (u, w) == (kept[half], lower) or (u, w) == (-1, -1)
+        # keys built with the pairs not kept above every key, or the values' own keys with those pairs listed
+        for the_keys, drop in ((mk, dropped[:0]), (keys, dropped)):
+            u, w = _median_bracket(the_keys, keep, drop, kept.size, half, np.int32(guess), scratch)
+            assert (u, w) == (kept[half], lower) or (u, w) == (-1, -1)
     u, w = _median_keys(keys, keep, half, np.empty(n, np.int32), np.empty(n, np.int32), np.empty(2048, np.int64))
     assert (u, w) == (kept[half], lower)
 

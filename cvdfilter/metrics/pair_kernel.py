@@ -142,9 +142,10 @@ def _count_below(mk, probe):
 
 
 @njit(cache=True, nogil=True)
-def _median_bracket(mk, count, half, guess, tmp):
-    """The order statistics of rank ``half`` and ``half - 1`` of the kept keys (``mk``: the keys, with
-    0x7FFFFFFF for pairs not kept), by bracketing: counting passes (vectorised) at probe keys, starting at
+def _median_bracket(mk, kp, drop, count, half, guess, tmp):
+    """The order statistics of rank ``half`` and ``half - 1`` of the kept keys (``mk``: the keys, ``kp`` the
+    kept ones; ``drop``: the positions of the keys not kept that are not 0x7FFFFFFF already, taken off each
+    count), by bracketing: counting passes (vectorised) at probe keys, starting at
     ``guess`` (e.g. the same member's median with the previous filter), until the bracket [lo, hi) holds
     both ranks and at most :data:`_WINDOW` values, which are then sorted. Exact: the probes only decide
     how fast the bracket closes. Returns (-1, -1) if it did not close (the caller then selects by radix).
@@ -158,6 +159,8 @@ def _median_bracket(mk, count, half, guess, tmp):
     tries = 0
     for _ in range(80):
         c = _count_below(mk, p)
+        for t in range(drop.shape[0]):
+            c -= mk[drop[t]] < p
         size = c_hi - c_lo
         if c <= need_lo:
             lo, c_lo, has_lo = p, c, True
@@ -169,8 +172,8 @@ def _median_bracket(mk, count, half, guess, tmp):
             q = np.int32(p)  # int32 comparisons: twice the lanes of int64 ones
             for t in range(mk.shape[0]):
                 x = mk[t]
-                a = max(a, x if x < q else np.int32(-1))
-                b = min(b, x if x >= q else np.int32(0x7FFFFFFF))
+                a = max(a, x if (x < q) & (kp[t] != 0) else np.int32(-1))
+                b = min(b, x if (x >= q) & (kp[t] != 0) else np.int32(0x7FFFFFFF))
             return b, (a if half >= 1 else b)
         if hi - lo <= 1 or (c_hi - c_lo <= _WINDOW and tries >= _TRIES):
             break
@@ -201,7 +204,7 @@ def _median_bracket(mk, count, half, guess, tmp):
     m = 0
     for t in range(mk.shape[0]):
         x = mk[t]
-        if x >= lo and x < hi:
+        if x >= lo and x < hi and kp[t] != 0:
             tmp[m] = x
             m += 1
     for i in range(1, m):  # insertion sort of the window
@@ -244,8 +247,8 @@ def _distances(row, k, n, d2):
 
 
 @njit(cache=True, nogil=True)
-def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, sparse_idx, sparse_len, keep, keep_count, guess,
-                           close, among, upper, lower, fallback):
+def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, sparse_idx, sparse_len, keep, keep_count, drop_idx,
+                           drop_len, guess, close, among, upper, lower, fallback):
     """Fills the pair statistics of every row of ``planes`` (see the module docstring).
 
     Parameters
@@ -263,6 +266,8 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, sparse_idx, 
         pairs up instead of a pass over every pair; ``sparse_len[m, g] < 0``: mask m is counted densely.
     keep, keep_count : uint8 (G, P), int64 (G,)
         The median's pairs per group and how many they are.
+    drop_idx, drop_len : int32 (G, L), int64 (G,)
+        The pairs a group does not keep, listed when they are few (``drop_len[g] < 0``: not listed).
     guess : float64 (G,)
         A first guess of each group's median squared distance (NaN: none); the previous row of the same
         group is used when there is one. Only the speed depends on it.
@@ -295,7 +300,7 @@ def pair_statistics_kernel(planes, groups, r32, masks, mask_radius, sparse_idx, 
             lower[b] = np.nan
             continue
         prev = upper[b - groups] if b >= groups else guess[g]
-        upper[b], lower[b] = _row_median(d2, keep[g], keep_count[g], prev, work)
+        upper[b], lower[b] = _row_median(d2, keep[g], keep_count[g], prev, work, drop_idx[g], drop_len[g])
 
 
 @njit(cache=True, nogil=True)
@@ -344,20 +349,28 @@ def _row_counts(d2, r32, masks, mask_radius, idx, lengths, close, among):
 
 
 @njit(cache=True, nogil=True)
-def _row_median(d2, keep, count, prev, work):
+def _row_median(d2, keep, count, prev, work, drop, n_drop):
     """The kept values' order statistics of rank count // 2 and count // 2 - 1 (NaN when count < 2), as
-    float64, from the set's float32 distances ``d2``; ``prev`` a guess of the median (NaN: none)."""
+    float64, from the set's float32 distances ``d2``; ``prev`` a guess of the median (NaN: none). With the
+    pairs not kept listed (``drop[:n_drop]``, ``n_drop >= 0``) the keys are the distances' own bits and the
+    listed pairs are taken off each count; else (``n_drop < 0``) keys are built with the pairs not kept
+    above every key."""
     mk, tmp, keys, hist, pair = work
     bits = d2.view(np.int32)
     as_float = pair.view(np.float32)
     half = count // 2
-    for p in range(d2.shape[0]):  # the kept keys; the others above every key
-        mk[p] = bits[p] if keep[p] != 0 else np.int32(0x7FFFFFFF)
+    if n_drop >= 0:
+        mk = bits
+        drop = drop[:n_drop]
+    else:
+        for p in range(d2.shape[0]):  # the kept keys; the others above every key
+            mk[p] = bits[p] if keep[p] != 0 else np.int32(0x7FFFFFFF)
+        drop = drop[:0]
     start = np.int32(0x3F800000)  # 1.0, when there is nothing better
     if prev == prev and prev > 0.0:
         as_float[0] = np.float32(prev)
         start = pair[0]
-    u, w = _median_bracket(mk, count, half, start, tmp)
+    u, w = _median_bracket(mk, keep, drop, count, half, start, tmp)
     if u < 0:
         u, w = _median_keys(bits, keep, half, keys, tmp, hist)
     pair[0] = u

@@ -128,8 +128,10 @@ def _kernel_statistics(arr: np.ndarray, radii: list, masks: list, keep, guess) -
     start = np.full(groups, np.nan) if guess is None else np.broadcast_to(np.asarray(guess, dtype=float), (groups,))
     keep_count = keep_u8.sum(axis=1, dtype=np.int64)
     sparse_idx, sparse_len = _sparse_lists(mask_u8)
+    drop_idx, drop_len = _sparse_lists((keep_u8 == 0).view(np.uint8)[None])  # the pairs not kept, when few
     pair_statistics_kernel(arr, groups, r32, mask_u8, mask_radius, sparse_idx, sparse_len, keep_u8, keep_count,
-                           np.ascontiguousarray(start), close, among, upper, lower, fallback)
+                           drop_idx[0], drop_len[0], np.ascontiguousarray(start), close, among, upper, lower,
+                           fallback)
     count = keep_count[np.arange(b) % groups]
     even = (count % 2 == 0) & (count > 0)
     med = np.where(even, 0.5 * (upper + lower), upper)  # NaN where a group keeps no pair (upper is NaN)
