@@ -150,15 +150,16 @@ SPARSE_SHARE = 1 / 16
 
 
 def _sparse_lists(masks: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Pair lists of the sparse masks among ``masks`` (M, G, P): (M, G, L) int32 indices and (M, G) lengths,
-    -1 for the masks counted densely (see :data:`SPARSE_SHARE`)."""
+    """Pair lists of the sparse masks among ``masks`` (M, G, P), uint8 0/1, C-ordered: (M, G, L) int32 indices
+    and (M, G) lengths, -1 for the masks counted densely (see :data:`SPARSE_SHARE`)."""
     m_count, g_count, p = masks.shape
     lengths = np.full((m_count, g_count), -1, dtype=np.int64)
     lists = []
     for m in range(m_count):
-        counts = np.count_nonzero(masks[m], axis=1)
+        mask = masks[m].view(bool)  # 0/1 bytes: nonzero on booleans is several times quicker
+        counts = np.count_nonzero(mask, axis=1)
         if counts.size and counts.max() <= p * SPARSE_SHARE:
-            rows, cols = np.nonzero(masks[m])
+            rows, cols = np.divmod(np.flatnonzero(mask), p)
             starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
             idx = np.zeros((g_count, max(int(counts.max()), 1)), dtype=np.int32)
             idx[rows, np.arange(rows.size) - starts[rows]] = cols
