@@ -288,23 +288,26 @@ class MemberBlock:
         present = [c for c in range(3) if c != self.missing]
         out = {"undefined": ~np.all(white[:, :, present] > 0, axis=2)}
         if self.contrast:
-            out.update(self._contrast(S, white))
+            out.update(self._contrast(Q))
         if self.pairs:
             out.update(self._pair_results(*self._pair_counts(S)))
         return out
 
-    def _contrast(self, S: np.ndarray, white: np.ndarray) -> dict:
+    def _contrast(self, Q: np.ndarray) -> dict:
+        """The contrast gains from the chunk's catches ``Q`` (filters, members, 3, surfaces + white)."""
         from .metrics.contrast import contrast_rms
         from .observers.spaces import von_kries_gains
 
-        nf, mb, n_s = S.shape[0], self.mb, self.n_s
+        nf, mb, n_s = Q.shape[0], self.mb, self.n_s
+        S, white = Q[..., :n_s], Q[..., n_s]
+        catches = Q.reshape(nf * mb, 3, n_s + 1)  # one C-ordered array: the compiled loop reads it directly
         w1 = white.reshape(nf * mb, 3)
         w0 = np.broadcast_to(self.w0, (nf, mb, 3)).reshape(nf * mb, 3)
         rms0 = np.broadcast_to(self.rms0, (nf, mb, 3)).reshape(nf * mb, 3)
         planes = [S[:, :, c, :].reshape(nf * mb, n_s) for c in range(3)]  # views: elementwise work, same bits
         with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             g1 = von_kries_gains(w1, w0, adaptation=self.adaptation)
-            g = contrast_rms(planes, w1, self.channels, gains=g1) / rms0
+            g = contrast_rms(planes, w1, self.channels, gains=g1, catches=catches) / rms0
         g = np.where(np.isfinite(g), g, np.nan).reshape(nf, mb, 3)
         return {key: g[:, :, c] for c, key in enumerate(CONTRAST_KEYS)}
 

@@ -188,3 +188,35 @@ def test_sparse_pair_lists_list_exactly_the_masks_pairs():
     for g in range(3):
         assert masks[0, g].sum() <= 400 * SPARSE_SHARE
         assert idx[0, g, :lengths[0, g]].tolist() == np.flatnonzero(masks[0, g]).tolist()
+
+
+def test_compiled_contrast_planes_equal_numpys():
+    # Internal consistency: the contrast planes of contrast_rms from the compiled row loop
+    # (metrics/contrast_kernel.py; population blocks) equal numpy's array-by-array arithmetic bit for bit,
+    # for every observer kind's channels, zeros, infinities and NaN included.
+    import numba  # noqa: F401  (the compiled path is taken when numba is loaded)
+
+    from cvdfilter.metrics.contrast import _array_planes, _compiled_planes, contrast_rms, opponent_channels
+
+    rng = np.random.default_rng(11)
+    cat = rng.random((40, 3, 13)) * 10.0
+    cat[0, 0, :5] = 0.0
+    cat[1, 1, 3] = np.inf
+    cat[2, 2, 7] = np.nan
+    cat[3, :, 2] = 0.0  # 0 / 0
+    white = cat[:, :, 12]
+    gains = rng.random((40, 3)) + 0.5
+    planes = [cat[:, i, :12] for i in range(3)]
+    for kind, d in [("normal", None), ("anomalous", "deutan"), ("anomalous", "protan"), ("dichromat", "deutan"),
+                    ("dichromat", "protan"), ("dichromat", "tritan")]:
+        ch = opponent_channels(kind, d, (0.69, 0.35))
+        with np.errstate(all="ignore"):
+            a = _array_planes(planes, white * gains, gains, ch)
+            b = _compiled_planes(cat, 12, white * gains, gains, ch)
+            r1 = contrast_rms(planes, white, ch, gains=gains)
+            r2 = contrast_rms(planes, white, ch, gains=gains, catches=cat)
+        for x, y in zip(a, b):
+            assert (x is None) == (y is None)
+            if x is not None:
+                assert np.array_equal(x, y, equal_nan=True) and np.array_equal(np.signbit(x), np.signbit(y))
+        assert np.array_equal(r1, r2, equal_nan=True)

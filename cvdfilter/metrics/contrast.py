@@ -30,6 +30,8 @@ Public: :data:`AXES`, :func:`opponent_channels`, :func:`opponent_contrasts`,
 
 from __future__ import annotations
 
+import sys
+
 import numpy as np
 
 from ..observers.spaces import von_kries_gains
@@ -111,7 +113,7 @@ def opponent_contrasts(catches, white, channels) -> np.ndarray:
     return out
 
 
-def contrast_rms(planes, white, channels, *, gains=None) -> np.ndarray:
+def contrast_rms(planes, white, channels, *, gains=None, catches=None) -> np.ndarray:
     """RMS over surfaces of the three contrasts, from cone-catch planes (the fast path).
 
     Parameters
@@ -124,6 +126,10 @@ def contrast_rms(planes, white, channels, *, gains=None) -> np.ndarray:
         From :func:`opponent_channels`.
     gains : array_like, optional
         Von Kries gains (B, 3) applied to surfaces and white alike; default 1.
+    catches : numpy.ndarray, optional
+        The same catches as one C-ordered float64 array (B, 3, M >= N) whose ``[:, i, :N]`` are the planes
+        (e.g. a product's output with the white in the last column): lets the compiled loop read them
+        directly. Only the speed depends on it.
 
     Returns
     -------
@@ -134,32 +140,77 @@ def contrast_rms(planes, white, channels, *, gains=None) -> np.ndarray:
     g = np.ones_like(w) if gains is None else np.asarray(gains, dtype=float)
     wg = w * g
     n = np.shape(planes[0])[-1]
+    out = np.full((w.shape[0], 3), np.nan)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        if catches is not None and "numba" in sys.modules:  # compiled (same bits), when numba is loaded already
+            c_planes = _compiled_planes(catches, n, wg, g, channels)
+        else:
+            c_planes = _array_planes(planes, wg, g, channels)
+        for k, c in enumerate(c_planes):
+            if c is not None:
+                out[:, k] = np.sqrt(np.einsum("ij,ij->i", c, c) / n)
+    return out
+
+
+def _factors(weights, wg: np.ndarray, g: np.ndarray) -> tuple[list, np.ndarray]:
+    """The cones with a non-zero weight and, per cone, weight x gain / (the white's weighted sum), (3, B)."""
+    scale = 1.0 / (wg @ weights)
+    f = np.zeros((3, wg.shape[0]))
+    cones = []
+    for i, wi in enumerate(weights):
+        if wi != 0.0:
+            cones.append(i)
+            f[i] = wi * g[:, i] * scale
+    return cones, f
+
+
+def _array_planes(planes, wg: np.ndarray, g: np.ndarray, channels) -> list:
+    """Each channel's contrast plane (B, N) (None for a missing axis), array by array."""
     memo: dict = {}
 
     def normalised(weights):
         # sum_i weights_i g_i q_i divided by the same sum for the white: (B, N), 1 at the white.
         key = tuple(float(v) for v in weights)
         if key not in memo:
-            scale = 1.0 / (wg @ weights)
+            cones, f = _factors(weights, wg, g)
             acc = None
-            for i, wi in enumerate(weights):
-                if wi == 0.0:
-                    continue
-                term = planes[i] * (wi * g[:, i] * scale)[:, None]
+            for i in cones:
+                term = planes[i] * f[i][:, None]
                 acc = term if acc is None else np.add(acc, term, out=acc)
             memo[key] = acc
         return memo[key]
 
-    out = np.full((w.shape[0], 3), np.nan)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for k, ch in enumerate(channels):
-            if ch is None:
-                continue
-            num, den = ch
-            c = normalised(num) - 1.0 if den is None else np.divide(normalised(num), normalised(den))
-            if den is not None:
-                c -= 1.0
-            out[:, k] = np.sqrt(np.einsum("ij,ij->i", c, c) / n)
+    out: list = []
+    for ch in channels:
+        if ch is None:
+            out.append(None)
+            continue
+        num, den = ch
+        c = normalised(num) - 1.0 if den is None else np.divide(normalised(num), normalised(den))
+        if den is not None:
+            c -= 1.0
+        out.append(c)
+    return out
+
+
+def _compiled_planes(catches: np.ndarray, n: int, wg: np.ndarray, g: np.ndarray, channels) -> list:
+    """:func:`_array_planes` by the compiled loop of :mod:`cvdfilter.metrics.contrast_kernel` (same bits), from
+    the catches as one (B, 3, M) array."""
+    from .contrast_kernel import channel_contrast
+
+    cat = np.ascontiguousarray(catches, dtype=float)
+    none = np.zeros(0, dtype=np.int64)
+    out: list = []
+    for ch in channels:
+        if ch is None:
+            out.append(None)
+            continue
+        num, den = ch
+        cn, fn = _factors(num, wg, g)
+        cd, fd = _factors(den, wg, g) if den is not None else ([], fn)
+        c = np.empty((cat.shape[0], n))
+        channel_contrast(cat, np.array(cn, dtype=np.int64), fn, np.array(cd, dtype=np.int64) if cd else none, fd, c)
+        out.append(c)
     return out
 
 
