@@ -95,7 +95,10 @@ def single_threaded_blas():
 
     The executors parallelise over chunks; a matrix product's last bit can depend on how many threads
     BLAS splits it over, so every chunk runs its products on one BLAS thread, here and on a cluster's
-    workers alike (threadpoolctl). Same chunking and same BLAS build: the same bits.
+    workers alike (threadpoolctl). The limit must be set from the thread that starts the chunks (one set in
+    a pool thread does not take effect), so each executor's ``map`` enters it as well as each chunk. Same
+    BLAS build: the same bits (the products' shapes are kept in one kernel class by
+    :mod:`cvdfilter.catch_products`).
     """
     global _blas_users, _blas_limits
     with _blas_lock:
@@ -246,6 +249,13 @@ class DaskExecutor(Executor):
             return 1
 
     def map(self, fn, shared, bounds, *, progress=None):
+        # BLAS on one thread set from this thread too: a limit set inside a worker thread does not reach
+        # OpenBLAS (0.3.30 keeps it per calling thread), and the workers of an in-process cluster are threads
+        # of this process; worker processes start with one BLAS thread already (distributed's default).
+        with single_threaded_blas():
+            yield from self._map(fn, shared, bounds, progress)
+
+    def _map(self, fn, shared, bounds, progress):
         from distributed import as_completed
 
         n = len(bounds)

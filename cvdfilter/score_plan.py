@@ -185,17 +185,19 @@ def _pair_plan(plan: ObserverPlan, inp: ScoreInputs, q0: np.ndarray, stimuli: np
 def plan_observers(inp: ScoreInputs, observers=None) -> tuple[list[ObserverPlan], ChunkRunner]:
     """Per observer (default: all of ``inp``'s) its :class:`ObserverPlan`, and the :class:`ChunkRunner`
     that fills them."""
+    from .catch_products import stimuli_columns
     from .metrics.contrast import opponent_channels, rms_without
 
     grid, n_f, n_s = inp.grid, len(inp.filters), len(inp.surfaces)
     observers = inp.observers if observers is None else observers
     basis, cols = cone_basis(observers)
     k_cols = basis.shape[1]
-    stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance, np.ones((grid.size, 1))],
-                                                           axis=1)
-    # B[lambda, (cone, sample)]: the last sample is the white (the light itself).
-    B = (basis[:, :, None] * stimuli[:, None, :]).reshape(grid.size, k_cols * (n_s + 1))
-    Q0 = B.sum(axis=0).reshape(k_cols, n_s + 1)  # without the filter (T = 1)
+    # The surfaces, the white (the light itself), then zero columns (catch_products: size-independent bits).
+    stimuli = stimuli_columns(inp.illuminant.spd, inp.surfaces.reflectance)
+    width = stimuli.shape[1]
+    # B[lambda, (cone, sample)]
+    B = (basis[:, :, None] * stimuli[:, None, :]).reshape(grid.size, k_cols * width)
+    Q0 = B.sum(axis=0).reshape(k_cols, width)  # without the filter (T = 1)
     plans = []
     for k, o in enumerate(observers):
         c = cols[k]
@@ -221,9 +223,10 @@ class ChunkRunner:
     """Scores a range of filters for every planned observer: ``runner(lo, hi)``.
 
     One matrix product gives every cone catch of the chunk, laid out (filters, unique cone columns,
-    surfaces + white); per observer the metrics receive planes (one (F, N) array per cone) and the log
-    catches computed once per chunk. A call writes only rows ``lo:hi`` of the plans' arrays and of
-    :attr:`whites`, so chunks may run in any order, on any thread.
+    surfaces + white + zero padding, :mod:`cvdfilter.catch_products`); per observer the metrics receive
+    planes (one (F, N) array per cone) and the log catches computed once per chunk. A call writes only
+    rows ``lo:hi`` of the plans' arrays and of :attr:`whites`, so chunks may run in any order, on any
+    thread.
     """
 
     transmittance: np.ndarray
@@ -241,8 +244,10 @@ class ChunkRunner:
     def __call__(self, lo: int, hi: int) -> int:
         from .metrics.discrimination import log_catches, rnl_points
 
+        from .catch_products import catch_product
+
         n_s = self.n_samples
-        Q = (self.transmittance[lo:hi] @ self.B).reshape(hi - lo, self.k_cols, n_s + 1)
+        Q = catch_product(self.transmittance[lo:hi], self.B).reshape(hi - lo, self.k_cols, -1)
         S, white = Q[:, :, :n_s], Q[:, :, n_s]
         self.whites[lo:hi] = white
         need_logs = "discrimination" in self.groups or "confusion" in self.groups

@@ -194,6 +194,7 @@ class MemberBlock:
     """
 
     def __init__(self, inp, pop, lo: int, hi: int, groups, buffer: np.ndarray | None = None) -> None:
+        from .catch_products import stimuli_columns
         from .metrics.basis_kernel import basis_and_catches
 
         self.lo, self.hi = lo, hi
@@ -206,8 +207,9 @@ class MemberBlock:
         self.discrimination = "discrimination" in groups
         self.with_confusion = "confusion" in groups and pop.kind != "normal"
         self.missing = pop.missing_cone
-        stimuli = inp.illuminant.spd[:, None] * np.concatenate([inp.surfaces.reflectance,
-                                                                np.ones((inp.grid.size, 1))], axis=1)
+        # The surfaces, the white, zero columns: the fixed path's columns (catch_products), so the same bits.
+        stimuli = stimuli_columns(inp.illuminant.spd, inp.surfaces.reflectance)
+        self.width = stimuli.shape[1]
         # B[lambda, (member, cone, sample)]: the products of the fixed path's cone basis, member by member,
         # and their sum over wavelength (the catches without a filter), as the fixed path forms them.
         B, q0all = basis_and_catches(pop.fundamentals[lo:hi], stimuli, buffer)
@@ -281,9 +283,11 @@ class MemberBlock:
 
     def compute(self, f_lo: int, f_hi: int) -> dict:
         """Scores filters ``f_lo:f_hi`` for the block's members: ``{key: (filters, members) array}``."""
+        from .catch_products import catch_product
+
         mb, n_s = self.mb, self.n_s
         nf = f_hi - f_lo
-        Q = (self.transmittance[f_lo:f_hi] @ self.B).reshape(nf, mb, 3, n_s + 1)
+        Q = catch_product(self.transmittance[f_lo:f_hi], self.B).reshape(nf, mb, 3, self.width)
         S, white = Q[..., :n_s], Q[..., n_s]
         present = [c for c in range(3) if c != self.missing]
         out = {"undefined": ~np.all(white[:, :, present] > 0, axis=2)}
@@ -294,13 +298,13 @@ class MemberBlock:
         return out
 
     def _contrast(self, Q: np.ndarray) -> dict:
-        """The contrast gains from the chunk's catches ``Q`` (filters, members, 3, surfaces + white)."""
+        """The contrast gains from the chunk's catches ``Q`` (filters, members, 3, surfaces + white + padding)."""
         from .metrics.contrast import contrast_rms
         from .observers.spaces import von_kries_gains
 
         nf, mb, n_s = Q.shape[0], self.mb, self.n_s
         S, white = Q[..., :n_s], Q[..., n_s]
-        catches = Q.reshape(nf * mb, 3, n_s + 1)  # one C-ordered array: the compiled loop reads it directly
+        catches = Q.reshape(nf * mb, 3, self.width)  # one C-ordered array: the compiled loop reads it directly
         w1 = white.reshape(nf * mb, 3)
         w0 = np.broadcast_to(self.w0, (nf, mb, 3)).reshape(nf * mb, 3)
         rms0 = np.broadcast_to(self.rms0, (nf, mb, 3)).reshape(nf * mb, 3)

@@ -137,6 +137,28 @@ def test_zero_variation_population_scores_as_its_centre_observer():
     assert pop["confusion_pairs"]["resolved"]["p50"] == fixed["confusion_pairs"]["resolved"]
 
 
+@pytest.mark.parametrize("n_filters", [1, 7, 100])
+@pytest.mark.parametrize("spec, fixed", [("deuteranomalous:n=40,variation=none,separation_sd=0", "deuteranomalous"),
+                                         ("normal:n=33,variation=none", "normal"),
+                                         ("protanope:n=35,variation=none", "protanope")])
+def test_zero_variation_members_score_bit_for_bit_as_the_observer_alone(spec, fixed, n_filters):
+    # Invariant (issue 13: zero variation reproduces the fixed observer exactly): every member of a population
+    # without variation gets the fixed observer's numbers bit for bit, whatever the number of filters, the
+    # member's place in its block (blocks of 32, a short last block) and the fixed path's chunks
+    # (cvdfilter.catch_products keeps the BLAS product's bits independent of its size).
+    filters = [f"notch:center={530 + 90 * i / max(n_filters - 1, 1):.4f},fwhm=30,depth=0.8" for i in range(n_filters)]
+    card = score(filters, observers=[spec], metrics="core")
+    alone = score(filters, observers=[fixed], metrics="core")
+    got, want = card.per_observer[0], alone.per_observer[0]
+    for key, v in got.items():
+        if key == "undefined":
+            continue
+        ref = np.asarray(want[key])
+        v = np.asarray(v)
+        wide = np.broadcast_to(ref[..., None], v.shape) if v.ndim == ref.ndim + 1 else ref
+        assert np.array_equal(v, wide, equal_nan=v.dtype.kind == "f"), key
+
+
 def test_same_seed_gives_byte_identical_json():
     a = score([NOTCH], observers=["deuteranomalous:n=12,seed=3"], metrics="core", members=True).to_json()
     b = score([NOTCH], observers=["deuteranomalous:n=12,seed=3"], metrics="core", members=True).to_json()
