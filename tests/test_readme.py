@@ -2,7 +2,8 @@
 
 The `cvdfilter ...` lines of the README's `sh` blocks and its `python` blocks are run in a temporary
 folder holding a copy of `examples/` (so outputs do not litter the repository), with this interpreter
-standing in for `.venv/bin/cvdfilter`. The set-up lines (`make ...`) are what CI itself runs.
+standing in for `bin/cvdfilter` (the checkout's launcher of `.venv/bin/cvdfilter`). The set-up lines
+(`make ...`) are what CI itself runs.
 """
 
 from __future__ import annotations
@@ -49,6 +50,13 @@ def test_readme_has_commands_and_only_known_set_up_lines():
         for line in block.replace("\\\n", " ").splitlines():
             args = shlex.split(line, comments=True)
             assert not args or args[0].endswith("cvdfilter") or args[0] == "make", line
+
+
+def test_readme_commands_start_with_a_program_in_the_repository():
+    # Every command runs as printed from a fresh clone: its program is a file of the repository.
+    for args in COMMANDS:
+        program = ROOT / args[0]
+        assert program.is_file() and os.access(program, os.X_OK), args[0]
 
 
 def test_readme_inputs_exist_in_the_repository():
