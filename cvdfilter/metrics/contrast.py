@@ -180,17 +180,13 @@ def _array_planes(planes, wg: np.ndarray, g: np.ndarray, channels) -> list:
             memo[key] = acc
         return memo[key]
 
-    out: list = []
-    for ch in channels:
-        if ch is None:
-            out.append(None)
-            continue
-        num, den = ch
+    def plane(num, den):
         c = normalised(num) - 1.0 if den is None else np.divide(normalised(num), normalised(den))
         if den is not None:
             c -= 1.0
-        out.append(c)
-    return out
+        return c
+
+    return [None if ch is None else plane(*ch) for ch in channels]
 
 
 def _compiled_planes(catches: np.ndarray, n: int, wg: np.ndarray, g: np.ndarray, channels) -> list:
@@ -199,19 +195,15 @@ def _compiled_planes(catches: np.ndarray, n: int, wg: np.ndarray, g: np.ndarray,
     from .contrast_kernel import channel_contrast
 
     cat = np.ascontiguousarray(catches, dtype=float)
-    none = np.zeros(0, dtype=np.int64)
-    out: list = []
-    for ch in channels:
-        if ch is None:
-            out.append(None)
-            continue
-        num, den = ch
+
+    def plane(num, den):
         cn, fn = _factors(num, wg, g)
         cd, fd = _factors(den, wg, g) if den is not None else ([], fn)
         c = np.empty((cat.shape[0], n))
-        channel_contrast(cat, np.array(cn, dtype=np.int64), fn, np.array(cd, dtype=np.int64) if cd else none, fd, c)
-        out.append(c)
-    return out
+        channel_contrast(cat, np.array(cn, dtype=np.int64), fn, np.array(cd, dtype=np.int64), fd, c)
+        return c
+
+    return [None if ch is None else plane(*ch) for ch in channels]
 
 
 def contrast_gains(catches_with, white_with, catches_without, white_without, channels, *,

@@ -220,9 +220,10 @@ def _median_bracket(mk, kp, drop, count, half, guess, tmp):
 
 @njit(cache=True, nogil=True)
 def _distances(row, k, n, d2):
-    """Squared distances of every pair of one set (coordinates ``row[:k]``) into ``d2``, float32, in the
-    offset layout: ``all_pair_sq_distances``' arithmetic ((d0 d0 + d1 d1) + d2 d2 in float64), one loop per
-    dimension count so that the compiler vectorises it."""
+    """Squared distances of every pair of one set (coordinates ``row[:k]``) into ``d2`` (float32, or float64 for
+    :func:`sq_distances_kernel`), in the offset layout: ``all_pair_sq_distances``' arithmetic
+    ((d0 d0 + d1 d1) + d2 d2 in float64, then stored in ``d2``'s type), one loop per dimension count so that
+    the compiler vectorises it."""
     x0, x1, x2 = row[0], row[1], row[2]
     pos = 0
     for off in range(1, n):
@@ -231,18 +232,18 @@ def _distances(row, k, n, d2):
         if k == 1:
             for i in range(m):
                 d = x0[i + off] - x0[i]
-                seg[i] = np.float32(d * d)
+                seg[i] = d * d
         elif k == 2:
             for i in range(m):
                 d = x0[i + off] - x0[i]
                 e = x1[i + off] - x1[i]
-                seg[i] = np.float32(d * d + e * e)
+                seg[i] = d * d + e * e
         else:
             for i in range(m):
                 d = x0[i + off] - x0[i]
                 e = x1[i + off] - x1[i]
                 f = x2[i + off] - x2[i]
-                seg[i] = np.float32(d * d + e * e + f * f)
+                seg[i] = d * d + e * e + f * f
         pos += m
 
 
@@ -382,20 +383,9 @@ def _row_median(d2, keep, count, prev, work, drop, n_drop):
 def sq_distances_kernel(planes, out):
     """float64 squared distances of every pair of every set of ``planes`` (k, B, N) into ``out`` (B, P), in
     the offset layout, with :func:`~cvdfilter.metrics.pair_distances.all_pair_sq_distances`' arithmetic
-    (``dtype=float``): differences in float64, squared, summed coordinate by coordinate."""
+    (``dtype=float``; :func:`_distances` with a float64 output)."""
     k, n_rows, n = planes.shape
+    row = np.zeros((3, n))
     for b in range(n_rows):
-        pos = 0
-        for off in range(1, n):
-            m = n - off
-            seg = out[b, pos:pos + m]
-            x0 = planes[0, b]
-            for i in range(m):
-                d = x0[i + off] - x0[i]
-                seg[i] = d * d
-            for c in range(1, k):
-                xc = planes[c, b]
-                for i in range(m):
-                    d = xc[i + off] - xc[i]
-                    seg[i] = seg[i] + d * d
-            pos += m
+        _load_row(planes, b, row)  # non-finite coordinates give non-finite distances, as in numpy
+        _distances(row, k, n, out[b])
